@@ -1,0 +1,30 @@
+//! `sweepgate`: the host program. Each subcommand lives in its own module.
+
+use clap::{Parser, Subcommand};
+
+mod demo;
+
+/// Time-domain gating for antenna pattern scans in ordinary rooms.
+#[derive(Parser)]
+#[command(name = "sweepgate", version, about)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Run the built-in example and print what gating does to it.
+    Demo(demo::Args),
+}
+
+fn main() {
+    let cli = Cli::parse();
+    let result = match cli.command {
+        Command::Demo(a) => demo::run(a),
+    };
+    if let Err(e) = result {
+        eprintln!("error: {e:#}");
+        std::process::exit(1);
+    }
+}

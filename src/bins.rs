@@ -1,0 +1,1 @@
+//! Angle bins: the open bin accumulator, closing a bin, per-bin results and flags.

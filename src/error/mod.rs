@@ -1,0 +1,13 @@
+//! Error enums, one per boundary; each variant is a distinct cause.
+//!
+//! Each boundary keeps its enum in its own file here and they are all re-exported.
+
+mod gate;
+mod plan;
+mod scan;
+mod wire;
+
+pub use self::gate::*;
+pub use self::plan::*;
+pub use self::scan::*;
+pub use self::wire::*;

@@ -1,0 +1,1 @@
+//! Errors of the `plan` boundary.

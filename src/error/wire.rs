@@ -1,0 +1,1 @@
+//! Errors of the `wire` boundary.

@@ -1,0 +1,1 @@
+//! Pattern figures: peak, beamwidths, nulls, sidelobes, front-to-back.

@@ -1,0 +1,1 @@
+//! The scan engine: sweeps and angle samples in, events out.

@@ -1,0 +1,1 @@
+//! Positioner samples: unwrap, interpolate, direction, speed, stall.

@@ -1,0 +1,1 @@
+//! Comma-separated ASCII numbers from the VNA link.

@@ -1,0 +1,1 @@
+//! IEEE 488.2 definite- and indefinite-length arbitrary blocks from the VNA link.

@@ -1,0 +1,1 @@
+//! Preview records a board sends for each closed bin and for scan status.
