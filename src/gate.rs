@@ -188,21 +188,26 @@ where
         g.kernel.forward();
 
         if cfg.renormalize {
-            // Ideal impulse at the gate centre; the start-frequency phase is a constant
-            // factor and cancels in the ratio, so it is left out.
-            let mut u = [ZERO; M];
-            for (n, v) in u.iter_mut().take(points).enumerate() {
-                *v = unit_phasor(-2.0 * PI * n as f64 * cfg.grid.step_hz() * cfg.center_s);
+            // Ideal impulse at the gate centre through the same chain, computed in place in
+            // the renormalization table (no M-sized temporaries: this runs on small boards).
+            // The start-frequency phase is a constant factor and cancels in the ratio.
+            let u =
+                |n: usize| unit_phasor(-2.0 * PI * n as f64 * cfg.grid.step_hz() * cfg.center_s);
+            for (n, v) in g.inv_renorm.iter_mut().enumerate() {
+                *v = if n < points { u(n) } else { ZERO };
             }
-            let mut y = [ZERO; M];
-            g.chain(&u, &mut y);
-            for k in 0..points {
-                // r = y/u; 1/r = u/y.
-                let r = y[k] * u[k].conj();
-                if r.norm() < RENORM_FLOOR {
+            run_chain(&g.band, &g.gate, points, &mut g.inv_renorm);
+            for (k, v) in g.inv_renorm.iter_mut().enumerate() {
+                if k >= points {
+                    *v = Complex32::new(1.0, 0.0);
+                    continue;
+                }
+                // r = y/u, so 1/r = u/y.
+                let (y, uk) = (*v, u(k));
+                if (y * uk.conj()).norm() < RENORM_FLOOR {
                     return Err(GateError::RenormalizationIllConditioned { index: k as u32 });
                 }
-                g.inv_renorm[k] = u[k] / y[k];
+                *v = uk / y;
             }
         }
         Ok(g)
@@ -236,14 +241,8 @@ where
     /// Windowed, zero-padded impulse response of `raw[..K]`: sample m lies at
     /// `grid().time_s(M, m)`.
     pub fn impulse_response(&self, raw: &[Complex32; M], out: &mut [Complex32; M]) {
-        for (n, o) in out.iter_mut().enumerate() {
-            *o = if n < self.points {
-                raw[n] * self.band[n]
-            } else {
-                ZERO
-            };
-        }
-        out.inverse();
+        out.copy_from_slice(raw);
+        window_and_invert(&self.band, self.points, out);
     }
 
     /// Echo level of an impulse response from [`Gate::impulse_response`]: energy outside the
@@ -269,7 +268,7 @@ where
     pub fn apply(&self, raw: &[Complex32; M], out: &mut [Complex32; M]) -> f32 {
         self.impulse_response(raw, out);
         let echo_db = self.echo_level_db(out);
-        self.gate_and_return(out);
+        gate_and_return(&self.gate, out);
         for (k, o) in out.iter_mut().enumerate() {
             *o = if k < self.points {
                 *o * self.inv_renorm[k]
@@ -278,19 +277,6 @@ where
             };
         }
         echo_db
-    }
-
-    /// Steps 1–4 of the chain without renormalization.
-    fn chain(&self, raw: &[Complex32; M], out: &mut [Complex32; M]) {
-        self.impulse_response(raw, out);
-        self.gate_and_return(out);
-    }
-
-    fn gate_and_return(&self, buf: &mut [Complex32; M]) {
-        for (v, &g) in buf.iter_mut().zip(self.gate.iter()) {
-            *v *= g;
-        }
-        buf.forward();
     }
 
     /// Kernel-path set-up for `F` pattern frequencies given as grid indices (each below K).
@@ -352,6 +338,41 @@ where
             *o = acc * inv;
         }
     }
+}
+
+/// Steps 1–2 in place: band window over `buf[..points]`, zeros beyond, inverse FFT.
+fn window_and_invert<const M: usize>(band: &[f32; M], points: usize, buf: &mut [Complex32; M])
+where
+    [Complex32; M]: Fft,
+{
+    for (n, (v, &w)) in buf.iter_mut().zip(band.iter()).enumerate() {
+        *v = if n < points { *v * w } else { ZERO };
+    }
+    buf.inverse();
+}
+
+/// Steps 3–4 in place: time gate, forward FFT.
+fn gate_and_return<const M: usize>(gate: &[f32; M], buf: &mut [Complex32; M])
+where
+    [Complex32; M]: Fft,
+{
+    for (v, &g) in buf.iter_mut().zip(gate.iter()) {
+        *v *= g;
+    }
+    buf.forward();
+}
+
+/// Steps 1–4 in place, without renormalization.
+fn run_chain<const M: usize>(
+    band: &[f32; M],
+    gate: &[f32; M],
+    points: usize,
+    buf: &mut [Complex32; M],
+) where
+    [Complex32; M]: Fft,
+{
+    window_and_invert(band, points, buf);
+    gate_and_return(gate, buf);
 }
 
 fn unit_phasor(phase: f64) -> Complex32 {
