@@ -11,7 +11,7 @@
 //! - peak: the highest sample, refined by a parabola through it and its two neighbours (in dB
 //!   against angle); among equal highest samples the one nearest mechanical boresight (0°);
 //! - −3 dB and −10 dB beam: walking out from the peak on each side, the first crossing of
-//!   peak − 3 dB (− 10 dB), interpolated linearly in dB between the two samples around it;
+//!   peak − [`HALF_POWER_DB`] (half power, 3.0103 dB) or peak − 10 dB, interpolated linearly in dB between the two samples around it;
 //! - first null: walking out from the peak, the first sample lower than the one before and not
 //!   higher than the one after (the sample angle, no interpolation); a sector's end sample is
 //!   never taken as a null;
@@ -36,6 +36,10 @@
 //! ```
 
 use crate::error::{GainError, MetricsError};
+
+/// The half-power drop 10·log10(2) dB used for the "−3 dB" beam (HPBW is the half-power
+/// width; a flat 3.000 dB would read the dipole's 78.08° as 77.95°).
+pub const HALF_POWER_DB: f64 = 3.010_299_956_639_812;
 
 /// Levels closer than this (dB) count as equal when choosing the peak.
 const PEAK_TIE_DB: f64 = 1e-9;
@@ -92,7 +96,7 @@ pub struct PatternMetrics {
     pub peak_db: f64,
     /// Peak angle.
     pub peak_angle_deg: f64,
-    /// The −3 dB (half-power) beam; its width is the HPBW.
+    /// The half-power (−3.01 dB) beam; its width is the HPBW.
     pub beam_3db: Option<Beam>,
     /// The −10 dB beam.
     pub beam_10db: Option<Beam>,
@@ -333,7 +337,7 @@ pub fn pattern_metrics(
             upper_deg: cut.crossing(peak, 1, t)?,
         })
     };
-    let beam_3db = beam(3.0);
+    let beam_3db = beam(HALF_POWER_DB);
     let beam_10db = beam(10.0);
 
     let null_lo = cut.first_null(peak, -1);
