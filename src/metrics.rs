@@ -286,7 +286,9 @@ fn validate_cut(
     for (i, w) in angles_deg.windows(2).enumerate() {
         if let [a, b] = w {
             if !(b > a) {
-                return Err(MetricsError::NotIncreasing { index: index(i + 1) });
+                return Err(MetricsError::NotIncreasing {
+                    index: index(i + 1),
+                });
             }
         }
     }
@@ -425,7 +427,9 @@ fn validate_table(table_hz: &[f64], table_dbi: &[f64]) -> Result<(), GainError> 
     for (i, w) in table_hz.windows(2).enumerate() {
         if let [a, b] = w {
             if !(b > a) {
-                return Err(GainError::NotIncreasing { index: index(i + 1) });
+                return Err(GainError::NotIncreasing {
+                    index: index(i + 1),
+                });
             }
         }
     }
@@ -565,7 +569,7 @@ mod tests {
         let m = pattern_metrics(&angles, &levels, Coverage::FullCircle).unwrap();
         assert_eq!(m.peak_angle_deg, 0.0);
         let b = m.beam_3db.unwrap();
-        assert!((b.width_deg() - 60.0).abs() < 1e-9, "{b:?}");
+        assert!((b.width_deg() - 20.0 * HALF_POWER_DB).abs() < 1e-9, "{b:?}");
         assert!(m.squint_deg.unwrap().abs() < 1e-9);
         assert!((m.front_to_back_db.unwrap() - 18.0).abs() < 1e-9);
         // No sidelobes in a plain triangle on a floor.
@@ -616,7 +620,10 @@ mod tests {
         assert_eq!(interpolate_gain_dbi(&[1e9, 2e9], &[1.0, 2.0], 2e9), Ok(2.0));
         assert_eq!(interpolate_gain_dbi(&[1e9], &[7.0], 1e9), Ok(7.0));
         let mut p = [0.0, f64::NAN];
-        assert_eq!(pattern_to_dbi(&mut p, 1.0, 0.0), Err(GainError::NonFiniteInput));
+        assert_eq!(
+            pattern_to_dbi(&mut p, 1.0, 0.0),
+            Err(GainError::NonFiniteInput)
+        );
         assert_eq!(p[0], 0.0);
     }
 }

@@ -118,7 +118,6 @@ impl Plane {
     }
 }
 
-
 /// Most reflecting planes the planner takes.
 pub const MAX_PLANES: usize = 8;
 /// Most point scatterers the planner takes.
@@ -136,7 +135,7 @@ pub const MAX_FINDINGS: usize = MAX_ECHOES + 12;
 /// ln(100)·Q/(π·f) ≈ 1.466/(FBW·f). Common practice, no source: a rough estimate for
 /// resonant antennas; wideband antennas (horns, spirals) ring down faster than this says
 /// only if their fractional bandwidth is given as the true, large value.
-pub const RING_DOWN_FACTOR: f64 = 1.465_871_197_098_711_4; // ln(100)/π
+pub const RING_DOWN_FACTOR: f64 = 1.465_871_197_758_855_7; // ln(100)/π
 
 /// A point scatterer (mast, fixture, cable tray): its echo path is |AUT − S| + |S − probe|.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -404,7 +403,7 @@ impl fmt::Display for Finding {
                 alias_free_s,
             } => write!(
                 f,
-                "{source} arrives at {:.3} ns, beyond the alias-free range of {:.3} ns, so it \
+                "At {:.3} ns, {source} arrives beyond the alias-free range of {:.3} ns, so it \
                  wraps around and lands at {:.3} ns.",
                 delay_s * 1e9,
                 alias_free_s * 1e9,
@@ -560,7 +559,10 @@ fn validate(input: &PlanInput<'_>) -> Result<(), PlanError> {
             return Err(PlanError::RotationSpeed);
         }
     }
-    input.band_window.validate().map_err(PlanError::BandWindow)?;
+    input
+        .band_window
+        .validate()
+        .map_err(PlanError::BandWindow)?;
     if input.planes.len() > MAX_PLANES {
         return Err(PlanError::TooManyPlanes {
             given: u32::try_from(input.planes.len()).unwrap_or(u32::MAX),
@@ -782,9 +784,7 @@ pub fn plan(input: &PlanInput<'_>) -> Result<Plan, PlanError> {
                         excess_delay_s: excess,
                         mainlobe_s,
                         bandwidth_needed_hz: needed,
-                        kaiser_beta_that_separates: kaiser_beta_for_mainlobe(
-                            excess * bandwidth_hz,
-                        ),
+                        kaiser_beta_that_separates: kaiser_beta_for_mainlobe(excess * bandwidth_hz),
                     },
                 )?;
             } else {
@@ -892,5 +892,136 @@ mod tests {
             reflection: 0.3,
         };
         assert_eq!(wall_between.bounce_point(&a, &b), None);
+    }
+
+    fn base<'a>(planes: &'a [Plane], scatterers: &'a [Scatterer]) -> PlanInput<'a> {
+        PlanInput {
+            grid: Grid::from_start_stop(2e9, 18e9, 801).unwrap(),
+            aut_size_m: 0.1,
+            aut: Point::new(0.0, 0.0, 1.5),
+            probe: Point::new(6.0, 0.0, 1.5),
+            planes,
+            scatterers,
+            band_window: WindowKind::Hann,
+            bin_step_deg: 1.0,
+            sweep_duration_s: 0.05,
+            cable_delay_s: 0.0,
+            aut_fractional_bandwidth: None,
+            longest_path_m: None,
+            rotation_deg_s: None,
+        }
+    }
+
+    #[test]
+    fn rejects_each_bad_input() {
+        let floor = Plane {
+            axis: Axis::Z,
+            position_m: 0.0,
+            reflection: -0.5,
+        };
+        let e = |i: PlanInput<'_>| plan(&i).unwrap_err();
+        let mut i = base(&[], &[]);
+        i.aut.x_m = f64::NAN;
+        assert_eq!(e(i), PlanError::NonFinitePoint);
+        let mut i = base(&[], &[]);
+        i.probe = i.aut;
+        assert_eq!(e(i), PlanError::AntennasCoincide);
+        let mut i = base(&[], &[]);
+        i.aut_size_m = 0.0;
+        assert_eq!(e(i), PlanError::AutSize);
+        let mut i = base(&[], &[]);
+        i.bin_step_deg = -1.0;
+        assert_eq!(e(i), PlanError::BinStep);
+        let mut i = base(&[], &[]);
+        i.sweep_duration_s = f64::INFINITY;
+        assert_eq!(e(i), PlanError::SweepDuration);
+        let mut i = base(&[], &[]);
+        i.cable_delay_s = -1e-9;
+        assert_eq!(e(i), PlanError::CableDelay);
+        let mut i = base(&[], &[]);
+        i.aut_fractional_bandwidth = Some(3.0);
+        assert_eq!(e(i), PlanError::FractionalBandwidth);
+        let mut i = base(&[], &[]);
+        i.longest_path_m = Some(0.0);
+        assert_eq!(e(i), PlanError::LongestPath);
+        let mut i = base(&[], &[]);
+        i.rotation_deg_s = Some(f64::NAN);
+        assert_eq!(e(i), PlanError::RotationSpeed);
+        let mut i = base(&[], &[]);
+        i.band_window = WindowKind::Kaiser { beta: -1.0 };
+        assert!(matches!(e(i), PlanError::BandWindow(_)));
+        let many = [floor; MAX_PLANES + 1];
+        assert_eq!(
+            e(base(&many, &[])),
+            PlanError::TooManyPlanes {
+                given: MAX_PLANES as u32 + 1
+            }
+        );
+        let s = Scatterer {
+            position: Point::new(1.0, 1.0, 1.0),
+            reflection: 0.1,
+        };
+        let many_s = [s; MAX_SCATTERERS + 1];
+        assert_eq!(
+            e(base(&[], &many_s)),
+            PlanError::TooManyScatterers {
+                given: MAX_SCATTERERS as u32 + 1
+            }
+        );
+        let bad = [
+            floor,
+            Plane {
+                position_m: f64::NAN,
+                ..floor
+            },
+        ];
+        assert_eq!(e(base(&bad, &[])), PlanError::NonFinitePlane { index: 1 });
+        let between = [Plane {
+            axis: Axis::X,
+            position_m: 3.0,
+            reflection: 0.3,
+        }];
+        assert_eq!(
+            e(base(&between, &[])),
+            PlanError::PlaneBetweenAntennas { index: 0 }
+        );
+        let bad_s = [Scatterer {
+            reflection: f64::NAN,
+            ..s
+        }];
+        assert_eq!(
+            e(base(&[], &bad_s)),
+            PlanError::NonFiniteScatterer { index: 0 }
+        );
+    }
+
+    #[test]
+    fn full_capacity_fits() {
+        // Every plane and scatterer at once, all aliased: the findings list still fits.
+        let planes: [Plane; MAX_PLANES] = core::array::from_fn(|k| Plane {
+            axis: Axis::Y,
+            position_m: 1.0 + k as f64,
+            reflection: 0.1,
+        });
+        let s: [Scatterer; MAX_SCATTERERS] = core::array::from_fn(|k| Scatterer {
+            position: Point::new(50.0 + k as f64, 3.0, 1.0),
+            reflection: 0.1,
+        });
+        let mut i = base(&planes, &s);
+        i.grid = Grid::from_start_stop(2e9, 3e9, 3).unwrap();
+        i.cable_delay_s = 1e-6;
+        i.rotation_deg_s = Some(1e3);
+        i.aut_size_m = 5.0;
+        i.longest_path_m = Some(1e4);
+        let p = plan(&i).unwrap();
+        assert_eq!(p.echoes.len(), MAX_ECHOES);
+        assert!(p.findings.len() > MAX_ECHOES);
+    }
+
+    #[test]
+    fn no_echoes_is_reported() {
+        let p = plan(&base(&[], &[])).unwrap();
+        assert!(p.gate.is_none() && p.first_echo.is_none());
+        assert!(p.findings.contains(&Finding::NoEchoes));
     }
 }

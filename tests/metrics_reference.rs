@@ -12,7 +12,9 @@ fn db20(field: f64) -> f64 {
 
 /// Angles `start`, `start + step`, … for `count` samples.
 fn angles(start_deg: f64, step_deg: f64, count: usize) -> Vec<f64> {
-    (0..count).map(|i| start_deg + step_deg * i as f64).collect()
+    (0..count)
+        .map(|i| start_deg + step_deg * i as f64)
+        .collect()
 }
 
 /// Broadside uniform line source of length L (in wavelengths), θ from broadside:
@@ -130,7 +132,10 @@ fn cos_n_hpbw() {
         let hpbw = m.beam_3db.unwrap().width_deg();
         let formula = 2.0 * 0.5f64.powf(1.0 / n).acos().to_degrees();
         assert!((formula - table).abs() < 0.005, "n {n}: formula {formula}");
-        assert!((hpbw - formula).abs() < 0.01 * formula, "n {n}: HPBW {hpbw}");
+        assert!(
+            (hpbw - formula).abs() < 0.01 * formula,
+            "n {n}: HPBW {hpbw}"
+        );
         // −10 dB beam: cos^n θ = 0.1 → θ = acos(0.1^(1/n)) (same formula at −10 dB).
         let bw10 = 2.0 * 0.1f64.powf(1.0 / n).acos().to_degrees();
         assert!((m.beam_10db.unwrap().width_deg() - bw10).abs() < 0.01 * bw10);
@@ -167,7 +172,10 @@ fn front_to_back_and_squint_of_a_designed_cardioid() {
     let m2 = pattern_metrics(&a2, &lv2, Coverage::FullCircle).unwrap();
     assert!((m2.front_to_back_db.unwrap() - want_fb).abs() < 1e-6);
     assert!((m2.squint_deg.unwrap() - 10.0).abs() < 1e-6);
-    println!("cardioid: F/B {:.4} dB (designed {want_fb:.4})", m.front_to_back_db.unwrap());
+    println!(
+        "cardioid: F/B {:.4} dB (designed {want_fb:.4})",
+        m.front_to_back_db.unwrap()
+    );
 }
 
 #[test]
@@ -207,17 +215,21 @@ fn gain_by_substitution_reproduces_known_gain() {
     // computed with Friis where the AUT's true gain is known. The reference horn's table is
     // linear in frequency, so interpolation is exact and the test isolates the transfer.
     let table_hz = [8e9, 9e9, 10e9, 11e9, 12e9];
-    let table_dbi: Vec<f64> = table_hz.iter().map(|f| 14.0 + 0.8 * (f - 8e9) / 1e9).collect();
+    let table_dbi: Vec<f64> = table_hz
+        .iter()
+        .map(|f| 14.0 + 0.8 * (f - 8e9) / 1e9)
+        .collect();
     let (r_m, probe_dbi, pt_dbm, system_db) = (5.0, 10.0, 0.0, -3.7);
     for (f_hz, aut_true_dbi) in [(9.7e9, 12.34), (10e9, 6.5), (11.25e9, 21.0)] {
         let g_ref_true = 14.0 + 0.8 * (f_hz - 8e9) / 1e9;
         let p_ref = friis_received_dbm(pt_dbm, probe_dbi, g_ref_true, f_hz, r_m) + system_db;
         let p_aut = friis_received_dbm(pt_dbm, probe_dbi, aut_true_dbi, f_hz, r_m) + system_db;
         let g = absolute_gain_dbi(&table_hz, &table_dbi, f_hz, p_aut, p_ref).unwrap();
-        assert!((g - aut_true_dbi).abs() < 0.05, "{f_hz}: {g} want {aut_true_dbi}");
         assert!(
-            (gain_by_substitution_dbi(g_ref_true, p_aut, p_ref) - aut_true_dbi).abs() < 0.05
+            (g - aut_true_dbi).abs() < 0.05,
+            "{f_hz}: {g} want {aut_true_dbi}"
         );
+        assert!((gain_by_substitution_dbi(g_ref_true, p_aut, p_ref) - aut_true_dbi).abs() < 0.05);
         println!("substitution at {f_hz} Hz: {g:.6} dBi (true {aut_true_dbi})");
     }
 }

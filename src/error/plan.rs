@@ -62,12 +62,16 @@ pub enum PlanError {
 impl fmt::Display for PlanError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
-            Self::NonFinitePoint => f.write_str("an AUT or probe coordinate is not a finite number"),
+            Self::NonFinitePoint => {
+                f.write_str("an AUT or probe coordinate is not a finite number")
+            }
             Self::AntennasCoincide => f.write_str("the AUT and the probe are at the same place"),
             Self::AutSize => f.write_str("the AUT's largest dimension must be above 0 m"),
             Self::BinStep => f.write_str("the bin step must be above 0 degrees"),
             Self::SweepDuration => f.write_str("the sweep duration must be above 0 s"),
-            Self::CableDelay => f.write_str("the cable delay must be a finite number of 0 s or more"),
+            Self::CableDelay => {
+                f.write_str("the cable delay must be a finite number of 0 s or more")
+            }
             Self::FractionalBandwidth => {
                 f.write_str("the AUT's fractional bandwidth must be above 0 and at most 2")
             }
@@ -141,10 +145,9 @@ impl fmt::Display for MetricsError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
             Self::Empty => f.write_str("the pattern cut has no samples"),
-            Self::LengthMismatch { angles, levels } => write!(
-                f,
-                "the pattern cut has {angles} angles but {levels} levels"
-            ),
+            Self::LengthMismatch { angles, levels } => {
+                write!(f, "the pattern cut has {angles} angles but {levels} levels")
+            }
             Self::TooFewPoints => f.write_str("a pattern cut needs at least 3 samples"),
             Self::NonFiniteAngle { index } => {
                 write!(f, "angle {index} of the pattern cut is not a finite number")
