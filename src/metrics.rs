@@ -174,7 +174,7 @@ impl Cut<'_> {
         }
         let a = (d0 * x2 - d2 * x0) / det;
         let b = (x0 * x0 * d2 - x2 * x2 * d0) / det;
-        if !(a < 0.0) {
+        if a.is_nan() || a >= 0.0 {
             return Some((a1, y1));
         }
         let t = (-b / (2.0 * a)).clamp(x0, x2);
@@ -285,7 +285,7 @@ fn validate_cut(
     }
     for (i, w) in angles_deg.windows(2).enumerate() {
         if let [a, b] = w {
-            if !(b > a) {
+            if b <= a {
                 return Err(MetricsError::NotIncreasing {
                     index: index(i + 1),
                 });
@@ -426,7 +426,7 @@ fn validate_table(table_hz: &[f64], table_dbi: &[f64]) -> Result<(), GainError> 
     }
     for (i, w) in table_hz.windows(2).enumerate() {
         if let [a, b] = w {
-            if !(b > a) {
+            if b <= a {
                 return Err(GainError::NotIncreasing {
                     index: index(i + 1),
                 });

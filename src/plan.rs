@@ -517,7 +517,7 @@ fn push(findings: &mut Vec<Finding, MAX_FINDINGS>, f: Finding) -> Result<(), Pla
 /// Largest Kaiser β whose main lobe (in units of 1/B) is at most `width`, or `None` when
 /// even the rectangular window (width 2) is wider.
 fn kaiser_beta_for_mainlobe(width: f64) -> Option<f32> {
-    if !(width >= 2.0) {
+    if width.is_nan() || width < 2.0 {
         return None;
     }
     let x = 0.5 * PI * width;
@@ -529,7 +529,7 @@ fn validate(input: &PlanInput<'_>) -> Result<(), PlanError> {
     if !finite_point(&input.aut) || !finite_point(&input.probe) {
         return Err(PlanError::NonFinitePoint);
     }
-    if !(input.aut.distance_m(&input.probe) > 0.0) {
+    if input.aut.distance_m(&input.probe) <= 0.0 {
         return Err(PlanError::AntennasCoincide);
     }
     if !positive(input.aut_size_m) {
