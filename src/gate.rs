@@ -180,12 +180,14 @@ where
             *v = cfg.shape.at(x) as f32;
         }
 
-        // Frequency kernel G = FFT(g)/M.
+        // Frequency kernel G = FFT(g)/M, stored reversed, R[j] = G[(M − j) mod M], so that
+        // the kernel path walks both its operands forwards.
         let scale = 1.0 / M as f32;
         for (k, &w) in g.kernel.iter_mut().zip(g.gate.iter()) {
             *k = Complex32::new(w * scale, 0.0);
         }
         g.kernel.forward();
+        g.kernel[1..].reverse();
 
         if cfg.renormalize {
             // Ideal impulse at the gate centre through the same chain, computed in place in
@@ -241,8 +243,15 @@ where
     /// Windowed, zero-padded impulse response of `raw[..K]`: sample m lies at
     /// `grid().time_s(M, m)`.
     pub fn impulse_response(&self, raw: &[Complex32; M], out: &mut [Complex32; M]) {
-        out.copy_from_slice(raw);
-        window_and_invert(&self.band, self.points, out);
+        for (n, ((o, x), &w)) in out
+            .iter_mut()
+            .zip(raw.iter())
+            .zip(self.band.iter())
+            .enumerate()
+        {
+            *o = if n < self.points { *x * w } else { ZERO };
+        }
+        out.inverse();
     }
 
     /// Echo level of an impulse response from [`Gate::impulse_response`]: energy outside the
@@ -256,10 +265,7 @@ where
                 outside += e;
             }
         }
-        if !(outside > 0.0 && total > 0.0) {
-            return ECHO_FLOOR_DB;
-        }
-        (10.0 * libm::log10f(outside / total)).max(ECHO_FLOOR_DB)
+        echo_db(outside, total)
     }
 
     /// FFT path: gates `raw[..K]` (entries K.. are ignored), writes the gated spectrum to
@@ -267,8 +273,18 @@ where
     /// level in dB.
     pub fn apply(&self, raw: &[Complex32; M], out: &mut [Complex32; M]) -> f32 {
         self.impulse_response(raw, out);
-        let echo_db = self.echo_level_db(out);
-        gate_and_return(&self.gate, out);
+        // Echo level and time gate in one pass over the impulse response.
+        let (mut outside, mut total) = (0.0f32, 0.0f32);
+        for (h, &g) in out.iter_mut().zip(self.gate.iter()) {
+            let e = h.norm_sqr();
+            total += e;
+            if g == 0.0 {
+                outside += e;
+            }
+            *h *= g;
+        }
+        out.forward();
+        let echo_db = echo_db(outside, total);
         for (k, o) in out.iter_mut().enumerate() {
             *o = if k < self.points {
                 *o * self.inv_renorm[k]
@@ -301,43 +317,95 @@ where
     /// Kernel path: the gated value at each pattern frequency of `kernels`, one K-point dot
     /// product each, equal to [`Gate::apply`] at those frequencies. Never fails: an index
     /// that is not below this gate's K (kernels made for another gate) yields 0.
+    ///
+    /// Applies the band window on the fly; with more than one frequency,
+    /// [`Gate::window`] followed by [`Gate::apply_kernels_windowed`] does less work.
     pub fn apply_kernels<const F: usize>(
         &self,
         kernels: &Kernels<M, F>,
         raw: &[Complex32; M],
         out: &mut [Complex32; F],
     ) {
-        let k_pts = self.points;
+        self.each_kernel(kernels, out, |k| self.kernel_dot_raw(k, raw));
+    }
+
+    /// The first step of the chain in place: `buf[n] *= scale·w[n]` for n < K, zero beyond.
+    /// `scale` is free to fold in, say, the 1/count of an average of sweeps.
+    pub fn window(&self, buf: &mut [Complex32; M], scale: f32) {
+        for (n, (v, &w)) in buf.iter_mut().zip(self.band.iter()).enumerate() {
+            *v = if n < self.points {
+                *v * (w * scale)
+            } else {
+                ZERO
+            };
+        }
+    }
+
+    /// Kernel path on a sweep already passed through [`Gate::window`] (with scale 1, the
+    /// result equals [`Gate::apply_kernels`] on the raw sweep).
+    pub fn apply_kernels_windowed<const F: usize>(
+        &self,
+        kernels: &Kernels<M, F>,
+        windowed: &[Complex32; M],
+        out: &mut [Complex32; F],
+    ) {
+        self.each_kernel(kernels, out, |k| self.kernel_dot(k, windowed));
+    }
+
+    fn each_kernel<const F: usize>(
+        &self,
+        kernels: &Kernels<M, F>,
+        out: &mut [Complex32; F],
+        dot: impl Fn(usize) -> Complex32,
+    ) {
         for ((o, &idx), &inv) in out
             .iter_mut()
             .zip(kernels.indices.iter())
             .zip(kernels.inv_renorm.iter())
         {
             let k = idx as usize;
-            if k >= k_pts {
-                *o = ZERO;
-                continue;
-            }
-            // n = 0..=k meets G[k − n] = G[k], G[k−1], …, G[0];
-            // n = k+1..K meets G[M + k − n] = G[M−1], …, G[M + k + 1 − K].
-            let mut acc = ZERO;
-            for ((x, &w), g) in raw[..=k]
-                .iter()
-                .zip(self.band[..=k].iter())
-                .zip(self.kernel[..=k].iter().rev())
-            {
-                acc += (*x * w) * g;
-            }
-            for ((x, &w), g) in raw[k + 1..k_pts]
-                .iter()
-                .zip(self.band[k + 1..k_pts].iter())
-                .zip(self.kernel[M + k + 1 - k_pts..].iter().rev())
-            {
-                acc += (*x * w) * g;
-            }
-            *o = acc * inv;
+            *o = if k < self.points { dot(k) * inv } else { ZERO };
         }
     }
+
+    /// Σ x[n]·G[(k − n) mod M] over the K windowed samples, for k < K. With the kernel stored
+    /// reversed (R[j] = G[−j mod M]) the term is x[n]·R[(n − k) mod M], two forward runs:
+    /// n = 0..k meets R[M − k..M], n = k..K meets R[0..K − k].
+    fn kernel_dot(&self, k: usize, windowed: &[Complex32]) -> Complex32 {
+        let (head, tail) = windowed[..self.points].split_at(k);
+        dot(head, &self.kernel[M - k..]) + dot(tail, &self.kernel[..self.points - k])
+    }
+
+    /// As [`Gate::kernel_dot`], applying the band window on the fly.
+    fn kernel_dot_raw(&self, k: usize, raw: &[Complex32]) -> Complex32 {
+        let (head, tail) = raw[..self.points].split_at(k);
+        let (wh, wt) = self.band[..self.points].split_at(k);
+        dot_windowed(head, wh, &self.kernel[M - k..])
+            + dot_windowed(tail, wt, &self.kernel[..self.points - k])
+    }
+}
+
+/// Σ x[i]·g[i].
+#[inline(always)]
+fn dot(xs: &[Complex32], gs: &[Complex32]) -> Complex32 {
+    let (mut re, mut im) = (0.0f32, 0.0f32);
+    for (x, g) in xs.iter().zip(gs.iter()) {
+        re += x.re * g.re - x.im * g.im;
+        im += x.re * g.im + x.im * g.re;
+    }
+    Complex32::new(re, im)
+}
+
+/// Σ x[i]·w[i]·g[i].
+#[inline(always)]
+fn dot_windowed(xs: &[Complex32], ws: &[f32], gs: &[Complex32]) -> Complex32 {
+    let (mut re, mut im) = (0.0f32, 0.0f32);
+    for ((x, &w), g) in xs.iter().zip(ws.iter()).zip(gs.iter()) {
+        let (xr, xi) = (x.re * w, x.im * w);
+        re += xr * g.re - xi * g.im;
+        im += xr * g.im + xi * g.re;
+    }
+    Complex32::new(re, im)
 }
 
 /// Steps 1–2 in place: band window over `buf[..points]`, zeros beyond, inverse FFT.
@@ -373,6 +441,13 @@ fn run_chain<const M: usize>(
 {
     window_and_invert(band, points, buf);
     gate_and_return(gate, buf);
+}
+
+fn echo_db(outside: f32, total: f32) -> f32 {
+    if !(outside > 0.0 && total > 0.0) {
+        return ECHO_FLOOR_DB;
+    }
+    (10.0 * libm::log10f(outside / total)).max(ECHO_FLOOR_DB)
 }
 
 fn unit_phasor(phase: f64) -> Complex32 {

@@ -400,9 +400,15 @@ where
     gate.apply(&buf, &mut fft_out);
     let mut kern_out = [Z; 7];
     gate.apply_kernels(&kernels, &buf, &mut kern_out);
+    let mut windowed = buf;
+    gate.window(&mut windowed, 1.0);
+    let mut win_out = [Z; 7];
+    gate.apply_kernels_windowed(&kernels, &windowed, &mut win_out);
     for (f, &i) in idx.iter().enumerate() {
         let e = (kern_out[f] - fft_out[i]).norm() / fft_out[i].norm();
         assert!(e < 1e-4, "{cfg:?} index {i}: relative {e:e}");
+        let e = (win_out[f] - fft_out[i]).norm() / fft_out[i].norm();
+        assert!(e < 1e-4, "{cfg:?} index {i}, pre-windowed: relative {e:e}");
     }
     assert_eq!(kernels.indices(), idx);
 }
