@@ -882,3 +882,540 @@ impl<R: embedded_io::Read, D: StreamDecoder, const N: usize> LinkReader<R, D, N>
         (self.reader, self.decoder)
     }
 }
+
+#[cfg(test)]
+mod tests {
+    extern crate std;
+    use super::*;
+    use std::vec::Vec;
+
+    const Z: Complex32 = Complex32::new(0.0, 0.0);
+
+    fn c(re: f32, im: f32) -> Complex32 {
+        Complex32::new(re, im)
+    }
+
+    fn cfg(points: usize, format: Format, order: ByteOrder) -> BlockConfig {
+        BlockConfig::new(points, format, order).unwrap()
+    }
+
+    /// Everything a run produced: events with a copy of the sweep at each `Sweep`.
+    #[derive(Debug, PartialEq)]
+    enum Seen {
+        Sweep(Vec<Complex32>),
+        Rejected(BlockError),
+    }
+
+    /// Feed `chunks` in order, then finish; collect events and the final counters.
+    fn run(config: BlockConfig, cap: usize, chunks: &[&[u8]]) -> (Vec<Seen>, BlockCounters) {
+        let mut dec = BlockDecoder::new(config);
+        let mut buf = std::vec![Z; cap];
+        let mut seen = Vec::new();
+        let mut total = 0u64;
+        for chunk in chunks {
+            let mut rest: &[u8] = chunk;
+            loop {
+                let fed = dec.feed(rest, &mut buf);
+                total += fed.consumed as u64;
+                rest = &rest[fed.consumed..];
+                match fed.event {
+                    Some(Event::Sweep { points }) => seen.push(Seen::Sweep(buf[..points].to_vec())),
+                    Some(Event::Rejected(e)) => seen.push(Seen::Rejected(e)),
+                    None => {
+                        assert!(rest.is_empty(), "no event but bytes left");
+                        break;
+                    }
+                }
+                let k = dec.counters();
+                assert_eq!(
+                    total,
+                    k.bytes_accepted + k.bytes_skipped + dec.bytes_pending()
+                );
+            }
+        }
+        if let Some(e) = dec.finish() {
+            seen.push(Seen::Rejected(e));
+        }
+        let k = *dec.counters();
+        assert_eq!(dec.bytes_pending(), 0);
+        assert_eq!(total, k.bytes_accepted + k.bytes_skipped);
+        let sweeps = seen.iter().filter(|s| matches!(s, Seen::Sweep(_))).count();
+        assert_eq!(sweeps as u32, k.accepted);
+        assert_eq!((seen.len() - sweeps) as u32, k.rejected());
+        (seen, k)
+    }
+
+    fn block(format: Format, order: ByteOrder, points: &[Complex32]) -> Vec<u8> {
+        let mut out = std::vec![0u8; points.len() * 16 + 16];
+        let n = emit(format, order, points, &mut out).unwrap();
+        out.truncate(n);
+        out
+    }
+
+    fn indefinite(format: Format, order: ByteOrder, points: &[Complex32]) -> Vec<u8> {
+        let mut out = std::vec![0u8; points.len() * 16 + 16];
+        let n = emit_indefinite(format, order, points, &mut out).unwrap();
+        out.truncate(n);
+        out
+    }
+
+    const ALL: [(Format, ByteOrder); 4] = [
+        (Format::Real32, ByteOrder::Normal),
+        (Format::Real32, ByteOrder::Swapped),
+        (Format::Real64, ByteOrder::Normal),
+        (Format::Real64, ByteOrder::Swapped),
+    ];
+
+    #[test]
+    fn config_validation() {
+        assert_eq!(
+            BlockConfig::new(0, Format::Real32, ByteOrder::Normal),
+            Err(WireConfigError::NoPoints)
+        );
+        assert_eq!(
+            BlockConfig::new(65_536, Format::Real32, ByteOrder::Normal),
+            Err(WireConfigError::TooManyPoints)
+        );
+        assert!(BlockConfig::new(65_535, Format::Real64, ByteOrder::Swapped).is_ok());
+    }
+
+    #[test]
+    fn hand_built_bytes_every_format_and_order() {
+        // IEEE 754: 1.0f32 = 3F80_0000, -2.0f32 = C000_0000; 1.0f64 = 3FF0_0000_0000_0000,
+        // -2.0f64 = C000_0000_0000_0000 (IEEE 754-2008 binary32/binary64, from memory).
+        let cases: [(Format, ByteOrder, &[u8]); 4] = [
+            (
+                Format::Real32,
+                ByteOrder::Normal,
+                b"#18\x3f\x80\x00\x00\xc0\x00\x00\x00\n",
+            ),
+            (
+                Format::Real32,
+                ByteOrder::Swapped,
+                b"#18\x00\x00\x80\x3f\x00\x00\x00\xc0\n",
+            ),
+            (
+                Format::Real64,
+                ByteOrder::Normal,
+                b"#216\x3f\xf0\0\0\0\0\0\0\xc0\0\0\0\0\0\0\0\n",
+            ),
+            (
+                Format::Real64,
+                ByteOrder::Swapped,
+                b"#216\0\0\0\0\0\0\xf0\x3f\0\0\0\0\0\0\0\xc0\n",
+            ),
+        ];
+        for (format, order, bytes) in cases {
+            let (seen, k) = run(cfg(1, format, order), 1, &[bytes]);
+            assert_eq!(
+                seen,
+                [Seen::Sweep(std::vec![c(1.0, -2.0)])],
+                "{format:?} {order:?}"
+            );
+            // The trailing newline belongs to the accepted block.
+            assert_eq!(k.bytes_accepted, bytes.len() as u64);
+            assert_eq!(k.bytes_skipped, 0);
+            // The encoder builds the same bytes.
+            assert_eq!(block(format, order, &[c(1.0, -2.0)]), bytes);
+            // Decoding with the other byte order gives other values.
+            let other = match order {
+                ByteOrder::Normal => ByteOrder::Swapped,
+                ByteOrder::Swapped => ByteOrder::Normal,
+            };
+            let (seen, _) = run(cfg(1, format, other), 1, &[bytes]);
+            assert_ne!(seen, [Seen::Sweep(std::vec![c(1.0, -2.0)])]);
+        }
+    }
+
+    fn sample_sweep(n: usize) -> Vec<Complex32> {
+        (0..n)
+            .map(|i| c(0.1 * i as f32 - 1.0, 1.0 / (1.0 + i as f32)))
+            .collect()
+    }
+
+    #[test]
+    fn definite_and_indefinite_round_trip() {
+        let sweep = sample_sweep(5);
+        for (format, order) in ALL {
+            let mut bytes = block(format, order, &sweep);
+            bytes.extend(indefinite(format, order, &sweep));
+            let (seen, k) = run(cfg(5, format, order), 8, &[&bytes]);
+            assert_eq!(
+                seen,
+                [Seen::Sweep(sweep.clone()), Seen::Sweep(sweep.clone())]
+            );
+            assert_eq!(k.accepted, 2);
+            assert_eq!(k.bytes_skipped, 0);
+        }
+    }
+
+    #[test]
+    fn definite_without_trailing_newline_and_with_crlf() {
+        let sweep = sample_sweep(2);
+        let b = block(Format::Real32, ByteOrder::Normal, &sweep);
+        let bare = &b[..b.len() - 1];
+        let mut stream = bare.to_vec();
+        stream.extend_from_slice(bare);
+        stream.extend_from_slice(b"\r\n");
+        stream.extend_from_slice(&b);
+        let (seen, k) = run(cfg(2, Format::Real32, ByteOrder::Normal), 2, &[&stream]);
+        assert_eq!(seen.len(), 3);
+        assert!(seen.iter().all(|s| *s == Seen::Sweep(sweep.clone())));
+        // A CRLF after a block without its own newline: line ends between blocks,
+        // skipped, not an error.
+        assert_eq!(k.bytes_skipped, 2);
+    }
+
+    #[test]
+    fn newline_inside_indefinite_data_is_data() {
+        // 0x0A bytes within the K points are values, not the terminator.
+        let v = f32::from_be_bytes([0x0a, 0x0a, 0x0a, 0x0a]);
+        let sweep = [c(v, v), c(1.0, v)];
+        let bytes = indefinite(Format::Real32, ByteOrder::Normal, &sweep);
+        let (seen, _) = run(cfg(2, Format::Real32, ByteOrder::Normal), 2, &[&bytes]);
+        assert_eq!(seen, [Seen::Sweep(sweep.to_vec())]);
+    }
+
+    #[test]
+    fn header_malformed() {
+        let k1 = cfg(1, Format::Real32, ByteOrder::Normal);
+        for bad in [&b"x"[..], b"#x", b"#4AB", b"##", b"#2\n"] {
+            let (seen, k) = run(k1, 1, &[bad]);
+            assert_eq!(
+                seen[0],
+                Seen::Rejected(BlockError::HeaderMalformed),
+                "{bad:?}"
+            );
+            assert_eq!(k.header_malformed, 1, "{bad:?}");
+        }
+    }
+
+    #[test]
+    fn length_not_whole_samples() {
+        let (seen, k) = run(cfg(1, Format::Real32, ByteOrder::Normal), 4, &[b"#13abc\n"]);
+        assert_eq!(
+            seen,
+            [Seen::Rejected(BlockError::LengthNotWholeSamples {
+                bytes: 3,
+                sample_bytes: 8
+            })]
+        );
+        // The announced payload and its newline are skipped exactly.
+        assert_eq!(k.bytes_skipped, 7);
+        let (seen, _) = run(
+            cfg(1, Format::Real64, ByteOrder::Normal),
+            4,
+            &[b"#18abcdefgh"],
+        );
+        assert_eq!(
+            seen,
+            [Seen::Rejected(BlockError::LengthNotWholeSamples {
+                bytes: 8,
+                sample_bytes: 16
+            })]
+        );
+    }
+
+    #[test]
+    fn point_count_definite_then_next_block_accepted() {
+        let three = sample_sweep(3);
+        let two = sample_sweep(2);
+        for (format, order) in ALL {
+            let mut stream = block(format, order, &three);
+            stream.extend(block(format, order, &two));
+            let (seen, k) = run(cfg(2, format, order), 4, &[&stream]);
+            assert_eq!(
+                seen,
+                [
+                    Seen::Rejected(BlockError::PointCount {
+                        expected: 2,
+                        found: 3
+                    }),
+                    Seen::Sweep(two.clone())
+                ]
+            );
+            assert_eq!(k.point_count, 1);
+        }
+    }
+
+    #[test]
+    fn point_count_indefinite_longer() {
+        let three = sample_sweep(3);
+        let bytes = indefinite(Format::Real32, ByteOrder::Swapped, &three);
+        let (seen, _) = run(cfg(2, Format::Real32, ByteOrder::Swapped), 4, &[&bytes]);
+        assert_eq!(
+            seen,
+            [Seen::Rejected(BlockError::PointCount {
+                expected: 2,
+                found: 3
+            })]
+        );
+    }
+
+    #[test]
+    fn overflow_definite_and_indefinite() {
+        let sweep = sample_sweep(3);
+        let f = (Format::Real32, ByteOrder::Normal);
+        // K = 3 but the buffer holds 2.
+        let (seen, k) = run(cfg(3, f.0, f.1), 2, &[&block(f.0, f.1, &sweep)]);
+        assert_eq!(seen, [Seen::Rejected(BlockError::Overflow { capacity: 2 })]);
+        assert_eq!(k.overflow, 1);
+        let (seen, _) = run(cfg(3, f.0, f.1), 2, &[&indefinite(f.0, f.1, &sweep)]);
+        assert_eq!(
+            seen[0],
+            Seen::Rejected(BlockError::Overflow { capacity: 2 })
+        );
+        // K = 2, buffer 3, indefinite block of 5 points: stored up to 3, then overflow.
+        let five = sample_sweep(5);
+        let (seen, _) = run(cfg(2, f.0, f.1), 3, &[&indefinite(f.0, f.1, &five)]);
+        assert_eq!(
+            seen[0],
+            Seen::Rejected(BlockError::Overflow { capacity: 3 })
+        );
+    }
+
+    #[test]
+    fn truncated_at_every_point_of_a_block() {
+        let sweep = sample_sweep(2);
+        for (format, order) in ALL {
+            for b in [
+                block(format, order, &sweep),
+                indefinite(format, order, &sweep),
+            ] {
+                // Every cut that leaves the block incomplete (the last byte is the newline).
+                for cut in 1..b.len() - 1 {
+                    let (seen, k) = run(cfg(2, format, order), 2, &[&b[..cut]]);
+                    assert_eq!(seen, [Seen::Rejected(BlockError::Truncated)], "cut {cut}");
+                    assert_eq!(k.truncated, 1);
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn non_finite_values() {
+        let f = (Format::Real32, ByteOrder::Normal);
+        let good = sample_sweep(3);
+        for bad in [f32::NAN, f32::INFINITY, f32::NEG_INFINITY, 9.91e37, -9.9e37] {
+            let mut sweep = good.clone();
+            sweep[1].im = bad;
+            let mut stream = block(f.0, f.1, &sweep);
+            stream.extend(indefinite(f.0, f.1, &sweep));
+            stream.extend(block(f.0, f.1, &good));
+            let (seen, k) = run(cfg(3, f.0, f.1), 3, &[&stream]);
+            assert_eq!(
+                seen,
+                [
+                    Seen::Rejected(BlockError::NonFinite { index: 1 }),
+                    Seen::Rejected(BlockError::NonFinite { index: 1 }),
+                    Seen::Sweep(good.clone())
+                ],
+                "{bad}"
+            );
+            assert_eq!(k.non_finite, 2);
+        }
+        // REAL,64 value beyond f32 range.
+        let mut bytes = b"#216".to_vec();
+        bytes.extend(1e300f64.to_be_bytes());
+        bytes.extend(0f64.to_be_bytes());
+        let (seen, _) = run(cfg(1, Format::Real64, ByteOrder::Normal), 1, &[&bytes]);
+        assert_eq!(seen, [Seen::Rejected(BlockError::NonFinite { index: 0 })]);
+    }
+
+    #[test]
+    fn resync_after_garbage() {
+        let sweep = sample_sweep(2);
+        let f = (Format::Real32, ByteOrder::Normal);
+        let mut stream = b"garbage # #x ## hello\n".to_vec();
+        stream.extend(block(f.0, f.1, &sweep));
+        let (seen, k) = run(cfg(2, f.0, f.1), 2, &[&stream]);
+        // One rejection for the garbage run, then the block.
+        assert_eq!(
+            seen,
+            [
+                Seen::Rejected(BlockError::HeaderMalformed),
+                Seen::Sweep(sweep)
+            ]
+        );
+        assert_eq!(k.bytes_skipped, 22);
+    }
+
+    #[test]
+    fn huge_announced_length_is_bounded() {
+        // 10^9 - 8 bytes would be 124_999_999 points: rejected at the header, far above
+        // MAX_SKIP_BYTES, so the decoder resyncs at the next '#' rather than skipping it.
+        let sweep = sample_sweep(2);
+        let f = (Format::Real32, ByteOrder::Normal);
+        let mut stream = b"#9999999992".to_vec();
+        stream.extend(std::vec![0x55u8; 100_000]);
+        stream.extend(block(f.0, f.1, &sweep));
+        let (seen, k) = run(cfg(2, f.0, f.1), 2, &[&stream]);
+        assert_eq!(
+            seen,
+            [
+                Seen::Rejected(BlockError::PointCount {
+                    expected: 2,
+                    found: 124_999_999
+                }),
+                Seen::Sweep(sweep)
+            ]
+        );
+        assert_eq!(k.bytes_skipped, 11 + 100_000);
+    }
+
+    #[test]
+    fn every_split_matches_one_chunk() {
+        let f = (Format::Real64, ByteOrder::Swapped);
+        let sweep = sample_sweep(3);
+        let mut bad = sweep.clone();
+        bad[2].re = f32::NAN;
+        let mut stream = b"\r\nzz#".to_vec();
+        stream.extend(block(f.0, f.1, &sweep));
+        stream.extend(indefinite(f.0, f.1, &bad));
+        stream.extend(b"#15abcde");
+        stream.extend(block(f.0, f.1, &sample_sweep(4)));
+        stream.extend(indefinite(f.0, f.1, &sweep));
+        stream.extend(b"#3");
+        let config = cfg(3, f.0, f.1);
+        let whole = run(config, 3, &[&stream]);
+        assert_eq!(whole.1.accepted, 2);
+        assert_eq!(whole.1.rejected(), 5);
+        for i in 0..=stream.len() {
+            let (a, b) = stream.split_at(i);
+            assert_eq!(run(config, 3, &[a, b]), whole, "split at {i}");
+        }
+        let bytes: Vec<&[u8]> = stream.chunks(1).collect();
+        assert_eq!(run(config, 3, &bytes), whole);
+    }
+
+    #[test]
+    fn emit_errors_and_digits() {
+        let sweep = sample_sweep(2);
+        let mut out = [0u8; 20];
+        // "#216" + 16 bytes + "\n" = 21 bytes.
+        assert_eq!(
+            emit(Format::Real32, ByteOrder::Normal, &sweep, &mut out),
+            Err(EncodeError::BufferTooSmall { needed: 21 })
+        );
+        assert_eq!(
+            emit_indefinite(Format::Real64, ByteOrder::Normal, &sweep, &mut out),
+            Err(EncodeError::BufferTooSmall { needed: 35 })
+        );
+        let mut out = [0u8; 2000];
+        let n = emit(
+            Format::Real32,
+            ByteOrder::Normal,
+            &sample_sweep(125),
+            &mut out,
+        )
+        .unwrap();
+        assert_eq!(&out[..6], b"#41000");
+        assert_eq!(n, 6 + 1000 + 1);
+        let n = emit(Format::Real32, ByteOrder::Normal, &[], &mut out).unwrap();
+        assert_eq!(&out[..n], b"#10\n");
+    }
+
+    #[test]
+    fn link_reader_across_small_reads() {
+        let f = (Format::Real32, ByteOrder::Swapped);
+        let sweep = sample_sweep(4);
+        let mut stream = block(f.0, f.1, &sweep);
+        stream.extend(b"oops\n");
+        stream.extend(block(f.0, f.1, &sweep));
+        stream.extend(b"#0\x01");
+        let mut link: LinkReader<&[u8], _, 5> =
+            LinkReader::new(&stream[..], BlockDecoder::new(cfg(4, f.0, f.1)));
+        let mut buf = [Z; 4];
+        assert_eq!(
+            link.next_event(&mut buf),
+            Ok(Some(Event::Sweep { points: 4 }))
+        );
+        assert_eq!(buf[..], sweep[..]);
+        assert_eq!(
+            link.next_event(&mut buf),
+            Ok(Some(Event::Rejected(BlockError::HeaderMalformed)))
+        );
+        buf = [Z; 4];
+        assert_eq!(
+            link.next_event(&mut buf),
+            Ok(Some(Event::Sweep { points: 4 }))
+        );
+        assert_eq!(buf[..], sweep[..]);
+        assert_eq!(
+            link.next_event(&mut buf),
+            Ok(Some(Event::Rejected(BlockError::Truncated)))
+        );
+        assert_eq!(link.next_event(&mut buf), Ok(None));
+        assert_eq!(link.decoder().counters().accepted, 2);
+    }
+
+    #[test]
+    fn display_texts_are_distinct() {
+        let all = [
+            BlockError::HeaderMalformed,
+            BlockError::LengthNotWholeSamples {
+                bytes: 3,
+                sample_bytes: 8,
+            },
+            BlockError::PointCount {
+                expected: 1,
+                found: 2,
+            },
+            BlockError::Overflow { capacity: 1 },
+            BlockError::Truncated,
+            BlockError::NonFinite { index: 0 },
+        ];
+        let texts: Vec<std::string::String> = all.iter().map(|e| std::format!("{e}")).collect();
+        for (i, a) in texts.iter().enumerate() {
+            assert!(!a.is_empty());
+            for b in &texts[i + 1..] {
+                assert_ne!(a, b);
+            }
+        }
+    }
+
+    mod props {
+        use super::*;
+        use proptest::prelude::*;
+
+        proptest! {
+            #![proptest_config(ProptestConfig::with_cases(256))]
+
+            /// Arbitrary bytes, cut at arbitrary places, never panic; every byte and every
+            /// event is counted (checked inside `run`).
+            #[test]
+            fn arbitrary_bytes(data in proptest::collection::vec(any::<u8>(), 0..600),
+                               cuts in proptest::collection::vec(0usize..600, 0..6),
+                               fmt64 in any::<bool>(), swapped in any::<bool>(),
+                               k in 1usize..6, cap in 0usize..8) {
+                let format = if fmt64 { Format::Real64 } else { Format::Real32 };
+                let order = if swapped { ByteOrder::Swapped } else { ByteOrder::Normal };
+                let mut cuts: Vec<usize> = cuts.into_iter().map(|c| c.min(data.len())).collect();
+                cuts.sort_unstable();
+                let mut chunks = Vec::new();
+                let mut at = 0;
+                for c in cuts { chunks.push(&data[at..c]); at = c; }
+                chunks.push(&data[at..]);
+                let split = run(cfg(k, format, order), cap, &chunks);
+                prop_assert_eq!(&split, &run(cfg(k, format, order), cap, &[&data]));
+            }
+
+            /// Valid blocks mixed with garbage: the valid blocks after a garbage run that
+            /// holds no '#' all come through.
+            #[test]
+            fn blocks_survive_garbage(garbage in proptest::collection::vec(any::<u8>(), 0..40),
+                                      n in 1usize..4) {
+                let garbage: Vec<u8> = garbage.into_iter().filter(|&b| b != b'#').collect();
+                let sweep = sample_sweep(3);
+                let mut stream = garbage;
+                for _ in 0..n {
+                    stream.extend(block(Format::Real32, ByteOrder::Normal, &sweep));
+                }
+                let (seen, k) = run(cfg(3, Format::Real32, ByteOrder::Normal), 3, &[&stream]);
+                prop_assert_eq!(k.accepted as usize, n);
+                prop_assert!(k.rejected() <= 1);
+                prop_assert_eq!(seen.len() - n, k.rejected() as usize);
+            }
+        }
+    }
+}
