@@ -404,3 +404,282 @@ impl StreamDecoder for AsciiDecoder {
         AsciiDecoder::finish(self)
     }
 }
+
+#[cfg(test)]
+mod tests {
+    extern crate std;
+    use super::*;
+    use std::vec::Vec;
+
+    const Z: Complex32 = Complex32::new(0.0, 0.0);
+
+    fn c(re: f32, im: f32) -> Complex32 {
+        Complex32::new(re, im)
+    }
+
+    #[derive(Debug, PartialEq)]
+    enum Seen {
+        Sweep(Vec<Complex32>),
+        Rejected(AsciiError),
+    }
+
+    fn run(k: usize, cap: usize, chunks: &[&[u8]]) -> (Vec<Seen>, AsciiCounters) {
+        let mut dec = AsciiDecoder::new(AsciiConfig::new(k).unwrap());
+        let mut buf = std::vec![Z; cap];
+        let mut seen = Vec::new();
+        let mut total = 0u64;
+        for chunk in chunks {
+            let mut rest: &[u8] = chunk;
+            loop {
+                let fed = dec.feed(rest, &mut buf);
+                total += fed.consumed as u64;
+                rest = &rest[fed.consumed..];
+                match fed.event {
+                    Some(Event::Sweep { points }) => seen.push(Seen::Sweep(buf[..points].to_vec())),
+                    Some(Event::Rejected(e)) => seen.push(Seen::Rejected(e)),
+                    None => {
+                        assert!(rest.is_empty());
+                        break;
+                    }
+                }
+                let k = dec.counters();
+                assert_eq!(
+                    total,
+                    k.bytes_accepted + k.bytes_skipped + dec.bytes_pending()
+                );
+            }
+        }
+        if let Some(e) = dec.finish() {
+            seen.push(Seen::Rejected(e));
+        }
+        let k = *dec.counters();
+        assert_eq!(dec.bytes_pending(), 0);
+        assert_eq!(total, k.bytes_accepted + k.bytes_skipped);
+        let sweeps = seen.iter().filter(|s| matches!(s, Seen::Sweep(_))).count();
+        assert_eq!(sweeps as u32, k.accepted);
+        assert_eq!((seen.len() - sweeps) as u32, k.rejected());
+        (seen, k)
+    }
+
+    fn one(k: usize, cap: usize, line: &[u8]) -> Vec<Seen> {
+        run(k, cap, &[line]).0
+    }
+
+    #[test]
+    fn config_validation() {
+        assert_eq!(AsciiConfig::new(0), Err(WireConfigError::NoPoints));
+        assert_eq!(
+            AsciiConfig::new(65_536),
+            Err(WireConfigError::TooManyPoints)
+        );
+    }
+
+    #[test]
+    fn number_forms() {
+        let line = b" +1.5 ,-2.5E+01,\t.5,7.,1e-3 , -0 ,6.02e23,-1E-10\r\n";
+        assert_eq!(
+            one(4, 4, line),
+            [Seen::Sweep(std::vec![
+                c(1.5, -25.0),
+                c(0.5, 7.0),
+                c(1e-3, -0.0),
+                c(6.02e23, -1e-10)
+            ])]
+        );
+    }
+
+    #[test]
+    fn blank_lines_are_skipped_silently() {
+        let (seen, k) = run(1, 1, &[b"\n \r\n1,2\n\n"]);
+        assert_eq!(seen, [Seen::Sweep(std::vec![c(1.0, 2.0)])]);
+        assert_eq!(k.bytes_skipped, 5);
+        assert_eq!(k.bytes_accepted, 4);
+    }
+
+    #[test]
+    fn malformed_numbers() {
+        for bad in [
+            &b"1,x\n"[..],
+            b"1,,\n",
+            b"1,2,\n",
+            b",1\n",
+            b"1 2\n",
+            b"1.2.3,4\n",
+            b"1e,2\n",
+            b"--1,2\n",
+            b"0x10,2\n",
+            b"1,2;\n",
+            b".,1\n",
+            b"1,\xff\n",
+        ] {
+            let seen = one(1, 1, bad);
+            assert!(
+                matches!(
+                    seen[..],
+                    [Seen::Rejected(AsciiError::MalformedNumber { .. })]
+                ),
+                "{bad:?}: {seen:?}"
+            );
+        }
+        assert_eq!(
+            one(1, 1, b"1,x\n"),
+            [Seen::Rejected(AsciiError::MalformedNumber { index: 1 })]
+        );
+    }
+
+    #[test]
+    fn token_too_long() {
+        let mut line = b"1.".to_vec();
+        line.extend(std::vec![b'0'; MAX_TOKEN_BYTES - 2]);
+        line.extend(b",2\n");
+        // Exactly MAX_TOKEN_BYTES bytes is fine.
+        assert!(matches!(one(1, 1, &line)[..], [Seen::Sweep(_)]));
+        let mut line = std::vec![b'1'; MAX_TOKEN_BYTES + 1];
+        line.extend(b",2\n");
+        assert_eq!(
+            one(1, 1, &line),
+            [Seen::Rejected(AsciiError::TokenTooLong { index: 0 })]
+        );
+    }
+
+    #[test]
+    fn odd_count_point_count_overflow() {
+        assert_eq!(
+            one(1, 2, b"1,2,3\n"),
+            [Seen::Rejected(AsciiError::OddCount { values: 3 })]
+        );
+        assert_eq!(
+            one(1, 2, b"1,2,3,4\n"),
+            [Seen::Rejected(AsciiError::PointCount {
+                expected: 1,
+                found: 2
+            })]
+        );
+        assert_eq!(
+            one(2, 2, b"1,2\n"),
+            [Seen::Rejected(AsciiError::PointCount {
+                expected: 2,
+                found: 1
+            })]
+        );
+        let (seen, k) = run(1, 1, &[b"1,2,3,4,5,6\n7,8\n"]);
+        assert_eq!(
+            seen,
+            [
+                Seen::Rejected(AsciiError::Overflow { capacity: 1 }),
+                Seen::Sweep(std::vec![c(7.0, 8.0)])
+            ]
+        );
+        assert_eq!(k.overflow, 1);
+    }
+
+    #[test]
+    fn truncated() {
+        for cut in [&b"1"[..], b"1,", b"1,2", b" 1 "] {
+            assert_eq!(
+                one(1, 1, cut),
+                [Seen::Rejected(AsciiError::Truncated)],
+                "{cut:?}"
+            );
+        }
+        // Only white space pending at the end: nothing to report.
+        assert_eq!(one(1, 1, b"  "), []);
+    }
+
+    #[test]
+    fn non_finite() {
+        for bad in [
+            &b"1,inf\n"[..],
+            b"1,-Infinity\n",
+            b"1,NaN\n",
+            b"1,1e39\n",
+            b"1,9.91E37\n",
+            b"1,-9.9E+37\n",
+        ] {
+            assert_eq!(
+                one(1, 1, bad),
+                [Seen::Rejected(AsciiError::NonFinite { index: 1 })],
+                "{bad:?}"
+            );
+        }
+    }
+
+    #[test]
+    fn resync_at_next_newline() {
+        let (seen, k) = run(2, 2, &[b"#41608\x00\x01,garbage\n1,2,3,4\n"]);
+        assert_eq!(
+            seen,
+            [
+                Seen::Rejected(AsciiError::MalformedNumber { index: 0 }),
+                Seen::Sweep(std::vec![c(1.0, 2.0), c(3.0, 4.0)])
+            ]
+        );
+        assert_eq!(k.bytes_skipped, 17);
+        assert_eq!(k.bytes_accepted, 8);
+    }
+
+    #[test]
+    fn every_split_matches_one_chunk() {
+        let stream: &[u8] =
+            b"\n1.25e-1,-2,3,4\nx\n1,2,3\n 5 , 6 ,7,8\r\n1,nan,3,4\n1,2,3,4,5,6\n9,9,9,9,9";
+        let whole = run(2, 2, &[stream]);
+        assert_eq!(whole.0.len(), 7);
+        assert_eq!(whole.1.accepted, 2);
+        for i in 0..=stream.len() {
+            let (a, b) = stream.split_at(i);
+            assert_eq!(run(2, 2, &[a, b]), whole, "split at {i}");
+        }
+        let bytes: Vec<&[u8]> = stream.chunks(1).collect();
+        assert_eq!(run(2, 2, &bytes), whole);
+    }
+
+    #[test]
+    fn display_texts_are_distinct() {
+        let all = [
+            AsciiError::MalformedNumber { index: 0 },
+            AsciiError::TokenTooLong { index: 0 },
+            AsciiError::OddCount { values: 1 },
+            AsciiError::PointCount {
+                expected: 1,
+                found: 2,
+            },
+            AsciiError::Overflow { capacity: 1 },
+            AsciiError::Truncated,
+            AsciiError::NonFinite { index: 0 },
+        ];
+        let texts: Vec<std::string::String> = all.iter().map(|e| std::format!("{e}")).collect();
+        for (i, a) in texts.iter().enumerate() {
+            for b in &texts[i + 1..] {
+                assert_ne!(a, b);
+            }
+        }
+    }
+
+    mod props {
+        use super::*;
+        use proptest::prelude::*;
+
+        proptest! {
+            #![proptest_config(ProptestConfig::with_cases(256))]
+
+            /// Arbitrary bytes (biased to number-like ones) never panic, every byte and
+            /// event is counted, and chunking does not change the outcome.
+            #[test]
+            fn arbitrary_bytes(data in proptest::collection::vec(
+                                   prop_oneof![any::<u8>(), proptest::sample::select(b"0123456789.,eE+- \n".to_vec())],
+                                   0..400),
+                               cut in 0usize..400, k in 1usize..4, cap in 0usize..5) {
+                let cut = cut.min(data.len());
+                let (a, b) = data.split_at(cut);
+                prop_assert_eq!(run(k, cap, &[a, b]), run(k, cap, &[&data]));
+            }
+
+            /// Finite f32 values printed with `{:e}` or `{}` read back exactly.
+            #[test]
+            fn printed_values_read_back(v in proptest::collection::vec(-1e30f32..1e30, 2..=2)) {
+                let line = std::format!("{:e},{}\n", v[0], v[1]);
+                prop_assert_eq!(one(1, 1, line.as_bytes()), [Seen::Sweep(std::vec![c(v[0], v[1])])]);
+            }
+        }
+    }
+}
