@@ -55,10 +55,9 @@ fn hand_written_header_and_indefinite_form() {
     stream.push(b'\n');
     let cfg = BlockConfig::new(201, Format::Real32, ByteOrder::Normal).unwrap();
     let mut dec = BlockDecoder::new(cfg);
-    let mut buf = [Complex32::new(0.0, 0.0); 201];
     let mut rest = &stream[..];
     for _ in 0..2 {
-        buf = [Complex32::new(0.0, 0.0); 201];
+        let mut buf = [Complex32::new(0.0, 0.0); 201];
         let fed = dec.feed(rest, &mut buf);
         assert_eq!(fed.event, Some(Event::Sweep { points: 201 }));
         assert_eq!(&buf[..], &data[..]);
