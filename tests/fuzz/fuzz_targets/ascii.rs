@@ -12,7 +12,9 @@ fuzz_target!(|data: &[u8]| {
     let [a, b, c, stream @ ..] = data else { return };
     let points = 1 + (*b as usize % 8);
     let cap = *c as usize % 10;
-    let Ok(config) = AsciiConfig::new(points) else { return };
+    let Ok(config) = AsciiConfig::new(points) else {
+        return;
+    };
     let mut dec = AsciiDecoder::new(config);
     let mut buf = [Complex32::new(0.0, 0.0); 10];
     let buf = &mut buf[..cap];
@@ -32,7 +34,9 @@ fuzz_target!(|data: &[u8]| {
                 Some(Event::Sweep { points: p }) => {
                     assert!(fed.consumed > 0);
                     assert_eq!(p, points);
-                    assert!(buf[..p].iter().all(|v| v.re.is_finite() && v.im.is_finite()));
+                    assert!(buf[..p]
+                        .iter()
+                        .all(|v| v.re.is_finite() && v.im.is_finite()));
                     sweeps += 1;
                 }
                 Some(Event::Rejected(_)) => {
@@ -46,7 +50,10 @@ fuzz_target!(|data: &[u8]| {
             }
         }
         let k = dec.counters();
-        assert_eq!(total, k.bytes_accepted + k.bytes_skipped + dec.bytes_pending());
+        assert_eq!(
+            total,
+            k.bytes_accepted + k.bytes_skipped + dec.bytes_pending()
+        );
     }
     if dec.finish().is_some() {
         rejected += 1;

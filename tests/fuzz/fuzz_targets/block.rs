@@ -9,11 +9,21 @@ use sweepgate::Complex32;
 
 fuzz_target!(|data: &[u8]| {
     let [a, b, c, stream @ ..] = data else { return };
-    let format = if a & 1 == 0 { Format::Real32 } else { Format::Real64 };
-    let order = if a & 2 == 0 { ByteOrder::Normal } else { ByteOrder::Swapped };
+    let format = if a & 1 == 0 {
+        Format::Real32
+    } else {
+        Format::Real64
+    };
+    let order = if a & 2 == 0 {
+        ByteOrder::Normal
+    } else {
+        ByteOrder::Swapped
+    };
     let points = 1 + (*b as usize % 8);
     let cap = *c as usize % 10;
-    let Ok(config) = BlockConfig::new(points, format, order) else { return };
+    let Ok(config) = BlockConfig::new(points, format, order) else {
+        return;
+    };
     let mut dec = BlockDecoder::new(config);
     let mut buf = [Complex32::new(0.0, 0.0); 10];
     let buf = &mut buf[..cap];
@@ -36,7 +46,9 @@ fuzz_target!(|data: &[u8]| {
             match fed.event {
                 Some(Event::Sweep { points: p }) => {
                     assert_eq!(p, points);
-                    assert!(buf[..p].iter().all(|v| v.re.is_finite() && v.im.is_finite()));
+                    assert!(buf[..p]
+                        .iter()
+                        .all(|v| v.re.is_finite() && v.im.is_finite()));
                     sweeps += 1;
                 }
                 Some(Event::Rejected(_)) => rejected += 1,
@@ -47,7 +59,10 @@ fuzz_target!(|data: &[u8]| {
             }
         }
         let k = dec.counters();
-        assert_eq!(total, k.bytes_accepted + k.bytes_skipped + dec.bytes_pending());
+        assert_eq!(
+            total,
+            k.bytes_accepted + k.bytes_skipped + dec.bytes_pending()
+        );
     }
     if dec.finish().is_some() {
         rejected += 1;
