@@ -1,1 +1,176 @@
-//! Errors of the `wire` boundary.
+//! Errors of the `wire` boundary: the VNA link decoders and the block encoder.
+
+use core::fmt;
+
+/// Why a decoder configuration was refused.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum WireConfigError {
+    /// The expected point count K is zero.
+    NoPoints,
+    /// The expected point count K is above [`crate::grid::MAX_POINTS`].
+    TooManyPoints,
+}
+
+impl fmt::Display for WireConfigError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            Self::NoPoints => "a sweep must have at least 1 point",
+            Self::TooManyPoints => "a sweep has more points than the core supports (65535)",
+        })
+    }
+}
+
+impl core::error::Error for WireConfigError {}
+
+/// Why an IEEE 488.2 arbitrary block was rejected. Each cause has its own variant.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum BlockError {
+    /// The header is not `#0` or `#<n><n digits>` (n a non-zero digit), or a byte other
+    /// than `#` or a line end stood where a block should start.
+    HeaderMalformed,
+    /// The announced byte count is not a whole number of complex samples.
+    LengthNotWholeSamples {
+        /// Byte count from the header.
+        bytes: u32,
+        /// Bytes per complex sample (8 for REAL,32, 16 for REAL,64).
+        sample_bytes: u8,
+    },
+    /// The block holds a different number of points than the configured grid.
+    PointCount {
+        /// Points the configuration expects (K).
+        expected: u32,
+        /// Points the block holds.
+        found: u32,
+    },
+    /// The block holds more points than the caller's sweep buffer.
+    Overflow {
+        /// Length of the sweep buffer, in points.
+        capacity: u32,
+    },
+    /// The stream ended in the middle of a block.
+    Truncated,
+    /// A value is NaN, infinite, a SCPI INFinity/NAN code (±9.9E37, 9.91E37), or a REAL,64
+    /// value too large for f32.
+    NonFinite {
+        /// Index of the point holding the value.
+        index: u32,
+    },
+}
+
+impl fmt::Display for BlockError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            Self::HeaderMalformed => f.write_str("malformed IEEE 488.2 block header"),
+            Self::LengthNotWholeSamples {
+                bytes,
+                sample_bytes,
+            } => write!(
+                f,
+                "block of {bytes} bytes is not a whole number of {sample_bytes}-byte complex samples"
+            ),
+            Self::PointCount { expected, found } => {
+                write!(f, "block holds {found} points, the grid has {expected}")
+            }
+            Self::Overflow { capacity } => {
+                write!(f, "block holds more points than the {capacity}-point buffer")
+            }
+            Self::Truncated => f.write_str("stream ended in the middle of a block"),
+            Self::NonFinite { index } => {
+                write!(f, "point {index} is not a finite value")
+            }
+        }
+    }
+}
+
+impl core::error::Error for BlockError {}
+
+/// Why a line of ASCII numbers was rejected. Each cause has its own variant.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum AsciiError {
+    /// A field is empty or is not a decimal number.
+    MalformedNumber {
+        /// Index of the value in the line (re and im counted separately).
+        index: u32,
+    },
+    /// A number token is longer than [`crate::wire::ascii::MAX_TOKEN_BYTES`].
+    TokenTooLong {
+        /// Index of the value in the line.
+        index: u32,
+    },
+    /// The line holds an odd count of values, so re and im do not pair up.
+    OddCount {
+        /// Values in the line.
+        values: u32,
+    },
+    /// The line holds a different number of points than the configured grid.
+    PointCount {
+        /// Points the configuration expects (K).
+        expected: u32,
+        /// Points the line holds.
+        found: u32,
+    },
+    /// The line holds more points than the caller's sweep buffer.
+    Overflow {
+        /// Length of the sweep buffer, in points.
+        capacity: u32,
+    },
+    /// The stream ended in the middle of a line.
+    Truncated,
+    /// A value is NaN, infinite, too large for f32, or a SCPI INFinity/NAN code
+    /// (±9.9E37, 9.91E37).
+    NonFinite {
+        /// Index of the value in the line.
+        index: u32,
+    },
+}
+
+impl fmt::Display for AsciiError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            Self::MalformedNumber { index } => write!(f, "value {index} is not a number"),
+            Self::TokenTooLong { index } => write!(f, "value {index} is too long"),
+            Self::OddCount { values } => {
+                write!(f, "line holds {values} values, not re/im pairs")
+            }
+            Self::PointCount { expected, found } => {
+                write!(f, "line holds {found} points, the grid has {expected}")
+            }
+            Self::Overflow { capacity } => {
+                write!(f, "line holds more points than the {capacity}-point buffer")
+            }
+            Self::Truncated => f.write_str("stream ended in the middle of a line"),
+            Self::NonFinite { index } => write!(f, "value {index} is not a finite number"),
+        }
+    }
+}
+
+impl core::error::Error for AsciiError {}
+
+/// Why a block could not be encoded.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum EncodeError {
+    /// The output buffer is shorter than the block.
+    BufferTooSmall {
+        /// Bytes the block needs.
+        needed: usize,
+    },
+    /// The data needs a byte count of more than nine digits.
+    TooLong,
+}
+
+impl fmt::Display for EncodeError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            Self::BufferTooSmall { needed } => {
+                write!(f, "output buffer too small: the block needs {needed} bytes")
+            }
+            Self::TooLong => f.write_str("block data longer than 999999999 bytes"),
+        }
+    }
+}
+
+impl core::error::Error for EncodeError {}
