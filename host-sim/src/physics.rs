@@ -520,8 +520,13 @@ impl Timeline {
         let end_s;
         match q.mode {
             Mode::Continuous => {
-                let (leg, t1) =
-                    Leg::motion(0.0, q.start_deg, q.stop_deg, q.speed_deg_s, q.acceleration_deg_s2);
+                let (leg, t1) = Leg::motion(
+                    0.0,
+                    q.start_deg,
+                    q.stop_deg,
+                    q.speed_deg_s,
+                    q.acceleration_deg_s2,
+                );
                 legs.push(leg);
                 legs.push(Leg::Hold {
                     t0: t1,
@@ -575,7 +580,11 @@ impl Timeline {
     /// True turntable angle at time `t_s` (degrees, not quantized).
     pub fn angle_at(&self, t_s: f64) -> f64 {
         let i = self.legs.partition_point(|l| l.t0() <= t_s);
-        let leg = if i == 0 { &self.legs[0] } else { &self.legs[i - 1] };
+        let leg = if i == 0 {
+            &self.legs[0]
+        } else {
+            &self.legs[i - 1]
+        };
         leg.angle_at(t_s)
     }
 
@@ -790,7 +799,8 @@ mod tests {
             t += 0.05;
         }
         // Trapezoid: total time = span/speed + speed/accel (common practice, no source).
-        let want = (q.stop_deg - q.start_deg).abs() / q.speed_deg_s + q.speed_deg_s / q.acceleration_deg_s2;
+        let want = (q.stop_deg - q.start_deg).abs() / q.speed_deg_s
+            + q.speed_deg_s / q.acceleration_deg_s2;
         assert!((tl.end_s() - want).abs() < 1e-9);
     }
 
@@ -803,7 +813,8 @@ mod tests {
         let k = s.sweep.points - 1;
         let a0 = sim.timeline().angle_at(sim.point_time_s(t0, 0));
         let a1 = sim.timeline().angle_at(sim.point_time_s(t0, k));
-        let want = s.positioner.speed_deg_s * s.sweep.sweep_duration_s * k as f64 / s.sweep.points as f64;
+        let want =
+            s.positioner.speed_deg_s * s.sweep.sweep_duration_s * k as f64 / s.sweep.points as f64;
         assert!(((a1 - a0) - want).abs() < 1e-6, "{a0} {a1} {want}");
         let sw = sim.sweep(mid).unwrap();
         assert_eq!(sw.s21.len(), s.sweep.points);
@@ -859,9 +870,17 @@ mod tests {
             f,
             f,
         );
-        assert!((d.boresight_gain_dbi(f) - 2.15).abs() < 0.02, "{}", d.boresight_gain_dbi(f));
+        assert!(
+            (d.boresight_gain_dbi(f) - 2.15).abs() < 0.02,
+            "{}",
+            d.boresight_gain_dbi(f)
+        );
         let c = AntennaModel::new(&Antenna::CosPower { n: 4.0 }, f, f);
-        assert!((c.boresight_gain_dbi(f) - 10.0).abs() < 0.03, "{}", c.boresight_gain_dbi(f));
+        assert!(
+            (c.boresight_gain_dbi(f) - 10.0).abs() < 0.03,
+            "{}",
+            c.boresight_gain_dbi(f)
+        );
         // Uniform aperture of many wavelengths: D ≈ 4πA/λ² (Balanis, Antenna Theory).
         let a = AntennaModel::new(
             &Antenna::Aperture {
@@ -875,7 +894,11 @@ mod tests {
         );
         let lambda = SPEED_OF_LIGHT_M_S / f;
         let want = 10.0 * (4.0 * PI * 0.04 / (lambda * lambda)).log10();
-        assert!((a.boresight_gain_dbi(f) - want).abs() < 0.5, "{} vs {want}", a.boresight_gain_dbi(f));
+        assert!(
+            (a.boresight_gain_dbi(f) - want).abs() < 0.5,
+            "{} vs {want}",
+            a.boresight_gain_dbi(f)
+        );
     }
 
     #[test]
@@ -883,9 +906,15 @@ mod tests {
         let mut a = Noise::new(7);
         let mut b = Noise::new(7);
         let xs: Vec<f64> = (0..20000).map(|_| a.gaussian()).collect();
-        assert!(xs.iter().zip((0..20000).map(|_| b.gaussian())).all(|(x, y)| *x == y));
+        assert!(xs
+            .iter()
+            .zip((0..20000).map(|_| b.gaussian()))
+            .all(|(x, y)| *x == y));
         let mean = xs.iter().sum::<f64>() / xs.len() as f64;
         let var = xs.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / xs.len() as f64;
-        assert!(mean.abs() < 0.03 && (var - 1.0).abs() < 0.05, "{mean} {var}");
+        assert!(
+            mean.abs() < 0.03 && (var - 1.0).abs() < 0.05,
+            "{mean} {var}"
+        );
     }
 }

@@ -676,7 +676,13 @@ sample_interval_s = 0.01
         let s = Scenario::from_toml(SMALL).unwrap();
         assert_eq!(s.sweep.points, 201);
         assert_eq!(s.probe, Antenna::Isotropic);
-        assert!(matches!(s.aut, Antenna::Aperture { width_taper: Taper::Cosine, .. }));
+        assert!(matches!(
+            s.aut,
+            Antenna::Aperture {
+                width_taper: Taper::Cosine,
+                ..
+            }
+        ));
         assert!(s.expected_sweeps() > 10);
     }
 
@@ -690,7 +696,7 @@ sample_interval_s = 0.01
             .unwrap_err()
             .to_string();
         assert!(e.contains("planes[0].reflection"), "{e}");
-        let e = Scenario::from_toml(&SMALL.replace("position_m = 0.0", "position_m = 1.6"))
+        let e = Scenario::from_toml(&SMALL.replace("position_m = 0.0", "position_m = 1.5"))
             .unwrap_err()
             .to_string();
         assert!(e.contains("planes[0].position_m"), "{e}");

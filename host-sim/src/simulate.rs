@@ -72,8 +72,7 @@ pub fn simulate_to_file(
     out: &Path,
     progress: bool,
 ) -> anyhow::Result<Summary> {
-    let file =
-        std::fs::File::create(out).with_context(|| format!("creating {}", out.display()))?;
+    let file = std::fs::File::create(out).with_context(|| format!("creating {}", out.display()))?;
     let (_, sum) = simulate_to(scenario, toml_text, seed, file, progress)
         .with_context(|| format!("writing {}", out.display()))?;
     Ok(sum)
@@ -111,10 +110,7 @@ pub fn simulate_to<W: std::io::Write>(
     w.write(&Record::Header(Box::new(header)))?;
 
     let angles = scenario.bin_centres_deg();
-    for (a, row) in angles
-        .iter()
-        .zip(physics::truth(scenario, &freqs, &angles))
-    {
+    for (a, row) in angles.iter().zip(physics::truth(scenario, &freqs, &angles)) {
         let values = freqs
             .iter()
             .zip(row)
