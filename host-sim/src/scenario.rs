@@ -716,4 +716,17 @@ sample_interval_s = 0.01
         );
         assert!(e.contains("point"), "{e}");
     }
+
+    #[test]
+    fn warns_about_echoes_beyond_the_alias_free_range() {
+        let s = Scenario::from_toml(SMALL).unwrap();
+        assert!(s.warnings().is_empty(), "{:?}", s.warnings());
+        // 21 points over 4 GHz: 200 MHz steps, alias-free 5 ns (1.5 m); a wall 3 m behind
+        // the probe adds 6 m.
+        let text = SMALL.replace("points = 201", "points = 21")
+            + "[[planes]]\naxis = \"x\"\nposition_m = 7.0\nreflection = -0.5\n";
+        let s = Scenario::from_toml(&text).unwrap();
+        let w = s.warnings();
+        assert!(w.iter().any(|x| x.contains("alias-free")), "{w:?}");
+    }
 }
