@@ -573,6 +573,19 @@ pub fn recover_file(path: &Path) -> std::io::Result<Recovered> {
 
 /// Writes a recording: the file header at creation, then one record per call, each in a
 /// single write followed by a flush.
+///
+/// ```
+/// use sweepgate_host::record::{recover, Record, Stop, Writer};
+/// let mut w = Writer::new(Vec::new()).unwrap();
+/// w.write(&Record::Position { t_us: 1_000, counts: 250, angle_deg: 2.5 }).unwrap();
+/// let (bytes, len) = w.finish().unwrap();
+/// assert_eq!(bytes.len() as u64, len);
+/// // Cut the end record in half: the position record is still recovered.
+/// let r = recover(&bytes[..bytes.len() - 10]);
+/// assert_eq!(r.records.len(), 1);
+/// assert!(matches!(r.stop, Stop::Fault(_)));
+/// println!("{}", r.describe_stop());
+/// ```
 #[derive(Debug)]
 pub struct Writer<W: Write> {
     out: W,
