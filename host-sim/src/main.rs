@@ -4,6 +4,8 @@ use clap::{Parser, Subcommand};
 
 mod demo;
 
+use sweepgate_host::simulate;
+
 /// Time-domain gating for antenna pattern scans in ordinary rooms.
 #[derive(Parser)]
 #[command(name = "sweepgate", version, about)]
@@ -16,12 +18,15 @@ struct Cli {
 enum Command {
     /// Run the built-in example and print what gating does to it.
     Demo(demo::Args),
+    /// Simulate a scan of a room scenario and write it as a recording.
+    Simulate(simulate::Args),
 }
 
 fn main() {
     let cli = Cli::parse();
     let result = match cli.command {
         Command::Demo(a) => demo::run(a),
+        Command::Simulate(a) => simulate::run(a),
     };
     if let Err(e) = result {
         eprintln!("error: {e:#}");

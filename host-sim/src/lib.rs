@@ -1,0 +1,11 @@
+//! Host side of sweepgate: room scenarios, the room simulator and scan recordings.
+//!
+//! The binary `sweepgate` (src/main.rs) is a thin command-line front end over these
+//! modules.
+#![forbid(unsafe_code)]
+#![warn(missing_docs)]
+
+pub mod physics;
+pub mod record;
+pub mod scenario;
+pub mod simulate;

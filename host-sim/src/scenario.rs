@@ -1,0 +1,732 @@
+//! Room scenarios: a TOML description of a range, its echoes, the antennas, the sweep and
+//! the positioner, validated once into a [`Scenario`].
+//!
+//! Geometry follows the core's convention (`sweepgate::plan`): the turntable axis is
+//! vertical through the origin, x points from the AUT to the probe, y to the left, z up
+//! from the floor at z = 0. The AUT's phase centre sits on the turntable axis at
+//! `range.aut_height_m`; the probe sits at `(range.distance_m, 0, range.probe_height_m)`
+//! and looks back along −x.
+//!
+//! Sections (all names are ours; `host-sim/scenarios/example-annotated.toml` documents
+//! every field):
+//!
+//! | section | fields |
+//! |---|---|
+//! | top level | `name`, `description` |
+//! | `[sweep]` | `start_hz`, `stop_hz`, `points`, `sweep_duration_s`, `sweep_gap_s`, `noise_db` |
+//! | `[range]` | `distance_m`, `aut_height_m`, `probe_height_m`, `cable_delay_s` |
+//! | `[[planes]]` | `name`, `axis` (`x`/`y`/`z`), `position_m`, `reflection` |
+//! | `[[scatterers]]` | `name`, `position_m = [x, y, z]`, `rcs_m2` |
+//! | `[aut]`, `[probe]` | `kind` = `isotropic`, `aperture`, `dipole`, `cos_power`, `array`, and its fields |
+//! | `[positioner]` | `mode` = `continuous` or `step`, `start_deg`, `stop_deg`, `speed_deg_s`, `acceleration_deg_s2`, `step_deg`, `settle_s`, `sweeps_per_step`, `counts_per_turn`, `sample_interval_s`, `timing_jitter_s` |
+//! | `[pattern]` | `frequencies_hz`, `bin_width_deg` |
+//! | `[simulation]` | `second_order`, `seed` |
+
+use std::fmt;
+use std::path::Path;
+
+use serde::{Deserialize, Serialize};
+use sweepgate::grid::Grid;
+use sweepgate::plan::{Axis, Plane, Point, SPEED_OF_LIGHT_M_S};
+
+/// Most sweeps a scenario may ask for (a guard against a typo running for hours).
+pub const MAX_SWEEPS: usize = 200_000;
+
+/// A scenario field that failed validation, with the reason.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ScenarioError {
+    /// Dotted path of the field, e.g. `sweep.stop_hz` or `planes[2].reflection`.
+    pub field: String,
+    /// What is wrong with it.
+    pub reason: String,
+}
+
+impl fmt::Display for ScenarioError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "scenario field `{}`: {}", self.field, self.reason)
+    }
+}
+
+impl std::error::Error for ScenarioError {}
+
+fn bad(field: impl Into<String>, reason: impl Into<String>) -> ScenarioError {
+    ScenarioError {
+        field: field.into(),
+        reason: reason.into(),
+    }
+}
+
+/// A whole scenario as read from TOML. Fields are public so that tests and tools can
+/// adjust a shipped scenario (for instance a shorter scan) before [`Scenario::validate`].
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Scenario {
+    /// Short name, used in titles.
+    pub name: String,
+    /// One or two sentences about the room.
+    #[serde(default)]
+    pub description: String,
+    /// The VNA sweep.
+    pub sweep: Sweep,
+    /// Range geometry.
+    pub range: Range,
+    /// Reflecting planes (floor, ceiling, walls).
+    #[serde(default)]
+    pub planes: Vec<PlaneSpec>,
+    /// Point scatterers (a mast, a fixture).
+    #[serde(default)]
+    pub scatterers: Vec<Scatterer>,
+    /// The antenna under test, on the turntable.
+    pub aut: Antenna,
+    /// The probe (range antenna), fixed, looking at the AUT.
+    #[serde(default)]
+    pub probe: Antenna,
+    /// The turntable's motion and its encoder.
+    pub positioner: Positioner,
+    /// What the scan is for: pattern frequencies and angle bins.
+    #[serde(default)]
+    pub pattern: Pattern,
+    /// Simulation switches.
+    #[serde(default)]
+    pub simulation: Simulation,
+}
+
+/// `[sweep]`: the VNA's frequency sweep.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Sweep {
+    /// First frequency, Hz.
+    pub start_hz: f64,
+    /// Last frequency, Hz (measured).
+    pub stop_hz: f64,
+    /// Number of frequency points.
+    pub points: usize,
+    /// Time one sweep takes, first point to end, s. Point k is measured at
+    /// `start + k·sweep_duration_s/points`.
+    pub sweep_duration_s: f64,
+    /// Dead time between the end of one sweep and the start of the next, s.
+    #[serde(default)]
+    pub sweep_gap_s: f64,
+    /// RMS magnitude of the additive complex Gaussian noise, dB relative to |S21| = 1.
+    /// Absent: no noise.
+    #[serde(default)]
+    pub noise_db: Option<f64>,
+}
+
+/// `[range]`: where the antennas are.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Range {
+    /// Horizontal distance from the turntable axis to the probe, m.
+    pub distance_m: f64,
+    /// Height of the AUT's phase centre above the floor, m.
+    pub aut_height_m: f64,
+    /// Height of the probe above the floor, m.
+    pub probe_height_m: f64,
+    /// Extra delay of the cables and adapters (all paths), s.
+    #[serde(default)]
+    pub cable_delay_s: f64,
+}
+
+/// Axis names in TOML: `x`, `y`, `z`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum AxisName {
+    /// A wall across the range: x = const.
+    X,
+    /// A side wall: y = const.
+    Y,
+    /// Floor or ceiling: z = const.
+    Z,
+}
+
+impl From<AxisName> for Axis {
+    fn from(a: AxisName) -> Self {
+        match a {
+            AxisName::X => Axis::X,
+            AxisName::Y => Axis::Y,
+            AxisName::Z => Axis::Z,
+        }
+    }
+}
+
+/// `[[planes]]`: one infinite axis-aligned reflecting plane.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct PlaneSpec {
+    /// A label ("floor", "left wall").
+    #[serde(default)]
+    pub name: String,
+    /// Which coordinate is constant on the plane.
+    pub axis: AxisName,
+    /// Value of that coordinate, m.
+    pub position_m: f64,
+    /// Field reflection coefficient, −1…1 (−1: bare metal).
+    pub reflection: f64,
+}
+
+impl PlaneSpec {
+    /// The core's plane.
+    pub fn plane(&self) -> Plane {
+        Plane {
+            axis: self.axis.into(),
+            position_m: self.position_m,
+            reflection: self.reflection,
+        }
+    }
+}
+
+/// `[[scatterers]]`: a point that re-radiates isotropically.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Scatterer {
+    /// A label ("mast").
+    #[serde(default)]
+    pub name: String,
+    /// Position `[x, y, z]`, m.
+    pub position_m: [f64; 3],
+    /// Bistatic radar cross-section σ, m² (frequency independent). The path amplitude is
+    /// √σ·λ / ((4π)^1.5·r1·r2) times the antenna patterns (radar equation).
+    pub rcs_m2: f64,
+}
+
+impl Scatterer {
+    /// Position as a core point.
+    pub fn point(&self) -> Point {
+        Point::new(self.position_m[0], self.position_m[1], self.position_m[2])
+    }
+}
+
+/// How an aperture's illumination falls off towards its edges (in one dimension).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Taper {
+    /// Uniform illumination (sinc pattern, −13.3 dB sidelobes).
+    #[default]
+    Uniform,
+    /// Cosine illumination (−23 dB sidelobes, wider beam).
+    Cosine,
+}
+
+/// `[aut]` / `[probe]`: a built-in analytic antenna. Each antenna's boresight is its own
+/// +x axis (for the probe: pointing back at the AUT), y left, z up.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, Default)]
+#[serde(tag = "kind", rename_all = "snake_case", deny_unknown_fields)]
+pub enum Antenna {
+    /// Gain 1 in every direction (for checks against closed forms).
+    #[default]
+    Isotropic,
+    /// A rectangular aperture in the antenna's y–z plane (a horn mouth, a flat panel).
+    Aperture {
+        /// Horizontal size (along y), m.
+        width_m: f64,
+        /// Vertical size (along z), m.
+        height_m: f64,
+        /// Illumination across the width.
+        #[serde(default)]
+        width_taper: Taper,
+        /// Illumination across the height.
+        #[serde(default)]
+        height_taper: Taper,
+    },
+    /// A thin centre-fed dipole of fixed length (half-wave at `length_m = λ/2`).
+    Dipole {
+        /// Total length, m.
+        length_m: f64,
+        /// Which antenna axis the wire lies along (`y`: horizontal, `z`: vertical).
+        axis: AxisName,
+    },
+    /// Power pattern cos^n θ in front (θ from boresight), nothing behind; frequency
+    /// independent.
+    CosPower {
+        /// Power exponent n.
+        n: f64,
+    },
+    /// A uniform linear array along the antenna's y axis of cos^n elements.
+    Array {
+        /// Number of elements.
+        elements: usize,
+        /// Element spacing, m.
+        spacing_m: f64,
+        /// Power exponent of each element's cos^n pattern (0: isotropic elements).
+        #[serde(default)]
+        element_n: f64,
+    },
+}
+
+/// Motion modes of the turntable.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Mode {
+    /// One move from start to stop (trapezoidal speed profile); sweeps run back to back
+    /// throughout.
+    Continuous,
+    /// Move by `step_deg`, wait `settle_s`, take `sweeps_per_step` sweeps, repeat.
+    Step,
+}
+
+/// `[positioner]`: the turntable and its encoder.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Positioner {
+    /// Continuous or step-and-stop.
+    pub mode: Mode,
+    /// First angle, degrees (AUT boresight towards the probe at 0).
+    pub start_deg: f64,
+    /// Last angle, degrees.
+    pub stop_deg: f64,
+    /// Top speed, degrees per second.
+    pub speed_deg_s: f64,
+    /// Acceleration and deceleration, degrees per second².
+    pub acceleration_deg_s2: f64,
+    /// Step size in step mode, degrees.
+    #[serde(default)]
+    pub step_deg: Option<f64>,
+    /// Wait after each step before sweeping, s.
+    #[serde(default)]
+    pub settle_s: f64,
+    /// Sweeps taken at each step.
+    #[serde(default = "one")]
+    pub sweeps_per_step: usize,
+    /// Encoder counts per full turn (angle resolution 360°/counts).
+    pub counts_per_turn: u32,
+    /// Interval between positioner samples, s.
+    pub sample_interval_s: f64,
+    /// Standard deviation of the error of each sample's timestamp, s.
+    #[serde(default)]
+    pub timing_jitter_s: f64,
+}
+
+fn one() -> usize {
+    1
+}
+
+/// `[pattern]`: what the scan is for. The simulator writes the true free-space pattern
+/// at these frequencies, at the centre of each bin.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, Default)]
+#[serde(deny_unknown_fields)]
+pub struct Pattern {
+    /// Pattern frequencies, Hz (each snapped to the nearest sweep point). Empty: the
+    /// sweep's centre point.
+    #[serde(default)]
+    pub frequencies_hz: Vec<f64>,
+    /// Angle bin width, degrees. Absent: 1°.
+    #[serde(default)]
+    pub bin_width_deg: Option<f64>,
+}
+
+/// `[simulation]`: physics switches.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, Default)]
+#[serde(deny_unknown_fields)]
+pub struct Simulation {
+    /// Also model two-bounce echoes (via two different planes).
+    #[serde(default)]
+    pub second_order: bool,
+    /// Seed of the noise and jitter generator (the command line's `--seed` wins).
+    #[serde(default)]
+    pub seed: u64,
+}
+
+fn finite(field: &str, v: f64) -> Result<f64, ScenarioError> {
+    if v.is_finite() {
+        Ok(v)
+    } else {
+        Err(bad(field, "must be a finite number"))
+    }
+}
+
+fn positive(field: &str, v: f64) -> Result<f64, ScenarioError> {
+    if finite(field, v)? > 0.0 {
+        Ok(v)
+    } else {
+        Err(bad(field, format!("must be above 0 (got {v})")))
+    }
+}
+
+fn non_negative(field: &str, v: f64) -> Result<f64, ScenarioError> {
+    if finite(field, v)? >= 0.0 {
+        Ok(v)
+    } else {
+        Err(bad(field, format!("must not be negative (got {v})")))
+    }
+}
+
+impl Antenna {
+    fn validate(&self, section: &str) -> Result<(), ScenarioError> {
+        let f = |name: &str| format!("{section}.{name}");
+        match self {
+            Antenna::Isotropic => {}
+            Antenna::Aperture {
+                width_m, height_m, ..
+            } => {
+                positive(&f("width_m"), *width_m)?;
+                positive(&f("height_m"), *height_m)?;
+            }
+            Antenna::Dipole { length_m, axis } => {
+                positive(&f("length_m"), *length_m)?;
+                if *axis == AxisName::X {
+                    return Err(bad(
+                        f("axis"),
+                        "a dipole along its own boresight (x) is not modelled; use y or z",
+                    ));
+                }
+            }
+            Antenna::CosPower { n } => {
+                non_negative(&f("n"), *n)?;
+            }
+            Antenna::Array {
+                elements,
+                spacing_m,
+                element_n,
+            } => {
+                if !(1..=1024).contains(elements) {
+                    return Err(bad(f("elements"), "must be 1…1024"));
+                }
+                positive(&f("spacing_m"), *spacing_m)?;
+                non_negative(&f("element_n"), *element_n)?;
+            }
+        }
+        Ok(())
+    }
+}
+
+impl Scenario {
+    /// Parses TOML text and validates it.
+    pub fn from_toml(text: &str) -> anyhow::Result<Self> {
+        let s: Scenario = toml::from_str(text)?;
+        s.validate()?;
+        Ok(s)
+    }
+
+    /// Reads and validates a scenario file.
+    pub fn load(path: &Path) -> anyhow::Result<Self> {
+        use anyhow::Context;
+        let text = std::fs::read_to_string(path)
+            .with_context(|| format!("reading scenario {}", path.display()))?;
+        Self::from_toml(&text).with_context(|| format!("in scenario {}", path.display()))
+    }
+
+    /// Checks every field; the error names the first bad one.
+    pub fn validate(&self) -> Result<(), ScenarioError> {
+        if self.name.trim().is_empty() {
+            return Err(bad("name", "must not be empty"));
+        }
+        let s = &self.sweep;
+        positive("sweep.start_hz", s.start_hz)?;
+        positive("sweep.stop_hz", s.stop_hz)?;
+        if s.stop_hz <= s.start_hz {
+            return Err(bad("sweep.stop_hz", "must be above sweep.start_hz"));
+        }
+        if !(2..=usize::from(u16::MAX)).contains(&s.points) {
+            return Err(bad("sweep.points", "must be 2…65535"));
+        }
+        positive("sweep.sweep_duration_s", s.sweep_duration_s)?;
+        non_negative("sweep.sweep_gap_s", s.sweep_gap_s)?;
+        if let Some(n) = s.noise_db {
+            finite("sweep.noise_db", n)?;
+        }
+        self.grid()
+            .map_err(|e| bad("sweep", format!("not a usable grid: {e}")))?;
+
+        let r = &self.range;
+        positive("range.distance_m", r.distance_m)?;
+        finite("range.aut_height_m", r.aut_height_m)?;
+        finite("range.probe_height_m", r.probe_height_m)?;
+        non_negative("range.cable_delay_s", r.cable_delay_s)?;
+
+        let (a, p) = (self.aut_position(), self.probe_position());
+        for (i, pl) in self.planes.iter().enumerate() {
+            let field = |n: &str| format!("planes[{i}].{n}");
+            finite(&field("position_m"), pl.position_m)?;
+            let g = finite(&field("reflection"), pl.reflection)?;
+            if !(-1.0..=1.0).contains(&g) {
+                return Err(bad(field("reflection"), "must be within −1…1"));
+            }
+            if pl.plane().bounce_point(&a, &p).is_none() {
+                return Err(bad(
+                    field("position_m"),
+                    "the AUT and the probe must both be strictly on the same side of the plane",
+                ));
+            }
+        }
+        for (i, sc) in self.scatterers.iter().enumerate() {
+            let field = |n: &str| format!("scatterers[{i}].{n}");
+            for v in sc.position_m {
+                finite(&field("position_m"), v)?;
+            }
+            non_negative(&field("rcs_m2"), sc.rcs_m2)?;
+            if sc.point().distance_m(&a) < 1e-3 || sc.point().distance_m(&p) < 1e-3 {
+                return Err(bad(
+                    field("position_m"),
+                    "must not coincide with the AUT or the probe",
+                ));
+            }
+        }
+        self.aut.validate("aut")?;
+        self.probe.validate("probe")?;
+
+        let q = &self.positioner;
+        finite("positioner.start_deg", q.start_deg)?;
+        finite("positioner.stop_deg", q.stop_deg)?;
+        if q.start_deg == q.stop_deg {
+            return Err(bad("positioner.stop_deg", "must differ from start_deg"));
+        }
+        if (q.stop_deg - q.start_deg).abs() > 3600.0 {
+            return Err(bad("positioner.stop_deg", "span above 10 turns"));
+        }
+        positive("positioner.speed_deg_s", q.speed_deg_s)?;
+        positive("positioner.acceleration_deg_s2", q.acceleration_deg_s2)?;
+        non_negative("positioner.settle_s", q.settle_s)?;
+        if q.mode == Mode::Step {
+            match q.step_deg {
+                None => return Err(bad("positioner.step_deg", "required in step mode")),
+                Some(st) => {
+                    positive("positioner.step_deg", st)?;
+                }
+            }
+            if q.sweeps_per_step == 0 {
+                return Err(bad("positioner.sweeps_per_step", "must be at least 1"));
+            }
+        }
+        if q.counts_per_turn == 0 {
+            return Err(bad("positioner.counts_per_turn", "must be at least 1"));
+        }
+        positive("positioner.sample_interval_s", q.sample_interval_s)?;
+        non_negative("positioner.timing_jitter_s", q.timing_jitter_s)?;
+        if q.timing_jitter_s > q.sample_interval_s {
+            return Err(bad(
+                "positioner.timing_jitter_s",
+                "must not exceed sample_interval_s",
+            ));
+        }
+
+        let grid = self.grid().map_err(|e| bad("sweep", e.to_string()))?;
+        for (i, f) in self.pattern.frequencies_hz.iter().enumerate() {
+            let field = format!("pattern.frequencies_hz[{i}]");
+            finite(&field, *f)?;
+            if grid.nearest_index(*f).is_none() {
+                return Err(bad(field, "lies outside the sweep"));
+            }
+        }
+        if let Some(b) = self.pattern.bin_width_deg {
+            positive("pattern.bin_width_deg", b)?;
+        }
+        let n = self.expected_sweeps();
+        if n > MAX_SWEEPS {
+            return Err(bad(
+                "positioner",
+                format!("the scan would take {n} sweeps (limit {MAX_SWEEPS})"),
+            ));
+        }
+        if n == 0 {
+            return Err(bad(
+                "positioner",
+                "the scan is shorter than one sweep: no sweep would be taken",
+            ));
+        }
+        Ok(())
+    }
+
+    /// Things that are legal but probably not what was meant (echoes beyond the
+    /// alias-free range, a far field farther than the range).
+    pub fn warnings(&self) -> Vec<String> {
+        let mut w = Vec::new();
+        let Ok(grid) = self.grid() else {
+            return w;
+        };
+        let direct = self.range_length_m();
+        let longest = crate::physics::Room::new(self)
+            .paths()
+            .iter()
+            .map(|p| p.length_m)
+            .fold(direct, f64::max);
+        let excess_s = (longest - direct) / SPEED_OF_LIGHT_M_S;
+        if excess_s >= grid.alias_free_s() {
+            w.push(format!(
+                "the longest echo arrives {:.1} ns after the direct path, beyond the alias-free range {:.1} ns (1/Δf): it will wrap",
+                excess_s * 1e9,
+                grid.alias_free_s() * 1e9
+            ));
+        }
+        if let Some(d) = self.aut.largest_size_m() {
+            let lambda = SPEED_OF_LIGHT_M_S / self.sweep.stop_hz;
+            let ff = 2.0 * d * d / lambda;
+            if ff > direct {
+                w.push(format!(
+                    "the far field of the AUT at the top frequency starts at {ff:.2} m (2D²/λ), beyond the range length {direct:.2} m"
+                ));
+            }
+        }
+        w
+    }
+
+    /// The sweep's frequency grid.
+    pub fn grid(&self) -> Result<Grid, sweepgate::error::GridError> {
+        Grid::from_start_stop(self.sweep.start_hz, self.sweep.stop_hz, self.sweep.points)
+    }
+
+    /// AUT phase centre.
+    pub fn aut_position(&self) -> Point {
+        Point::new(0.0, 0.0, self.range.aut_height_m)
+    }
+
+    /// Probe position.
+    pub fn probe_position(&self) -> Point {
+        Point::new(self.range.distance_m, 0.0, self.range.probe_height_m)
+    }
+
+    /// Direct path length, m.
+    pub fn range_length_m(&self) -> f64 {
+        self.aut_position().distance_m(&self.probe_position())
+    }
+
+    /// Pattern frequencies snapped to the grid (the centre point when none are given).
+    pub fn pattern_frequencies_hz(&self) -> Vec<f64> {
+        let Ok(grid) = self.grid() else {
+            return Vec::new();
+        };
+        if self.pattern.frequencies_hz.is_empty() {
+            return vec![grid.frequency_hz(grid.points() / 2)];
+        }
+        self.pattern
+            .frequencies_hz
+            .iter()
+            .filter_map(|f| grid.nearest_index(*f))
+            .map(|i| grid.frequency_hz(i))
+            .collect()
+    }
+
+    /// Bin width, degrees.
+    pub fn bin_width_deg(&self) -> f64 {
+        self.pattern.bin_width_deg.unwrap_or(1.0)
+    }
+
+    /// Centres of the angle bins covering the scan, degrees, in scan order.
+    pub fn bin_centres_deg(&self) -> Vec<f64> {
+        let q = &self.positioner;
+        let w = self.bin_width_deg();
+        let span = (q.stop_deg - q.start_deg).abs();
+        let dir = (q.stop_deg - q.start_deg).signum();
+        let n = ((span / w).floor() as usize).max(1);
+        (0..n)
+            .map(|i| q.start_deg + dir * (i as f64 + 0.5) * w)
+            .collect()
+    }
+
+    /// Number of sweeps the scan will take.
+    pub fn expected_sweeps(&self) -> usize {
+        crate::physics::Timeline::new(self).sweep_starts_s().len()
+    }
+}
+
+impl Antenna {
+    /// Largest dimension of the antenna, m (`None` for the size-less models).
+    pub fn largest_size_m(&self) -> Option<f64> {
+        match self {
+            Antenna::Aperture {
+                width_m, height_m, ..
+            } => Some(width_m.hypot(*height_m)),
+            Antenna::Dipole { length_m, .. } => Some(*length_m),
+            Antenna::Array {
+                elements,
+                spacing_m,
+                ..
+            } => Some(*elements as f64 * spacing_m),
+            Antenna::Isotropic | Antenna::CosPower { .. } => None,
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const SMALL: &str = r#"
+name = "t"
+[sweep]
+start_hz = 8e9
+stop_hz = 12e9
+points = 201
+sweep_duration_s = 0.02
+[range]
+distance_m = 4.0
+aut_height_m = 1.5
+probe_height_m = 1.5
+[[planes]]
+axis = "z"
+position_m = 0.0
+reflection = -0.3
+[aut]
+kind = "aperture"
+width_m = 0.1
+height_m = 0.08
+width_taper = "cosine"
+[positioner]
+mode = "continuous"
+start_deg = -10
+stop_deg = 10
+speed_deg_s = 20
+acceleration_deg_s2 = 40
+counts_per_turn = 36000
+sample_interval_s = 0.01
+"#;
+
+    #[test]
+    fn parses_a_small_scenario() {
+        let s = Scenario::from_toml(SMALL).unwrap();
+        assert_eq!(s.sweep.points, 201);
+        assert_eq!(s.probe, Antenna::Isotropic);
+        assert!(matches!(
+            s.aut,
+            Antenna::Aperture {
+                width_taper: Taper::Cosine,
+                ..
+            }
+        ));
+        assert!(s.expected_sweeps() > 10);
+    }
+
+    #[test]
+    fn errors_name_the_field() {
+        let e = Scenario::from_toml(&SMALL.replace("stop_hz = 12e9", "stop_hz = 7e9"))
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("sweep.stop_hz"), "{e}");
+        let e = Scenario::from_toml(&SMALL.replace("reflection = -0.3", "reflection = -1.3"))
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("planes[0].reflection"), "{e}");
+        let e = Scenario::from_toml(&SMALL.replace("position_m = 0.0", "position_m = 1.5"))
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("planes[0].position_m"), "{e}");
+        let e = Scenario::from_toml(&SMALL.replace("width_m = 0.1", "width_m = -0.1"))
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("aut.width_m"), "{e}");
+        let e = Scenario::from_toml(&SMALL.replace("mode = \"continuous\"", "mode = \"step\""))
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("positioner.step_deg"), "{e}");
+        // Unknown fields are refused, and serde names them.
+        let e = format!(
+            "{:#}",
+            Scenario::from_toml(&SMALL.replace("points = 201", "points = 201\npoint = 3"))
+                .unwrap_err()
+        );
+        assert!(e.contains("point"), "{e}");
+    }
+
+    #[test]
+    fn warns_about_echoes_beyond_the_alias_free_range() {
+        let s = Scenario::from_toml(SMALL).unwrap();
+        assert!(s.warnings().is_empty(), "{:?}", s.warnings());
+        // 21 points over 4 GHz: 200 MHz steps, alias-free 5 ns (1.5 m); a wall 3 m behind
+        // the probe adds 6 m.
+        let text = SMALL.replace("points = 201", "points = 21")
+            + "[[planes]]\naxis = \"x\"\nposition_m = 7.0\nreflection = -0.5\n";
+        let s = Scenario::from_toml(&text).unwrap();
+        let w = s.warnings();
+        assert!(w.iter().any(|x| x.contains("alias-free")), "{w:?}");
+    }
+}

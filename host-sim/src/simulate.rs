@@ -1,0 +1,177 @@
+//! `sweepgate simulate --scenario FILE --out REC [--seed N]`: simulates a scan of a room
+//! scenario and writes it as a recording (see [`crate::record`]).
+//!
+//! The recording holds, in order: the header (scenario, grid, sweep format), the
+//! free-space truth at the centre of every angle bin and each pattern frequency, then the
+//! positioner samples and sweeps interleaved by time (a sweep is written at its end
+//! time, after every sample stamped up to then), and an end record.
+
+use std::path::{Path, PathBuf};
+
+use anyhow::Context;
+use num_complex::Complex32;
+
+use crate::physics::{self, Simulator};
+use crate::record::{GridInfo, Header, Record, Writer, SWEEP_FORMAT};
+use crate::scenario::Scenario;
+
+/// Options of `sweepgate simulate`.
+#[derive(clap::Args, Debug)]
+pub struct Args {
+    /// Scenario file (TOML).
+    #[arg(long)]
+    pub scenario: PathBuf,
+    /// Recording to write.
+    #[arg(long)]
+    pub out: PathBuf,
+    /// Seed of the noise and jitter (default: the scenario's `simulation.seed`).
+    #[arg(long)]
+    pub seed: Option<u64>,
+}
+
+/// What a simulation wrote.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Summary {
+    /// Sweep records.
+    pub sweeps: u64,
+    /// Positioner sample records.
+    pub positions: u64,
+    /// Truth records.
+    pub truths: u64,
+    /// File size, bytes.
+    pub bytes: u64,
+}
+
+/// Runs the command.
+pub fn run(args: Args) -> anyhow::Result<()> {
+    let text = std::fs::read_to_string(&args.scenario)
+        .with_context(|| format!("reading scenario {}", args.scenario.display()))?;
+    let scenario = Scenario::from_toml(&text)
+        .with_context(|| format!("in scenario {}", args.scenario.display()))?;
+    for w in scenario.warnings() {
+        eprintln!("warning: {w}");
+    }
+    let seed = args.seed.unwrap_or(scenario.simulation.seed);
+    let sum = simulate_to_file(&scenario, Some(&text), seed, &args.out, true)?;
+    eprintln!(
+        "wrote {} sweeps, {} positioner samples and {} truth records ({} bytes) to {}",
+        sum.sweeps,
+        sum.positions,
+        sum.truths,
+        sum.bytes,
+        args.out.display()
+    );
+    Ok(())
+}
+
+/// Simulates `scenario` into a new recording file at `out`.
+pub fn simulate_to_file(
+    scenario: &Scenario,
+    toml_text: Option<&str>,
+    seed: u64,
+    out: &Path,
+    progress: bool,
+) -> anyhow::Result<Summary> {
+    let file = std::fs::File::create(out).with_context(|| format!("creating {}", out.display()))?;
+    let (_, sum) = simulate_to(scenario, toml_text, seed, file, progress)
+        .with_context(|| format!("writing {}", out.display()))?;
+    Ok(sum)
+}
+
+/// Simulates `scenario` into any writer; returns the writer and what was written.
+pub fn simulate_to<W: std::io::Write>(
+    scenario: &Scenario,
+    toml_text: Option<&str>,
+    seed: u64,
+    out: W,
+    progress: bool,
+) -> anyhow::Result<(W, Summary)> {
+    scenario.validate()?;
+    let grid = scenario.grid()?;
+    let mut sim = Simulator::new(scenario, seed);
+    let mut w = Writer::new(out)?;
+    let freqs = scenario.pattern_frequencies_hz();
+    let header = Header {
+        software: format!("sweepgate {}", env!("CARGO_PKG_VERSION")),
+        source: "simulate".into(),
+        scenario: Some(scenario.clone()),
+        scenario_toml: toml_text.map(str::to_owned),
+        seed: Some(seed),
+        grid: GridInfo {
+            start_hz: grid.start_hz(),
+            step_hz: grid.step_hz(),
+            points: grid.points(),
+        },
+        sweep_format: SWEEP_FORMAT.into(),
+        pattern_frequencies_hz: freqs.clone(),
+        bin_width_deg: Some(scenario.bin_width_deg()),
+        counts_per_turn: Some(scenario.positioner.counts_per_turn),
+    };
+    w.write(&Record::Header(Box::new(header)))?;
+
+    let angles = scenario.bin_centres_deg();
+    for (a, row) in angles.iter().zip(physics::truth(scenario, &freqs, &angles)) {
+        let values = freqs
+            .iter()
+            .zip(row)
+            .map(|(f, v)| (*f, Complex32::new(v.re as f32, v.im as f32)))
+            .collect();
+        w.write(&Record::Truth {
+            angle_deg: *a,
+            values,
+        })?;
+    }
+
+    let samples = sim.samples();
+    let n_sweeps = sim.timeline().sweep_starts_s().len();
+    let bar = if progress {
+        let b = indicatif::ProgressBar::new(n_sweeps as u64);
+        b.set_style(
+            indicatif::ProgressStyle::with_template(
+                "simulating {bar:40} {pos}/{len} sweeps, {eta} left",
+            )
+            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+        );
+        b
+    } else {
+        indicatif::ProgressBar::hidden()
+    };
+    let mut next_sample = 0;
+    for i in 0..n_sweeps {
+        let Some(sw) = sim.sweep(i) else { break };
+        while let Some(s) = samples.get(next_sample).filter(|s| s.t_us <= sw.end_us) {
+            w.write(&Record::Position {
+                t_us: s.t_us,
+                counts: s.counts,
+                angle_deg: s.angle_deg,
+            })?;
+            next_sample += 1;
+        }
+        w.write(&Record::Sweep {
+            index: sw.index,
+            start_us: sw.start_us,
+            end_us: sw.end_us,
+            s21: sw.s21,
+        })?;
+        bar.inc(1);
+    }
+    for s in samples.get(next_sample..).unwrap_or(&[]) {
+        w.write(&Record::Position {
+            t_us: s.t_us,
+            counts: s.counts,
+            angle_deg: s.angle_deg,
+        })?;
+    }
+    bar.finish_and_clear();
+    let (sweeps, positions, truths) = w.counts();
+    let (out, bytes) = w.finish()?;
+    Ok((
+        out,
+        Summary {
+            sweeps,
+            positions,
+            truths,
+            bytes,
+        },
+    ))
+}
