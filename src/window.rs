@@ -83,7 +83,9 @@ impl WindowKind {
             }
             Self::Hann => 0.5 - 0.5 * c(1.0),
             Self::Hamming => 0.54 - 0.46 * c(1.0),
-            Self::BlackmanHarris => 0.35875 - 0.48829 * c(1.0) + 0.14128 * c(2.0) - 0.01168 * c(3.0),
+            Self::BlackmanHarris => {
+                0.35875 - 0.48829 * c(1.0) + 0.14128 * c(2.0) - 0.01168 * c(3.0)
+            }
         }
     }
 

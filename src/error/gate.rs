@@ -78,10 +78,12 @@ pub enum GateError {
     BandWindow(WindowError),
     /// The gate shape's parameter is out of range.
     GateShape(WindowError),
-    /// The renormalization reference is zero at some frequency: the band window and gate leave
-    /// nothing there to divide by.
-    RenormalizationSingular {
-        /// Frequency index where the reference vanished.
+    /// Edge renormalization would divide by less than [`crate::gate::RENORM_FLOOR`] (−80 dB)
+    /// at some frequency, which happens when the band window vanishes at the band ends
+    /// (Hann, Blackman-Harris) and the gate is wide: the result there would be noise
+    /// amplified by more than 80 dB.
+    RenormalizationIllConditioned {
+        /// First frequency index where the reference fell below the floor.
         index: u32,
     },
     /// A pattern frequency index is not below the sweep's point count.
@@ -113,9 +115,10 @@ impl fmt::Display for GateError {
             ),
             Self::BandWindow(e) => write!(f, "band window: {e}"),
             Self::GateShape(e) => write!(f, "gate shape: {e}"),
-            Self::RenormalizationSingular { index } => write!(
+            Self::RenormalizationIllConditioned { index } => write!(
                 f,
-                "edge renormalization divides by zero at frequency index {index}"
+                "edge renormalization would amplify by over 80 dB at frequency index {index}; \
+                 use a band window with non-zero ends (Kaiser, Tukey, Hamming) or turn it off"
             ),
             Self::FrequencyIndexOutOfRange { index, points } => write!(
                 f,
