@@ -255,18 +255,12 @@ pub struct Tracker<const N: usize> {
     len: usize,
     /// Last raw (possibly wrapped) angle reading, for shortest-way unwrapping.
     last_reading_deg: f32,
+    /// Whole turns added to the reading to make it continuous.
+    turns: i32,
     still_anchor_deg: f32,
     still_since_us: u64,
     jumps_in_row: u16,
     counters: TrackCounters,
-}
-
-fn wrap180(d: f32) -> f32 {
-    let mut x = libm::fmodf(d + 180.0, 360.0);
-    if x < 0.0 {
-        x += 360.0;
-    }
-    x - 180.0
 }
 
 impl<const N: usize> Tracker<N> {
@@ -284,6 +278,7 @@ impl<const N: usize> Tracker<N> {
             head: 0,
             len: 0,
             last_reading_deg: 0.0,
+            turns: 0,
             still_anchor_deg: 0.0,
             still_since_us: 0,
             jumps_in_row: 0,
@@ -443,23 +438,36 @@ impl<const N: usize> Tracker<N> {
         if !reading.is_finite() {
             return Err(SampleReject::NonFinite);
         }
-        let Some((t0, a0)) = self.latest() else {
+        let Some((t0, _)) = self.latest() else {
             self.last_reading_deg = reading;
+            self.turns = 0;
             self.restart(t_us, reading);
             return Ok(Accepted::Appended);
         };
         if t_us <= t0 {
             return Err(SampleReject::NonMonotonic);
         }
-        let cont = a0 + wrap180(reading - self.last_reading_deg);
+        // Whole turns are counted as an integer and added once, so the continuous angle
+        // carries no accumulated rounding however long the scan runs.
+        let d = reading - self.last_reading_deg;
+        let turns = if d > 180.0 {
+            self.turns.saturating_sub(1)
+        } else if d < -180.0 {
+            self.turns.saturating_add(1)
+        } else {
+            self.turns
+        };
+        let cont = reading + 360.0 * turns as f32;
         if self.check(t_us, cont)? {
             self.last_reading_deg = reading;
+            self.turns = 0;
             self.jumps_in_row = 0;
             self.restart(t_us, reading);
             return Ok(Accepted::Resynced);
         }
         self.jumps_in_row = 0;
         self.last_reading_deg = reading;
+        self.turns = turns;
         self.append(t_us, cont);
         Ok(Accepted::Appended)
     }
