@@ -136,10 +136,13 @@ pub fn cobs_encode(src: &[u8], dst: &mut [u8]) -> Result<usize, EmitError> {
     let mut code_at = 0usize;
     let mut w = 1usize;
     let mut code: u8 = 1;
+    // A block closed at 254 data bytes needs no further code byte if the input ends there.
+    let mut after_full_block = false;
     if dst.is_empty() {
         return Err(EmitError::BufferFull);
     }
     for &b in src {
+        after_full_block = false;
         if b == 0 {
             *dst.get_mut(code_at).ok_or(EmitError::BufferFull)? = code;
             code_at = w;
@@ -154,8 +157,12 @@ pub fn cobs_encode(src: &[u8], dst: &mut [u8]) -> Result<usize, EmitError> {
                 code_at = w;
                 w += 1;
                 code = 1;
+                after_full_block = true;
             }
         }
+    }
+    if after_full_block {
+        return Ok(w - 1);
     }
     *dst.get_mut(code_at).ok_or(EmitError::BufferFull)? = code;
     Ok(w)
