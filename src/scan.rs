@@ -144,7 +144,6 @@ impl ScanConfig {
 
 /// A gated bin result.
 #[derive(Debug, Clone, Copy, PartialEq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct BinResult<const F: usize> {
     /// Bin index.
     pub index: u16,
@@ -166,6 +165,28 @@ pub struct BinResult<const F: usize> {
     pub gated: [Complex32; F],
     /// Echo level in dB, if computed.
     pub echo_db: Option<f32>,
+}
+
+// `Complex32` has no `defmt::Format`: print the scalar fields and the values' parts.
+#[cfg(feature = "defmt")]
+impl<const F: usize> defmt::Format for BinResult<F> {
+    fn format(&self, f: defmt::Formatter) {
+        defmt::write!(
+            f,
+            "BinResult {{ index: {}, nominal_deg: {}, mean_deg: {}, sweeps: {}, max_smear_deg: {}, flags: {}, echo_db: {}, gated:",
+            self.index,
+            self.nominal_deg,
+            self.mean_deg,
+            self.sweeps,
+            self.max_smear_deg,
+            self.flags,
+            self.echo_db
+        );
+        for g in &self.gated {
+            defmt::write!(f, " ({}, {})", g.re, g.im);
+        }
+        defmt::write!(f, " }}");
+    }
 }
 
 impl<const F: usize> BinResult<F> {

@@ -246,6 +246,7 @@ impl EncoderState {
 ///
 /// See the [module docs](self) for an example.
 #[derive(Debug, Clone)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Tracker<const N: usize> {
     cfg: TrackConfig,
     encoder: Option<EncoderState>,
@@ -487,10 +488,7 @@ impl<const N: usize> Tracker<N> {
         }
         let total = enc.unwrap(raw);
         let angle = enc.angle_deg(total);
-        let resync = match self.check(t_us, angle) {
-            Ok(r) => r,
-            Err(e) => return Err(e),
-        };
+        let resync = self.check(t_us, angle)?;
         self.jumps_in_row = 0;
         if resync {
             let total = i64::from(raw);

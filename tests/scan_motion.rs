@@ -42,6 +42,10 @@ fn wrap180(x: f64) -> f64 {
     (x + 180.0).rem_euclid(360.0) - 180.0
 }
 
+/// The open bin while expectations are built: index, direction, and per sweep
+/// (mid angle, smear, value).
+type OpenExpect = (u16, Direction, Vec<(f64, f64, f64)>);
+
 /// What the engine should report for one bin.
 #[derive(Debug)]
 struct Expect {
@@ -65,10 +69,10 @@ fn expected(theta: &dyn Fn(f64) -> f64, sweeps: &[(u64, u64)], tol_deg: f64) -> 
     let th = |t_us: u64| theta(t_us as f64 * 1e-6);
     let mut out: Vec<Expect> = Vec::new();
     // (index, direction, [(mid angle, smear, value)])
-    let mut open: Option<(u16, Direction, Vec<(f64, f64, f64)>)> = None;
+    let mut open: Option<OpenExpect> = None;
     let mut first_dir = Direction::Still;
     let mut visited = [false; 360];
-    let close = |o: (u16, Direction, Vec<(f64, f64, f64)>),
+    let close = |o: OpenExpect,
                  out: &mut Vec<Expect>,
                  visited: &mut [bool; 360],
                  first_dir: Direction| {
@@ -194,9 +198,9 @@ fn check(results: &[BinResult<2>], want: &[Expect], scan: &S, smear_step_half: f
             "{r:?} {w:?}"
         );
         assert!((f64::from(r.raw[0].re) - w.mean_value).abs() < 1e-3 * w.mean_value.max(1.0));
-        for f in 0..2 {
-            let g = unit[f] * w.mean_value as f32;
-            assert!((r.gated[f] - g).norm() <= 1e-4 * g.norm().max(1.0), "{r:?}");
+        for (&u, &got) in unit.iter().zip(&r.gated) {
+            let g = u * w.mean_value as f32;
+            assert!((got - g).norm() <= 1e-4 * g.norm().max(1.0), "{r:?}");
         }
         assert!(r.echo_db.is_some());
         assert_eq!(r.flags.has(BinFlags::REVERSED), w.reversed, "{r:?} {w:?}");

@@ -197,7 +197,6 @@ pub fn cobs_decode_in_place(buf: &mut [u8]) -> Result<usize, FrameError> {
 
 /// One pattern frequency of a bin record.
 #[derive(Debug, Clone, Copy, PartialEq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct FreqValue {
     /// Grid index of the frequency.
     pub index: u16,
@@ -207,8 +206,25 @@ pub struct FreqValue {
     pub gated: Complex32,
 }
 
+// `Complex32` has no `defmt::Format`; print its parts.
+#[cfg(feature = "defmt")]
+impl defmt::Format for FreqValue {
+    fn format(&self, f: defmt::Formatter) {
+        defmt::write!(
+            f,
+            "FreqValue {{ index: {}, raw: ({}, {}), gated: ({}, {}) }}",
+            self.index,
+            self.raw.re,
+            self.raw.im,
+            self.gated.re,
+            self.gated.im
+        )
+    }
+}
+
 /// A closed bin's result, up to `F` pattern frequencies.
 #[derive(Debug, Clone, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct BinRecord<const F: usize> {
     /// Bin index in the layout.
     pub bin: u16,
@@ -287,6 +303,7 @@ pub struct StatusRecord {
 
 /// A preview record.
 #[derive(Debug, Clone, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum Record<const F: usize> {
     /// A closed bin.
     Bin(BinRecord<F>),
@@ -561,6 +578,7 @@ impl DecoderCounters {
 /// for records with up to `F` frequencies. Bounded work per byte; feed it chunks of any
 /// size. A stream joined mid-frame yields one damaged frame, then decodes normally.
 #[derive(Debug, Clone)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Decoder<const F: usize, const N: usize> {
     buf: [u8; N],
     len: usize,
