@@ -731,5 +731,14 @@ mod tests {
             assert_eq!(c.sweeps_rejected_for(reason), 1);
         }
         assert_eq!(c.bins_closed, 1);
+        let st = s.status();
+        assert_eq!(st.state, PositionerState::Finished);
+        assert_eq!(
+            (st.sweeps_pushed, st.sweeps_binned, st.sweeps_rejected),
+            (8, 1, 7)
+        );
+        assert_eq!((st.angles_pushed, st.angles_rejected), (3, 0));
+        assert_eq!(st.time_us, 1_000_000);
+        assert_eq!(st.open_bin, None);
     }
 }

@@ -690,6 +690,20 @@ mod tests {
     }
 
     #[test]
+    fn long_multi_turn_scan_does_not_drift() {
+        // 20 turns at 36 deg/s read as wrapped 0–360° every 10 ms: 20 000 samples. The
+        // continuous angle must stay exact to f32 resolution at 7200° (about 5e-4°).
+        let mut t: Tracker<4> = Tracker::new(cfg()).unwrap();
+        for i in 0..=20_000u64 {
+            let a = (i as f64 * 0.36) % 360.0;
+            t.push_angle(i * 10_000, a as f32).unwrap();
+        }
+        let (_, a) = t.latest().unwrap();
+        assert!((a - 7200.0).abs() < 1e-3, "{a}");
+        assert_eq!(t.counters().accepted, 20_001);
+    }
+
+    #[test]
     fn rejects_and_counts() {
         let mut t: Tracker<4> = Tracker::new(cfg()).unwrap();
         t.push_angle(0, 0.0).unwrap();
