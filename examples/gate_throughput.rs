@@ -83,7 +83,10 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         best = best.min(t.elapsed().as_secs_f64());
     }
     let rate = bins as f64 / best;
-    println!("sweepgate FFT path, M = {M}, K = {K}: {rate:.0} bins/s ({:.2} µs per bin)", best / bins as f64 * 1e6);
+    println!(
+        "sweepgate FFT path, M = {M}, K = {K}: {rate:.0} bins/s ({:.2} µs per bin)",
+        best / bins as f64 * 1e6
+    );
 
     if let Some(path) = out_path {
         let mut f = std::io::BufWriter::new(std::fs::File::create(&path)?);
