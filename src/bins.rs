@@ -336,18 +336,17 @@ impl<const M: usize, const B: usize> Bins<M, B> {
         self.first_direction
     }
 
-    /// Closes the open bin, if any: averages its sum in place and calls `on_close` with
-    /// the result and the averaged sweep (`[..K]` meaningful, the rest zero).
+    /// Closes the open bin, if any, and calls `on_close` with the result, the bin's sum of
+    /// sweeps (`[..K]` meaningful, the rest zero) and 1/count, the factor that turns the sum
+    /// into the average. The sum is passed unscaled so that the caller can fold the factor
+    /// into its first pass over the data (gating is linear).
     pub fn close<R>(
         &mut self,
-        on_close: impl FnOnce(&ClosedBin, &[Complex32; M]) -> R,
+        on_close: impl FnOnce(&ClosedBin, &[Complex32; M], f32) -> R,
     ) -> Option<R> {
         let o = self.open.take()?;
         let n = o.count.max(1);
         let inv = 1.0 / n as f32;
-        for v in self.sum.iter_mut() {
-            *v *= inv;
-        }
         let step = self.layout.step_deg();
         let prior = self.visits(o.index);
         let mut f = 0u16;
@@ -387,7 +386,7 @@ impl<const M: usize, const B: usize> Bins<M, B> {
             max_smear_deg: o.max_smear_deg,
             flags: BinFlags(f),
         };
-        Some(on_close(&closed, &self.sum))
+        Some(on_close(&closed, &self.sum, inv))
     }
 
     /// Whether adding a sweep of bin `index` moving `direction` would first close the
@@ -413,7 +412,7 @@ impl<const M: usize, const B: usize> Bins<M, B> {
         index: u16,
         sweep: &SweepAngle,
         points: &[Complex32],
-        on_close: impl FnOnce(&ClosedBin, &[Complex32; M]) -> R,
+        on_close: impl FnOnce(&ClosedBin, &[Complex32; M], f32) -> R,
     ) -> (Result<(), SweepReject>, Option<R>) {
         if index >= self.layout.count() {
             return (Err(SweepReject::OutsideLayout), None);
@@ -535,13 +534,13 @@ mod tests {
         let mut b: Bins<4, 36> = Bins::new(l, RevisitPolicy::Replace, 3).unwrap();
         let p1 = [Complex32::new(1.0, 0.0); 4];
         let p2 = [Complex32::new(3.0, 2.0); 4];
-        let (r, c) = b.add(0, &sw(1.0, Direction::Forward), &p1, |_, _| ());
+        let (r, c) = b.add(0, &sw(1.0, Direction::Forward), &p1, |_, _, _| ());
         assert!(r.is_ok() && c.is_none());
-        let (r, c) = b.add(0, &sw(3.0, Direction::Forward), &p2, |_, _| ());
+        let (r, c) = b.add(0, &sw(3.0, Direction::Forward), &p2, |_, _, _| ());
         assert!(r.is_ok() && c.is_none());
         // Reversal inside the bin closes it.
-        let (_, c) = b.add(0, &sw(2.0, Direction::Reverse), &p1, |cb, avg| {
-            (*cb, avg[0])
+        let (_, c) = b.add(0, &sw(2.0, Direction::Reverse), &p1, |cb, sum, inv| {
+            (*cb, sum[0] * inv)
         });
         let (cb, avg0) = c.unwrap();
         assert_eq!(cb.sweeps, 2);
@@ -550,7 +549,7 @@ mod tests {
         assert!(cb.flags.has(BinFlags::SPARSE));
         assert!(!cb.flags.has(BinFlags::REVISITED));
         // The reversed pass is a revisit of bin 0, flagged reversed, closed on leaving.
-        let (_, c) = b.add(35, &sw(-9.0, Direction::Reverse), &p1, |cb, _| *cb);
+        let (_, c) = b.add(35, &sw(-9.0, Direction::Reverse), &p1, |cb, _, _| *cb);
         let cb = c.unwrap();
         assert_eq!(cb.index, 0);
         assert!(cb.flags.has(BinFlags::REVISITED | BinFlags::REVERSED));
@@ -563,14 +562,14 @@ mod tests {
         let l = BinLayout::full_circle(0.0, 10.0).unwrap();
         let mut b: Bins<4, 36> = Bins::new(l, RevisitPolicy::KeepFirst, 1).unwrap();
         let p = [Complex32::new(1.0, 0.0); 4];
-        let _ = b.add(0, &sw(0.0, Direction::Forward), &p, |_, _| ());
-        let _ = b.add(1, &sw(10.0, Direction::Forward), &p, |_, _| ());
-        let (r, c) = b.add(0, &sw(0.0, Direction::Reverse), &p, |cb, _| cb.index);
+        let _ = b.add(0, &sw(0.0, Direction::Forward), &p, |_, _, _| ());
+        let _ = b.add(1, &sw(10.0, Direction::Forward), &p, |_, _, _| ());
+        let (r, c) = b.add(0, &sw(0.0, Direction::Reverse), &p, |cb, _, _| cb.index);
         assert_eq!(r, Err(SweepReject::AlreadyBinned));
         assert_eq!(c, Some(1));
         assert_eq!(b.open_index(), None);
         assert_eq!(
-            b.add(99, &sw(0.0, Direction::Forward), &p, |_, _| ()).0,
+            b.add(99, &sw(0.0, Direction::Forward), &p, |_, _, _| ()).0,
             Err(SweepReject::OutsideLayout)
         );
     }
