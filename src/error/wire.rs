@@ -203,6 +203,8 @@ pub enum CaptureError {
     PatternIndex,
     /// An entry kind is not known.
     UnknownEntry(u8),
+    /// The echo mode code is not known.
+    UnknownEchoMode(u8),
 }
 
 impl fmt::Display for CaptureError {
@@ -220,6 +222,7 @@ impl fmt::Display for CaptureError {
             Self::PatternCount => f.write_str("pattern frequency count must be 1 to 8"),
             Self::PatternIndex => f.write_str("pattern frequency index beyond the grid"),
             Self::UnknownEntry(c) => write!(f, "unknown capture entry kind {c}"),
+            Self::UnknownEchoMode(c) => write!(f, "unknown echo mode {c}"),
         }
     }
 }

@@ -3,7 +3,7 @@
 //! stream that a board, an emulated board or the host can replay through the same decoder
 //! and scan engine.
 //!
-//! Layout, all little-endian. The header ([`HEADER_LEN`] = 83 bytes):
+//! Layout, all little-endian. The header ([`HEADER_LEN`] = 84 bytes):
 //!
 //! | offset | bytes | field |
 //! |-------:|------:|-------|
@@ -24,6 +24,7 @@
 //! | 65 | 1 | block byte order: 0 NORMal, 1 SWAPped |
 //! | 66 | 1 | pattern frequency count, 1…8 |
 //! | 67 | 16 | pattern frequency grid indices (8 × u16; unused ones 0) |
+//! | 83 | 1 | echo level per bin: 0 never (kernel path), 1 every bin (FFT path) |
 //!
 //! Window kinds: 0 rectangular, 1 Kaiser (β), 2 Tukey (α), 3 Hann, 4 Hamming,
 //! 5 Blackman-Harris; the parameter is 0 where there is none.
@@ -40,13 +41,14 @@ use crate::bins::BinLayout;
 use crate::error::CaptureError;
 use crate::gate::GateConfig;
 use crate::grid::Grid;
+use crate::scan::EchoMode;
 use crate::window::WindowKind;
 use crate::wire::block::{ByteOrder, Format};
 
 /// Magic at the start of a capture.
 pub const MAGIC: [u8; 8] = *b"SGLINK01";
 /// Bytes in a capture header.
-pub const HEADER_LEN: usize = 83;
+pub const HEADER_LEN: usize = 84;
 /// Most pattern frequencies a capture names.
 pub const MAX_PATTERN: usize = 8;
 /// Longest entry head, kind byte included.
@@ -67,6 +69,8 @@ pub struct CaptureHeader {
     pub format: Format,
     /// Block byte order of the sweeps.
     pub order: ByteOrder,
+    /// Whether closed bins get an echo level.
+    pub echo: EchoMode,
 }
 
 fn window_code(w: WindowKind) -> (u8, f32) {
@@ -175,6 +179,10 @@ impl CaptureHeader {
         for p in self.pattern {
             w.put(&p.to_le_bytes());
         }
+        w.put(&[match self.echo {
+            EchoMode::Never => 0,
+            EchoMode::EveryBin => 1,
+        }]);
     }
 
     /// Reads and validates a header.
@@ -223,6 +231,11 @@ impl CaptureHeader {
                 return Err(CaptureError::PatternIndex);
             }
         }
+        let echo = match c.u8() {
+            0 => EchoMode::Never,
+            1 => EchoMode::EveryBin,
+            other => return Err(CaptureError::UnknownEchoMode(other)),
+        };
         Ok(Self {
             gate: GateConfig {
                 grid,
@@ -237,6 +250,7 @@ impl CaptureHeader {
             pattern_count,
             format,
             order,
+            echo,
         })
     }
 
@@ -347,6 +361,7 @@ mod tests {
             pattern_count: 3,
             format: Format::Real32,
             order: ByteOrder::Normal,
+            echo: EchoMode::EveryBin,
         }
     }
 
@@ -381,6 +396,7 @@ mod tests {
         assert_eq!(bad(66, 0), Some(CaptureError::PatternCount));
         assert_eq!(bad(66, 9), Some(CaptureError::PatternCount));
         assert_eq!(bad(68, 0xFF), Some(CaptureError::PatternIndex));
+        assert_eq!(bad(83, 2), Some(CaptureError::UnknownEchoMode(2)));
         let mut c = b;
         c[24..26].copy_from_slice(&1u16.to_le_bytes());
         assert!(matches!(

@@ -1,0 +1,285 @@
+//! Link captures on the host: turn a recording into the byte stream a board receives
+//! ([`sweepgate::wire::capture`]), replay a capture through the same decoder and scan engine
+//! the board runs, and compare two preview streams.
+//!
+//! The firmware in `examples/firmware-m4` replays the same capture on an emulated
+//! Cortex-M4F; comparing its preview records with [`replay`]'s shows that the board computes
+//! what the host computes.
+
+use crate::record::{Header, Record};
+use anyhow::{bail, Context};
+use sweepgate::bins::BinLayout;
+use sweepgate::gate::GateConfig;
+use sweepgate::grid::Grid;
+use sweepgate::scan::{EchoMode, Event, Scan, ScanConfig, ScanCounters};
+use sweepgate::window::WindowKind;
+use sweepgate::wire::block::{emit, BlockConfig, BlockDecoder, ByteOrder, Event as BlockEvent, Format};
+use sweepgate::wire::capture::{CaptureHeader, Entry, HEADER_LEN, MAX_ENTRY_LEN, MAX_PATTERN};
+use sweepgate::wire::preview::{encode_frame, Decoder, Record as Preview};
+use sweepgate::Complex32;
+
+/// FFT size of the board build.
+pub const M: usize = 1024;
+/// Pattern frequencies of the board build.
+pub const F: usize = 8;
+/// Bins of the board build.
+pub const B: usize = 361;
+/// Bytes the board feeds its block decoder at a time (one DMA half-buffer, say).
+pub const CHUNK: usize = 64;
+
+/// The board's scan engine.
+pub type BoardScan = Scan<M, F, B>;
+
+/// Capture settings from a recording's header and a gate.
+pub fn header_for(
+    h: &Header,
+    center_s: f64,
+    span_s: f64,
+    echo: EchoMode,
+) -> anyhow::Result<CaptureHeader> {
+    let grid = Grid::new(h.grid.start_hz, h.grid.step_hz, h.grid.points)
+        .map_err(|e| anyhow::anyhow!("recording grid: {e}"))?;
+    let step = h.bin_width_deg.unwrap_or(1.0) as f32;
+    let layout = BinLayout::full_circle(-180.0, step)
+        .map_err(|e| anyhow::anyhow!("bin layout for {step}° bins: {e}"))?;
+    let mut pattern = [0u16; MAX_PATTERN];
+    let freqs = &h.pattern_frequencies_hz;
+    if freqs.is_empty() || freqs.len() > MAX_PATTERN {
+        bail!("a capture needs 1 to {MAX_PATTERN} pattern frequencies, the recording names {}", freqs.len());
+    }
+    for (p, &f) in pattern.iter_mut().zip(freqs) {
+        *p = grid
+            .nearest_index(f)
+            .with_context(|| format!("pattern frequency {f} Hz is outside the sweep"))?
+            as u16;
+    }
+    Ok(CaptureHeader {
+        gate: GateConfig {
+            grid,
+            band_window: WindowKind::Kaiser { beta: 6.0 },
+            center_s,
+            span_s,
+            shape: WindowKind::Tukey { alpha: 0.5 },
+            renormalize: true,
+        },
+        layout,
+        pattern,
+        pattern_count: freqs.len() as u8,
+        format: Format::Real32,
+        order: ByteOrder::Normal,
+        echo,
+    })
+}
+
+/// Writes the capture of `records` (positions and sweeps in their order) with `header`.
+/// Sweeps become IEEE 488.2 blocks exactly as an instrument would send them.
+pub fn write(records: &[Record], header: &CaptureHeader) -> anyhow::Result<Vec<u8>> {
+    let mut out = vec![0u8; HEADER_LEN];
+    header.emit((&mut out[..]).try_into().expect("header length"));
+    let mut head = [0u8; MAX_ENTRY_LEN];
+    let mut block = Vec::new();
+    for r in records {
+        match r {
+            Record::Position { t_us, angle_deg, .. } => {
+                let n = Entry::Angle {
+                    t_us: *t_us,
+                    angle_deg: *angle_deg as f32,
+                }
+                .emit(&mut head);
+                out.extend_from_slice(&head[..n]);
+            }
+            Record::Sweep {
+                start_us,
+                end_us,
+                s21,
+                ..
+            } => {
+                block.resize(s21.len() * header.format.sample_bytes() + 16, 0);
+                let len = emit(header.format, header.order, s21, &mut block)
+                    .map_err(|e| anyhow::anyhow!("encoding a sweep: {e}"))?;
+                let n = Entry::Sweep {
+                    start_us: *start_us,
+                    end_us: *end_us,
+                    len: len as u32,
+                }
+                .emit(&mut head);
+                out.extend_from_slice(&head[..n]);
+                out.extend_from_slice(&block[..len]);
+            }
+            _ => {}
+        }
+    }
+    let n = Entry::End.emit(&mut head);
+    out.extend_from_slice(&head[..n]);
+    Ok(out)
+}
+
+/// What a replay of a capture produced.
+pub struct Replayed {
+    /// Preview frames, as the board would send them.
+    pub preview: Vec<u8>,
+    /// Scan engine counters at the end.
+    pub counters: ScanCounters,
+    /// Sweeps the block decoder delivered.
+    pub decoded: u32,
+    /// Blocks the decoder rejected.
+    pub rejected_blocks: u32,
+}
+
+/// Replays a capture through the block decoder (fed [`CHUNK`] bytes at a time) and the
+/// board's scan engine, and encodes every closed bin as a preview frame — the board's
+/// loop, on the host.
+pub fn replay(capture: &[u8]) -> anyhow::Result<Replayed> {
+    let head: &[u8; HEADER_LEN] = capture
+        .get(..HEADER_LEN)
+        .and_then(|h| h.try_into().ok())
+        .context("capture shorter than its header")?;
+    let h = CaptureHeader::parse(head).map_err(|e| anyhow::anyhow!("capture header: {e}"))?;
+    let mut cfg = ScanConfig::new(h.layout);
+    cfg.echo = h.echo;
+    let mut scan = Box::new(
+        BoardScan::new(&h.gate, h.pattern_indices::<F>(), cfg)
+            .map_err(|e| anyhow::anyhow!("scan set-up: {e}"))?,
+    );
+    let mut decoder = BlockDecoder::new(BlockConfig::for_grid(&h.gate.grid, h.format, h.order));
+    let mut sweep = vec![Complex32::new(0.0, 0.0); M];
+    let mut preview = Vec::new();
+    let mut frame = [0u8; 512];
+    let mut seq = 0u16;
+    let mut decoded = 0;
+    let mut emit_events = |events: sweepgate::scan::Events<F>, preview: &mut Vec<u8>| {
+        for e in events {
+            if let Event::BinClosed(r) = e {
+                let n = encode_frame(&Preview::Bin(r.to_record()), seq, &mut frame)
+                    .expect("a bin record fits 512 bytes");
+                seq = seq.wrapping_add(1);
+                preview.extend_from_slice(&frame[..n]);
+            }
+        }
+    };
+    let mut at = HEADER_LEN;
+    loop {
+        let kind = *capture.get(at).context("capture ends without its end entry")?;
+        let len = Entry::head_len(kind).map_err(|e| anyhow::anyhow!("at byte {at}: {e}"))?;
+        let body = capture
+            .get(at + 1..at + 1 + len)
+            .with_context(|| format!("capture ends inside the entry at byte {at}"))?;
+        let entry = Entry::parse(kind, body).map_err(|e| anyhow::anyhow!("at byte {at}: {e}"))?;
+        at += 1 + len;
+        match entry {
+            Entry::End => break,
+            Entry::Angle { t_us, angle_deg } => {
+                emit_events(scan.push_angle(t_us, angle_deg), &mut preview);
+            }
+            Entry::Sweep {
+                start_us,
+                end_us,
+                len,
+            } => {
+                let bytes = capture
+                    .get(at..at + len as usize)
+                    .with_context(|| format!("capture ends inside the sweep at byte {at}"))?;
+                at += len as usize;
+                let mut rest = bytes;
+                while !rest.is_empty() {
+                    let n = rest.len().min(CHUNK);
+                    let mut chunk = &rest[..n];
+                    while !chunk.is_empty() {
+                        let fed = decoder.feed(chunk, &mut sweep);
+                        chunk = &chunk[fed.consumed..];
+                        if let Some(BlockEvent::Sweep { points }) = fed.event {
+                            decoded += 1;
+                            emit_events(
+                                scan.push_sweep(start_us, end_us, &sweep[..points]),
+                                &mut preview,
+                            );
+                        }
+                    }
+                    rest = &rest[n..];
+                }
+            }
+        }
+    }
+    emit_events(scan.finish(), &mut preview);
+    Ok(Replayed {
+        preview,
+        counters: scan.counters(),
+        decoded,
+        rejected_blocks: decoder.counters().rejected(),
+    })
+}
+
+/// How two preview streams compare.
+#[derive(Debug)]
+pub struct Comparison {
+    /// Bin records in each stream.
+    pub bins: (usize, usize),
+    /// Records whose bin, sweep count and flags match and whose values agree.
+    pub matched: usize,
+    /// Largest relative difference of any raw or gated value.
+    pub worst_relative: f64,
+    /// One line per disagreement (at most 20).
+    pub problems: Vec<String>,
+}
+
+/// Decodes two preview streams and compares them record by record: the same bins, in the
+/// same order, with the same sweep counts and flags, and values within `tolerance`
+/// relative (to the larger magnitude of the record's values).
+pub fn compare(a: &[u8], b: &[u8], tolerance: f64) -> Comparison {
+    let decode = |bytes: &[u8]| {
+        let mut d: Decoder<F, 512> = Decoder::new();
+        let mut out = Vec::new();
+        d.feed(bytes, |_, r| {
+            if let Preview::Bin(b) = r {
+                out.push(b)
+            }
+        });
+        out
+    };
+    let (ra, rb) = (decode(a), decode(b));
+    let mut c = Comparison {
+        bins: (ra.len(), rb.len()),
+        matched: 0,
+        worst_relative: 0.0,
+        problems: Vec::new(),
+    };
+    if ra.len() != rb.len() {
+        c.problems
+            .push(format!("{} bin records against {}", ra.len(), rb.len()));
+    }
+    for (x, y) in ra.iter().zip(&rb) {
+        let mut ok = x.index == y.index && x.sweeps == y.sweeps && x.flags == y.flags;
+        if !ok {
+            c.problems.push(format!(
+                "bin {} ({} sweeps, flags {:#x}) against bin {} ({} sweeps, flags {:#x})",
+                x.index, x.sweeps, x.flags.0, y.index, y.sweeps, y.flags.0
+            ));
+        }
+        let scale = x
+            .values
+            .iter()
+            .flat_map(|v| [v.raw.norm(), v.gated.norm()])
+            .fold(0f32, f32::max)
+            .max(f32::MIN_POSITIVE) as f64;
+        for (u, v) in x.values.iter().zip(&y.values) {
+            for (p, q) in [(u.raw, v.raw), (u.gated, v.gated)] {
+                let rel = (p - q).norm() as f64 / scale;
+                c.worst_relative = c.worst_relative.max(rel);
+                if !(rel <= tolerance) {
+                    ok = false;
+                    if c.problems.len() < 20 {
+                        c.problems.push(format!(
+                            "bin {}: {p} against {q} (relative {rel:.2e})",
+                            x.index
+                        ));
+                    }
+                }
+            }
+        }
+        if ok {
+            c.matched += 1;
+        }
+    }
+    c.problems.truncate(20);
+    c
+}
