@@ -27,6 +27,21 @@
 //!   antennas, √(σ/4π)·R/(r₁·r₂) (radar equation, as in [`crate::physics`]).
 //!
 //! Findings are warnings: the command fails only when the file cannot be read or planned.
+//!
+//! JSON (`--json`, the [`PlanReport`] fields; every number carries its unit in its name):
+//! `file`, `file_kind` (`scenario`/`plan_file`), `name`, `cautions` (sentences), `inputs`
+//! (`start_hz`, `stop_hz`, `points`, `step_hz`, `aut_size_m`, `aut_size_source`,
+//! `aut_fractional_bandwidth`, `band_window`, `band_window_mainlobe_bins`, `aut_position_m`,
+//! `probe_position_m`, `bin_step_deg`, `sweep_duration_s`, `cable_delay_s`, `rotation_deg_s`,
+//! `longest_path_m`), `far_field` (`top_wavelength_m`, `far_field_m`, `range_m`,
+//! `meets_far_field`), `paths` (`direct_path_m`, `direct_delay_s`, `echoes`: `source`,
+//! `name`, `path_m`, `delay_s`, `excess_delay_s`, `reflection`, `relative_level_db`,
+//! `bounce_point_m`, `first`), `time_axis` (`bandwidth_hz`, `resolution_s`, `mainlobe_s`,
+//! `alias_free_s`, `alias_free_m`, `longest_path_m`, `longest_delay_s`, `longest_source`,
+//! `all_alias_free`, `max_step_hz`, `min_points`), `gate` (`center_s`, `span_s`, `start_s`,
+//! `stop_s`, `band_window`; `null` when none), `bandwidth_needed_hz`, `rotation`
+//! (`max_rotation_deg_s`, `planned_rotation_deg_s`, `planned_source`, `within_limit`),
+//! `ring_down_s`, `findings` (`kind`, `text`).
 
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
