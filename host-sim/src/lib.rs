@@ -5,7 +5,10 @@
 #![forbid(unsafe_code)]
 #![warn(missing_docs)]
 
+pub mod gain;
+pub mod options;
 pub mod physics;
+pub mod plan_cmd;
 pub mod record;
 pub mod scenario;
 pub mod simulate;

@@ -20,6 +20,8 @@ enum Command {
     Demo(demo::Args),
     /// Simulate a scan of a room scenario and write it as a recording.
     Simulate(simulate::Args),
+    /// Plan a gated measurement from a scenario or plan file: far field, echoes, gate, speed.
+    Plan(sweepgate_host::plan_cmd::Args),
 }
 
 fn main() {
@@ -27,6 +29,7 @@ fn main() {
     let result = match cli.command {
         Command::Demo(a) => demo::run(a),
         Command::Simulate(a) => simulate::run(a),
+        Command::Plan(a) => sweepgate_host::plan_cmd::run(a),
     };
     if let Err(e) = result {
         eprintln!("error: {e:#}");

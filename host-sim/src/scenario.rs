@@ -21,6 +21,7 @@
 //! | `[positioner]` | `mode` = `continuous` or `step`, `start_deg`, `stop_deg`, `speed_deg_s`, `acceleration_deg_s2`, `step_deg`, `settle_s`, `sweeps_per_step`, `counts_per_turn`, `sample_interval_s`, `timing_jitter_s` |
 //! | `[pattern]` | `frequencies_hz`, `bin_width_deg` |
 //! | `[simulation]` | `second_order`, `seed` |
+//! | `[plan]` | `aut_size_m`, `aut_fractional_bandwidth`, `longest_path_m`, `band_window` (all optional; read by `sweepgate plan`) |
 
 use std::fmt;
 use std::path::Path;
@@ -89,6 +90,9 @@ pub struct Scenario {
     /// Simulation switches.
     #[serde(default)]
     pub simulation: Simulation,
+    /// Figures only the planner reads.
+    #[serde(default)]
+    pub plan: PlanSettings,
 }
 
 /// `[sweep]`: the VNA's frequency sweep.
@@ -327,6 +331,47 @@ pub struct Simulation {
     pub seed: u64,
 }
 
+/// `[plan]`: figures only the planner (`sweepgate plan`) reads; every field is optional.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, Default)]
+#[serde(deny_unknown_fields)]
+pub struct PlanSettings {
+    /// The AUT's largest dimension D, m, for the far-field distance 2D²/λ. Absent: taken
+    /// from the `[aut]` model ([`Antenna::largest_size_m`]).
+    #[serde(default)]
+    pub aut_size_m: Option<f64>,
+    /// The AUT's own fractional bandwidth (bandwidth / centre frequency, 0…2], for the
+    /// ring-down check. Absent: no check.
+    #[serde(default)]
+    pub aut_fractional_bandwidth: Option<f64>,
+    /// The room's longest plausible path, m (for the alias-free check).
+    #[serde(default)]
+    pub longest_path_m: Option<f64>,
+    /// Band window, spelled as on the command line (`kaiser:6`, `hann`, …; see
+    /// [`crate::options`]).
+    #[serde(default)]
+    pub band_window: Option<String>,
+}
+
+impl PlanSettings {
+    fn validate(&self) -> Result<(), ScenarioError> {
+        if let Some(d) = self.aut_size_m {
+            positive("plan.aut_size_m", d)?;
+        }
+        if let Some(b) = self.aut_fractional_bandwidth {
+            if positive("plan.aut_fractional_bandwidth", b)? > 2.0 {
+                return Err(bad("plan.aut_fractional_bandwidth", "must be at most 2"));
+            }
+        }
+        if let Some(l) = self.longest_path_m {
+            positive("plan.longest_path_m", l)?;
+        }
+        if let Some(w) = &self.band_window {
+            crate::options::parse_window(w).map_err(|e| bad("plan.band_window", e))?;
+        }
+        Ok(())
+    }
+}
+
 fn finite(field: &str, v: f64) -> Result<f64, ScenarioError> {
     if v.is_finite() {
         Ok(v)
@@ -464,6 +509,7 @@ impl Scenario {
         }
         self.aut.validate("aut")?;
         self.probe.validate("probe")?;
+        self.plan.validate()?;
 
         let q = &self.positioner;
         finite("positioner.start_deg", q.start_deg)?;
