@@ -133,6 +133,14 @@ pub struct Kernels<const M: usize, const F: usize> {
 }
 
 impl<const M: usize, const F: usize> Kernels<M, F> {
+    /// Placeholder until [`Gate::kernels`] fills it in (every index 0, factor 0).
+    pub(crate) const fn unset() -> Self {
+        Self {
+            indices: [0; F],
+            inv_renorm: [ZERO; F],
+        }
+    }
+
     /// The grid indices of the pattern frequencies, in the order given.
     pub fn indices(&self) -> [usize; F] {
         self.indices.map(usize::from)
@@ -148,6 +156,29 @@ where
     /// Validates `cfg` for FFT size `M` and precomputes the windows, the gate kernel and the
     /// renormalization.
     pub fn new(cfg: &GateConfig) -> Result<Self, GateError> {
+        let mut g = Self::blank(cfg);
+        g.build()?;
+        Ok(g)
+    }
+
+    /// All-zero storage for `cfg`, not yet usable: [`Gate::build`] fills it. Split from
+    /// `new` so that a larger value holding a gate (the scan engine) can build it in its
+    /// own storage instead of moving a finished 24 KiB gate around a small board's stack.
+    #[inline(always)]
+    pub(crate) fn blank(cfg: &GateConfig) -> Self {
+        Self {
+            cfg: *cfg,
+            points: 0,
+            band: [0.0; M],
+            gate: [0.0; M],
+            kernel: [ZERO; M],
+            inv_renorm: [Complex32::new(1.0, 0.0); M],
+        }
+    }
+
+    /// Validates the stored configuration and computes everything from it, in place.
+    pub(crate) fn build(&mut self) -> Result<(), GateError> {
+        let cfg = self.cfg;
         cfg.check()?;
         let points = cfg.grid.points();
         if points > M {
@@ -160,14 +191,8 @@ where
         if cfg.span_s < 2.0 * dt {
             return Err(GateError::SpanBelowTimeStep);
         }
-        let mut g = Self {
-            cfg: *cfg,
-            points,
-            band: [0.0; M],
-            gate: [0.0; M],
-            kernel: [ZERO; M],
-            inv_renorm: [Complex32::new(1.0, 0.0); M],
-        };
+        self.points = points;
+        let g = self;
         cfg.band_window.fill(&mut g.band[..points]);
 
         // Time gate, placed circularly: Δ is the time from the centre, wrapped into
@@ -212,7 +237,7 @@ where
                 *v = uk / y;
             }
         }
-        Ok(g)
+        Ok(())
     }
 
     /// The configuration this gate was built from.

@@ -339,19 +339,30 @@ where
             None => Tracker::new(cfg.track)?,
         };
         let bins = Bins::new(cfg.layout, cfg.revisit, cfg.min_sweeps)?;
-        let gate = Gate::new(gate_cfg)?;
-        let kernels = gate.kernels(pattern_indices)?;
-        Ok(Self {
+        // The engine is built where it is returned, and the gate inside it, so that no
+        // second copy of its 42 KiB ever sits on a small board's stack.
+        let mut out = Ok(Self {
             cfg,
-            gate,
-            kernels,
+            gate: Gate::blank(gate_cfg),
+            kernels: Kernels::unset(),
             tracker,
             bins,
             scratch: [Complex32::new(0.0, 0.0); M],
             counters: ScanCounters::default(),
             finished: false,
             stall_warned: false,
-        })
+        });
+        if let Ok(s) = &mut out {
+            let built = s
+                .gate
+                .build()
+                .and_then(|()| s.gate.kernels(pattern_indices));
+            match built {
+                Ok(k) => s.kernels = k,
+                Err(e) => out = Err(e.into()),
+            }
+        }
+        out
     }
 
     /// The configuration.

@@ -13,7 +13,9 @@ use sweepgate::gate::GateConfig;
 use sweepgate::grid::Grid;
 use sweepgate::scan::{EchoMode, Event, Scan, ScanConfig, ScanCounters};
 use sweepgate::window::WindowKind;
-use sweepgate::wire::block::{emit, BlockConfig, BlockDecoder, ByteOrder, Event as BlockEvent, Format};
+use sweepgate::wire::block::{
+    emit, BlockConfig, BlockDecoder, ByteOrder, Event as BlockEvent, Format,
+};
 use sweepgate::wire::capture::{CaptureHeader, Entry, HEADER_LEN, MAX_ENTRY_LEN, MAX_PATTERN};
 use sweepgate::wire::preview::{encode_frame, Decoder, Record as Preview};
 use sweepgate::Complex32;
@@ -45,7 +47,10 @@ pub fn header_for(
     let mut pattern = [0u16; MAX_PATTERN];
     let freqs = &h.pattern_frequencies_hz;
     if freqs.is_empty() || freqs.len() > MAX_PATTERN {
-        bail!("a capture needs 1 to {MAX_PATTERN} pattern frequencies, the recording names {}", freqs.len());
+        bail!(
+            "a capture needs 1 to {MAX_PATTERN} pattern frequencies, the recording names {}",
+            freqs.len()
+        );
     }
     for (p, &f) in pattern.iter_mut().zip(freqs) {
         *p = grid
@@ -80,7 +85,9 @@ pub fn write(records: &[Record], header: &CaptureHeader) -> anyhow::Result<Vec<u
     let mut block = Vec::new();
     for r in records {
         match r {
-            Record::Position { t_us, angle_deg, .. } => {
+            Record::Position {
+                t_us, angle_deg, ..
+            } => {
                 let n = Entry::Angle {
                     t_us: *t_us,
                     angle_deg: *angle_deg as f32,
@@ -159,7 +166,9 @@ pub fn replay(capture: &[u8]) -> anyhow::Result<Replayed> {
     };
     let mut at = HEADER_LEN;
     loop {
-        let kind = *capture.get(at).context("capture ends without its end entry")?;
+        let kind = *capture
+            .get(at)
+            .context("capture ends without its end entry")?;
         let len = Entry::head_len(kind).map_err(|e| anyhow::anyhow!("at byte {at}: {e}"))?;
         let body = capture
             .get(at + 1..at + 1 + len)
@@ -248,11 +257,20 @@ pub fn compare(a: &[u8], b: &[u8], tolerance: f64) -> Comparison {
             .push(format!("{} bin records against {}", ra.len(), rb.len()));
     }
     for (x, y) in ra.iter().zip(&rb) {
-        let mut ok = x.index == y.index && x.sweeps == y.sweeps && x.flags == y.flags;
+        let mut ok = x.bin == y.bin && x.sweeps == y.sweeps && x.flags == y.flags;
         if !ok {
             c.problems.push(format!(
                 "bin {} ({} sweeps, flags {:#x}) against bin {} ({} sweeps, flags {:#x})",
-                x.index, x.sweeps, x.flags.0, y.index, y.sweeps, y.flags.0
+                x.bin, x.sweeps, x.flags, y.bin, y.sweeps, y.flags
+            ));
+        }
+        let echo_ok =
+            (x.echo_db.is_nan() && y.echo_db.is_nan()) || (x.echo_db - y.echo_db).abs() <= 0.01;
+        if !echo_ok {
+            ok = false;
+            c.problems.push(format!(
+                "bin {}: echo level {} dB against {} dB",
+                x.bin, x.echo_db, y.echo_db
             ));
         }
         let scale = x
@@ -270,7 +288,7 @@ pub fn compare(a: &[u8], b: &[u8], tolerance: f64) -> Comparison {
                     if c.problems.len() < 20 {
                         c.problems.push(format!(
                             "bin {}: {p} against {q} (relative {rel:.2e})",
-                            x.index
+                            x.bin
                         ));
                     }
                 }

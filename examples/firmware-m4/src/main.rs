@@ -1,6 +1,14 @@
 //! sweepgate on an emulated Cortex-M4F (QEMU `netduinoplus2`, STM32F405, 128 KiB RAM).
 //!
-//! Runs the core's gate on the target and prints instruction counts: with QEMU's
+//! Two parts. First the gate alone, at M = 256, 1024 and 2048. Then the board's real loop:
+//! a link capture (`capture.bin` in QEMU's working directory, made by
+//! `cargo run -p sweepgate-host --example capture -- make …`) is read over semihosting and
+//! streamed, 64 bytes at a time, into the core's IEEE 488.2 block decoder and the scan
+//! engine `Scan<1024, 8, 361>`; every closed bin goes out as a preview frame to
+//! `preview.bin`, which the host compares with its own engine's output. The capture is then
+//! streamed a second time with the other echo setting, to count both gating paths.
+//!
+//! Instruction counts: with QEMU's
 //! `-icount shift=0` every instruction advances virtual time by 1 ns, and SysTick runs at the
 //! 168 MHz core clock, so a SysTick difference of t ticks is t·1000/168 instructions (±6).
 //! Every measured transform is also checked on the target (kernel path against FFT path); any
@@ -18,7 +26,11 @@ use panic_semihosting as _;
 use sweepgate::fft::Fft;
 use sweepgate::gate::{Gate, GateConfig};
 use sweepgate::grid::Grid;
+use sweepgate::scan::{EchoMode, Event, Scan, ScanConfig};
 use sweepgate::window::WindowKind;
+use sweepgate::wire::block::{BlockConfig, BlockDecoder, Event as BlockEvent};
+use sweepgate::wire::capture::{CaptureHeader, Entry, HEADER_LEN};
+use sweepgate::wire::preview::{encode_frame, Record};
 use sweepgate::Complex32;
 
 const ZERO: Complex32 = Complex32::new(0.0, 0.0);
@@ -94,6 +106,11 @@ mod stack {
         hi - p
     }
 
+    /// RAM of the part, bytes.
+    pub fn total() -> usize {
+        bounds().1 - 0x2000_0000
+    }
+
     /// Static RAM (.data + .bss), bytes.
     pub fn statics() -> usize {
         bounds().0 - 0x2000_0000
@@ -119,6 +136,246 @@ enum Failure {
     Gate(sweepgate::error::GateError),
     Grid(sweepgate::error::GridError),
     Mismatch { m: usize, f: usize },
+    NoCapture,
+    CaptureEnds,
+    Capture(sweepgate::error::CaptureError),
+    Scan(sweepgate::error::ScanConfigError),
+    Output,
+    Frame,
+}
+
+/// Host files over semihosting.
+mod host {
+    use cortex_m_semihosting::{nr, syscall};
+
+    /// Opens a host file; `path` ends with a NUL byte.
+    pub fn open(path: &[u8], mode: usize) -> Option<usize> {
+        // SAFETY: SYS_OPEN reads `path.len() - 1` bytes of a live, NUL-terminated buffer.
+        let r = unsafe { syscall!(OPEN, path.as_ptr(), mode, path.len() - 1) } as isize;
+        (r >= 0).then_some(r as usize)
+    }
+
+    pub const READ: usize = nr::open::R_BINARY;
+    pub const WRITE: usize = nr::open::W_TRUNC_BINARY;
+
+    /// Reads up to `buf.len()` bytes; returns how many were read (0 at the end).
+    pub fn read(fd: usize, buf: &mut [u8]) -> usize {
+        // SAFETY: SYS_READ writes at most `buf.len()` bytes into `buf`; it returns the
+        // number of bytes NOT read.
+        let not_read = unsafe { syscall!(READ, fd, buf.as_mut_ptr(), buf.len()) };
+        buf.len().saturating_sub(not_read)
+    }
+
+    /// Writes all of `buf`.
+    pub fn write(fd: usize, buf: &[u8]) -> bool {
+        // SAFETY: SYS_WRITE reads `buf.len()` bytes of a live buffer; 0 means all written.
+        unsafe { syscall!(WRITE, fd, buf.as_ptr(), buf.len()) == 0 }
+    }
+
+    pub fn close(fd: usize) {
+        // SAFETY: closes a handle this module opened.
+        unsafe {
+            syscall!(CLOSE, fd);
+        }
+    }
+}
+
+/// Buffered reads of a host file.
+struct HostReader {
+    fd: usize,
+    buf: [u8; 512],
+    at: usize,
+    len: usize,
+}
+
+impl HostReader {
+    fn open(path: &[u8]) -> Option<Self> {
+        Some(Self {
+            fd: host::open(path, host::READ)?,
+            buf: [0; 512],
+            at: 0,
+            len: 0,
+        })
+    }
+
+    /// Fills `out` completely, or fails at the end of the file.
+    fn exact(&mut self, out: &mut [u8]) -> Result<(), Failure> {
+        let mut done = 0;
+        while done < out.len() {
+            if self.at == self.len {
+                self.len = host::read(self.fd, &mut self.buf);
+                self.at = 0;
+                if self.len == 0 {
+                    return Err(Failure::CaptureEnds);
+                }
+            }
+            let n = (self.len - self.at).min(out.len() - done);
+            out[done..done + n].copy_from_slice(&self.buf[self.at..self.at + n]);
+            self.at += n;
+            done += n;
+        }
+        Ok(())
+    }
+}
+
+impl Drop for HostReader {
+    fn drop(&mut self) {
+        host::close(self.fd);
+    }
+}
+
+/// The board's engine.
+type BoardScan = Scan<1024, 8, 361>;
+
+/// What one pass over the capture measured.
+#[derive(Default)]
+struct Pass {
+    sweeps: u32,
+    decode: u64,
+    adds: u32,
+    add_instr: u64,
+    closes: u32,
+    close_instr: u64,
+    frames: u32,
+}
+
+/// Streams the capture through the decoder and scan engine; writes preview frames to `out`
+/// when given.
+#[inline(never)]
+fn stream(
+    c: &Counter,
+    echo: Option<EchoMode>,
+    out: Option<usize>,
+) -> Result<(Pass, EchoMode), Failure> {
+    let mut r = HostReader::open(b"capture.bin\0").ok_or(Failure::NoCapture)?;
+    let mut head = [0u8; HEADER_LEN];
+    r.exact(&mut head)?;
+    let h = CaptureHeader::parse(&head).map_err(Failure::Capture)?;
+    let mut cfg = ScanConfig::new(h.layout);
+    cfg.echo = echo.unwrap_or(h.echo);
+    // Used in place inside the Result: moving a 42 KiB engine out of it would cost a second
+    // copy on the stack.
+    let mut built = BoardScan::new(&h.gate, h.pattern_indices::<8>(), cfg);
+    let scan = match &mut built {
+        Ok(s) => s,
+        Err(e) => return Err(Failure::Scan(*e)),
+    };
+    let mut decoder = BlockDecoder::new(BlockConfig::for_grid(&h.gate.grid, h.format, h.order));
+    let mut sweep = [ZERO; 1024];
+    let mut frame = [0u8; 512];
+    let mut pass = Pass::default();
+    let mut send = |events: sweepgate::scan::Events<8>, pass: &mut Pass| -> Result<(), Failure> {
+        for e in events {
+            if let (Event::BinClosed(b), Some(fd)) = (e, out) {
+                let n = encode_frame(&Record::Bin(b.to_record()), pass.frames as u16, &mut frame)
+                    .map_err(|_| Failure::Frame)?;
+                pass.frames += 1;
+                if !host::write(fd, &frame[..n]) {
+                    return Err(Failure::Output);
+                }
+            }
+        }
+        Ok(())
+    };
+    loop {
+        let mut kind = [0u8; 1];
+        r.exact(&mut kind)?;
+        let mut body = [0u8; 20];
+        let len = Entry::head_len(kind[0]).map_err(Failure::Capture)?;
+        r.exact(&mut body[..len])?;
+        match Entry::parse(kind[0], &body[..len]).map_err(Failure::Capture)? {
+            Entry::End => break,
+            Entry::Angle { t_us, angle_deg } => send(scan.push_angle(t_us, angle_deg), &mut pass)?,
+            Entry::Sweep {
+                start_us,
+                end_us,
+                len,
+            } => {
+                let mut left = len as usize;
+                let mut chunk = [0u8; 64];
+                while left > 0 {
+                    let n = left.min(chunk.len());
+                    r.exact(&mut chunk[..n])?;
+                    left -= n;
+                    let mut rest = &chunk[..n];
+                    while !rest.is_empty() {
+                        let t0 = c.now();
+                        let fed = decoder.feed(rest, &mut sweep);
+                        pass.decode += c.instructions(t0, c.now()) as u64;
+                        rest = &rest[fed.consumed..];
+                        if let Some(BlockEvent::Sweep { points }) = fed.event {
+                            pass.sweeps += 1;
+                            let closed_before = scan.counters().bins_closed;
+                            let t0 = c.now();
+                            let ev = scan.push_sweep(start_us, end_us, &sweep[..points]);
+                            let n = c.instructions(t0, c.now()) as u64;
+                            if scan.counters().bins_closed > closed_before {
+                                pass.closes += 1;
+                                pass.close_instr += n;
+                            } else {
+                                pass.adds += 1;
+                                pass.add_instr += n;
+                            }
+                            send(ev, &mut pass)?;
+                        }
+                    }
+                }
+            }
+        }
+    }
+    send(scan.finish(), &mut pass)?;
+    let k = scan.counters();
+    hprintln!(
+        "capture ({}): {} sweeps decoded ({} blocks rejected), {} binned, {} rejected, {} bins closed, {} preview frames",
+        match cfg.echo {
+            EchoMode::Never => "kernel path",
+            EchoMode::EveryBin => "FFT path with echo level",
+        },
+        pass.sweeps,
+        decoder.counters().rejected(),
+        k.sweeps_binned,
+        k.sweeps_rejected(),
+        k.bins_closed,
+        pass.frames
+    );
+    Ok((pass, cfg.echo))
+}
+
+fn per(total: u64, n: u32) -> u64 {
+    if n == 0 {
+        0
+    } else {
+        total / n as u64
+    }
+}
+
+fn capture_case(c: &Counter) -> Result<(), Failure> {
+    // First pass with the capture's own settings, writing the preview frames; second pass
+    // with the other echo setting, counted only, so both gating paths are measured.
+    let out = host::open(b"preview.bin\0", host::WRITE).ok_or(Failure::NoCapture)?;
+    let first = stream(c, None, Some(out));
+    host::close(out);
+    let (first, first_echo) = first?;
+    let other = match first_echo {
+        EchoMode::Never => EchoMode::EveryBin,
+        EchoMode::EveryBin => EchoMode::Never,
+    };
+    let (second, _) = stream(c, Some(other), None)?;
+    let (kernel, fft) = match first_echo {
+        EchoMode::Never => (first, second),
+        EchoMode::EveryBin => (second, first),
+    };
+    hprintln!(
+        "board loop: decode {} instructions per sweep; add a sweep to the open bin {}",
+        per(kernel.decode, kernel.sweeps),
+        per(kernel.add_instr, kernel.adds)
+    );
+    hprintln!(
+        "board loop: add a sweep and close a bin, M=1024 F=8: kernel path {} | FFT path with echo level {}",
+        per(kernel.close_instr, kernel.closes),
+        per(fft.close_instr, fft.closes)
+    );
+    Ok(())
 }
 
 /// Kernel path for F frequencies spread over the band, timed two ways and checked against
@@ -233,6 +490,16 @@ fn run(c: &Counter) -> Result<(), Failure> {
     gate_case::<256>(c, 201)?;
     gate_case::<1024>(c, 801)?;
     gate_case::<2048>(c, 1601)?;
+    hprintln!(
+        "memory: peak stack of the gate measurements {} bytes",
+        stack::peak()
+    );
+    stack::paint();
+    capture_case(c)?;
+    hprintln!(
+        "memory: peak stack of the board loop (Scan<1024, 8, 361> on the stack) {} bytes",
+        stack::peak()
+    );
     Ok(())
 }
 
@@ -249,9 +516,9 @@ fn main() -> ! {
             match run(&c) {
                 Ok(()) => {
                     hprintln!(
-                        "memory: static RAM {} bytes, peak stack {} bytes",
+                        "memory: static RAM {} bytes, {} bytes of RAM in all",
                         stack::statics(),
-                        stack::peak()
+                        stack::total()
                     );
                     hprintln!("firmware: all checks passed");
                     debug::EXIT_SUCCESS

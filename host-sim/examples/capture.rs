@@ -1,0 +1,85 @@
+//! Link captures for the emulated board (see `sweepgate_host::capture`).
+//!
+//! ```text
+//! cargo run --release -p sweepgate-host --example capture -- make REC CAPTURE [--echo never|every]
+//! cargo run --release -p sweepgate-host --example capture -- compare CAPTURE PREVIEW
+//! ```
+//!
+//! `make` turns a recording into the byte stream a board receives, with the gate the planner
+//! recommends for the recording's scenario. `compare` replays the capture through the host's
+//! decoder and scan engine and compares the preview records with PREVIEW (written by the
+//! firmware): the same bins, values within 1e-5 relative.
+
+use anyhow::{bail, Context};
+use sweepgate::scan::EchoMode;
+use sweepgate_host::capture;
+use sweepgate_host::plan_cmd::{parse_plan_source, plan_report, Overrides};
+use sweepgate_host::record::recover_file;
+
+fn main() {
+    if let Err(e) = run() {
+        eprintln!("error: {e:#}");
+        std::process::exit(1);
+    }
+}
+
+fn run() -> anyhow::Result<()> {
+    let args: Vec<String> = std::env::args().skip(1).collect();
+    match args.iter().map(String::as_str).collect::<Vec<_>>().as_slice() {
+        ["make", rec, out, rest @ ..] => {
+            let echo = match rest {
+                [] | ["--echo", "every"] => EchoMode::EveryBin,
+                ["--echo", "never"] => EchoMode::Never,
+                other => bail!("unknown options {other:?}"),
+            };
+            let recovered = recover_file(rec.as_ref()).with_context(|| format!("reading {rec}"))?;
+            let header = recovered
+                .header()
+                .with_context(|| format!("{rec}: no header record"))?;
+            let toml = header
+                .scenario_toml
+                .as_deref()
+                .with_context(|| format!("{rec}: the recording carries no scenario to plan from"))?;
+            let source = parse_plan_source(toml, rec)?;
+            let plan = plan_report(&source, rec, &Overrides::default())?;
+            let gate = plan
+                .gate
+                .with_context(|| format!("{rec}: the planner recommends no gate for this room"))?;
+            let h = capture::header_for(header, gate.center_s, gate.span_s, echo)?;
+            let records: Vec<_> = recovered.records.into_iter().map(|(_, r)| r).collect();
+            let bytes = capture::write(&records, &h)?;
+            std::fs::write(out, &bytes).with_context(|| format!("writing {out}"))?;
+            println!(
+                "capture: {} bytes to {out} (gate centre {:.3} ns, span {:.3} ns)",
+                bytes.len(),
+                gate.center_s * 1e9,
+                gate.span_s * 1e9
+            );
+            Ok(())
+        }
+        ["compare", cap, preview] => {
+            let bytes = std::fs::read(cap).with_context(|| format!("reading {cap}"))?;
+            let host = capture::replay(&bytes)?;
+            let board = std::fs::read(preview).with_context(|| format!("reading {preview}"))?;
+            let c = capture::compare(&board, &host.preview, 1e-5);
+            println!(
+                "host: {} sweeps decoded, {} binned, {} bins closed",
+                host.decoded, host.counters.sweeps_binned, host.counters.bins_closed
+            );
+            println!(
+                "board: {} bin records, host: {} bin records; worst relative difference {:.2e}",
+                c.bins.0, c.bins.1, c.worst_relative
+            );
+            for p in &c.problems {
+                println!("  mismatch: {p}");
+            }
+            let failed = c.bins.0.max(c.bins.1) - c.matched;
+            println!("firmware compare: {} passed, {} failed", c.matched, failed);
+            if failed > 0 || c.matched == 0 {
+                bail!("the board's preview records differ from the host's");
+            }
+            Ok(())
+        }
+        _ => bail!("usage: capture make REC CAPTURE [--echo never|every] | capture compare CAPTURE PREVIEW"),
+    }
+}
