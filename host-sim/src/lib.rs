@@ -9,3 +9,4 @@ pub mod physics;
 pub mod record;
 pub mod scenario;
 pub mod simulate;
+pub mod touchstone;
