@@ -5,6 +5,7 @@
 #![forbid(unsafe_code)]
 #![warn(missing_docs)]
 
+pub mod manifest;
 pub mod physics;
 pub mod record;
 pub mod scenario;
