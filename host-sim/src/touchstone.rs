@@ -1569,7 +1569,7 @@ mod tests {
     const V2: &str = "! a version 2.0 file\n\
         [Version] 2.0\n\
         # MHz S RI R 50\n\
-        [Number of Ports] 2\n\
+        [Number of Ports] 2 ! trailing comment on a keyword\n\
         [Two-Port Data Order] 12_21\n\
         [Number of Frequencies] 2\n\
         [Number of Noise Frequencies] 1\n\
