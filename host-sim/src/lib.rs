@@ -7,9 +7,11 @@
 
 pub mod capture;
 pub mod gain;
+pub mod manifest;
 pub mod options;
 pub mod physics;
 pub mod plan_cmd;
 pub mod record;
 pub mod scenario;
 pub mod simulate;
+pub mod touchstone;

@@ -1,0 +1,579 @@
+//! Manifests of step-and-stop scans: one Touchstone file per turntable angle.
+//!
+//! A manifest is a CSV file with the header `angle_deg,file` and one row per sweep:
+//!
+//! ```text
+//! angle_deg,file
+//! -10,sweeps/m010.s2p
+//! 0,sweeps/p000.s2p
+//! 10,"sweeps/p010, second try.s2p"
+//! ```
+//!
+//! Paths are relative to the folder of the manifest (absolute paths are kept). Everything
+//! after the first comma is the file name, so names holding commas may be written plain or
+//! in double quotes (`""` inside quotes is one quote). Blank lines are skipped. Angles must
+//! be finite and distinct (as numbers: 0 and 360 are two rows, as a full-circle scan
+//! writes them).
+//!
+//! ```
+//! use sweepgate_host::manifest::Manifest;
+//! use sweepgate_host::touchstone::Spacing;
+//! let dir = std::env::temp_dir().join(format!("sweepgate-manifest-doc-{}", std::process::id()));
+//! std::fs::create_dir_all(&dir).unwrap();
+//! for (name, s21) in [("a.s2p", "0.5 0"), ("b.s2p", "0.25 0")] {
+//!     let text = format!("# MHz S RI\n1 0 0 {s21} 0 0 0 0\n2 0 0 {s21} 0 0 0 0\n");
+//!     std::fs::write(dir.join(name), text).unwrap();
+//! }
+//! std::fs::write(dir.join("scan.csv"), "angle_deg,file\n0,a.s2p\n5,b.s2p\n").unwrap();
+//! let m = Manifest::read(&dir.join("scan.csv")).unwrap();
+//! assert_eq!(m.rows().len(), 2);
+//! let scan = m.load(None, Spacing::RequireUniform).unwrap();
+//! assert_eq!(scan.grid.points(), 2);
+//! assert_eq!(scan.sweeps[1].angle_deg, 5.0);
+//! assert_eq!(scan.sweeps[1].values[0].re, 0.25);
+//! std::fs::remove_dir_all(&dir).unwrap();
+//! ```
+
+use std::fmt;
+use std::path::{Path, PathBuf};
+
+use sweepgate::grid::Grid;
+use sweepgate::Complex32;
+
+use crate::touchstone::{
+    Parameter, Spacing, Touchstone, TouchstoneError, UNIFORM_TOLERANCE_OF_STEP,
+};
+
+/// The header line a manifest starts with.
+pub const HEADER: &str = "angle_deg,file";
+
+/// One row of a manifest.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ManifestRow {
+    /// 1-based line in the manifest.
+    pub line: usize,
+    /// Turntable angle of the sweep.
+    pub angle_deg: f64,
+    /// The Touchstone file, resolved against the manifest's folder.
+    pub file: PathBuf,
+}
+
+/// One sweep of a loaded manifest.
+#[derive(Debug, Clone, PartialEq)]
+pub struct AngleSweep {
+    /// Turntable angle.
+    pub angle_deg: f64,
+    /// The pattern parameter at each point of the common grid.
+    pub values: Vec<Complex32>,
+    /// The file it came from.
+    pub file: PathBuf,
+}
+
+/// All sweeps of a manifest on their common grid, in manifest order.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ManifestScan {
+    /// The grid every file shares.
+    pub grid: Grid,
+    /// One sweep per row.
+    pub sweeps: Vec<AngleSweep>,
+    /// Warnings (files that were resampled), for the user.
+    pub warnings: Vec<String>,
+}
+
+/// Why a manifest was refused.
+#[derive(Debug, Clone, PartialEq)]
+pub enum ManifestErrorKind {
+    /// The manifest could not be read.
+    Io(String),
+    /// The first line is not `angle_deg,file`.
+    BadHeader(String),
+    /// A row without a comma.
+    MissingFileField,
+    /// A row whose file field is empty.
+    EmptyFileName,
+    /// A quoted file field without its closing quote.
+    UnclosedQuote,
+    /// An angle that is not a number.
+    BadAngle(String),
+    /// An angle that is infinite or not a number.
+    NonFiniteAngle(String),
+    /// An angle given on an earlier row too.
+    DuplicateAngle {
+        /// The angle.
+        angle_deg: f64,
+        /// Line of the earlier row.
+        first_line: usize,
+    },
+    /// A file that does not exist.
+    MissingFile(PathBuf),
+    /// A header and nothing else.
+    NoRows,
+    /// A file of the manifest was refused.
+    Touchstone(Box<TouchstoneError>),
+    /// A file whose grid differs from the first file's.
+    DifferentGrid(Box<GridMismatch>),
+}
+
+/// Two files of one manifest on different grids.
+#[derive(Debug, Clone, PartialEq)]
+pub struct GridMismatch {
+    /// This file.
+    pub file: PathBuf,
+    /// Its grid: first frequency, step and point count.
+    pub grid: (f64, f64, usize),
+    /// The first file.
+    pub first_file: PathBuf,
+    /// The first file's grid.
+    pub first_grid: (f64, f64, usize),
+}
+
+impl fmt::Display for ManifestErrorKind {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            Self::Io(e) => write!(f, "cannot read: {e}"),
+            Self::BadHeader(h) => write!(f, "header is `{h}`, expected `{HEADER}`"),
+            Self::MissingFileField => write!(f, "expected `angle_deg,file`, found no comma"),
+            Self::EmptyFileName => write!(f, "empty file name"),
+            Self::UnclosedQuote => write!(f, "file name opens a quote it does not close"),
+            Self::BadAngle(s) => write!(f, "angle `{s}` is not a number"),
+            Self::NonFiniteAngle(s) => write!(f, "angle `{s}` is not a finite number"),
+            Self::DuplicateAngle {
+                angle_deg,
+                first_line,
+            } => write!(f, "angle {angle_deg}° already given on line {first_line}"),
+            Self::MissingFile(p) => write!(f, "file {} does not exist", p.display()),
+            Self::NoRows => write!(f, "no rows after the header"),
+            Self::Touchstone(e) => write!(f, "{e}"),
+            Self::DifferentGrid(m) => write!(
+                f,
+                "{} has a different frequency grid ({} Hz + k·{} Hz, {} points) from {} \
+                 ({} Hz + k·{} Hz, {} points)",
+                m.file.display(),
+                m.grid.0,
+                m.grid.1,
+                m.grid.2,
+                m.first_file.display(),
+                m.first_grid.0,
+                m.first_grid.1,
+                m.first_grid.2
+            ),
+        }
+    }
+}
+
+/// A refused manifest: which manifest, which line, and why. Displays as
+/// `scan.csv:4: angle 10° already given on line 3`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ManifestError {
+    /// The manifest, as the caller named it.
+    pub file: String,
+    /// 1-based line of the manifest, when one row is to blame.
+    pub line: Option<usize>,
+    /// The cause.
+    pub kind: ManifestErrorKind,
+}
+
+impl fmt::Display for ManifestError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self.line {
+            Some(l) => write!(f, "{}:{}: {}", self.file, l, self.kind),
+            None => write!(f, "{}: {}", self.file, self.kind),
+        }
+    }
+}
+
+impl std::error::Error for ManifestError {
+    fn source(&self) -> Option<&(dyn std::error::Error + 'static)> {
+        match &self.kind {
+            ManifestErrorKind::Touchstone(e) => Some(e.as_ref()),
+            _ => None,
+        }
+    }
+}
+
+/// A parsed manifest.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Manifest {
+    name: String,
+    rows: Vec<ManifestRow>,
+}
+
+impl Manifest {
+    /// Reads a manifest; every file it names must exist.
+    pub fn read(path: &Path) -> Result<Self, ManifestError> {
+        let name = path.display().to_string();
+        let text = std::fs::read_to_string(path).map_err(|e| ManifestError {
+            file: name.clone(),
+            line: None,
+            kind: ManifestErrorKind::Io(e.to_string()),
+        })?;
+        let base = path.parent().unwrap_or(Path::new(""));
+        Self::parse_str(&text, &name, base)
+    }
+
+    /// Parses manifest text named `name` (for errors), resolving files against `base`;
+    /// every file must exist.
+    pub fn parse_str(text: &str, name: &str, base: &Path) -> Result<Self, ManifestError> {
+        let err = |line: Option<usize>, kind| ManifestError {
+            file: name.to_string(),
+            line,
+            kind,
+        };
+        let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+        let mut lines = text.lines().enumerate().map(|(i, l)| (i + 1, l));
+        let header = lines
+            .by_ref()
+            .find(|(_, l)| !l.trim().is_empty())
+            .ok_or_else(|| err(None, ManifestErrorKind::NoRows))?;
+        let normal: Vec<&str> = header.1.split(',').map(str::trim).collect();
+        if normal != ["angle_deg", "file"] {
+            return Err(err(
+                Some(header.0),
+                ManifestErrorKind::BadHeader(header.1.trim().to_string()),
+            ));
+        }
+        let mut rows: Vec<ManifestRow> = Vec::new();
+        for (line, raw) in lines {
+            if raw.trim().is_empty() {
+                continue;
+            }
+            let at = Some(line);
+            let (angle, file) = raw
+                .split_once(',')
+                .ok_or_else(|| err(at, ManifestErrorKind::MissingFileField))?;
+            let angle = angle.trim();
+            let angle_deg: f64 = angle
+                .parse()
+                .map_err(|_| err(at, ManifestErrorKind::BadAngle(angle.to_string())))?;
+            if !angle_deg.is_finite() {
+                return Err(err(
+                    at,
+                    ManifestErrorKind::NonFiniteAngle(angle.to_string()),
+                ));
+            }
+            let file = unquote(file.trim()).map_err(|k| err(at, k))?;
+            if file.is_empty() {
+                return Err(err(at, ManifestErrorKind::EmptyFileName));
+            }
+            if let Some(first) = rows.iter().find(|r| r.angle_deg == angle_deg) {
+                return Err(err(
+                    at,
+                    ManifestErrorKind::DuplicateAngle {
+                        angle_deg,
+                        first_line: first.line,
+                    },
+                ));
+            }
+            let path = base.join(&file);
+            if !path.is_file() {
+                return Err(err(at, ManifestErrorKind::MissingFile(path)));
+            }
+            rows.push(ManifestRow {
+                line,
+                angle_deg,
+                file: path,
+            });
+        }
+        if rows.is_empty() {
+            return Err(err(None, ManifestErrorKind::NoRows));
+        }
+        Ok(Self {
+            name: name.to_string(),
+            rows,
+        })
+    }
+
+    /// The manifest's name as given.
+    pub fn name(&self) -> &str {
+        &self.name
+    }
+
+    /// The rows, in file order.
+    pub fn rows(&self) -> &[ManifestRow] {
+        &self.rows
+    }
+
+    /// Reads every file and takes `parameter` from each (default: S21 from files of two or
+    /// more ports, S11 from 1-port files) on a uniform grid (see
+    /// [`Touchstone::to_sweep`]). All files must share one grid: the same point count, and
+    /// first frequency and step within [`UNIFORM_TOLERANCE_OF_STEP`] of a step (over the
+    /// whole span) of the first file's.
+    pub fn load(
+        &self,
+        parameter: Option<Parameter>,
+        spacing: Spacing,
+    ) -> Result<ManifestScan, ManifestError> {
+        let mut first: Option<(Grid, &Path)> = None;
+        let mut sweeps = Vec::with_capacity(self.rows.len());
+        let mut warnings = Vec::new();
+        for row in &self.rows {
+            let err = |kind| ManifestError {
+                file: self.name.clone(),
+                line: Some(row.line),
+                kind,
+            };
+            let ts = Touchstone::read(&row.file)
+                .map_err(|e| err(ManifestErrorKind::Touchstone(Box::new(e))))?;
+            let p = parameter.unwrap_or_else(|| Parameter::default_for(ts.ports()));
+            let s = ts
+                .to_sweep(p, spacing)
+                .map_err(|e| err(ManifestErrorKind::Touchstone(Box::new(e))))?;
+            match first {
+                None => first = Some((s.grid, &row.file)),
+                Some((g, f)) => {
+                    if !same_grid(&g, &s.grid) {
+                        let parts = |g: &Grid| (g.start_hz(), g.step_hz(), g.points());
+                        return Err(err(ManifestErrorKind::DifferentGrid(Box::new(
+                            GridMismatch {
+                                file: row.file.clone(),
+                                grid: parts(&s.grid),
+                                first_file: f.to_path_buf(),
+                                first_grid: parts(&g),
+                            },
+                        ))));
+                    }
+                }
+            }
+            if let Some(w) = s.warning {
+                warnings.push(w);
+            }
+            sweeps.push(AngleSweep {
+                angle_deg: row.angle_deg,
+                values: s.values,
+                file: row.file.clone(),
+            });
+        }
+        let Some((grid, _)) = first else {
+            return Err(ManifestError {
+                file: self.name.clone(),
+                line: None,
+                kind: ManifestErrorKind::NoRows,
+            });
+        };
+        Ok(ManifestScan {
+            grid,
+            sweeps,
+            warnings,
+        })
+    }
+}
+
+fn same_grid(a: &Grid, b: &Grid) -> bool {
+    let tol = UNIFORM_TOLERANCE_OF_STEP * a.step_hz();
+    a.points() == b.points()
+        && (a.start_hz() - b.start_hz()).abs() <= tol
+        && (a.step_hz() - b.step_hz()).abs() * (a.points() - 1) as f64 <= tol
+}
+
+/// A file field, with surrounding double quotes removed and `""` turned into `"`.
+fn unquote(field: &str) -> Result<String, ManifestErrorKind> {
+    let Some(inner) = field.strip_prefix('"') else {
+        return Ok(field.to_string());
+    };
+    let Some(inner) = inner.strip_suffix('"') else {
+        return Err(ManifestErrorKind::UnclosedQuote);
+    };
+    Ok(inner.replace("\"\"", "\""))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    struct Dir(PathBuf);
+
+    impl Dir {
+        fn new(tag: &str) -> Self {
+            use std::sync::atomic::{AtomicUsize, Ordering};
+            static N: AtomicUsize = AtomicUsize::new(0);
+            let p = std::env::temp_dir().join(format!(
+                "sweepgate-manifest-{tag}-{}-{}",
+                std::process::id(),
+                N.fetch_add(1, Ordering::Relaxed)
+            ));
+            std::fs::create_dir_all(&p).unwrap();
+            Self(p)
+        }
+        fn write(&self, name: &str, text: &str) -> PathBuf {
+            let p = self.0.join(name);
+            if let Some(d) = p.parent() {
+                std::fs::create_dir_all(d).unwrap();
+            }
+            std::fs::write(&p, text).unwrap();
+            p
+        }
+    }
+
+    impl Drop for Dir {
+        fn drop(&mut self) {
+            let _ = std::fs::remove_dir_all(&self.0);
+        }
+    }
+
+    fn s2p(start_mhz: f64, step_mhz: f64, n: usize, s21: f64) -> String {
+        let mut t = String::from("# MHz S RI R 50\n");
+        for k in 0..n {
+            let f = start_mhz + step_mhz * k as f64;
+            t.push_str(&format!("{f} 0.1 0 {s21} {k} 0 0 0.1 0\n"));
+        }
+        t
+    }
+
+    fn kind_of(d: &Dir, text: &str) -> (Option<usize>, ManifestErrorKind) {
+        let m = d.write("m.csv", text);
+        let e = Manifest::read(&m).unwrap_err();
+        (e.line, e.kind)
+    }
+
+    #[test]
+    fn reads_rows_relative_to_the_manifest() {
+        let d = Dir::new("rows");
+        d.write("sub/a.s2p", &s2p(100.0, 1.0, 4, 0.5));
+        d.write("sub/b c.s2p", &s2p(100.0, 1.0, 4, 0.25));
+        d.write(
+            "sub/ro,1.s1p",
+            "# MHz S RI\n100 0.1 0\n101 0.1 0\n102 0.1 0\n103 0.1 0\n",
+        );
+        let m = d.write(
+            "scans/../m.csv",
+            "\u{feff} angle_deg , file \n-5,sub/a.s2p\n\n 7.5 ,\"sub/b c.s2p\"\n90,sub/ro,1.s1p\n",
+        );
+        let m = Manifest::read(&m).unwrap();
+        let angles: Vec<f64> = m.rows().iter().map(|r| r.angle_deg).collect();
+        assert_eq!(angles, vec![-5.0, 7.5, 90.0]);
+        assert_eq!(m.rows()[1].line, 4);
+        assert!(m.rows()[2].file.ends_with("sub/ro,1.s1p"));
+        let scan = m.load(None, Spacing::RequireUniform).unwrap();
+        assert_eq!(scan.grid.points(), 4);
+        assert_eq!(scan.sweeps.len(), 3);
+        // Default parameter: S21 from 2-port files (second pair), S11 from 1-port files.
+        assert_eq!(scan.sweeps[0].values[2], Complex32::new(0.5, 2.0));
+        assert_eq!(scan.sweeps[1].values[3], Complex32::new(0.25, 3.0));
+        assert_eq!(scan.sweeps[2].values[0], Complex32::new(0.1, 0.0));
+        assert!(scan.warnings.is_empty());
+        let s11 = m
+            .load(Some(Parameter::S11), Spacing::RequireUniform)
+            .unwrap();
+        assert_eq!(s11.sweeps[0].values[0], Complex32::new(0.1, 0.0));
+    }
+
+    #[test]
+    fn header_errors() {
+        let d = Dir::new("header");
+        assert_eq!(kind_of(&d, ""), (None, ManifestErrorKind::NoRows));
+        assert_eq!(
+            kind_of(&d, "angle_deg,file\n\n"),
+            (None, ManifestErrorKind::NoRows)
+        );
+        assert_eq!(
+            kind_of(&d, "angle,file\n0,a.s2p\n"),
+            (Some(1), ManifestErrorKind::BadHeader("angle,file".into()))
+        );
+        assert_eq!(
+            kind_of(&d, "\nangle_deg,file,extra\n"),
+            (
+                Some(2),
+                ManifestErrorKind::BadHeader("angle_deg,file,extra".into())
+            )
+        );
+    }
+
+    #[test]
+    fn row_errors_name_the_line() {
+        let d = Dir::new("rowerr");
+        d.write("a.s2p", &s2p(100.0, 1.0, 4, 0.5));
+        let h = "angle_deg,file\n0,a.s2p\n";
+        assert_eq!(
+            kind_of(&d, &format!("{h}5\n")),
+            (Some(3), ManifestErrorKind::MissingFileField)
+        );
+        assert_eq!(
+            kind_of(&d, &format!("{h}five,a.s2p\n")),
+            (Some(3), ManifestErrorKind::BadAngle("five".into()))
+        );
+        assert_eq!(
+            kind_of(&d, &format!("{h}NaN,a.s2p\n")),
+            (Some(3), ManifestErrorKind::NonFiniteAngle("NaN".into()))
+        );
+        assert_eq!(
+            kind_of(&d, &format!("{h}5, \n")),
+            (Some(3), ManifestErrorKind::EmptyFileName)
+        );
+        assert_eq!(
+            kind_of(&d, &format!("{h}5,\"a.s2p\n")),
+            (Some(3), ManifestErrorKind::UnclosedQuote)
+        );
+        assert_eq!(
+            kind_of(&d, &format!("{h}0.0,a.s2p\n")),
+            (
+                Some(3),
+                ManifestErrorKind::DuplicateAngle {
+                    angle_deg: 0.0,
+                    first_line: 2
+                }
+            )
+        );
+        let (line, k) = kind_of(&d, &format!("{h}5,nothere.s2p\n"));
+        assert_eq!(line, Some(3));
+        assert!(matches!(k, ManifestErrorKind::MissingFile(p) if p.ends_with("nothere.s2p")));
+        let m = d.write("m.csv", &format!("{h}0,a.s2p\n"));
+        let e = Manifest::read(&m).unwrap_err();
+        assert!(
+            e.to_string()
+                .ends_with("m.csv:3: angle 0° already given on line 2"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn different_grids_are_refused() {
+        let d = Dir::new("grids");
+        d.write("a.s2p", &s2p(100.0, 1.0, 4, 0.5));
+        d.write("b.s2p", &s2p(100.0, 1.0, 5, 0.5));
+        d.write("c.s2p", &s2p(100.0, 1.1, 4, 0.5));
+        d.write("d.s2p", &s2p(100.5, 1.0, 4, 0.5));
+        // Within tolerance: 100 Hz on a 1 MHz step.
+        d.write("e.s2p", &s2p(100.0001, 1.0, 4, 0.5));
+        for f in ["b", "c", "d"] {
+            let m = d.write(
+                "m.csv",
+                &format!("angle_deg,file\n0,a.s2p\n1,e.s2p\n2,{f}.s2p\n"),
+            );
+            let e = Manifest::read(&m)
+                .unwrap()
+                .load(None, Spacing::RequireUniform)
+                .unwrap_err();
+            assert_eq!(e.line, Some(4), "{f}");
+            assert!(matches!(e.kind, ManifestErrorKind::DifferentGrid(_)), "{f}");
+            assert!(e.to_string().contains("different frequency grid"));
+        }
+    }
+
+    #[test]
+    fn touchstone_errors_pass_through_with_both_lines() {
+        let d = Dir::new("ts");
+        d.write("a.s2p", &s2p(100.0, 1.0, 4, 0.5));
+        d.write("bad.s2p", "# MHz S RI\n100 1 0 0 0 0 0 1\n");
+        d.write(
+            "gap.s1p",
+            "# MHz S RI\n100 1 0\n101 1 0\n103 1 0\n104 1 0\n",
+        );
+        let m = d.write("m.csv", "angle_deg,file\n0,a.s2p\n10,bad.s2p\n");
+        let e = Manifest::read(&m)
+            .unwrap()
+            .load(None, Spacing::RequireUniform)
+            .unwrap_err();
+        assert_eq!(e.line, Some(3));
+        let text = e.to_string();
+        assert!(
+            text.contains("m.csv:3: ") && text.contains("bad.s2p:2: expected 9 numbers, found 8"),
+            "{text}"
+        );
+        let m = d.write("m.csv", "angle_deg,file\n0,gap.s1p\n");
+        let man = Manifest::read(&m).unwrap();
+        let e = man.load(None, Spacing::RequireUniform).unwrap_err();
+        assert!(e.to_string().contains("not uniformly spaced"));
+        let scan = man.load(None, Spacing::Resample).unwrap();
+        assert_eq!(scan.warnings.len(), 1);
+    }
+}
