@@ -5,6 +5,8 @@
 #![forbid(unsafe_code)]
 #![warn(missing_docs)]
 
+pub mod acquire;
+pub mod instrument;
 pub mod physics;
 pub mod record;
 pub mod scenario;

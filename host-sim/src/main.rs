@@ -5,6 +5,7 @@ use clap::{Parser, Subcommand};
 mod demo;
 
 use sweepgate_host::simulate;
+use sweepgate_host::{acquire, instrument};
 
 /// Time-domain gating for antenna pattern scans in ordinary rooms.
 #[derive(Parser)]
@@ -20,6 +21,12 @@ enum Command {
     Demo(demo::Args),
     /// Simulate a scan of a room scenario and write it as a recording.
     Simulate(simulate::Args),
+    /// Run a simulated VNA on a TCP port, answering SCPI queries.
+    Instrument(instrument::Args),
+    /// Decode one IEEE 488.2 block from a file and print its values as JSON.
+    ReadBlock(instrument::ReadBlockArgs),
+    /// Drive an instrument and a positioner over TCP and record the scan.
+    Acquire(acquire::Args),
 }
 
 fn main() {
@@ -27,6 +34,9 @@ fn main() {
     let result = match cli.command {
         Command::Demo(a) => demo::run(a),
         Command::Simulate(a) => simulate::run(a),
+        Command::Instrument(a) => instrument::run(a),
+        Command::ReadBlock(a) => instrument::run_read_block(a),
+        Command::Acquire(a) => acquire::run(a),
     };
     if let Err(e) = result {
         eprintln!("error: {e:#}");
