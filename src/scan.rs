@@ -1,1 +1,811 @@
 //! The scan engine: sweeps and angle samples in, events out.
+//!
+//! [`Scan<M, F, B, H>`](Scan) owns a [`Gate<M>`], its [`Kernels`] for `F` pattern
+//! frequencies, a [`Tracker<H>`] of positioner samples and the [`Bins<M, B>`] accumulator.
+//! The caller pushes angle samples (or encoder counts) and sweeps with their start and end
+//! times as they arrive; each push returns the [`Events`] it caused: a bin closed (with its
+//! [`BinResult`]), a warning, or the scan finished. Nothing is stored per bin beyond one
+//! byte, so results must be taken from the events (and sent on, e.g. as preview records).
+//!
+//! For each sweep the engine takes the tracked angle at its mid-time (the start/end midpoint)
+//! as the sweep's angle, and `|angle(end) − angle(start)|` as its smear (the net travel: a
+//! reversal within one sweep reads smaller). Its direction is the sign of that travel when
+//! it exceeds the settle tolerance, otherwise [`Direction::Still`].
+//!
+//! Every input is counted. For sweeps, `binned + rejected() == pushed` always; the reasons
+//! are the [`SweepReject`] variants, checked in this order: scan finished, wrong point count,
+//! non-finite value, end before start, no angle yet, outside the angle history, outside the
+//! layout, taken while moving (step-and-stop with `reject_moving`), bin already closed
+//! (keep-first). For angle samples, `accepted + rejected() == pushed` likewise.
+//!
+//! # Gating cost
+//!
+//! A closed bin is gated once. The echo level (impulse-response energy outside the gate)
+//! needs the FFT path ([`Gate::apply`]: one inverse and one forward M-point FFT, about
+//! 243 k instructions for M = 1024 on a Cortex-M4F), so it is a choice:
+//! [`EchoMode::EveryBin`] takes the gated values from that FFT path too;
+//! [`EchoMode::Never`] uses the kernel path ([`Gate::window`] then
+//! [`Gate::apply_kernels_windowed`]: F dot products of K points, about 54 k instructions
+//! for M = 1024, K = 801, F = 4).
+//!
+//! # Memory
+//!
+//! `size_of::<Scan<1024, 8, 361>>()` (history H = 64) is **42 616 bytes** (41.6 KiB) on
+//! `thumbv7em-none-eabihf` and 42 624 bytes on x86-64 (printed and asserted ≤ 64 KiB by
+//! `tests/scan_memory.rs`): the gate 24 KiB, the open-bin sum 8 KiB, the echo scratch
+//! 8 KiB, the history 768 bytes, one byte per bin, and small state. No heap.
+//!
+//! # Safety
+//!
+//! A positioner is moving machinery and a transmitting antenna under test can exceed RF
+//! exposure limits near its aperture; this engine only bins data and is no interlock. Follow
+//! local regulations and the lab's licensed practice.
+//!
+//! ```
+//! use sweepgate::{Complex32, grid::Grid, window::WindowKind, gate::GateConfig};
+//! use sweepgate::bins::{BinLayout, RevisitPolicy};
+//! use sweepgate::scan::{Scan, ScanConfig, Event};
+//! let grid = Grid::from_start_stop(2e9, 18e9, 201).unwrap();
+//! let gate = GateConfig { grid, band_window: WindowKind::Kaiser { beta: 6.0 }, center_s: 10e-9,
+//!     span_s: 4e-9, shape: WindowKind::Tukey { alpha: 0.5 }, renormalize: true };
+//! let cfg = ScanConfig::new(BinLayout::full_circle(0.0, 1.0).unwrap());
+//! let mut scan: Scan<256, 2, 360> = Scan::new(&gate, [0, 100], cfg).unwrap();
+//! let sweep = [Complex32::new(1.0, 0.0); 201];
+//! // 10 deg/s; one 20 ms sweep every 50 ms.
+//! let mut closed = 0;
+//! for i in 0..40u64 {
+//!     let t = i * 50_000;
+//!     scan.push_angle(t, i as f32 * 0.5);
+//!     if i > 0 {
+//!         for e in scan.push_sweep(t - 30_000, t - 10_000, &sweep) {
+//!             if let Event::BinClosed(r) = e {
+//!                 closed += 1;
+//!                 // Sweep mid-angles 0.3°, 0.8°, 1.3°, …: bin 0 gets one, the others two.
+//!                 assert_eq!(r.sweeps, if r.index == 0 { 1 } else { 2 });
+//!             }
+//!         }
+//!     }
+//! }
+//! assert!(closed >= 18);
+//! let c = scan.counters();
+//! assert_eq!(c.sweeps_binned + c.sweeps_rejected(), c.sweeps_pushed);
+//! ```
+
+use crate::bins::{BinFlags, BinLayout, Bins, ClosedBin, RevisitPolicy, SweepAngle};
+use crate::error::{SampleReject, ScanConfigError, SweepReject};
+use crate::fft::Fft;
+use crate::gate::{Gate, GateConfig, Kernels};
+use crate::track::{Accepted, Direction, EncoderConfig, TrackConfig, TrackCounters, Tracker};
+use crate::wire::preview::{BinRecord, FreqValue, PositionerState, StatusRecord};
+use crate::Complex32;
+
+/// Continuous sweeping or step-and-stop.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum ScanMode {
+    /// The positioner turns while the VNA sweeps.
+    Continuous,
+    /// The positioner steps, settles, and the caller triggers a sweep when
+    /// [`Scan::is_settled`] says so. Sweeps taken while moving are flagged (and refused if
+    /// `reject_moving`).
+    StepAndStop {
+        /// Refuse sweeps taken while moving instead of flagging them.
+        reject_moving: bool,
+    },
+}
+
+/// Whether closed bins get an echo level (FFT path, two M-point FFTs per bin).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum EchoMode {
+    /// No echo level (`echo_db` is `None`): kernel path only.
+    Never,
+    /// Echo level of every closed bin via [`Gate::apply`].
+    EveryBin,
+}
+
+/// Scan settings, validated by [`Scan::new`].
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct ScanConfig {
+    /// Tracker settings.
+    pub track: TrackConfig,
+    /// Encoder, if the positioner reports raw counts ([`Scan::push_counts`]).
+    pub encoder: Option<EncoderConfig>,
+    /// Bin layout.
+    pub layout: BinLayout,
+    /// Continuous or step-and-stop.
+    pub mode: ScanMode,
+    /// What a revisited bin does.
+    pub revisit: RevisitPolicy,
+    /// Echo level per closed bin or not.
+    pub echo: EchoMode,
+    /// Bins with fewer sweeps are flagged sparse.
+    pub min_sweeps: u32,
+    /// Close the open bin once the positioner has been seen outside it for this long, µs
+    /// (`None`: close only when a sweep lands elsewhere, or at the end).
+    pub leave_close_us: Option<u32>,
+}
+
+impl ScanConfig {
+    /// Continuous scan over `layout` with default tracking, replace-on-revisit, echo level
+    /// every bin, sparse below 1 sweep, closing 100 ms after the positioner left a bin.
+    pub fn new(layout: BinLayout) -> Self {
+        Self {
+            track: TrackConfig::default(),
+            encoder: None,
+            layout,
+            mode: ScanMode::Continuous,
+            revisit: RevisitPolicy::Replace,
+            echo: EchoMode::EveryBin,
+            min_sweeps: 1,
+            leave_close_us: Some(100_000),
+        }
+    }
+}
+
+/// A gated bin result.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BinResult<const F: usize> {
+    /// Bin index.
+    pub index: u16,
+    /// Bin centre.
+    pub nominal_deg: f32,
+    /// Mean measured angle of its sweeps.
+    pub mean_deg: f32,
+    /// Sweeps averaged.
+    pub sweeps: u32,
+    /// Largest smear.
+    pub max_smear_deg: f32,
+    /// Flags.
+    pub flags: BinFlags,
+    /// Grid indices of the pattern frequencies.
+    pub indices: [u16; F],
+    /// Averaged raw S21 at the pattern frequencies.
+    pub raw: [Complex32; F],
+    /// Gated S21 at the pattern frequencies.
+    pub gated: [Complex32; F],
+    /// Echo level in dB, if computed.
+    pub echo_db: Option<f32>,
+}
+
+// `Complex32` has no `defmt::Format`: print the scalar fields and the values' parts.
+#[cfg(feature = "defmt")]
+impl<const F: usize> defmt::Format for BinResult<F> {
+    fn format(&self, f: defmt::Formatter) {
+        defmt::write!(
+            f,
+            "BinResult {{ index: {}, nominal_deg: {}, mean_deg: {}, sweeps: {}, max_smear_deg: {}, flags: {}, echo_db: {}, gated:",
+            self.index,
+            self.nominal_deg,
+            self.mean_deg,
+            self.sweeps,
+            self.max_smear_deg,
+            self.flags,
+            self.echo_db
+        );
+        for g in &self.gated {
+            defmt::write!(f, " ({}, {})", g.re, g.im);
+        }
+        defmt::write!(f, " }}");
+    }
+}
+
+impl<const F: usize> BinResult<F> {
+    /// As a preview record.
+    pub fn to_record(&self) -> BinRecord<F> {
+        let mut values = heapless::Vec::new();
+        for ((&index, &raw), &gated) in self.indices.iter().zip(&self.raw).zip(&self.gated) {
+            // Cannot fail: F values into a Vec of capacity F.
+            let _ = values.push(FreqValue { index, raw, gated });
+        }
+        BinRecord {
+            bin: self.index,
+            flags: self.flags.0,
+            sweeps: self.sweeps,
+            nominal_deg: self.nominal_deg,
+            mean_deg: self.mean_deg,
+            max_smear_deg: self.max_smear_deg,
+            echo_db: self.echo_db.unwrap_or(f32::NAN),
+            values,
+        }
+    }
+}
+
+/// Something the caller should know about that is not a bin result.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Warning {
+    /// A sweep was refused (and counted).
+    SweepRejected(SweepReject),
+    /// An angle sample was refused (and counted).
+    AngleRejected(SampleReject),
+    /// Step-and-stop: a sweep was binned although taken while moving.
+    TakenWhileMoving,
+    /// A sweep's angle was extrapolated beyond the positioner history.
+    Extrapolated,
+    /// The tracker restarted after repeated jumps.
+    TrackerResynced,
+    /// The positioner has not moved for the stall time.
+    Stalled,
+}
+
+/// An event from the engine.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Event<const F: usize> {
+    /// A bin closed.
+    BinClosed(BinResult<F>),
+    /// A warning.
+    Warning(Warning),
+    /// The scan finished; final counters.
+    Finished(ScanCounters),
+}
+
+/// Events caused by one push (at most 3: a closed bin and up to two warnings).
+pub type Events<const F: usize> = heapless::Vec<Event<F>, 3>;
+
+/// Input counters.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct ScanCounters {
+    /// Sweeps offered.
+    pub sweeps_pushed: u32,
+    /// Sweeps added to a bin.
+    pub sweeps_binned: u32,
+    /// Sweeps refused, by reason in [`SweepReject::ALL`] order.
+    pub sweeps_rejected_by: [u32; 9],
+    /// Binned sweeps taken while moving (step-and-stop).
+    pub sweeps_moving: u32,
+    /// Binned sweeps whose angle was extrapolated.
+    pub sweeps_extrapolated: u32,
+    /// Angle samples (or counts) offered.
+    pub angles_pushed: u32,
+    /// Angle samples accepted.
+    pub angles_accepted: u32,
+    /// Angle samples refused because the scan had finished.
+    pub angles_after_finish: u32,
+    /// The tracker's own counters (its rejections by reason).
+    pub track: TrackCounters,
+    /// Bins closed.
+    pub bins_closed: u32,
+}
+
+impl ScanCounters {
+    /// Sweeps refused, all reasons.
+    pub fn sweeps_rejected(&self) -> u32 {
+        self.sweeps_rejected_by
+            .iter()
+            .fold(0u32, |a, &b| a.saturating_add(b))
+    }
+
+    /// Sweeps refused for `reason`.
+    pub fn sweeps_rejected_for(&self, reason: SweepReject) -> u32 {
+        let i = SweepReject::ALL
+            .iter()
+            .position(|&r| r == reason)
+            .unwrap_or(0);
+        self.sweeps_rejected_by.get(i).copied().unwrap_or(0)
+    }
+
+    /// Angle samples refused, all reasons.
+    pub fn angles_rejected(&self) -> u32 {
+        self.track
+            .rejected()
+            .saturating_add(self.angles_after_finish)
+    }
+}
+
+/// The scan engine. See the [module docs](self).
+pub struct Scan<const M: usize, const F: usize, const B: usize, const H: usize = 64>
+where
+    [Complex32; M]: Fft,
+{
+    cfg: ScanConfig,
+    gate: Gate<M>,
+    kernels: Kernels<M, F>,
+    tracker: Tracker<H>,
+    bins: Bins<M, B>,
+    scratch: [Complex32; M],
+    counters: ScanCounters,
+    finished: bool,
+    stall_warned: bool,
+}
+
+fn push_event<const F: usize>(ev: &mut Events<F>, e: Event<F>) {
+    // Capacity 3 covers the most any push produces (closed bin + two warnings).
+    let _ = ev.push(e);
+}
+
+impl<const M: usize, const F: usize, const B: usize, const H: usize> Scan<M, F, B, H>
+where
+    [Complex32; M]: Fft,
+{
+    /// Builds the gate for `gate_cfg`, its kernels for the grid indices `pattern_indices`,
+    /// the tracker and the bins.
+    pub fn new(
+        gate_cfg: &GateConfig,
+        pattern_indices: [usize; F],
+        cfg: ScanConfig,
+    ) -> Result<Self, ScanConfigError> {
+        if B == 0 || B > usize::from(u16::MAX) {
+            return Err(ScanConfigError::BinCapacity);
+        }
+        if cfg.min_sweeps == 0 {
+            return Err(ScanConfigError::MinSweeps);
+        }
+        let tracker = match cfg.encoder {
+            Some(enc) => Tracker::with_encoder(cfg.track, enc)?,
+            None => Tracker::new(cfg.track)?,
+        };
+        let bins = Bins::new(cfg.layout, cfg.revisit, cfg.min_sweeps)?;
+        let gate = Gate::new(gate_cfg)?;
+        let kernels = gate.kernels(pattern_indices)?;
+        Ok(Self {
+            cfg,
+            gate,
+            kernels,
+            tracker,
+            bins,
+            scratch: [Complex32::new(0.0, 0.0); M],
+            counters: ScanCounters::default(),
+            finished: false,
+            stall_warned: false,
+        })
+    }
+
+    /// The configuration.
+    pub fn config(&self) -> &ScanConfig {
+        &self.cfg
+    }
+
+    /// The gate.
+    pub fn gate(&self) -> &Gate<M> {
+        &self.gate
+    }
+
+    /// The tracker.
+    pub fn tracker(&self) -> &Tracker<H> {
+        &self.tracker
+    }
+
+    /// The bin accumulator.
+    pub fn bins(&self) -> &Bins<M, B> {
+        &self.bins
+    }
+
+    /// Counters.
+    pub fn counters(&self) -> ScanCounters {
+        let mut c = self.counters;
+        c.track = *self.tracker.counters();
+        c
+    }
+
+    /// True after [`finish`](Self::finish).
+    pub fn is_finished(&self) -> bool {
+        self.finished
+    }
+
+    /// Step-and-stop: the positioner has settled; trigger a sweep now.
+    pub fn is_settled(&self) -> bool {
+        self.tracker.is_settled()
+    }
+
+    /// Current status, for a periodic preview record.
+    pub fn status(&self) -> StatusRecord {
+        let c = self.counters();
+        let latest = self.tracker.latest();
+        let state = if self.finished {
+            PositionerState::Finished
+        } else if latest.is_none() {
+            PositionerState::NoAngle
+        } else if self.tracker.is_stalled() {
+            PositionerState::Stalled
+        } else if self.tracker.is_settled() {
+            PositionerState::Settled
+        } else {
+            PositionerState::Moving
+        };
+        StatusRecord {
+            time_us: latest.map(|l| l.0).unwrap_or(0),
+            angle_deg: latest.map(|l| l.1).unwrap_or(f32::NAN),
+            speed_deg_s: self.tracker.speed_deg_s().unwrap_or(f32::NAN),
+            state,
+            open_bin: self.bins.open_index(),
+            bins_closed: c.bins_closed.min(u32::from(u16::MAX)) as u16,
+            sweeps_pushed: c.sweeps_pushed,
+            sweeps_binned: c.sweeps_binned,
+            sweeps_rejected: c.sweeps_rejected(),
+            angles_pushed: c.angles_pushed,
+            angles_rejected: c.angles_rejected(),
+        }
+    }
+
+    /// Pushes an angle reading (degrees, wrapped or continuous) at `t_us`.
+    pub fn push_angle(&mut self, t_us: u64, angle_deg: f32) -> Events<F> {
+        self.angle_common(t_us, |tr| tr.push_angle(t_us, angle_deg))
+    }
+
+    /// Pushes a raw encoder count at `t_us` (scans configured with an encoder).
+    pub fn push_counts(&mut self, t_us: u64, raw: u32) -> Events<F> {
+        self.angle_common(t_us, |tr| tr.push_counts(t_us, raw))
+    }
+
+    fn angle_common(
+        &mut self,
+        t_us: u64,
+        push: impl FnOnce(&mut Tracker<H>) -> Result<Accepted, SampleReject>,
+    ) -> Events<F> {
+        let mut ev = Events::new();
+        self.counters.angles_pushed = self.counters.angles_pushed.saturating_add(1);
+        if self.finished {
+            self.counters.angles_after_finish = self.counters.angles_after_finish.saturating_add(1);
+            push_event(
+                &mut ev,
+                Event::Warning(Warning::AngleRejected(SampleReject::Finished)),
+            );
+            return ev;
+        }
+        match push(&mut self.tracker) {
+            Err(e) => {
+                push_event(&mut ev, Event::Warning(Warning::AngleRejected(e)));
+                return ev;
+            }
+            Ok(a) => {
+                self.counters.angles_accepted = self.counters.angles_accepted.saturating_add(1);
+                if a == Accepted::Resynced {
+                    push_event(&mut ev, Event::Warning(Warning::TrackerResynced));
+                }
+            }
+        }
+        // Positioner outside the open bin for long enough: close it.
+        if let (Some(open), Some((_, angle))) = (self.bins.open_index(), self.tracker.latest()) {
+            if self.cfg.layout.index_of(angle) == Some(open) {
+                self.bins.touch(t_us);
+            } else if let (Some(d), Some(inside)) =
+                (self.cfg.leave_close_us, self.bins.last_inside_us())
+            {
+                if t_us.saturating_sub(inside) > u64::from(d) {
+                    if let Some(r) = self.close_open() {
+                        push_event(&mut ev, Event::BinClosed(r));
+                    }
+                }
+            }
+        }
+        let stalled = self.tracker.is_stalled();
+        if stalled && !self.stall_warned {
+            push_event(&mut ev, Event::Warning(Warning::Stalled));
+        }
+        self.stall_warned = stalled;
+        ev
+    }
+
+    fn close_open(&mut self) -> Option<BinResult<F>> {
+        let (gate, kernels, scratch, echo) =
+            (&self.gate, &self.kernels, &mut self.scratch, self.cfg.echo);
+        let r = self
+            .bins
+            .close(|cb, sum, inv| gate_bin(gate, kernels, scratch, echo, cb, sum, inv));
+        if r.is_some() {
+            self.counters.bins_closed = self.counters.bins_closed.saturating_add(1);
+        }
+        r
+    }
+
+    fn reject(&mut self, ev: &mut Events<F>, reason: SweepReject) {
+        if let Some(i) = SweepReject::ALL.iter().position(|&r| r == reason) {
+            if let Some(c) = self.counters.sweeps_rejected_by.get_mut(i) {
+                *c = c.saturating_add(1);
+            }
+        }
+        push_event(ev, Event::Warning(Warning::SweepRejected(reason)));
+    }
+
+    /// Pushes a sweep of K raw points (the grid's point count) measured from `start_us` to
+    /// `end_us`.
+    pub fn push_sweep(&mut self, start_us: u64, end_us: u64, points: &[Complex32]) -> Events<F> {
+        let mut ev = Events::new();
+        self.counters.sweeps_pushed = self.counters.sweeps_pushed.saturating_add(1);
+        match self.place_sweep(start_us, end_us, points, &mut ev) {
+            Ok(()) => {
+                self.counters.sweeps_binned = self.counters.sweeps_binned.saturating_add(1);
+            }
+            Err(reason) => self.reject(&mut ev, reason),
+        }
+        ev
+    }
+
+    /// Pushes a sweep held in an M-point buffer whose first `k` entries are the points.
+    pub fn push_sweep_buffer(
+        &mut self,
+        start_us: u64,
+        end_us: u64,
+        buf: &[Complex32; M],
+        k: usize,
+    ) -> Events<F> {
+        // A `k` beyond M gives the whole buffer, which then fails the point-count check.
+        let pts = buf.get(..k).unwrap_or(&buf[..]);
+        self.push_sweep(start_us, end_us, pts)
+    }
+
+    fn place_sweep(
+        &mut self,
+        start_us: u64,
+        end_us: u64,
+        points: &[Complex32],
+        ev: &mut Events<F>,
+    ) -> Result<(), SweepReject> {
+        if self.finished {
+            return Err(SweepReject::Finished);
+        }
+        if points.len() != self.gate.points() {
+            return Err(SweepReject::WrongPointCount);
+        }
+        if points
+            .iter()
+            .any(|p| !(p.re.is_finite() && p.im.is_finite()))
+        {
+            return Err(SweepReject::NonFinite);
+        }
+        if end_us < start_us {
+            return Err(SweepReject::BadTimes);
+        }
+        if self.tracker.is_empty() {
+            return Err(SweepReject::NoAngle);
+        }
+        let mid_us = start_us + (end_us - start_us) / 2;
+        let a0 = self.tracker.angle_at(start_us);
+        let a1 = self.tracker.angle_at(end_us);
+        let am = self.tracker.angle_at(mid_us);
+        let (Ok(a0), Ok(a1), Ok(am)) = (a0, a1, am) else {
+            return Err(SweepReject::OutsideHistory);
+        };
+        let Some(index) = self.cfg.layout.index_of(am.angle_deg) else {
+            // The positioner has left the open bin (and the layout).
+            if let Some(r) = self.close_open() {
+                push_event(ev, Event::BinClosed(r));
+            }
+            return Err(SweepReject::OutsideLayout);
+        };
+        let travel = a1.angle_deg - a0.angle_deg;
+        let tol = self.cfg.track.settle_tolerance_deg;
+        let direction = if travel > tol {
+            Direction::Forward
+        } else if travel < -tol {
+            Direction::Reverse
+        } else {
+            Direction::Still
+        };
+        let moving = match self.cfg.mode {
+            ScanMode::Continuous => false,
+            ScanMode::StepAndStop { .. } => {
+                let from = start_us.saturating_sub(u64::from(self.cfg.track.settle_time_us));
+                self.tracker.still_between(from, end_us) != Some(true)
+            }
+        };
+        if moving
+            && matches!(
+                self.cfg.mode,
+                ScanMode::StepAndStop {
+                    reject_moving: true
+                }
+            )
+        {
+            return Err(SweepReject::WhileMoving);
+        }
+        let extrapolated = a0.extrapolated || a1.extrapolated || am.extrapolated;
+        let sweep = SweepAngle {
+            mid_deg: am.angle_deg,
+            smear_deg: libm::fabsf(travel),
+            direction,
+            moving,
+            extrapolated,
+            end_us,
+        };
+        let (gate, kernels, scratch, echo) =
+            (&self.gate, &self.kernels, &mut self.scratch, self.cfg.echo);
+        let (res, closed) = self.bins.add(index, &sweep, points, |cb, sum, inv| {
+            gate_bin(gate, kernels, scratch, echo, cb, sum, inv)
+        });
+        if let Some(r) = closed {
+            self.counters.bins_closed = self.counters.bins_closed.saturating_add(1);
+            push_event(ev, Event::BinClosed(r));
+        }
+        res?;
+        if moving {
+            self.counters.sweeps_moving = self.counters.sweeps_moving.saturating_add(1);
+            push_event(ev, Event::Warning(Warning::TakenWhileMoving));
+        }
+        if extrapolated {
+            self.counters.sweeps_extrapolated = self.counters.sweeps_extrapolated.saturating_add(1);
+            push_event(ev, Event::Warning(Warning::Extrapolated));
+        }
+        Ok(())
+    }
+
+    /// Ends the scan: closes the open bin and reports the final counters. Later inputs are
+    /// refused as `Finished`. Calling it again only repeats the `Finished` event.
+    pub fn finish(&mut self) -> Events<F> {
+        let mut ev = Events::new();
+        if let Some(r) = self.close_open() {
+            push_event(&mut ev, Event::BinClosed(r));
+        }
+        self.finished = true;
+        push_event(&mut ev, Event::Finished(self.counters()));
+        ev
+    }
+}
+
+/// Gates a closed bin from its sum of sweeps and 1/count. With an echo level the FFT path
+/// runs anyway, so the gated values are read from it; without, the sum is windowed in place
+/// (folding in 1/count) and the kernel path takes one dot product per frequency.
+fn gate_bin<const M: usize, const F: usize>(
+    gate: &Gate<M>,
+    kernels: &Kernels<M, F>,
+    scratch: &mut [Complex32; M],
+    echo: EchoMode,
+    cb: &ClosedBin,
+    sum: &[Complex32; M],
+    inv_count: f32,
+) -> BinResult<F>
+where
+    [Complex32; M]: Fft,
+{
+    let idx = kernels.indices();
+    let at = |buf: &[Complex32; M], i: usize| buf.get(i).copied().unwrap_or_default() * inv_count;
+    let raw = idx.map(|i| at(sum, i));
+    let mut gated = [Complex32::new(0.0, 0.0); F];
+    let echo_db = match echo {
+        EchoMode::Never => {
+            scratch.copy_from_slice(sum);
+            gate.window(scratch, inv_count);
+            gate.apply_kernels_windowed(kernels, scratch, &mut gated);
+            None
+        }
+        EchoMode::EveryBin => {
+            // Gating is linear and the echo level is a ratio: gate the sum, scale after.
+            let echo_db = gate.apply(sum, scratch);
+            gated = idx.map(|i| at(scratch, i));
+            Some(echo_db)
+        }
+    };
+    BinResult {
+        index: cb.index,
+        nominal_deg: cb.nominal_deg,
+        mean_deg: cb.mean_deg,
+        sweeps: cb.sweeps,
+        max_smear_deg: cb.max_smear_deg,
+        flags: cb.flags,
+        indices: idx.map(|i| i.min(usize::from(u16::MAX)) as u16),
+        raw,
+        gated,
+        echo_db,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::grid::Grid;
+    use crate::window::WindowKind;
+
+    fn gate_cfg() -> GateConfig {
+        GateConfig {
+            grid: Grid::from_start_stop(2e9, 18e9, 101).unwrap(),
+            band_window: WindowKind::Kaiser { beta: 6.0 },
+            center_s: 5e-9,
+            span_s: 2e-9,
+            shape: WindowKind::Tukey { alpha: 0.5 },
+            renormalize: true,
+        }
+    }
+
+    #[test]
+    fn counts_every_reason() {
+        let cfg = ScanConfig::new(BinLayout::sector(0.0, 10.0, 1.0).unwrap());
+        let mut s: Scan<128, 1, 11> = Scan::new(&gate_cfg(), [50], cfg).unwrap();
+        let good = [Complex32::new(1.0, 0.0); 101];
+        let mut bad = good;
+        bad[3].re = f32::NAN;
+        let r = |e: &Events<1>| {
+            e.iter().find_map(|e| match e {
+                Event::Warning(Warning::SweepRejected(r)) => Some(*r),
+                _ => None,
+            })
+        };
+        assert_eq!(r(&s.push_sweep(0, 10, &good)), Some(SweepReject::NoAngle));
+        s.push_angle(0, 5.0);
+        assert_eq!(
+            r(&s.push_sweep(0, 10, &good[..100])),
+            Some(SweepReject::WrongPointCount)
+        );
+        assert_eq!(r(&s.push_sweep(0, 10, &bad)), Some(SweepReject::NonFinite));
+        assert_eq!(r(&s.push_sweep(10, 0, &good)), Some(SweepReject::BadTimes));
+        assert_eq!(
+            r(&s.push_sweep(1_000_000, 1_000_010, &good)),
+            Some(SweepReject::OutsideHistory)
+        );
+        s.push_angle(100_000, 5.5);
+        assert_eq!(r(&s.push_sweep(90_000, 100_000, &good)), None);
+        s.push_angle(1_000_000, 20.0);
+        assert_eq!(
+            r(&s.push_sweep(990_000, 1_000_000, &good)),
+            Some(SweepReject::OutsideLayout)
+        );
+        let ev = s.finish();
+        assert!(matches!(ev.last(), Some(Event::Finished(_))));
+        assert_eq!(r(&s.push_sweep(0, 10, &good)), Some(SweepReject::Finished));
+        let c = s.counters();
+        assert_eq!(c.sweeps_pushed, 8);
+        assert_eq!(c.sweeps_binned, 1);
+        assert_eq!(c.sweeps_binned + c.sweeps_rejected(), c.sweeps_pushed);
+        for reason in [
+            SweepReject::NoAngle,
+            SweepReject::OutsideLayout,
+            SweepReject::Finished,
+        ] {
+            assert_eq!(c.sweeps_rejected_for(reason), 1);
+        }
+        assert_eq!(c.bins_closed, 1);
+        let st = s.status();
+        assert_eq!(st.state, PositionerState::Finished);
+        assert_eq!(
+            (st.sweeps_pushed, st.sweeps_binned, st.sweeps_rejected),
+            (8, 1, 7)
+        );
+        assert_eq!((st.angles_pushed, st.angles_rejected), (3, 0));
+        assert_eq!(st.time_us, 1_000_000);
+        assert_eq!(st.open_bin, None);
+    }
+
+    #[test]
+    fn both_gating_paths_give_the_same_bins() {
+        // The kernel path (EchoMode::Never) and the FFT path (EveryBin) are one linear map:
+        // their bin results must agree (no outside source: two evaluations of one chain).
+        let grid = gate_cfg().grid;
+        let sweep = |b: usize| -> [Complex32; 101] {
+            core::array::from_fn(|n| {
+                let f = grid.frequency_hz(n);
+                let z = |a: f64, t: f64| {
+                    let ph = -2.0 * core::f64::consts::PI * f * t;
+                    Complex32::new((a * libm::cos(ph)) as f32, (a * libm::sin(ph)) as f32)
+                };
+                z(1.0 + b as f64 * 0.1, 5e-9) + z(0.5, 8e-9)
+            })
+        };
+        let mut results = [[[Complex32::new(0.0, 0.0); 2]; 4]; 2];
+        for (mode, out) in [EchoMode::Never, EchoMode::EveryBin]
+            .iter()
+            .zip(&mut results)
+        {
+            let mut cfg = ScanConfig::new(BinLayout::sector(0.0, 3.0, 1.0).unwrap());
+            cfg.echo = *mode;
+            cfg.leave_close_us = None;
+            let mut s: Scan<128, 2, 4> = Scan::new(&gate_cfg(), [10, 60], cfg).unwrap();
+            let mut closed = 0;
+            let mut take = |ev: Events<2>| {
+                for e in ev {
+                    if let Event::BinClosed(r) = e {
+                        out[usize::from(r.index)] = r.gated;
+                        assert_eq!(r.echo_db.is_some(), *mode == EchoMode::EveryBin);
+                        closed += 1;
+                    }
+                }
+            };
+            for i in 0..8u64 {
+                let t = i * 100_000;
+                take(s.push_angle(t, i as f32 * 0.5));
+                if i > 0 {
+                    let b = ((i - 1) / 2) as usize;
+                    take(s.push_sweep(t - 60_000, t - 40_000, &sweep(b)));
+                }
+            }
+            take(s.finish());
+            assert_eq!(closed, 4);
+        }
+        for (a, b) in results[0].iter().flatten().zip(results[1].iter().flatten()) {
+            assert!((a - b).norm() <= 1e-4 * b.norm(), "{a} vs {b}");
+            assert!(b.norm() > 0.1);
+        }
+    }
+}

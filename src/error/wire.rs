@@ -174,3 +174,54 @@ impl fmt::Display for EncodeError {
 }
 
 impl core::error::Error for EncodeError {}
+
+/// Why a link capture could not be read.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum CaptureError {
+    /// The stream does not start with the capture magic.
+    BadMagic,
+    /// The capture ends inside a header or entry.
+    Truncated,
+    /// The frequency grid is invalid.
+    Grid(crate::error::GridError),
+    /// A window kind code is not known.
+    UnknownWindow(u8),
+    /// A window parameter is out of range.
+    Window(crate::error::WindowError),
+    /// The bin layout is invalid.
+    Layout(crate::error::LayoutError),
+    /// The bin count does not match the layout's start and step.
+    BinCount,
+    /// The block format code is not known.
+    UnknownFormat(u8),
+    /// The byte order code is not known.
+    UnknownOrder(u8),
+    /// The pattern frequency count is not 1…8.
+    PatternCount,
+    /// A pattern frequency index is not below the point count.
+    PatternIndex,
+    /// An entry kind is not known.
+    UnknownEntry(u8),
+}
+
+impl fmt::Display for CaptureError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            Self::BadMagic => f.write_str("not a link capture (bad magic)"),
+            Self::Truncated => f.write_str("capture ends inside a header or entry"),
+            Self::Grid(e) => write!(f, "capture grid: {e}"),
+            Self::UnknownWindow(c) => write!(f, "unknown window kind {c}"),
+            Self::Window(e) => write!(f, "capture window: {e}"),
+            Self::Layout(e) => write!(f, "capture bin layout: {e}"),
+            Self::BinCount => f.write_str("bin count does not match the layout"),
+            Self::UnknownFormat(c) => write!(f, "unknown block format {c}"),
+            Self::UnknownOrder(c) => write!(f, "unknown byte order {c}"),
+            Self::PatternCount => f.write_str("pattern frequency count must be 1 to 8"),
+            Self::PatternIndex => f.write_str("pattern frequency index beyond the grid"),
+            Self::UnknownEntry(c) => write!(f, "unknown capture entry kind {c}"),
+        }
+    }
+}
+
+impl core::error::Error for CaptureError {}

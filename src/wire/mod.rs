@@ -1,5 +1,7 @@
-//! Byte-stream decoders and encoders: IEEE 488.2 blocks, ASCII numbers, preview records.
+//! Byte-stream decoders and encoders: IEEE 488.2 blocks, ASCII numbers, preview records,
+//! link captures.
 
 pub mod ascii;
 pub mod block;
+pub mod capture;
 pub mod preview;
