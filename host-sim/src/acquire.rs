@@ -61,8 +61,8 @@
 //! sample fixes the offset between the positioner's clock and ours (its arrival time);
 //! later samples are placed by their own timestamps with that offset, so the link's
 //! latency does not jitter them. Encoder counts are derived with `counts_per_turn`.
-//! When the server closes the connection the scan is over: `acquire` stops before the next
-//! sweep.
+//! Without `--sweeps`, the server closing the connection ends the scan: `acquire` stops
+//! before the next sweep.
 //!
 //! `--positioner-sim` takes the angles from the simulator's positioner model of
 //! `--scenario` instead, and stamps the n-th sweep with the n-th sweep time of that
@@ -70,8 +70,9 @@
 //!
 //! # Stopping
 //!
-//! After `--sweeps N`, when the line server closes, or at the end of the simulated
-//! schedule, whichever comes first (with no positioner, `--sweeps` is required). Samples
+//! After `--sweeps N` or at the end of the simulated schedule, whichever comes first;
+//! without `--sweeps`, also when the line server closes (with no positioner, `--sweeps`
+//! is required). Samples
 //! still arriving are read for up to `--linger-s` (default 1 s) until the line server
 //! closes, then the recording is finished.
 
@@ -664,7 +665,7 @@ pub fn acquire(
         if max_sweeps.is_some_and(|m| sum.sweeps >= m) {
             break;
         }
-        if positioner_done {
+        if positioner_done && max_sweeps.is_none() {
             eprintln!("positioner closed its connection: end of the scan");
             break;
         }
@@ -748,7 +749,7 @@ pub fn acquire(
                 (s_us, e_us)
             }
             None => {
-                if let Some(rx) = &lines_rx {
+                if let (Some(rx), false) = (&lines_rx, positioner_done) {
                     positioner_done = write_lines(&mut w, &mut sum, rx, None)?;
                 }
                 (t_start, t_end)
