@@ -202,7 +202,7 @@ impl Profile {
         if !(p.timeout_s.is_finite() && p.timeout_s > 0.0) {
             bail!("timeout_s must be above 0 (got {})", p.timeout_s);
         }
-        if p.format.to_ascii_lowercase() != "ascii" {
+        if !p.format.eq_ignore_ascii_case("ascii") {
             parse_format(&p.format)?;
             parse_order(&p.byte_order)?;
         }

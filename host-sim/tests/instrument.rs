@@ -169,10 +169,10 @@ fn each_initiate_takes_the_next_sweep_and_rst_restarts_the_scan() {
         c.send("TRAC?");
         sweeps.push(decode(&c.block(), 201, Format::Real32, ByteOrder::Normal));
     }
-    for n in 0..3 {
+    for (n, sweep) in sweeps.iter().enumerate() {
         let (index, re, im) = dumped(&inst.dump, n);
         assert_eq!(index as usize, n);
-        assert_same(&sweeps[n], &re, &im);
+        assert_same(sweep, &re, &im);
     }
     // The turntable moves between sweeps, so consecutive sweeps differ.
     assert_ne!(sweeps[0], sweeps[1]);
