@@ -5,7 +5,16 @@
 //! sweepgate acquire [--profile FILE] --instrument HOST:PORT
 //!                   [--positioner HOST:PORT | --positioner-sim --scenario FILE]
 //!                   [--sweeps N] [--linger-s S] --out REC
+//!                   [--gate-center-ns T --gate-span-ns S [--frequency-hz F] [--bin-width-deg W]]
 //! ```
+//!
+//! With `--gate-center-ns` and `--gate-span-ns`, angle samples and sweeps also go through
+//! the core scan engine ([`sweepgate::scan::Scan`], Kaiser β = 6 band window, Tukey α = 0.5
+//! gate, renormalised; one pattern frequency, `--frequency-hz` or the grid's centre point;
+//! bins of `--bin-width-deg` from the scenario's start angle, else −180°) as on the board,
+//! and each bin is printed on standard output as it closes:
+//! `bin <index> <deg> deg: <n> sweeps, at <GHz> GHz raw <dB> dB, gated <dB> dB, echo <dB>`.
+//! Without them sweeps are only recorded.
 //!
 //! Caution: `acquire` can run a scan with a transmitting antenna and a moving turntable.
 //! Keep clear of the aperture of a transmitting antenna (RF exposure) and of the moving
@@ -129,6 +138,170 @@ pub struct Args {
     /// Recording to write.
     #[arg(long)]
     pub out: PathBuf,
+    /// Gate centre, ns after the VNA's time zero (with --gate-span-ns: run the scan engine).
+    #[arg(long, requires = "gate_span_ns")]
+    pub gate_center_ns: Option<f64>,
+    /// Gate span (full width), ns.
+    #[arg(long, requires = "gate_center_ns")]
+    pub gate_span_ns: Option<f64>,
+    /// Pattern frequency for the scan engine, Hz (default: the grid's centre point).
+    #[arg(long)]
+    pub frequency_hz: Option<f64>,
+    /// Angle bin width for the scan engine, degrees (default: the scenario's, else 1).
+    #[arg(long)]
+    pub bin_width_deg: Option<f64>,
+}
+
+/// Scan engine settings: when given, sweeps and angles also go through
+/// [`sweepgate::scan::Scan`] and each closed bin is printed.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Gating {
+    /// Gate centre, s.
+    pub center_s: f64,
+    /// Gate span, s.
+    pub span_s: f64,
+    /// Pattern frequency, Hz (`None`: the grid's centre point).
+    pub frequency_hz: Option<f64>,
+    /// Bin width, degrees (`None`: the scenario's, else 1).
+    pub bin_width_deg: Option<f64>,
+}
+
+/// Largest number of angle bins (0.1° bins over a full turn).
+pub const MAX_BINS: usize = 3600;
+
+/// The scan engine behind a small interface, so that the FFT size can follow K.
+trait Engine {
+    fn angle(&mut self, t_us: u64, angle_deg: f64);
+    fn sweep(&mut self, start_us: u64, end_us: u64, s21: &[Complex32]);
+    fn finish(&mut self) -> u64;
+}
+
+struct ScanEngine<const M: usize>
+where
+    [Complex32; M]: sweepgate::fft::Fft,
+{
+    scan: Box<sweepgate::scan::Scan<M, 1, MAX_BINS>>,
+    closed: u64,
+    frequency_hz: f64,
+    warnings: std::collections::BTreeMap<String, u64>,
+}
+
+fn db(c: Complex32) -> f32 {
+    20.0 * c.norm().max(1e-30).log10()
+}
+
+impl<const M: usize> ScanEngine<M>
+where
+    [Complex32; M]: sweepgate::fft::Fft,
+{
+    fn report(&mut self, events: sweepgate::scan::Events<1>) {
+        use sweepgate::scan::Event as E;
+        for e in events {
+            match e {
+                E::BinClosed(r) => {
+                    self.closed += 1;
+                    let echo = r.echo_db.map_or("-".into(), |e| format!("{e:.1} dB"));
+                    println!(
+                        "bin {:>4} {:>8.2} deg: {:>3} sweeps, at {:.4} GHz raw {:>7.2} dB, gated {:>7.2} dB, echo {echo}",
+                        r.index,
+                        r.nominal_deg,
+                        r.sweeps,
+                        self.frequency_hz / 1e9,
+                        db(r.raw[0]),
+                        db(r.gated[0]),
+                    );
+                }
+                E::Warning(w) => {
+                    // The first of each kind is shown; all are counted.
+                    let key = format!("{w:?}");
+                    let n = self.warnings.entry(key.clone()).or_insert(0);
+                    if *n == 0 {
+                        eprintln!("scan: {key} (further ones counted)");
+                    }
+                    *n += 1;
+                }
+                E::Finished(c) => {
+                    eprintln!(
+                        "scan: {} sweeps binned, {} refused; {} bins closed",
+                        c.sweeps_binned,
+                        c.sweeps_rejected(),
+                        c.bins_closed
+                    );
+                    for (k, n) in &self.warnings {
+                        eprintln!("scan: {n} × {k}");
+                    }
+                }
+            }
+        }
+    }
+}
+
+impl<const M: usize> Engine for ScanEngine<M>
+where
+    [Complex32; M]: sweepgate::fft::Fft,
+{
+    fn angle(&mut self, t_us: u64, angle_deg: f64) {
+        let e = self.scan.push_angle(t_us, angle_deg as f32);
+        self.report(e);
+    }
+    fn sweep(&mut self, start_us: u64, end_us: u64, s21: &[Complex32]) {
+        let e = self.scan.push_sweep(start_us, end_us, s21);
+        self.report(e);
+    }
+    fn finish(&mut self) -> u64 {
+        let e = self.scan.finish();
+        self.report(e);
+        self.closed
+    }
+}
+
+fn engine(
+    g: &Gating,
+    grid: &sweepgate::grid::Grid,
+    bin_width_deg: f64,
+    start_deg: f64,
+) -> anyhow::Result<Box<dyn Engine>> {
+    use sweepgate::window::WindowKind;
+    let cfg = sweepgate::gate::GateConfig {
+        grid: *grid,
+        // Common practice, no source: a Kaiser band window and a Tukey gate.
+        band_window: WindowKind::Kaiser { beta: 6.0 },
+        center_s: g.center_s,
+        span_s: g.span_s,
+        shape: WindowKind::Tukey { alpha: 0.5 },
+        renormalize: true,
+    };
+    let f = g
+        .frequency_hz
+        .unwrap_or(grid.frequency_hz(grid.points() / 2));
+    let k = grid
+        .nearest_index(f)
+        .with_context(|| format!("pattern frequency {f} Hz is off the grid"))?;
+    let layout = sweepgate::bins::BinLayout::full_circle(start_deg as f32, bin_width_deg as f32)
+        .map_err(|e| anyhow::anyhow!("bin layout: {e}"))?;
+    let sc = sweepgate::scan::ScanConfig::new(layout);
+    let frequency_hz = grid.frequency_hz(k);
+    Ok(if grid.points() <= 1024 {
+        Box::new(ScanEngine::<1024> {
+            scan: Box::new(
+                sweepgate::scan::Scan::new(&cfg, [k], sc)
+                    .map_err(|e| anyhow::anyhow!("scan engine: {e}"))?,
+            ),
+            closed: 0,
+            frequency_hz,
+            warnings: Default::default(),
+        })
+    } else {
+        Box::new(ScanEngine::<4096> {
+            scan: Box::new(
+                sweepgate::scan::Scan::new(&cfg, [k], sc)
+                    .map_err(|e| anyhow::anyhow!("scan engine: {e}"))?,
+            ),
+            closed: 0,
+            frequency_hz,
+            warnings: Default::default(),
+        })
+    })
 }
 
 /// `[grid]` of a profile.
@@ -465,6 +638,8 @@ pub struct Summary {
     pub rejected: u64,
     /// Malformed positioner lines.
     pub malformed_lines: u64,
+    /// Bins the scan engine closed (0 without gating).
+    pub bins_closed: u64,
 }
 
 /// Where angles come from.
@@ -484,6 +659,7 @@ pub fn acquire(
     positioner: Positioner,
     max_sweeps: Option<u64>,
     linger_s: f64,
+    gating: Option<Gating>,
     out: &std::path::Path,
 ) -> anyhow::Result<Summary> {
     if max_sweeps.is_none() && matches!(positioner, Positioner::None) {
@@ -580,6 +756,18 @@ pub fn acquire(
         }
     }
 
+    let mut engine = match &gating {
+        None => None,
+        Some(g) => {
+            let width = g
+                .bin_width_deg
+                .or(scenario.as_ref().map(|s| s.bin_width_deg()))
+                .unwrap_or(1.0);
+            let start = scenario.as_ref().map_or(-180.0, |s| s.positioner.start_deg);
+            Some(engine(g, &grid, width, start)?)
+        }
+    };
+
     let file = std::fs::File::create(out).with_context(|| format!("creating {}", out.display()))?;
     let mut w = Writer::new(file)?;
     let header = Header {
@@ -617,12 +805,14 @@ pub fn acquire(
         positions: 0,
         rejected: 0,
         malformed_lines: 0,
+        bins_closed: 0,
     };
     let mut positioner_done = false;
     let write_lines = |w: &mut Writer<std::fs::File>,
                        sum: &mut Summary,
                        rx: &mpsc::Receiver<PosMsg>,
-                       wait: Option<Duration>|
+                       wait: Option<Duration>,
+                       eng: &mut Option<Box<dyn Engine>>|
      -> anyhow::Result<bool> {
         // Returns true once the line server has closed.
         let deadline = wait.map(|d| Instant::now() + d);
@@ -650,6 +840,9 @@ pub fn acquire(
                         angle_deg: s.angle_deg,
                     })?;
                     sum.positions += 1;
+                    if let Some(e) = eng {
+                        e.angle(s.t_us, s.angle_deg);
+                    }
                 }
                 PosMsg::Malformed(e) => {
                     sum.malformed_lines += 1;
@@ -744,13 +937,16 @@ pub fn acquire(
                         angle_deg: s.angle_deg,
                     })?;
                     sum.positions += 1;
+                    if let Some(e) = &mut engine {
+                        e.angle(s.t_us, s.angle_deg);
+                    }
                     *next += 1;
                 }
                 (s_us, e_us)
             }
             None => {
                 if let (Some(rx), false) = (&lines_rx, positioner_done) {
-                    positioner_done = write_lines(&mut w, &mut sum, rx, None)?;
+                    positioner_done = write_lines(&mut w, &mut sum, rx, None, &mut engine)?;
                 }
                 (t_start, t_end)
             }
@@ -761,6 +957,9 @@ pub fn acquire(
             end_us,
             s21: sweep.clone(),
         })?;
+        if let Some(e) = &mut engine {
+            e.sweep(start_us, end_us, &sweep);
+        }
         sum.sweeps += 1;
         if sum.sweeps % 50 == 0 {
             eprintln!("{} sweeps, {} angle samples", sum.sweeps, sum.positions);
@@ -774,6 +973,9 @@ pub fn acquire(
                 angle_deg: s.angle_deg,
             })?;
             sum.positions += 1;
+            if let Some(e) = &mut engine {
+                e.angle(s.t_us, s.angle_deg);
+            }
         }
     }
     if let (Some(rx), false) = (&lines_rx, positioner_done) {
@@ -782,6 +984,7 @@ pub fn acquire(
             &mut sum,
             rx,
             Some(Duration::from_secs_f64(linger_s.max(0.0))),
+            &mut engine,
         )?;
     }
     if let Some(q) = err_q {
@@ -791,6 +994,9 @@ pub fn acquire(
         }
     }
     w.finish()?;
+    if let Some(e) = &mut engine {
+        sum.bins_closed = e.finish();
+    }
     Ok(sum)
 }
 
@@ -824,12 +1030,22 @@ pub fn run(args: Args) -> anyhow::Result<()> {
     } else {
         Positioner::None
     };
+    let gating = match (args.gate_center_ns, args.gate_span_ns) {
+        (Some(c), Some(sp)) => Some(Gating {
+            center_s: c * 1e-9,
+            span_s: sp * 1e-9,
+            frequency_hz: args.frequency_hz,
+            bin_width_deg: args.bin_width_deg,
+        }),
+        _ => None,
+    };
     let sum = acquire(
         &profile,
         &args.instrument,
         positioner,
         args.sweeps,
         args.linger_s,
+        gating,
         &args.out,
     )?;
     eprintln!(
@@ -840,5 +1056,8 @@ pub fn run(args: Args) -> anyhow::Result<()> {
         sum.rejected,
         sum.malformed_lines
     );
+    if gating.is_some() {
+        eprintln!("scan engine closed {} bins", sum.bins_closed);
+    }
     Ok(())
 }
