@@ -323,6 +323,13 @@ pub struct GridSpec {
 }
 
 /// An instrument profile: the strings to send (see the module doc).
+///
+/// ```
+/// use sweepgate_host::acquire::{Profile, SIMULATED_PROFILE};
+/// let p = Profile::from_toml(SIMULATED_PROFILE).unwrap();
+/// assert_eq!(p.data, "TRACe:DATA?");
+/// assert!(Profile::from_toml("name = 'x'\ndata = 'D?'\nformat = 'real16'").is_err());
+/// ```
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct Profile {
@@ -1060,4 +1067,42 @@ pub fn run(args: Args) -> anyhow::Result<()> {
         eprintln!("scan engine closed {} bins", sum.bins_closed);
     }
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn angle_lines() {
+        assert_eq!(parse_angle_line("12 -3.5"), Ok(Some((12, -3.5))));
+        assert_eq!(parse_angle_line("12\t4\r"), Ok(Some((12, 4.0))));
+        assert_eq!(parse_angle_line("  "), Ok(None));
+        assert_eq!(parse_angle_line("# comment"), Ok(None));
+        assert!(parse_angle_line("12").is_err());
+        assert!(parse_angle_line("12 3 4").is_err());
+        assert!(parse_angle_line("-1 3").is_err());
+        assert!(parse_angle_line("1 NaN").is_err());
+        assert!(parse_angle_line("1 x").is_err());
+    }
+
+    #[test]
+    fn profile_grid_needs_one_of_value_and_query() {
+        let base = "name = 'x'\ndata = 'D?'\nformat = 'ascii'\n";
+        let both = format!(
+            "{base}[grid]\nstart_hz = 1e9\nstart_query = 'A?'\nstop_hz = 2e9\npoints = 3\n"
+        );
+        assert!(Profile::from_toml(&both).is_err());
+        let fixed = format!("{base}[grid]\nstart_hz = 1e9\nstop_hz = 2e9\npoints = 3\n");
+        assert_eq!(Profile::from_toml(&fixed).unwrap().grid.points, Some(3));
+        assert!(Profile::from_toml(&format!("{base}timeout_s = 0\n")).is_err());
+    }
+
+    #[test]
+    fn queries_are_told_by_their_header() {
+        assert!(is_query("*IDN?"));
+        assert!(is_query("TRACe:DATA? TRACE1"));
+        assert!(!is_query("FORM:DATA REAL,32"));
+        assert!(!is_query(""));
+    }
 }

@@ -158,6 +158,16 @@ impl std::fmt::Display for ScpiError {
 }
 
 /// The state of the simulated instrument (shared by all clients).
+///
+/// ```
+/// use sweepgate_host::instrument::{Instrument, IDN};
+/// let mut inst = Instrument::builtin(None).unwrap();
+/// assert_eq!(inst.handle_line(b"*IDN?"), Some(format!("{IDN}\n").into_bytes()));
+/// assert_eq!(inst.handle_line(b"form real,32;INIT"), None);
+/// let block = inst.handle_line(b"TRACe:DATA?").unwrap();
+/// assert_eq!(&block[..6], b"#41608"); // 201 points × 8 bytes
+/// assert_eq!(inst.handle_line(b"SYST:ERR?"), Some(b"0,\"No error\"\n".to_vec()));
+/// ```
 pub struct Instrument {
     scenario: Scenario,
     original: crate::scenario::Sweep,
@@ -636,7 +646,7 @@ fn parse_hz(p: &str) -> Result<f64, ScpiError> {
         .char_indices()
         .find(|&(i, c)| {
             c.is_ascii_alphabetic()
-                && !(c == 'E'
+                && !((c == 'E' || c == 'e')
                     && p[i + 1..].starts_with(|d: char| d.is_ascii_digit() || d == '-' || d == '+'))
         })
         .map_or(p.len(), |(i, _)| i);
@@ -646,7 +656,7 @@ fn parse_hz(p: &str) -> Result<f64, ScpiError> {
         return Err(ScpiError::DATA_TYPE);
     }
     // SCPI: MHZ is megahertz (the M of MHZ is not milli).
-    let scale = match suffix.trim() {
+    let scale = match suffix.trim().to_ascii_uppercase().as_str() {
         "" | "HZ" => 1.0,
         "KHZ" => 1e3,
         "MHZ" => 1e6,
@@ -860,4 +870,58 @@ pub fn run_read_block(args: ReadBlockArgs) -> anyhow::Result<()> {
 
 fn read_file(p: &Path) -> anyhow::Result<Vec<u8>> {
     std::fs::read(p).with_context(|| format!("reading {}", p.display()))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn toks(h: &str) -> Vec<String> {
+        h.split(':').map(str::to_ascii_uppercase).collect()
+    }
+
+    #[test]
+    fn headers_match_short_long_and_optional_nodes() {
+        assert!(matches(&toks("SENSe:FREQuency:STARt"), FREQ_STAR));
+        assert!(matches(&toks("freq:star"), FREQ_STAR));
+        assert!(matches(&toks("SENS:FREQ:STAR"), FREQ_STAR));
+        assert!(!matches(&toks("FREQ:STA"), FREQ_STAR));
+        assert!(!matches(&toks("SENS:FREQ"), FREQ_STAR));
+        assert!(matches(&toks("FORM"), FORM_DATA));
+        assert!(matches(&toks("SYST:ERR:NEXT"), SYST_ERR));
+        assert!(!matches(&toks("SYST:ERR:COUN"), SYST_ERR));
+        assert!(matches(&toks("INITIATE:IMMEDIATE"), INIT));
+    }
+
+    #[test]
+    fn frequencies_with_and_without_suffixes() {
+        assert_eq!(parse_hz("8e9"), Ok(8e9));
+        assert_eq!(parse_hz("8E+9"), Ok(8e9));
+        assert_eq!(parse_hz("9 GHZ"), Ok(9e9));
+        assert_eq!(parse_hz("9500MHZ"), Ok(9.5e9));
+        assert_eq!(parse_hz("10KHZ"), Ok(10e3));
+        assert_eq!(parse_hz("12HZ"), Ok(12.0));
+        assert_eq!(parse_hz("1THZ"), Err(ScpiError::INVALID_SUFFIX));
+        assert_eq!(parse_hz("abc"), Err(ScpiError::DATA_TYPE));
+        assert_eq!(parse_hz("inf"), Err(ScpiError::DATA_TYPE));
+    }
+
+    #[test]
+    fn a_full_queue_ends_with_overflow() {
+        let mut i = Instrument::builtin(None).unwrap();
+        for _ in 0..ERROR_QUEUE_LEN + 3 {
+            i.handle_line(b"NOPE");
+        }
+        let v: Vec<_> = i.errors().copied().collect();
+        assert_eq!(v.len(), ERROR_QUEUE_LEN);
+        assert_eq!(v[0], ScpiError::UNDEFINED_HEADER);
+        assert_eq!(v[ERROR_QUEUE_LEN - 1], ScpiError::QUEUE_OVERFLOW);
+    }
+
+    #[test]
+    fn bad_utf8_is_a_syntax_error() {
+        let mut i = Instrument::builtin(None).unwrap();
+        assert_eq!(i.handle_line(&[0xff, 0xfe]), None);
+        assert_eq!(i.errors().next(), Some(&ScpiError::SYNTAX));
+    }
 }
