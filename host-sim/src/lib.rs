@@ -5,8 +5,10 @@
 #![forbid(unsafe_code)]
 #![warn(missing_docs)]
 
+pub mod acquire;
 pub mod capture;
 pub mod gain;
+pub mod instrument;
 pub mod manifest;
 pub mod options;
 pub mod physics;

@@ -5,6 +5,7 @@ use clap::{Parser, Subcommand};
 mod demo;
 
 use sweepgate_host::simulate;
+use sweepgate_host::{acquire, instrument};
 
 /// Time-domain gating for antenna pattern scans in ordinary rooms.
 #[derive(Parser)]
@@ -22,6 +23,12 @@ enum Command {
     Simulate(simulate::Args),
     /// Plan a gated measurement from a scenario or plan file: far field, echoes, gate, speed.
     Plan(sweepgate_host::plan_cmd::Args),
+    /// Run a simulated VNA on a TCP port, answering SCPI queries.
+    Instrument(instrument::Args),
+    /// Decode one IEEE 488.2 block from a file and print its values as JSON.
+    ReadBlock(instrument::ReadBlockArgs),
+    /// Drive an instrument and a positioner over TCP and record the scan.
+    Acquire(acquire::Args),
 }
 
 fn main() {
@@ -30,6 +37,9 @@ fn main() {
         Command::Demo(a) => demo::run(a),
         Command::Simulate(a) => simulate::run(a),
         Command::Plan(a) => sweepgate_host::plan_cmd::run(a),
+        Command::Instrument(a) => instrument::run(a),
+        Command::ReadBlock(a) => instrument::run_read_block(a),
+        Command::Acquire(a) => acquire::run(a),
     };
     if let Err(e) = result {
         eprintln!("error: {e:#}");

@@ -1,0 +1,927 @@
+//! `sweepgate instrument`: a simulated VNA on a TCP port, speaking SCPI.
+//!
+//! ```text
+//! sweepgate instrument [--port 5025] [--bind 127.0.0.1] [--scenario FILE] [--seed N]
+//!                      [--dump DIR] [--once]
+//! ```
+//!
+//! It listens on `--bind`:`--port` (default 127.0.0.1:5025, 5025 being the registered
+//! SCPI raw-socket port; `--port 0` picks a free port). Once listening it prints one line
+//! on standard output, `listening on 127.0.0.1:<port>`, so scripts and tests can read the
+//! port. Several clients may connect at once (one thread each); they share one
+//! instrument state, as with a real instrument. `--once` stops after the first client
+//! disconnects.
+//!
+//! Its sweeps come from a room scenario (`--scenario`, see [`crate::scenario`]) or, when
+//! none is given, from the built-in default, the `demo-lab` scenario compiled in. Each
+//! `INITiate` takes the next sweep of the simulated scan ([`Simulator::sweep`]); after the
+//! last sweep of the scan the next one starts the scan again. `*RST` restarts the scan at
+//! sweep 0. Changing the frequency range or point count re-simulates on the new grid.
+//!
+//! `--dump DIR` writes every sweep taken as `DIR/sweep-<n>.json` (n counts sweeps taken
+//! since the program started, from 0): `{"index": sweep number in the scan, "start_hz",
+//! "stop_hz", "points", "re": [...], "im": [...]}` with the exact f32 values the
+//! instrument holds, so a client can check what it received.
+//!
+//! # Commands
+//!
+//! Only IEEE 488.2 common commands and SCPI-1999 standard commands. Headers are
+//! case-insensitive, in short form (the capitals) or long form; `[...]` is optional.
+//! One line may hold several commands separated by `;`; each is read from the root (as
+//! if it began with `:`), and the answers of the queries in a line are joined by `;`
+//! and ended by one newline.
+//!
+//! | Command | Effect / answer |
+//! |---|---|
+//! | `*IDN?` | `sweepgate,simulated-vna,0,<version>` |
+//! | `*RST` | defaults: `ASCii,0`, `NORMal`, the scenario's grid; scan back to sweep 0 |
+//! | `*CLS` | clears the error queue and the event status register |
+//! | `*OPC` / `*OPC?` | sets the operation-complete bit / answers `1` (sweeps complete at once) |
+//! | `*WAI` | nothing to wait for |
+//! | `*ESR?` | event status register (then cleared): 1 OPC, 4 query, 8 device, 16 execution, 32 command error |
+//! | `*ESE <n>` / `*ESE?`, `*SRE <n>` / `*SRE?` | enable registers |
+//! | `*STB?` | status byte: 4 error queue not empty, 32 ESB summary |
+//! | `*TST?` | `0` (self-test passed) |
+//! | `FORMat[:DATA] REAL,32 \| REAL,64 \| ASCii[,<digits>]` / `?` | data format; `?` answers `REAL,32`, `REAL,64` or `ASC,<digits>` (0: shortest exact form) |
+//! | `FORMat:BORDer NORMal \| SWAPped` / `?` | byte order of binary blocks (NORMal: big-endian) |
+//! | `[SENSe]:FREQuency:STARt <Hz>` / `?` | first frequency, 10 MHz to 50 GHz; suffix HZ, KHZ, MHZ, GHZ allowed |
+//! | `[SENSe]:FREQuency:STOP <Hz>` / `?` | last frequency |
+//! | `[SENSe]:SWEep:POINts <n>` / `?` | points, 2 to 10001 |
+//! | `INITiate[:IMMediate]` | takes the next sweep |
+//! | `TRACe[:DATA]? [<name>]`, `CALCulate[:DATA]?` | the last sweep, re, im interleaved: an IEEE 488.2 definite-length block (REAL formats) or comma-separated numbers (ASCii) |
+//! | `SYSTem:ERRor[:NEXT]?` | oldest error queue entry, e.g. `-113,"Undefined header"`; `0,"No error"` when empty |
+//! | `SYSTem:ERRor:COUNt?` | entries in the error queue |
+//! | `SYSTem:VERSion?` | `1999.0` |
+//!
+//! Errors (SCPI-1999 Volume 2, chapter 21, from memory): -102 syntax error, -104 data
+//! type error, -108 parameter not allowed, -109 missing parameter, -113 undefined header,
+//! -131 invalid suffix, -221 settings conflict (start not below stop), -222 data out of
+//! range, -224 illegal parameter value, -230 data corrupt or stale (data query before any
+//! INITiate), -350 queue overflow. The queue holds 10 entries; when it is full the newest
+//! is replaced by -350.
+
+use std::collections::VecDeque;
+use std::io::{BufRead, BufReader, Read, Write};
+use std::net::{TcpListener, TcpStream};
+use std::path::{Path, PathBuf};
+use std::sync::{Arc, Mutex};
+
+use anyhow::Context;
+use num_complex::Complex32;
+use sweepgate::grid::Grid;
+use sweepgate::wire::block::{self, BlockConfig, BlockDecoder, ByteOrder, Event, Format};
+
+use crate::physics::Simulator;
+use crate::scenario::Scenario;
+
+/// The `*IDN?` answer.
+pub const IDN: &str = concat!("sweepgate,simulated-vna,0,", env!("CARGO_PKG_VERSION"));
+/// Entries the error queue holds.
+pub const ERROR_QUEUE_LEN: usize = 10;
+/// Longest program message line read, bytes; longer lines are dropped with -102.
+pub const MAX_LINE_BYTES: usize = 64 * 1024;
+/// Frequency limits of the simulated instrument, Hz.
+pub const FREQ_RANGE_HZ: (f64, f64) = (10e6, 50e9);
+/// Point count limits.
+pub const POINTS_RANGE: (usize, usize) = (2, 10001);
+
+const DEMO_SCENARIO: &str = include_str!("../scenarios/demo-lab.toml");
+
+/// Options of `sweepgate instrument`.
+#[derive(clap::Args, Debug)]
+pub struct Args {
+    /// TCP port (5025 is the registered SCPI raw-socket port; 0 picks a free one).
+    #[arg(long, default_value_t = 5025)]
+    pub port: u16,
+    /// Address to listen on.
+    #[arg(long, default_value = "127.0.0.1")]
+    pub bind: String,
+    /// Scenario whose scan the sweeps come from (default: the built-in demo lab).
+    #[arg(long)]
+    pub scenario: Option<PathBuf>,
+    /// Seed of the noise (default: the scenario's `simulation.seed`).
+    #[arg(long)]
+    pub seed: Option<u64>,
+    /// Write every sweep taken as DIR/sweep-<n>.json.
+    #[arg(long)]
+    pub dump: Option<PathBuf>,
+    /// Stop after the first client disconnects.
+    #[arg(long)]
+    pub once: bool,
+}
+
+/// Data format set by `FORMat:DATA`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum DataFormat {
+    /// A binary block of IEEE 754 values.
+    Real(Format),
+    /// ASCII numbers with this many significant digits (0: shortest exact form).
+    Ascii(u8),
+}
+
+/// One SCPI error queue entry.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct ScpiError {
+    /// Error number (negative: defined by SCPI).
+    pub code: i32,
+    /// Standard description.
+    pub text: &'static str,
+}
+
+macro_rules! scpi_errors {
+    ($($name:ident = $code:expr, $text:expr;)*) => {
+        impl ScpiError { $(
+            #[doc = concat!("`", stringify!($code), ",\"", $text, "\"`")]
+            pub const $name: ScpiError = ScpiError { code: $code, text: $text };
+        )* }
+    };
+}
+
+scpi_errors! {
+    SYNTAX = -102, "Syntax error";
+    DATA_TYPE = -104, "Data type error";
+    PARAMETER_NOT_ALLOWED = -108, "Parameter not allowed";
+    MISSING_PARAMETER = -109, "Missing parameter";
+    UNDEFINED_HEADER = -113, "Undefined header";
+    INVALID_SUFFIX = -131, "Invalid suffix";
+    SETTINGS_CONFLICT = -221, "Settings conflict";
+    OUT_OF_RANGE = -222, "Data out of range";
+    ILLEGAL_VALUE = -224, "Illegal parameter value";
+    STALE = -230, "Data corrupt or stale";
+    QUEUE_OVERFLOW = -350, "Queue overflow";
+}
+
+impl std::fmt::Display for ScpiError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{},\"{}\"", self.code, self.text)
+    }
+}
+
+/// The state of the simulated instrument (shared by all clients).
+///
+/// ```
+/// use sweepgate_host::instrument::{Instrument, IDN};
+/// let mut inst = Instrument::builtin(None).unwrap();
+/// assert_eq!(inst.handle_line(b"*IDN?"), Some(format!("{IDN}\n").into_bytes()));
+/// assert_eq!(inst.handle_line(b"form real,32;INIT"), None);
+/// let block = inst.handle_line(b"TRACe:DATA?").unwrap();
+/// assert_eq!(&block[..6], b"#41608"); // 201 points × 8 bytes
+/// assert_eq!(inst.handle_line(b"SYST:ERR?"), Some(b"0,\"No error\"\n".to_vec()));
+/// ```
+pub struct Instrument {
+    scenario: Scenario,
+    original: crate::scenario::Sweep,
+    seed: u64,
+    sim: Simulator,
+    format: DataFormat,
+    order: ByteOrder,
+    next_sweep: usize,
+    taken: u64,
+    sweep: Option<(u32, Vec<Complex32>)>,
+    errors: VecDeque<ScpiError>,
+    esr: u8,
+    ese: u8,
+    sre: u8,
+    dump: Option<PathBuf>,
+}
+
+/// A header node: long form, short form, optional.
+type Node = (&'static str, &'static str, bool);
+
+const FORM_DATA: &[Node] = &[("FORMAT", "FORM", false), ("DATA", "DATA", true)];
+const FORM_BORD: &[Node] = &[("FORMAT", "FORM", false), ("BORDER", "BORD", false)];
+const FREQ_STAR: &[Node] = &[
+    ("SENSE", "SENS", true),
+    ("FREQUENCY", "FREQ", false),
+    ("START", "STAR", false),
+];
+const FREQ_STOP: &[Node] = &[
+    ("SENSE", "SENS", true),
+    ("FREQUENCY", "FREQ", false),
+    ("STOP", "STOP", false),
+];
+const SWE_POIN: &[Node] = &[
+    ("SENSE", "SENS", true),
+    ("SWEEP", "SWE", false),
+    ("POINTS", "POIN", false),
+];
+const INIT: &[Node] = &[("INITIATE", "INIT", false), ("IMMEDIATE", "IMM", true)];
+const TRAC_DATA: &[Node] = &[("TRACE", "TRAC", false), ("DATA", "DATA", true)];
+const CALC_DATA: &[Node] = &[("CALCULATE", "CALC", false), ("DATA", "DATA", true)];
+const SYST_ERR: &[Node] = &[
+    ("SYSTEM", "SYST", false),
+    ("ERROR", "ERR", false),
+    ("NEXT", "NEXT", true),
+];
+const SYST_ERR_COUN: &[Node] = &[
+    ("SYSTEM", "SYST", false),
+    ("ERROR", "ERR", false),
+    ("COUNT", "COUN", false),
+];
+const SYST_VERS: &[Node] = &[("SYSTEM", "SYST", false), ("VERSION", "VERS", false)];
+
+/// Whether the header's mnemonics match a pattern of nodes.
+fn matches(tokens: &[String], pattern: &[Node]) -> bool {
+    fn go(t: &[String], p: &[Node]) -> bool {
+        match (t.first(), p.first()) {
+            (None, None) => true,
+            (None, Some(n)) => n.2 && go(t, &p[1..]),
+            (Some(_), None) => false,
+            (Some(tok), Some(&(long, short, opt))) => {
+                let hit = tok == long || tok == short;
+                (hit && go(&t[1..], &p[1..])) || (opt && go(t, &p[1..]))
+            }
+        }
+    }
+    go(tokens, pattern)
+}
+
+/// One answer unit of a query.
+enum Answer {
+    Text(String),
+    Bytes(Vec<u8>),
+}
+
+impl Instrument {
+    /// An instrument simulating `scenario` (validated) with `seed`.
+    pub fn new(scenario: Scenario, seed: u64, dump: Option<PathBuf>) -> anyhow::Result<Self> {
+        scenario.validate()?;
+        scenario.grid()?;
+        let sim = Simulator::new(&scenario, seed);
+        let mut me = Self {
+            original: scenario.sweep.clone(),
+            scenario,
+            seed,
+            sim,
+            format: DataFormat::Ascii(0),
+            order: ByteOrder::Normal,
+            next_sweep: 0,
+            taken: 0,
+            sweep: None,
+            errors: VecDeque::new(),
+            esr: 0,
+            ese: 0,
+            sre: 0,
+            dump,
+        };
+        me.reset();
+        Ok(me)
+    }
+
+    /// The built-in default: the demo-lab scenario.
+    pub fn builtin(seed: Option<u64>) -> anyhow::Result<Self> {
+        let s = Scenario::from_toml(DEMO_SCENARIO)?;
+        let seed = seed.unwrap_or(s.simulation.seed);
+        Self::new(s, seed, None)
+    }
+
+    /// The scenario (with the grid as currently set).
+    pub fn scenario(&self) -> &Scenario {
+        &self.scenario
+    }
+
+    /// The last sweep taken: its index in the scan and its values.
+    pub fn current_sweep(&self) -> Option<(u32, &[Complex32])> {
+        self.sweep.as_ref().map(|(i, v)| (*i, v.as_slice()))
+    }
+
+    /// The error queue, oldest first.
+    pub fn errors(&self) -> impl Iterator<Item = &ScpiError> {
+        self.errors.iter()
+    }
+
+    fn reset(&mut self) {
+        if self.scenario.sweep != self.original {
+            self.scenario.sweep = self.original.clone();
+            self.sim = Simulator::new(&self.scenario, self.seed);
+        }
+        self.format = DataFormat::Ascii(0);
+        self.order = ByteOrder::Normal;
+        self.next_sweep = 0;
+        self.sweep = None;
+    }
+
+    fn push_error(&mut self, e: ScpiError) {
+        self.esr |= match e.code {
+            -199..=-100 => 32,
+            -299..=-200 => 16,
+            -399..=-300 => 8,
+            -499..=-400 => 4,
+            _ => 8,
+        };
+        if self.errors.len() >= ERROR_QUEUE_LEN {
+            if let Some(last) = self.errors.back_mut() {
+                *last = ScpiError::QUEUE_OVERFLOW;
+            }
+        } else {
+            self.errors.push_back(e);
+        }
+    }
+
+    fn set_grid(&mut self, start_hz: f64, stop_hz: f64, points: usize) -> Result<(), ScpiError> {
+        if start_hz >= stop_hz {
+            return Err(ScpiError::SETTINGS_CONFLICT);
+        }
+        Grid::from_start_stop(start_hz, stop_hz, points).map_err(|_| ScpiError::OUT_OF_RANGE)?;
+        let mut s = self.scenario.clone();
+        s.sweep.start_hz = start_hz;
+        s.sweep.stop_hz = stop_hz;
+        s.sweep.points = points;
+        s.validate().map_err(|_| ScpiError::OUT_OF_RANGE)?;
+        self.sim = Simulator::new(&s, self.seed);
+        self.scenario = s;
+        Ok(())
+    }
+
+    fn initiate(&mut self) {
+        let n = self.sim.timeline().sweep_starts_s().len();
+        if self.next_sweep >= n {
+            self.next_sweep = 0;
+        }
+        if let Some(sw) = self.sim.sweep(self.next_sweep) {
+            if let Some(dir) = &self.dump {
+                let g = &self.scenario.sweep;
+                let json = serde_json::json!({
+                    "index": sw.index,
+                    "start_hz": g.start_hz,
+                    "stop_hz": g.stop_hz,
+                    "points": sw.s21.len(),
+                    "re": sw.s21.iter().map(|c| c.re).collect::<Vec<_>>(),
+                    "im": sw.s21.iter().map(|c| c.im).collect::<Vec<_>>(),
+                });
+                let path = dir.join(format!("sweep-{}.json", self.taken));
+                if let Err(e) = std::fs::write(&path, json.to_string()) {
+                    eprintln!("warning: cannot write {}: {e}", path.display());
+                }
+            }
+            self.sweep = Some((sw.index, sw.s21));
+            self.taken += 1;
+        }
+        self.next_sweep += 1;
+    }
+
+    /// Handles one program message line (without its newline); returns the response
+    /// message (with its newline) when it held queries.
+    pub fn handle_line(&mut self, line: &[u8]) -> Option<Vec<u8>> {
+        let Ok(text) = std::str::from_utf8(line) else {
+            self.push_error(ScpiError::SYNTAX);
+            return None;
+        };
+        let text = text.trim_end_matches('\r');
+        let mut answers = Vec::new();
+        for unit in split_units(text) {
+            let unit = unit.trim();
+            if unit.is_empty() {
+                continue;
+            }
+            match self.handle_unit(unit) {
+                Ok(Some(a)) => answers.push(a),
+                Ok(None) => {}
+                Err(e) => self.push_error(e),
+            }
+        }
+        if answers.is_empty() {
+            return None;
+        }
+        let mut out = Vec::new();
+        for (i, a) in answers.into_iter().enumerate() {
+            if i > 0 {
+                out.push(b';');
+            }
+            match a {
+                Answer::Text(t) => out.extend_from_slice(t.as_bytes()),
+                Answer::Bytes(b) => out.extend_from_slice(&b),
+            }
+        }
+        out.push(b'\n');
+        Some(out)
+    }
+
+    fn handle_unit(&mut self, unit: &str) -> Result<Option<Answer>, ScpiError> {
+        let (header, params) = match unit.find([' ', '\t']) {
+            Some(i) => (&unit[..i], unit[i..].trim()),
+            None => (unit, ""),
+        };
+        let (header, query) = match header.strip_suffix('?') {
+            Some(h) => (h, true),
+            None => (header, false),
+        };
+        let params: Vec<&str> = if params.is_empty() {
+            Vec::new()
+        } else {
+            params.split(',').map(str::trim).collect()
+        };
+        if let Some(common) = header.strip_prefix('*') {
+            return self.common(&common.to_ascii_uppercase(), query, &params);
+        }
+        let tokens: Vec<String> = header
+            .strip_prefix(':')
+            .unwrap_or(header)
+            .split(':')
+            .map(str::to_ascii_uppercase)
+            .collect();
+        if tokens
+            .iter()
+            .any(|t| t.is_empty() || !t.chars().all(|c| c.is_ascii_alphanumeric()))
+        {
+            return Err(ScpiError::SYNTAX);
+        }
+        let no_params = |p: &[&str]| {
+            if p.is_empty() {
+                Ok(())
+            } else {
+                Err(ScpiError::PARAMETER_NOT_ALLOWED)
+            }
+        };
+        let one = |p: &[&str]| -> Result<String, ScpiError> {
+            match p {
+                [] => Err(ScpiError::MISSING_PARAMETER),
+                [x] => Ok(x.to_ascii_uppercase()),
+                _ => Err(ScpiError::PARAMETER_NOT_ALLOWED),
+            }
+        };
+        let t = tokens.as_slice();
+        let g = self.scenario.sweep.clone();
+        if matches(t, FORM_DATA) {
+            if query {
+                no_params(&params)?;
+                return Ok(Some(Answer::Text(match self.format {
+                    DataFormat::Real(Format::Real32) => "REAL,32".into(),
+                    DataFormat::Real(Format::Real64) => "REAL,64".into(),
+                    DataFormat::Ascii(n) => format!("ASC,{n}"),
+                })));
+            }
+            let kind = params
+                .first()
+                .ok_or(ScpiError::MISSING_PARAMETER)?
+                .to_ascii_uppercase();
+            let len = params.get(1).map(|s| s.parse::<u32>());
+            if params.len() > 2 {
+                return Err(ScpiError::PARAMETER_NOT_ALLOWED);
+            }
+            self.format = match (kind.as_str(), len) {
+                ("REAL", None | Some(Ok(32))) => DataFormat::Real(Format::Real32),
+                ("REAL", Some(Ok(64))) => DataFormat::Real(Format::Real64),
+                ("REAL", Some(Ok(_))) => return Err(ScpiError::ILLEGAL_VALUE),
+                ("ASC" | "ASCII", None) => DataFormat::Ascii(0),
+                ("ASC" | "ASCII", Some(Ok(n))) if n <= 17 => DataFormat::Ascii(n as u8),
+                ("ASC" | "ASCII", Some(Ok(_))) => return Err(ScpiError::OUT_OF_RANGE),
+                (_, Some(Err(_))) => return Err(ScpiError::DATA_TYPE),
+                _ => return Err(ScpiError::ILLEGAL_VALUE),
+            };
+            return Ok(None);
+        }
+        if matches(t, FORM_BORD) {
+            if query {
+                no_params(&params)?;
+                let s = match self.order {
+                    ByteOrder::Normal => "NORM",
+                    ByteOrder::Swapped => "SWAP",
+                };
+                return Ok(Some(Answer::Text(s.into())));
+            }
+            self.order = match one(&params)?.as_str() {
+                "NORM" | "NORMAL" => ByteOrder::Normal,
+                "SWAP" | "SWAPPED" => ByteOrder::Swapped,
+                _ => return Err(ScpiError::ILLEGAL_VALUE),
+            };
+            return Ok(None);
+        }
+        let freq = [(FREQ_STAR, true), (FREQ_STOP, false)];
+        for (pattern, is_start) in freq {
+            if matches(t, pattern) {
+                if query {
+                    no_params(&params)?;
+                    let v = if is_start { g.start_hz } else { g.stop_hz };
+                    return Ok(Some(Answer::Text(nr3(v))));
+                }
+                let v = parse_hz(&one(&params)?)?;
+                if !(FREQ_RANGE_HZ.0..=FREQ_RANGE_HZ.1).contains(&v) {
+                    return Err(ScpiError::OUT_OF_RANGE);
+                }
+                let (a, b) = if is_start {
+                    (v, g.stop_hz)
+                } else {
+                    (g.start_hz, v)
+                };
+                self.set_grid(a, b, g.points)?;
+                return Ok(None);
+            }
+        }
+        if matches(t, SWE_POIN) {
+            if query {
+                no_params(&params)?;
+                return Ok(Some(Answer::Text(g.points.to_string())));
+            }
+            let p = one(&params)?;
+            let v: f64 = p.parse().map_err(|_| ScpiError::DATA_TYPE)?;
+            if !v.is_finite() || v.fract() != 0.0 {
+                return Err(ScpiError::DATA_TYPE);
+            }
+            if v < POINTS_RANGE.0 as f64 || v > POINTS_RANGE.1 as f64 {
+                return Err(ScpiError::OUT_OF_RANGE);
+            }
+            self.set_grid(g.start_hz, g.stop_hz, v as usize)?;
+            return Ok(None);
+        }
+        if matches(t, INIT) {
+            if query {
+                return Err(ScpiError::UNDEFINED_HEADER);
+            }
+            no_params(&params)?;
+            self.initiate();
+            return Ok(None);
+        }
+        if matches(t, TRAC_DATA) || matches(t, CALC_DATA) {
+            if !query {
+                return Err(ScpiError::UNDEFINED_HEADER);
+            }
+            if params.len() > 1 {
+                return Err(ScpiError::PARAMETER_NOT_ALLOWED);
+            }
+            let Some((_, values)) = &self.sweep else {
+                return Err(ScpiError::STALE);
+            };
+            return Ok(Some(encode(self.format, self.order, values)));
+        }
+        if matches(t, SYST_ERR) && query {
+            no_params(&params)?;
+            let e = self.errors.pop_front();
+            return Ok(Some(Answer::Text(match e {
+                Some(e) => e.to_string(),
+                None => "0,\"No error\"".into(),
+            })));
+        }
+        if matches(t, SYST_ERR_COUN) && query {
+            no_params(&params)?;
+            return Ok(Some(Answer::Text(self.errors.len().to_string())));
+        }
+        if matches(t, SYST_VERS) && query {
+            no_params(&params)?;
+            return Ok(Some(Answer::Text("1999.0".into())));
+        }
+        Err(ScpiError::UNDEFINED_HEADER)
+    }
+
+    fn common(
+        &mut self,
+        name: &str,
+        query: bool,
+        params: &[&str],
+    ) -> Result<Option<Answer>, ScpiError> {
+        let text = |s: String| Ok(Some(Answer::Text(s)));
+        let takes_value = matches!(name, "ESE" | "SRE") && !query;
+        if !takes_value && !params.is_empty() {
+            return Err(ScpiError::PARAMETER_NOT_ALLOWED);
+        }
+        match (name, query) {
+            ("IDN", true) => text(IDN.into()),
+            ("RST", false) => {
+                self.reset();
+                Ok(None)
+            }
+            ("CLS", false) => {
+                self.errors.clear();
+                self.esr = 0;
+                Ok(None)
+            }
+            ("OPC", false) => {
+                self.esr |= 1;
+                Ok(None)
+            }
+            ("OPC", true) => text("1".into()),
+            ("WAI", false) => Ok(None),
+            ("TST", true) => text("0".into()),
+            ("ESR", true) => {
+                let v = self.esr;
+                self.esr = 0;
+                text(v.to_string())
+            }
+            ("ESE", true) => text(self.ese.to_string()),
+            ("SRE", true) => text(self.sre.to_string()),
+            ("ESE" | "SRE", false) => {
+                let p = match params {
+                    [] => return Err(ScpiError::MISSING_PARAMETER),
+                    [p] => p,
+                    _ => return Err(ScpiError::PARAMETER_NOT_ALLOWED),
+                };
+                let v: u32 = p.parse().map_err(|_| ScpiError::DATA_TYPE)?;
+                let v = u8::try_from(v).map_err(|_| ScpiError::OUT_OF_RANGE)?;
+                if name == "ESE" {
+                    self.ese = v;
+                } else {
+                    self.sre = v;
+                }
+                Ok(None)
+            }
+            ("STB", true) => {
+                let mut stb = 0u8;
+                if !self.errors.is_empty() {
+                    stb |= 4;
+                }
+                if self.esr & self.ese != 0 {
+                    stb |= 32;
+                }
+                text(stb.to_string())
+            }
+            _ => Err(ScpiError::UNDEFINED_HEADER),
+        }
+    }
+}
+
+/// Splits a program message at `;` (there are no quoted strings among our commands).
+fn split_units(text: &str) -> impl Iterator<Item = &str> {
+    text.split(';')
+}
+
+/// NR3 form of a number: `8E+09`-like, exact for the f64.
+fn nr3(v: f64) -> String {
+    format!("{v:E}")
+}
+
+/// Parses `<NRf>[suffix]` in hertz.
+fn parse_hz(p: &str) -> Result<f64, ScpiError> {
+    let p = p.trim();
+    let split = p
+        .char_indices()
+        .find(|&(i, c)| {
+            c.is_ascii_alphabetic()
+                && !((c == 'E' || c == 'e')
+                    && p[i + 1..].starts_with(|d: char| d.is_ascii_digit() || d == '-' || d == '+'))
+        })
+        .map_or(p.len(), |(i, _)| i);
+    let (num, suffix) = p.split_at(split);
+    let v: f64 = num.trim().parse().map_err(|_| ScpiError::DATA_TYPE)?;
+    if !v.is_finite() {
+        return Err(ScpiError::DATA_TYPE);
+    }
+    // SCPI: MHZ is megahertz (the M of MHZ is not milli).
+    let scale = match suffix.trim().to_ascii_uppercase().as_str() {
+        "" | "HZ" => 1.0,
+        "KHZ" => 1e3,
+        "MHZ" => 1e6,
+        "GHZ" => 1e9,
+        _ => return Err(ScpiError::INVALID_SUFFIX),
+    };
+    Ok(v * scale)
+}
+
+fn encode(format: DataFormat, order: ByteOrder, values: &[Complex32]) -> Answer {
+    match format {
+        DataFormat::Real(f) => {
+            let mut buf = vec![0u8; 16 + values.len() * f.sample_bytes()];
+            match block::emit(f, order, values, &mut buf) {
+                Ok(n) => {
+                    // Drop emit's newline: the response message adds its own.
+                    buf.truncate(n.saturating_sub(1));
+                    Answer::Bytes(buf)
+                }
+                Err(_) => Answer::Text(String::new()),
+            }
+        }
+        DataFormat::Ascii(digits) => {
+            let mut s = String::with_capacity(values.len() * 30);
+            for (i, c) in values.iter().enumerate() {
+                for (j, v) in [c.re, c.im].into_iter().enumerate() {
+                    if i > 0 || j > 0 {
+                        s.push(',');
+                    }
+                    if digits == 0 {
+                        s.push_str(&format!("{v:E}"));
+                    } else {
+                        s.push_str(&format!("{:.*E}", digits as usize - 1, v));
+                    }
+                }
+            }
+            Answer::Text(s)
+        }
+    }
+}
+
+/// Serves one client until it disconnects.
+pub fn serve_client(stream: TcpStream, inst: &Mutex<Instrument>) -> std::io::Result<()> {
+    let mut out = stream.try_clone()?;
+    let mut reader = BufReader::new(stream);
+    let mut line = Vec::new();
+    loop {
+        line.clear();
+        let n = (&mut reader)
+            .take(MAX_LINE_BYTES as u64)
+            .read_until(b'\n', &mut line)?;
+        if n == 0 {
+            return Ok(());
+        }
+        let Some(body) = line.strip_suffix(b"\n") else {
+            if n < MAX_LINE_BYTES {
+                return Ok(()); // closed mid-line
+            }
+            // Too long: skip to the end of the line and report it.
+            let mut rest = Vec::new();
+            reader.read_until(b'\n', &mut rest)?;
+            if let Ok(mut i) = inst.lock() {
+                i.push_error(ScpiError::SYNTAX);
+            }
+            continue;
+        };
+        let answer = match inst.lock() {
+            Ok(mut i) => i.handle_line(body),
+            Err(_) => return Ok(()),
+        };
+        if let Some(a) = answer {
+            out.write_all(&a)?;
+            out.flush()?;
+        }
+    }
+}
+
+/// Accepts clients on `listener` (one thread each); with `once`, returns after the
+/// first client disconnects.
+pub fn serve(listener: TcpListener, inst: Instrument, once: bool) -> anyhow::Result<()> {
+    let inst = Arc::new(Mutex::new(inst));
+    for stream in listener.incoming() {
+        let stream = stream.context("accepting a client")?;
+        let peer = stream
+            .peer_addr()
+            .map(|a| a.to_string())
+            .unwrap_or_default();
+        eprintln!("client {peer} connected");
+        if once {
+            serve_client(stream, &inst).ok();
+            eprintln!("client {peer} disconnected");
+            return Ok(());
+        }
+        let inst = Arc::clone(&inst);
+        std::thread::spawn(move || {
+            if let Err(e) = serve_client(stream, &inst) {
+                eprintln!("client {peer}: {e}");
+            }
+            eprintln!("client {peer} disconnected");
+        });
+    }
+    Ok(())
+}
+
+/// Runs the command.
+pub fn run(args: Args) -> anyhow::Result<()> {
+    let (scenario, seed) = match &args.scenario {
+        Some(path) => {
+            let s = Scenario::load(path)?;
+            let seed = args.seed.unwrap_or(s.simulation.seed);
+            (s, seed)
+        }
+        None => {
+            let s = Scenario::from_toml(DEMO_SCENARIO)?;
+            let seed = args.seed.unwrap_or(s.simulation.seed);
+            (s, seed)
+        }
+    };
+    if let Some(d) = &args.dump {
+        std::fs::create_dir_all(d).with_context(|| format!("creating {}", d.display()))?;
+    }
+    let inst = Instrument::new(scenario, seed, args.dump.clone())?;
+    let listener = TcpListener::bind((args.bind.as_str(), args.port))
+        .with_context(|| format!("listening on {}:{}", args.bind, args.port))?;
+    let addr = listener.local_addr()?;
+    println!("listening on {addr}");
+    std::io::stdout().flush()?;
+    eprintln!(
+        "simulated VNA: {} sweeps of {} points per scan of {:?}",
+        inst.sim.timeline().sweep_starts_s().len(),
+        inst.scenario.sweep.points,
+        inst.scenario.name
+    );
+    serve(listener, inst, args.once)
+}
+
+/// Options of `sweepgate read-block`.
+#[derive(clap::Args, Debug)]
+pub struct ReadBlockArgs {
+    /// File holding one IEEE 488.2 block.
+    pub file: PathBuf,
+    /// Value format: real32 or real64.
+    #[arg(long, default_value = "real32")]
+    pub format: String,
+    /// Byte order: normal (big-endian) or swapped (little-endian).
+    #[arg(long, default_value = "normal")]
+    pub byte_order: String,
+    /// Complex points the block must hold.
+    #[arg(long)]
+    pub points: usize,
+}
+
+/// Parses a format word (`real32`, `real64`).
+pub fn parse_format(s: &str) -> anyhow::Result<Format> {
+    match s.to_ascii_lowercase().replace([',', ' '], "").as_str() {
+        "real32" => Ok(Format::Real32),
+        "real64" => Ok(Format::Real64),
+        _ => anyhow::bail!("unknown format {s:?} (real32 or real64)"),
+    }
+}
+
+/// Parses a byte order word (`normal`, `swapped`).
+pub fn parse_order(s: &str) -> anyhow::Result<ByteOrder> {
+    match s.to_ascii_lowercase().as_str() {
+        "normal" | "norm" => Ok(ByteOrder::Normal),
+        "swapped" | "swap" => Ok(ByteOrder::Swapped),
+        _ => anyhow::bail!("unknown byte order {s:?} (normal or swapped)"),
+    }
+}
+
+/// Decodes one block with the core's [`BlockDecoder`].
+pub fn decode_block(bytes: &[u8], cfg: BlockConfig) -> anyhow::Result<Vec<Complex32>> {
+    let mut dec = BlockDecoder::new(cfg);
+    let mut buf = vec![Complex32::new(0.0, 0.0); cfg.points()];
+    let mut rest = bytes;
+    loop {
+        let fed = dec.feed(rest, &mut buf);
+        rest = rest.get(fed.consumed..).unwrap_or(&[]);
+        match fed.event {
+            Some(Event::Sweep { .. }) => return Ok(buf),
+            Some(Event::Rejected(e)) => anyhow::bail!("block rejected: {e}"),
+            None if rest.is_empty() => {
+                if let Some(e) = dec.finish() {
+                    anyhow::bail!("block rejected: {e}");
+                }
+                anyhow::bail!("no block in the input");
+            }
+            None => {}
+        }
+    }
+}
+
+/// `sweepgate read-block FILE --points K [--format real32|real64] [--byte-order
+/// normal|swapped]`: decodes one IEEE 488.2 block from a file with the core decoder and
+/// prints its values as JSON, `{"re": [...], "im": [...]}`.
+pub fn run_read_block(args: ReadBlockArgs) -> anyhow::Result<()> {
+    let bytes = read_file(&args.file)?;
+    let cfg = BlockConfig::new(
+        args.points,
+        parse_format(&args.format)?,
+        parse_order(&args.byte_order)?,
+    )?;
+    let v = decode_block(&bytes, cfg)?;
+    let json = serde_json::json!({
+        "re": v.iter().map(|c| c.re).collect::<Vec<_>>(),
+        "im": v.iter().map(|c| c.im).collect::<Vec<_>>(),
+    });
+    println!("{json}");
+    Ok(())
+}
+
+fn read_file(p: &Path) -> anyhow::Result<Vec<u8>> {
+    std::fs::read(p).with_context(|| format!("reading {}", p.display()))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn toks(h: &str) -> Vec<String> {
+        h.split(':').map(str::to_ascii_uppercase).collect()
+    }
+
+    #[test]
+    fn headers_match_short_long_and_optional_nodes() {
+        assert!(matches(&toks("SENSe:FREQuency:STARt"), FREQ_STAR));
+        assert!(matches(&toks("freq:star"), FREQ_STAR));
+        assert!(matches(&toks("SENS:FREQ:STAR"), FREQ_STAR));
+        assert!(!matches(&toks("FREQ:STA"), FREQ_STAR));
+        assert!(!matches(&toks("SENS:FREQ"), FREQ_STAR));
+        assert!(matches(&toks("FORM"), FORM_DATA));
+        assert!(matches(&toks("SYST:ERR:NEXT"), SYST_ERR));
+        assert!(!matches(&toks("SYST:ERR:COUN"), SYST_ERR));
+        assert!(matches(&toks("INITIATE:IMMEDIATE"), INIT));
+    }
+
+    #[test]
+    fn frequencies_with_and_without_suffixes() {
+        assert_eq!(parse_hz("8e9"), Ok(8e9));
+        assert_eq!(parse_hz("8E+9"), Ok(8e9));
+        assert_eq!(parse_hz("9 GHZ"), Ok(9e9));
+        assert_eq!(parse_hz("9500MHZ"), Ok(9.5e9));
+        assert_eq!(parse_hz("10KHZ"), Ok(10e3));
+        assert_eq!(parse_hz("12HZ"), Ok(12.0));
+        assert_eq!(parse_hz("1THZ"), Err(ScpiError::INVALID_SUFFIX));
+        assert_eq!(parse_hz("abc"), Err(ScpiError::DATA_TYPE));
+        assert_eq!(parse_hz("inf"), Err(ScpiError::DATA_TYPE));
+    }
+
+    #[test]
+    fn a_full_queue_ends_with_overflow() {
+        let mut i = Instrument::builtin(None).unwrap();
+        for _ in 0..ERROR_QUEUE_LEN + 3 {
+            i.handle_line(b"NOPE");
+        }
+        let v: Vec<_> = i.errors().copied().collect();
+        assert_eq!(v.len(), ERROR_QUEUE_LEN);
+        assert_eq!(v[0], ScpiError::UNDEFINED_HEADER);
+        assert_eq!(v[ERROR_QUEUE_LEN - 1], ScpiError::QUEUE_OVERFLOW);
+    }
+
+    #[test]
+    fn bad_utf8_is_a_syntax_error() {
+        let mut i = Instrument::builtin(None).unwrap();
+        assert_eq!(i.handle_line(&[0xff, 0xfe]), None);
+        assert_eq!(i.errors().next(), Some(&ScpiError::SYNTAX));
+    }
+}
