@@ -357,6 +357,10 @@ impl BlockDecoder {
                 }
                 continue;
             }
+            if let Some(n) = self.whole_samples(rest, out) {
+                pos += n;
+                continue;
+            }
             let Some(&b) = rest.first() else { break };
             match self.step(b, out) {
                 Step::Next => pos += 1,
@@ -379,6 +383,46 @@ impl BlockDecoder {
             consumed: pos,
             event: None,
         }
+    }
+
+    /// Fast path inside a definite block: decodes whole samples straight from `rest` while
+    /// more than one sample of the block remains. Returns the bytes taken, or `None` when
+    /// the byte-by-byte path must go on (mid-sample, the block's last sample, a bad value
+    /// or a full buffer: that sample is then decoded again byte by byte, so errors and
+    /// counters are exactly those of the byte path).
+    fn whole_samples(&mut self, rest: &[u8], out: &mut [Complex32]) -> Option<usize> {
+        let State::Definite {
+            mut left,
+            mut index,
+        } = self.state
+        else {
+            return None;
+        };
+        let sb = self.config.format.sample_bytes();
+        if self.fill != 0 {
+            return None;
+        }
+        let mut taken = 0;
+        for bytes in rest.chunks_exact(sb) {
+            if left as usize <= sb {
+                break;
+            }
+            self.sample[..sb].copy_from_slice(bytes);
+            let Ok(v) = self.decode_sample() else { break };
+            let Some(slot) = out.get_mut(index as usize) else {
+                break;
+            };
+            *slot = v;
+            index += 1;
+            left -= sb as u32;
+            taken += sb;
+        }
+        if taken == 0 {
+            return None;
+        }
+        self.pending += taken as u64;
+        self.state = State::Definite { left, index };
+        Some(taken)
     }
 
     fn enter_skip(&mut self, left: u32) {
