@@ -283,7 +283,7 @@ pub fn compare(a: &[u8], b: &[u8], tolerance: f64) -> Comparison {
             for (p, q) in [(u.raw, v.raw), (u.gated, v.gated)] {
                 let rel = (p - q).norm() as f64 / scale;
                 c.worst_relative = c.worst_relative.max(rel);
-                if !(rel <= tolerance) {
+                if rel.is_nan() || rel > tolerance {
                     ok = false;
                     if c.problems.len() < 20 {
                         c.problems.push(format!(
