@@ -6,6 +6,10 @@
 #![warn(missing_docs)]
 
 pub mod physics;
+pub mod preview;
 pub mod record;
+pub mod replay;
+pub mod report;
 pub mod scenario;
 pub mod simulate;
+pub mod view;

@@ -5,6 +5,7 @@ use clap::{Parser, Subcommand};
 mod demo;
 
 use sweepgate_host::simulate;
+use sweepgate_host::{replay, view};
 
 /// Time-domain gating for antenna pattern scans in ordinary rooms.
 #[derive(Parser)]
@@ -20,6 +21,10 @@ enum Command {
     Demo(demo::Args),
     /// Simulate a scan of a room scenario and write it as a recording.
     Simulate(simulate::Args),
+    /// Replay a recording through the scan engine with a live preview, and write the report.
+    Replay(replay::Args),
+    /// Show a board's preview stream (TCP HOST:PORT, or a serial device or file).
+    View(view::Args),
 }
 
 fn main() {
@@ -27,6 +32,8 @@ fn main() {
     let result = match cli.command {
         Command::Demo(a) => demo::run(a),
         Command::Simulate(a) => simulate::run(a),
+        Command::Replay(a) => replay::run(a),
+        Command::View(a) => view::run(a),
     };
     if let Err(e) = result {
         eprintln!("error: {e:#}");
