@@ -148,11 +148,19 @@ impl Screen {
         let Some(b) = self.bins.values().next() else {
             return Vec::new();
         };
-        let n = self
-            .frequencies
-            .unwrap_or(b.values.len())
-            .min(b.values.len());
-        b.values.iter().take(n).map(|v| v.index).collect()
+        match self.frequencies {
+            Some(n) => b.values.iter().take(n).map(|v| v.index).collect(),
+            None => {
+                // Unused slots repeat a frequency: show each grid point once.
+                let mut v: Vec<u16> = Vec::new();
+                for x in &b.values {
+                    if !v.contains(&x.index) {
+                        v.push(x.index);
+                    }
+                }
+                v
+            }
+        }
     }
 
     /// A frequency's name: its value when the grid is known, else its grid point.
