@@ -366,6 +366,9 @@ fn pe<E: std::fmt::Debug>(e: E) -> anyhow::Error {
 
 const PLOT_FLOOR_DB: f64 = -50.0;
 
+/// A named, coloured line of (x, y) points.
+type Curve = (&'static str, RGBColor, Vec<(f64, f64)>);
+
 fn plot_rect(path: &Path, input: &ReportInput, fi: usize) -> anyhow::Result<()> {
     let c = input.cut(fi);
     let f = input.frequencies_hz.get(fi).copied().unwrap_or(0.0);
@@ -387,6 +390,8 @@ fn plot_rect(path: &Path, input: &ReportInput, fi: usize) -> anyhow::Result<()> 
         .map_err(pe)?;
     chart
         .configure_mesh()
+        .axis_desc_style(("sans-serif", 15))
+        .label_style(("sans-serif", 13))
         .x_desc("angle (deg)")
         .y_desc("level relative to peak (dB)")
         .draw()
@@ -398,7 +403,7 @@ fn plot_rect(path: &Path, input: &ReportInput, fi: usize) -> anyhow::Result<()> 
             .map(|(a, l)| (*a, l.max(PLOT_FLOOR_DB)))
             .collect()
     };
-    let mut curves: Vec<(&str, RGBColor, Vec<(f64, f64)>)> = vec![
+    let mut curves: Vec<Curve> = vec![
         ("raw", RGBColor(214, 120, 0), series(c.raw_norm())),
         ("gated", RGBColor(0, 90, 200), series(c.gated_norm())),
     ];
@@ -544,6 +549,8 @@ fn plot_impulse(path: &Path, input: &ReportInput, iv: &ImpulseView) -> anyhow::R
         .map_err(pe)?;
     chart
         .configure_mesh()
+        .axis_desc_style(("sans-serif", 15))
+        .label_style(("sans-serif", 13))
         .x_desc("time (ns)")
         .y_desc("|h| relative to peak (dB)")
         .draw()
@@ -575,7 +582,7 @@ fn plot_impulse(path: &Path, input: &ReportInput, iv: &ImpulseView) -> anyhow::R
             )
         })
         .collect();
-    let curves: Vec<(&str, RGBColor, Vec<(f64, f64)>)> = vec![
+    let curves: Vec<Curve> = vec![
         ("impulse response", RGBColor(214, 120, 0), raw),
         ("after the gate", RGBColor(0, 90, 200), gated),
         ("gate (dB)", RGBColor(0, 150, 60), gate),
