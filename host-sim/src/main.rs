@@ -6,6 +6,7 @@ mod demo;
 
 use sweepgate_host::simulate;
 use sweepgate_host::{acquire, instrument};
+use sweepgate_host::{replay, view};
 
 /// Time-domain gating for antenna pattern scans in ordinary rooms.
 #[derive(Parser)]
@@ -29,6 +30,10 @@ enum Command {
     ReadBlock(instrument::ReadBlockArgs),
     /// Drive an instrument and a positioner over TCP and record the scan.
     Acquire(acquire::Args),
+    /// Replay a recording through the scan engine with a live preview, and write the report.
+    Replay(replay::Args),
+    /// Show a board's preview stream (TCP HOST:PORT, or a serial device or file).
+    View(view::Args),
 }
 
 fn main() {
@@ -40,6 +45,8 @@ fn main() {
         Command::Instrument(a) => instrument::run(a),
         Command::ReadBlock(a) => instrument::run_read_block(a),
         Command::Acquire(a) => acquire::run(a),
+        Command::Replay(a) => replay::run(a),
+        Command::View(a) => view::run(a),
     };
     if let Err(e) = result {
         eprintln!("error: {e:#}");

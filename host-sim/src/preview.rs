@@ -1,0 +1,518 @@
+//! The live preview: a screen model fed only from preview records (bytes framed by
+//! [`sweepgate::wire::preview`]), the drawing of that model onto a ratatui [`Frame`], and the
+//! two ways of showing it: a full terminal screen, or a progress line on stderr when there is
+//! no terminal.
+//!
+//! The same model serves `sweepgate replay` (fed by the replayed scan engine) and
+//! `sweepgate view` (fed by a board's byte stream), so what the screen shows is exactly what
+//! the records carry: raw and gated |S21| in dB at each pattern frequency against angle, bins
+//! filled, the last echo level, sweeps per second (from status records), counters and
+//! warnings.
+//!
+//! Keys: `q` or Esc quits (the terminal is restored), `f`/Tab/→ shows the next pattern
+//! frequency, `F`/← the previous one.
+
+use std::collections::BTreeMap;
+use std::io::IsTerminal;
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::mpsc::{Receiver, RecvTimeoutError};
+use std::time::{Duration, Instant};
+
+use ratatui::layout::{Constraint, Direction, Layout};
+use ratatui::style::{Color, Style};
+use ratatui::symbols::Marker;
+use ratatui::text::Line;
+use ratatui::widgets::{Axis, Block, Borders, Chart, Dataset, GraphType, Paragraph};
+use ratatui::Frame;
+use sweepgate::bins::BinFlags;
+use sweepgate::grid::Grid;
+use sweepgate::wire::preview::{
+    BinRecord, Decoder, DecoderCounters, PositionerState, Record, StatusRecord,
+};
+
+/// Pattern frequencies a preview record may carry here (unused slots are padded).
+pub const PREVIEW_F: usize = 8;
+/// Frame buffer of the preview decoder, bytes (≥ the longest frame).
+pub const PREVIEW_BUF: usize = 1024;
+
+/// The decoder the preview uses.
+pub type PreviewDecoder = Decoder<PREVIEW_F, PREVIEW_BUF>;
+
+/// What a producer sends the preview.
+#[derive(Debug, Clone)]
+pub enum Feed {
+    /// Preview frame bytes.
+    Bytes(Vec<u8>),
+    /// A warning to show (not from the stream, e.g. recording damage).
+    Note(String),
+    /// The stream has ended.
+    End,
+}
+
+/// Everything the preview screen shows, built from preview records only.
+#[derive(Debug, Clone)]
+pub struct Screen {
+    /// Title (the scenario or source name).
+    pub title: String,
+    /// The sweep grid, if known, to name the pattern frequencies.
+    pub grid: Option<Grid>,
+    /// Number of pattern frequencies in use (the rest are padding), if known.
+    pub frequencies: Option<usize>,
+    /// Number of bins of the layout, if known.
+    pub total_bins: Option<u16>,
+    /// Latest record of each bin.
+    pub bins: BTreeMap<u16, BinRecord<PREVIEW_F>>,
+    /// Latest status record.
+    pub status: Option<StatusRecord>,
+    /// Sweeps per second of scan time, from the last two status records.
+    pub sweeps_per_s: Option<f64>,
+    /// Echo level of the last closed bin, dB.
+    pub last_echo_db: Option<f32>,
+    /// Pattern frequency shown (slot number).
+    pub selected: usize,
+    /// Warnings from outside the stream.
+    pub notes: Vec<String>,
+    /// The stream has ended.
+    pub ended: bool,
+    decoder: PreviewDecoder,
+    prev_status: Option<(u64, u32)>,
+}
+
+impl Screen {
+    /// An empty screen.
+    pub fn new(title: impl Into<String>) -> Self {
+        Self {
+            title: title.into(),
+            grid: None,
+            frequencies: None,
+            total_bins: None,
+            bins: BTreeMap::new(),
+            status: None,
+            sweeps_per_s: None,
+            last_echo_db: None,
+            selected: 0,
+            notes: Vec::new(),
+            ended: false,
+            decoder: PreviewDecoder::new(),
+            prev_status: None,
+        }
+    }
+
+    /// Decodes preview frame bytes and applies every good record.
+    pub fn feed(&mut self, bytes: &[u8]) {
+        let mut got = Vec::new();
+        self.decoder.feed(bytes, |_, r| got.push(r));
+        for r in got {
+            self.apply(r);
+        }
+    }
+
+    /// Applies one decoded record.
+    pub fn apply(&mut self, rec: Record<PREVIEW_F>) {
+        match rec {
+            Record::Bin(b) => {
+                if b.echo_db.is_finite() {
+                    self.last_echo_db = Some(b.echo_db);
+                }
+                self.bins.insert(b.bin, b);
+            }
+            Record::Status(s) => {
+                if let Some((t0, n0)) = self.prev_status {
+                    if s.time_us > t0 && s.sweeps_pushed >= n0 {
+                        let dt = (s.time_us - t0) as f64 * 1e-6;
+                        self.sweeps_per_s = Some(f64::from(s.sweeps_pushed - n0) / dt);
+                    }
+                }
+                self.prev_status = Some((s.time_us, s.sweeps_pushed));
+                self.status = Some(s);
+            }
+        }
+    }
+
+    /// Applies a feed message.
+    pub fn take(&mut self, f: Feed) {
+        match f {
+            Feed::Bytes(b) => self.feed(&b),
+            Feed::Note(n) => self.notes.push(n),
+            Feed::End => self.ended = true,
+        }
+    }
+
+    /// The preview decoder's counters.
+    pub fn decoder_counters(&self) -> &DecoderCounters {
+        self.decoder.counters()
+    }
+
+    /// Grid indices of the pattern frequencies, from the records seen.
+    pub fn frequency_indices(&self) -> Vec<u16> {
+        let Some(b) = self.bins.values().next() else {
+            return Vec::new();
+        };
+        match self.frequencies {
+            Some(n) => b.values.iter().take(n).map(|v| v.index).collect(),
+            None => {
+                // Unused slots repeat a frequency: show each grid point once.
+                let mut v: Vec<u16> = Vec::new();
+                for x in &b.values {
+                    if !v.contains(&x.index) {
+                        v.push(x.index);
+                    }
+                }
+                v
+            }
+        }
+    }
+
+    /// A frequency's name: its value when the grid is known, else its grid point.
+    pub fn frequency_label(&self, index: u16) -> String {
+        match &self.grid {
+            Some(g) => format!("{:.3} GHz", g.frequency_hz(usize::from(index)) / 1e9),
+            None => format!("grid point {index}"),
+        }
+    }
+
+    /// Shows the next (`step` = 1) or previous (`step` = −1) pattern frequency.
+    pub fn cycle(&mut self, step: isize) {
+        let n = self.frequency_indices().len().max(1) as isize;
+        self.selected = (self.selected as isize + step).rem_euclid(n) as usize;
+    }
+
+    /// (angle in −180…180°, raw dB, gated dB) of the shown frequency, sorted by angle.
+    pub fn pattern_points(&self) -> Vec<(f64, f64, f64)> {
+        let db = |z: sweepgate::Complex32| 20.0 * f64::from(z.norm()).max(1e-15).log10();
+        let mut v: Vec<(f64, f64, f64)> = self
+            .bins
+            .values()
+            .filter_map(|b| {
+                let fv = b.values.get(self.selected)?;
+                let a = (f64::from(b.nominal_deg) + 180.0).rem_euclid(360.0) - 180.0;
+                Some((a, db(fv.raw), db(fv.gated)))
+            })
+            .collect();
+        v.sort_by(|a, b| a.0.total_cmp(&b.0));
+        v
+    }
+
+    /// Bins whose latest record has `flag` set.
+    pub fn bins_flagged(&self, flag: u16) -> usize {
+        self.bins
+            .values()
+            .filter(|b| BinFlags(b.flags).has(flag))
+            .count()
+    }
+
+    /// Warning lines derived from the records (and the notes).
+    pub fn warnings(&self) -> Vec<String> {
+        let mut w = Vec::new();
+        if let Some(s) = &self.status {
+            if s.sweeps_rejected > 0 {
+                w.push(format!(
+                    "{} sweeps refused by the engine",
+                    s.sweeps_rejected
+                ));
+            }
+            if s.angles_rejected > 0 {
+                w.push(format!("{} angle samples refused", s.angles_rejected));
+            }
+            if s.state == PositionerState::Stalled {
+                w.push("positioner stalled".into());
+            }
+        }
+        for (flag, word) in [
+            (BinFlags::SMEARED, "smeared (sweep travel over half a bin)"),
+            (BinFlags::SPARSE, "sparse"),
+            (BinFlags::MOVING, "taken while moving"),
+            (BinFlags::EXTRAPOLATED, "extrapolated angle"),
+        ] {
+            let n = self.bins_flagged(flag);
+            if n > 0 {
+                w.push(format!("{n} bins {word}"));
+            }
+        }
+        let d = self.decoder.counters();
+        if d.damaged() > 0 || d.seq_gaps > 0 {
+            w.push(format!(
+                "preview link: {} damaged frames, {} frames lost",
+                d.damaged(),
+                d.seq_gaps
+            ));
+        }
+        w.extend(self.notes.iter().cloned());
+        w
+    }
+
+    /// "filled / total" text.
+    pub fn bins_filled_text(&self) -> String {
+        match self.total_bins {
+            Some(t) => format!("{} / {}", self.bins.len(), t),
+            None => format!("{} / ?", self.bins.len()),
+        }
+    }
+
+    /// The lines of the final summary.
+    pub fn summary_lines(&self) -> Vec<String> {
+        let mut v = vec![format!("bins filled {}", self.bins_filled_text())];
+        if let Some(s) = &self.status {
+            v.push(format!(
+                "sweeps: {} pushed, {} binned, {} refused; angle samples: {} pushed, {} refused",
+                s.sweeps_pushed,
+                s.sweeps_binned,
+                s.sweeps_rejected,
+                s.angles_pushed,
+                s.angles_rejected
+            ));
+        }
+        if let Some(r) = self.sweeps_per_s {
+            v.push(format!("sweeps per second (scan time): {r:.1}"));
+        }
+        let d = self.decoder.counters();
+        v.push(format!(
+            "preview frames: {} good, {} damaged, {} lost",
+            d.good,
+            d.damaged(),
+            d.seq_gaps
+        ));
+        for w in self.warnings() {
+            v.push(format!("warning: {w}"));
+        }
+        v
+    }
+}
+
+fn state_word(s: PositionerState) -> &'static str {
+    match s {
+        PositionerState::NoAngle => "no angle yet",
+        PositionerState::Moving => "moving",
+        PositionerState::Settled => "settled",
+        PositionerState::Stalled => "stalled",
+        PositionerState::Finished => "finished",
+    }
+}
+
+/// Draws the screen. Only `screen` is read, so a test can render it to
+/// `ratatui::backend::TestBackend`.
+pub fn draw(frame: &mut Frame, screen: &Screen) {
+    let area = frame.area();
+    let cols = Layout::default()
+        .direction(Direction::Horizontal)
+        .constraints([Constraint::Min(40), Constraint::Length(44)])
+        .split(area);
+    let freqs = screen.frequency_indices();
+    let freq_text = freqs
+        .get(screen.selected)
+        .map(|&i| screen.frequency_label(i))
+        .unwrap_or_else(|| "waiting for bins".into());
+
+    let pts = screen.pattern_points();
+    let raw: Vec<(f64, f64)> = pts.iter().map(|p| (p.0, p.1)).collect();
+    let gated: Vec<(f64, f64)> = pts.iter().map(|p| (p.0, p.2)).collect();
+    let top = pts
+        .iter()
+        .flat_map(|p| [p.1, p.2])
+        .fold(f64::NEG_INFINITY, f64::max);
+    let (y0, y1) = if top.is_finite() {
+        let hi = (top / 10.0).ceil() * 10.0;
+        (hi - 60.0, hi)
+    } else {
+        (-100.0, 0.0)
+    };
+    let datasets = vec![
+        Dataset::default()
+            .name("raw")
+            .marker(Marker::Braille)
+            .graph_type(GraphType::Line)
+            .style(Style::default().fg(Color::Yellow))
+            .data(&raw),
+        Dataset::default()
+            .name("gated")
+            .marker(Marker::Braille)
+            .graph_type(GraphType::Line)
+            .style(Style::default().fg(Color::Cyan))
+            .data(&gated),
+    ];
+    let chart = Chart::new(datasets)
+        .block(
+            Block::default()
+                .borders(Borders::ALL)
+                .title(format!("sweepgate preview: {}", screen.title)),
+        )
+        .x_axis(
+            Axis::default()
+                .title("angle (deg)")
+                .bounds([-180.0, 180.0])
+                .labels(["-180", "-90", "0", "90", "180"]),
+        )
+        .y_axis(
+            Axis::default()
+                .title(format!("|S21| dB at {freq_text}"))
+                .bounds([y0, y1])
+                .labels([
+                    format!("{y0:.0}"),
+                    format!("{:.0}", 0.5 * (y0 + y1)),
+                    format!("{y1:.0}"),
+                ]),
+        );
+    frame.render_widget(chart, cols[0]);
+
+    let mut lines: Vec<Line> = vec![
+        Line::from(format!(
+            "frequency    {freq_text} ({}/{})",
+            (screen.selected + 1).min(freqs.len()),
+            freqs.len()
+        )),
+        Line::from(format!("bins filled  {}", screen.bins_filled_text())),
+        Line::from(format!(
+            "echo level   {}",
+            screen
+                .last_echo_db
+                .map_or("-".into(), |e| format!("{e:.1} dB (last bin)"))
+        )),
+        Line::from(format!(
+            "sweeps/s     {}",
+            screen
+                .sweeps_per_s
+                .map_or("-".into(), |r| format!("{r:.1}"))
+        )),
+    ];
+    if let Some(s) = &screen.status {
+        lines.push(Line::from(format!(
+            "positioner   {:.2} deg, {}",
+            s.angle_deg,
+            state_word(s.state)
+        )));
+        lines.push(Line::from(format!(
+            "sweeps       {} in, {} binned, {} refused",
+            s.sweeps_pushed, s.sweeps_binned, s.sweeps_rejected
+        )));
+        lines.push(Line::from(format!(
+            "angles       {} in, {} refused",
+            s.angles_pushed, s.angles_rejected
+        )));
+    }
+    let d = screen.decoder.counters();
+    lines.push(Line::from(format!(
+        "frames       {} good, {} damaged",
+        d.good,
+        d.damaged()
+    )));
+    lines.push(Line::from(""));
+    let warns = screen.warnings();
+    if warns.is_empty() {
+        lines.push(Line::from("no warnings"));
+    } else {
+        lines.push(Line::from("warnings:"));
+        for w in warns {
+            lines.push(Line::styled(
+                format!(" {w}"),
+                Style::default().fg(Color::LightRed),
+            ));
+        }
+    }
+    lines.push(Line::from(""));
+    if screen.ended {
+        lines.push(Line::from("stream ended"));
+    }
+    lines.push(Line::from("f: next frequency  q: quit"));
+    let info = Paragraph::new(lines).block(Block::default().borders(Borders::ALL).title("scan"));
+    frame.render_widget(info, cols[1]);
+}
+
+/// True when stdout is a terminal (the full screen can be shown).
+pub fn have_terminal() -> bool {
+    std::io::stdout().is_terminal()
+}
+
+/// Shows the full-screen preview until the feed ends (then `linger` longer) or `q` is
+/// pressed, which sets `quit`. The terminal is restored on every exit path.
+pub fn run_terminal(
+    rx: &Receiver<Feed>,
+    screen: &mut Screen,
+    quit: &AtomicBool,
+    linger: Duration,
+) -> std::io::Result<()> {
+    let mut term = ratatui::try_init()?;
+    let r = terminal_loop(&mut term, rx, screen, quit, linger);
+    ratatui::restore();
+    r
+}
+
+fn terminal_loop(
+    term: &mut ratatui::DefaultTerminal,
+    rx: &Receiver<Feed>,
+    screen: &mut Screen,
+    quit: &AtomicBool,
+    linger: Duration,
+) -> std::io::Result<()> {
+    use ratatui::crossterm::event::{self, Event, KeyCode, KeyEventKind};
+    let mut ended_at: Option<Instant> = None;
+    loop {
+        loop {
+            match rx.try_recv() {
+                Ok(f) => screen.take(f),
+                Err(std::sync::mpsc::TryRecvError::Empty) => break,
+                Err(std::sync::mpsc::TryRecvError::Disconnected) => {
+                    screen.ended = true;
+                    break;
+                }
+            }
+        }
+        if screen.ended && ended_at.is_none() {
+            ended_at = Some(Instant::now());
+        }
+        term.draw(|f| draw(f, screen))?;
+        if ended_at.is_some_and(|t| t.elapsed() >= linger) {
+            return Ok(());
+        }
+        if event::poll(Duration::from_millis(50))? {
+            if let Event::Key(k) = event::read()? {
+                if k.kind == KeyEventKind::Press {
+                    match k.code {
+                        KeyCode::Char('q') | KeyCode::Esc => {
+                            quit.store(true, Ordering::Relaxed);
+                            return Ok(());
+                        }
+                        KeyCode::Char('f') | KeyCode::Tab | KeyCode::Right => screen.cycle(1),
+                        KeyCode::Char('F') | KeyCode::BackTab | KeyCode::Left => screen.cycle(-1),
+                        _ => {}
+                    }
+                }
+            }
+        }
+    }
+}
+
+/// Without a terminal: a progress line on stderr (bins filled against the total) until the
+/// feed ends.
+pub fn run_plain(rx: &Receiver<Feed>, screen: &mut Screen, progress: bool) {
+    let bar = if progress {
+        let b = indicatif::ProgressBar::new(u64::from(screen.total_bins.unwrap_or(0)));
+        b.set_style(
+            indicatif::ProgressStyle::with_template("replaying {bar:40} {pos}/{len} bins {msg}")
+                .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+        );
+        b
+    } else {
+        indicatif::ProgressBar::hidden()
+    };
+    loop {
+        match rx.recv_timeout(Duration::from_millis(200)) {
+            Ok(f) => {
+                let end = matches!(f, Feed::End);
+                screen.take(f);
+                if end {
+                    break;
+                }
+            }
+            Err(RecvTimeoutError::Timeout) => {}
+            Err(RecvTimeoutError::Disconnected) => {
+                screen.ended = true;
+                break;
+            }
+        }
+        bar.set_position(screen.bins.len() as u64);
+        if let Some(r) = screen.sweeps_per_s {
+            bar.set_message(format!("{r:.1} sweeps/s"));
+        }
+    }
+    bar.finish_and_clear();
+}

@@ -1,0 +1,651 @@
+//! The report folder of a scan: a table, a summary and plots.
+//!
+//! Input is a plain [`ReportInput`] (bins with raw, gated and optionally true S21 at each
+//! pattern frequency), so any producer can use it: `sweepgate replay` fills it from the scan
+//! engine, `sweepgate process` from Touchstone files.
+//!
+//! # Files
+//!
+//! - `pattern.csv`: a header row, then one row per bin and pattern frequency, bins in angle
+//!   order: `angle_deg,frequency_hz,raw_db,gated_db,gated_phase_deg,echo_db,sweeps,flags`
+//!   and `truth_db` when the truth is known. `raw_db` and `gated_db` are 20·log10|S21| (not
+//!   normalized), `gated_phase_deg` the gated value's argument, `echo_db` the bin's echo
+//!   level (empty when not computed), `flags` the bin flags as words joined by `|`
+//!   (`smeared`, `revisited`, `reversed`, `sparse`, `moving`, `extrapolated`, `combine`;
+//!   empty when none). `angle_deg` is the bin centre.
+//! - `summary.json`: title, source, settings, counters, warnings, and per pattern frequency
+//!   the pattern figures ([`sweepgate::metrics::pattern_metrics`]) of the gated, raw and true
+//!   cuts normalized to their peaks, plus the gated and raw errors against the truth.
+//! - `pattern-rect-<MHz>MHz.svg`, `pattern-polar-<MHz>MHz.svg`: raw, gated and true pattern
+//!   normalized to peak, against angle and in polar form.
+//! - `impulse-boresight.svg`: the impulse response of the bin nearest 0° with the gate.
+//!
+//! Plots are SVG drawn by `plotters` with its SVG backend: text is written as SVG text
+//! elements, so no fonts are needed on the machine.
+
+use std::fmt::Write as _;
+use std::path::{Path, PathBuf};
+
+use anyhow::Context;
+use num_complex::Complex64;
+use plotters::prelude::*;
+use serde_json::{json, Value};
+use sweepgate::bins::BinFlags;
+use sweepgate::metrics::{pattern_metrics, Coverage, PatternMetrics};
+
+/// One pattern frequency's values in one bin.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ReportValue {
+    /// Averaged raw S21.
+    pub raw: Complex64,
+    /// Gated S21.
+    pub gated: Complex64,
+    /// Free-space S21, when known.
+    pub truth: Option<Complex64>,
+}
+
+/// One angle bin.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ReportBin {
+    /// Bin centre, degrees.
+    pub angle_deg: f64,
+    /// Mean measured angle of its sweeps, degrees.
+    pub mean_deg: f64,
+    /// Sweeps averaged.
+    pub sweeps: u32,
+    /// [`BinFlags`] bits.
+    pub flags: u16,
+    /// Echo level, dB, if computed.
+    pub echo_db: Option<f64>,
+    /// Values at each pattern frequency (same order as [`ReportInput::frequencies_hz`]).
+    pub values: Vec<ReportValue>,
+}
+
+/// The impulse response of one bin with the gate, for the plot.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ImpulseView {
+    /// The bin's angle, degrees.
+    pub angle_deg: f64,
+    /// Sweeps averaged.
+    pub sweeps: u32,
+    /// Time of each sample, ns.
+    pub time_ns: Vec<f64>,
+    /// |h| of each sample (any scale).
+    pub magnitude: Vec<f64>,
+    /// Gate value (0…1) at each sample.
+    pub gate: Vec<f64>,
+    /// Where the gate opens, ns.
+    pub gate_start_ns: f64,
+    /// Where it closes, ns.
+    pub gate_stop_ns: f64,
+}
+
+/// Everything a report is made from.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ReportInput {
+    /// Title (the scenario name), used in every plot.
+    pub title: String,
+    /// Where the data came from.
+    pub source: String,
+    /// Pattern frequencies, Hz.
+    pub frequencies_hz: Vec<f64>,
+    /// The bins cover a full turn.
+    pub full_circle: bool,
+    /// Bins (any order; the report sorts them by angle).
+    pub bins: Vec<ReportBin>,
+    /// Settings, as given (copied into the summary).
+    pub settings: Value,
+    /// Counters, as given (copied into the summary).
+    pub counters: Value,
+    /// Warnings.
+    pub warnings: Vec<String>,
+    /// Impulse response near boresight, if available.
+    pub impulse: Option<ImpulseView>,
+}
+
+/// Lowest level written or plotted, dB.
+pub const FLOOR_DB: f64 = -300.0;
+
+/// 20·log10|z|, clipped at [`FLOOR_DB`].
+pub fn db(z: Complex64) -> f64 {
+    (20.0 * z.norm().log10()).max(FLOOR_DB)
+}
+
+/// Flag bits as words joined by `|`.
+pub fn flag_words(bits: u16) -> String {
+    let names = [
+        (BinFlags::SMEARED, "smeared"),
+        (BinFlags::REVISITED, "revisited"),
+        (BinFlags::REVERSED, "reversed"),
+        (BinFlags::SPARSE, "sparse"),
+        (BinFlags::MOVING, "moving"),
+        (BinFlags::EXTRAPOLATED, "extrapolated"),
+        (BinFlags::COMBINE, "combine"),
+    ];
+    names
+        .iter()
+        .filter(|(b, _)| bits & b != 0)
+        .map(|(_, n)| *n)
+        .collect::<Vec<_>>()
+        .join("|")
+}
+
+fn wrap180(a: f64) -> f64 {
+    (a + 180.0).rem_euclid(360.0) - 180.0
+}
+
+/// A cut at one pattern frequency: angles (increasing) and raw, gated and true values.
+#[derive(Debug, Clone, Default)]
+pub struct Cut {
+    /// Angles, degrees, strictly increasing (wrapped to −180…180 for a full circle).
+    pub angles_deg: Vec<f64>,
+    /// Raw level, dB.
+    pub raw_db: Vec<f64>,
+    /// Gated level, dB.
+    pub gated_db: Vec<f64>,
+    /// True level, dB (empty when any is unknown).
+    pub truth_db: Vec<f64>,
+}
+
+fn normalized(v: &[f64]) -> Vec<f64> {
+    let peak = v.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    v.iter().map(|x| (x - peak).max(FLOOR_DB)).collect()
+}
+
+impl Cut {
+    /// Raw cut normalized to its peak.
+    pub fn raw_norm(&self) -> Vec<f64> {
+        normalized(&self.raw_db)
+    }
+    /// Gated cut normalized to its peak.
+    pub fn gated_norm(&self) -> Vec<f64> {
+        normalized(&self.gated_db)
+    }
+    /// True cut normalized to its peak.
+    pub fn truth_norm(&self) -> Vec<f64> {
+        normalized(&self.truth_db)
+    }
+}
+
+impl ReportInput {
+    /// Bins in angle order.
+    pub fn sorted_bins(&self) -> Vec<&ReportBin> {
+        let key = |b: &ReportBin| {
+            if self.full_circle {
+                wrap180(b.angle_deg)
+            } else {
+                b.angle_deg
+            }
+        };
+        let mut v: Vec<&ReportBin> = self.bins.iter().collect();
+        v.sort_by(|a, b| key(a).total_cmp(&key(b)));
+        v.dedup_by(|a, b| (key(a) - key(b)).abs() < 1e-9);
+        v
+    }
+
+    /// The cut at pattern frequency number `fi`.
+    pub fn cut(&self, fi: usize) -> Cut {
+        let mut c = Cut::default();
+        let mut all_truth = true;
+        let mut truth = Vec::new();
+        for b in self.sorted_bins() {
+            let Some(v) = b.values.get(fi) else { continue };
+            c.angles_deg.push(if self.full_circle {
+                wrap180(b.angle_deg)
+            } else {
+                b.angle_deg
+            });
+            c.raw_db.push(db(v.raw));
+            c.gated_db.push(db(v.gated));
+            match v.truth {
+                Some(t) => truth.push(db(t)),
+                None => all_truth = false,
+            }
+        }
+        if all_truth {
+            c.truth_db = truth;
+        }
+        c
+    }
+
+    /// Pattern figures of a normalized cut.
+    pub fn metrics(&self, angles: &[f64], levels: &[f64]) -> Option<PatternMetrics> {
+        let cov = if self.full_circle {
+            Coverage::FullCircle
+        } else {
+            Coverage::Sector
+        };
+        pattern_metrics(angles, levels, cov).ok()
+    }
+}
+
+/// Gated and raw errors against the truth at one pattern frequency, all cuts normalized to
+/// their own peaks.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct TruthErrors {
+    /// The frequency, Hz.
+    pub frequency_hz: f64,
+    /// Largest |gated − truth| where truth ≥ −10 dB.
+    pub gated_within_10_db: f64,
+    /// Largest |gated − truth| where truth ≥ −25 dB.
+    pub gated_within_25_db: f64,
+    /// Largest |raw − truth| where truth ≥ −25 dB.
+    pub raw_within_25_db: f64,
+    /// Bins compared.
+    pub bins: usize,
+}
+
+/// Errors against the truth at pattern frequency number `fi` (`None` without truth).
+pub fn truth_errors(input: &ReportInput, fi: usize) -> Option<TruthErrors> {
+    let c = input.cut(fi);
+    if c.truth_db.is_empty() {
+        return None;
+    }
+    let (t, g, r) = (c.truth_norm(), c.gated_norm(), c.raw_norm());
+    let worst = |lim: f64, m: &[f64]| {
+        t.iter()
+            .zip(m)
+            .filter(|(t, _)| **t >= lim)
+            .map(|(t, m)| (m - t).abs())
+            .fold(0.0f64, f64::max)
+    };
+    Some(TruthErrors {
+        frequency_hz: *input.frequencies_hz.get(fi)?,
+        gated_within_10_db: worst(-10.0, &g),
+        gated_within_25_db: worst(-25.0, &g),
+        raw_within_25_db: worst(-25.0, &r),
+        bins: t.len(),
+    })
+}
+
+fn metrics_json(m: Option<PatternMetrics>) -> Value {
+    let Some(m) = m else { return Value::Null };
+    let lobe = |l: Option<sweepgate::metrics::Lobe>| {
+        l.map_or(
+            Value::Null,
+            |l| json!({"angle_deg": l.angle_deg, "level_db": l.level_db}),
+        )
+    };
+    json!({
+        "peak_db": m.peak_db,
+        "peak_angle_deg": m.peak_angle_deg,
+        "hpbw_deg": m.beam_3db.map(|b| b.width_deg()),
+        "beam_3db_deg": m.beam_3db.map(|b| [b.lower_deg, b.upper_deg]),
+        "beam_10db_width_deg": m.beam_10db.map(|b| b.width_deg()),
+        "first_null_lower_deg": m.first_null_lower_deg,
+        "first_null_upper_deg": m.first_null_upper_deg,
+        "first_sidelobe_lower": lobe(m.first_sidelobe_lower),
+        "first_sidelobe_upper": lobe(m.first_sidelobe_upper),
+        "highest_sidelobe": lobe(m.highest_sidelobe),
+        "front_to_back_db": m.front_to_back_db,
+        "squint_deg": m.squint_deg,
+    })
+}
+
+fn mhz_name(f_hz: f64) -> String {
+    format!("{:.0}MHz", f_hz / 1e6)
+}
+
+/// The table as text.
+pub fn pattern_csv(input: &ReportInput) -> String {
+    let has_truth = input
+        .bins
+        .iter()
+        .all(|b| b.values.iter().all(|v| v.truth.is_some()))
+        && !input.bins.is_empty();
+    let mut s =
+        String::from("angle_deg,frequency_hz,raw_db,gated_db,gated_phase_deg,echo_db,sweeps,flags");
+    if has_truth {
+        s.push_str(",truth_db");
+    }
+    s.push('\n');
+    for b in input.sorted_bins() {
+        for (v, f) in b.values.iter().zip(&input.frequencies_hz) {
+            let _ = write!(
+                s,
+                "{:.3},{:.0},{:.4},{:.4},{:.3},{},{},{}",
+                b.angle_deg,
+                f,
+                db(v.raw),
+                db(v.gated),
+                v.gated.arg().to_degrees(),
+                b.echo_db.map_or(String::new(), |e| format!("{e:.2}")),
+                b.sweeps,
+                flag_words(b.flags)
+            );
+            if has_truth {
+                let _ = write!(s, ",{:.4}", v.truth.map_or(f64::NAN, db));
+            }
+            s.push('\n');
+        }
+    }
+    s
+}
+
+/// The summary as JSON.
+pub fn summary_json(input: &ReportInput) -> Value {
+    let mut per_freq = Vec::new();
+    for (fi, f) in input.frequencies_hz.iter().enumerate() {
+        let c = input.cut(fi);
+        let truth = if c.truth_db.is_empty() {
+            Value::Null
+        } else {
+            metrics_json(input.metrics(&c.angles_deg, &c.truth_norm()))
+        };
+        let err = truth_errors(input, fi).map_or(Value::Null, |e| {
+            json!({
+                "gated_worst_db_where_truth_above_-10_db": e.gated_within_10_db,
+                "gated_worst_db_where_truth_above_-25_db": e.gated_within_25_db,
+                "raw_worst_db_where_truth_above_-25_db": e.raw_within_25_db,
+                "bins": e.bins,
+            })
+        });
+        per_freq.push(json!({
+            "frequency_hz": f,
+            "gated": metrics_json(input.metrics(&c.angles_deg, &c.gated_norm())),
+            "raw": metrics_json(input.metrics(&c.angles_deg, &c.raw_norm())),
+            "truth": truth,
+            "error_vs_truth": err,
+        }));
+    }
+    json!({
+        "title": input.title,
+        "source": input.source,
+        "settings": input.settings,
+        "counters": input.counters,
+        "bins": input.bins.len(),
+        "warnings": input.warnings,
+        "metrics_normalized_to_peak": per_freq,
+        "caution": "A transmitting antenna can exceed RF exposure limits near its aperture and a positioner is moving machinery: follow local regulations and the lab's licensed practice.",
+    })
+}
+
+fn pe<E: std::fmt::Debug>(e: E) -> anyhow::Error {
+    anyhow::anyhow!("plot: {e:?}")
+}
+
+const PLOT_FLOOR_DB: f64 = -50.0;
+
+/// A named, coloured line of (x, y) points.
+type Curve = (&'static str, RGBColor, Vec<(f64, f64)>);
+
+fn plot_rect(path: &Path, input: &ReportInput, fi: usize) -> anyhow::Result<()> {
+    let c = input.cut(fi);
+    let f = input.frequencies_hz.get(fi).copied().unwrap_or(0.0);
+    let (x0, x1) = match (c.angles_deg.first(), c.angles_deg.last()) {
+        (Some(a), Some(b)) if b > a => (*a, *b),
+        _ => (-180.0, 180.0),
+    };
+    let root = SVGBackend::new(path, (960, 560)).into_drawing_area();
+    root.fill(&WHITE).map_err(pe)?;
+    let mut chart = ChartBuilder::on(&root)
+        .caption(
+            format!("{}: pattern at {:.3} GHz", input.title, f / 1e9),
+            ("sans-serif", 20),
+        )
+        .margin(12)
+        .x_label_area_size(45)
+        .y_label_area_size(60)
+        .build_cartesian_2d(x0..x1, PLOT_FLOOR_DB..5.0)
+        .map_err(pe)?;
+    chart
+        .configure_mesh()
+        .axis_desc_style(("sans-serif", 15))
+        .label_style(("sans-serif", 13))
+        .x_desc("angle (deg)")
+        .y_desc("level relative to peak (dB)")
+        .draw()
+        .map_err(pe)?;
+    let series = |v: Vec<f64>| -> Vec<(f64, f64)> {
+        c.angles_deg
+            .iter()
+            .zip(v)
+            .map(|(a, l)| (*a, l.max(PLOT_FLOOR_DB)))
+            .collect()
+    };
+    let mut curves: Vec<Curve> = vec![
+        ("raw", RGBColor(214, 120, 0), series(c.raw_norm())),
+        ("gated", RGBColor(0, 90, 200), series(c.gated_norm())),
+    ];
+    if !c.truth_db.is_empty() {
+        curves.push((
+            "free-space truth",
+            RGBColor(0, 0, 0),
+            series(c.truth_norm()),
+        ));
+    }
+    for (name, col, pts) in curves {
+        chart
+            .draw_series(LineSeries::new(pts, col.stroke_width(2)))
+            .map_err(pe)?
+            .label(name)
+            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], col.stroke_width(2)));
+    }
+    chart
+        .configure_series_labels()
+        .background_style(WHITE.mix(0.85))
+        .border_style(BLACK)
+        .position(SeriesLabelPosition::LowerRight)
+        .draw()
+        .map_err(pe)?;
+    root.present().map_err(pe)?;
+    Ok(())
+}
+
+fn plot_polar(path: &Path, input: &ReportInput, fi: usize) -> anyhow::Result<()> {
+    let c = input.cut(fi);
+    let f = input.frequencies_hz.get(fi).copied().unwrap_or(0.0);
+    let root = SVGBackend::new(path, (760, 800)).into_drawing_area();
+    root.fill(&WHITE).map_err(pe)?;
+    let mut chart = ChartBuilder::on(&root)
+        .caption(
+            format!("{}: polar pattern at {:.3} GHz", input.title, f / 1e9),
+            ("sans-serif", 20),
+        )
+        .margin(12)
+        .build_cartesian_2d(-1.25f64..1.25, -1.25f64..1.25)
+        .map_err(pe)?;
+    let r_of = |l: f64| ((l.max(PLOT_FLOOR_DB) - PLOT_FLOOR_DB) / -PLOT_FLOOR_DB).clamp(0.0, 1.0);
+    let xy = |a_deg: f64, r: f64| {
+        let t = a_deg.to_radians();
+        (r * t.sin(), r * t.cos())
+    };
+    let grey = RGBColor(190, 190, 190);
+    let text_style = ("sans-serif", 14).into_font().color(&BLACK);
+    // Rings every 10 dB with their level, spokes every 30° with their angle.
+    for l in [0.0, -10.0, -20.0, -30.0, -40.0] {
+        let r = r_of(l);
+        let ring: Vec<(f64, f64)> = (0..=360).map(|a| xy(a as f64, r)).collect();
+        chart.draw_series(LineSeries::new(ring, grey)).map_err(pe)?;
+        chart
+            .draw_series(std::iter::once(Text::new(
+                format!("{l:.0} dB"),
+                xy(15.0, r),
+                text_style.clone(),
+            )))
+            .map_err(pe)?;
+    }
+    for a in (0..360).step_by(30) {
+        let a = a as f64;
+        chart
+            .draw_series(LineSeries::new(vec![(0.0, 0.0), xy(a, 1.0)], grey))
+            .map_err(pe)?;
+        let label = if a > 180.0 { a - 360.0 } else { a };
+        chart
+            .draw_series(std::iter::once(Text::new(
+                format!("{label:.0}°"),
+                xy(a, 1.1),
+                text_style.clone(),
+            )))
+            .map_err(pe)?;
+    }
+    chart
+        .draw_series(std::iter::once(Text::new(
+            "angle (deg); radius: level relative to peak (dB)",
+            (-1.2, -1.22),
+            text_style.clone(),
+        )))
+        .map_err(pe)?;
+    let mut curves: Vec<(&str, RGBColor, Vec<f64>)> = vec![
+        ("raw", RGBColor(214, 120, 0), c.raw_norm()),
+        ("gated", RGBColor(0, 90, 200), c.gated_norm()),
+    ];
+    if !c.truth_db.is_empty() {
+        curves.push(("free-space truth", RGBColor(0, 0, 0), c.truth_norm()));
+    }
+    for (name, col, levels) in curves {
+        let mut pts: Vec<(f64, f64)> = c
+            .angles_deg
+            .iter()
+            .zip(&levels)
+            .map(|(a, l)| xy(*a, r_of(*l)))
+            .collect();
+        if input.full_circle {
+            if let Some(p) = pts.first().copied() {
+                pts.push(p);
+            }
+        }
+        chart
+            .draw_series(LineSeries::new(pts, col.stroke_width(2)))
+            .map_err(pe)?
+            .label(name)
+            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], col.stroke_width(2)));
+    }
+    chart
+        .configure_series_labels()
+        .background_style(WHITE.mix(0.85))
+        .border_style(BLACK)
+        .position(SeriesLabelPosition::UpperRight)
+        .draw()
+        .map_err(pe)?;
+    root.present().map_err(pe)?;
+    Ok(())
+}
+
+fn plot_impulse(path: &Path, input: &ReportInput, iv: &ImpulseView) -> anyhow::Result<()> {
+    let peak = iv.magnitude.iter().copied().fold(0.0f64, f64::max);
+    let lvl = |m: f64| {
+        if peak > 0.0 {
+            (20.0 * (m / peak).log10()).max(-100.0)
+        } else {
+            -100.0
+        }
+    };
+    let t_end = iv.time_ns.last().copied().unwrap_or(1.0).max(1e-3);
+    let root = SVGBackend::new(path, (960, 560)).into_drawing_area();
+    root.fill(&WHITE).map_err(pe)?;
+    let mut chart = ChartBuilder::on(&root)
+        .caption(
+            format!(
+                "{}: impulse response at {:.1}° ({} sweeps) with the gate",
+                input.title, iv.angle_deg, iv.sweeps
+            ),
+            ("sans-serif", 20),
+        )
+        .margin(12)
+        .x_label_area_size(45)
+        .y_label_area_size(60)
+        .build_cartesian_2d(0.0..t_end, -100.0f64..5.0)
+        .map_err(pe)?;
+    chart
+        .configure_mesh()
+        .axis_desc_style(("sans-serif", 15))
+        .label_style(("sans-serif", 13))
+        .x_desc("time (ns)")
+        .y_desc("|h| relative to peak (dB)")
+        .draw()
+        .map_err(pe)?;
+    let raw: Vec<(f64, f64)> = iv
+        .time_ns
+        .iter()
+        .zip(&iv.magnitude)
+        .map(|(t, m)| (*t, lvl(*m)))
+        .collect();
+    let gated: Vec<(f64, f64)> = iv
+        .time_ns
+        .iter()
+        .zip(iv.magnitude.iter().zip(&iv.gate))
+        .map(|(t, (m, g))| (*t, lvl(m * g)))
+        .collect();
+    let gate: Vec<(f64, f64)> = iv
+        .time_ns
+        .iter()
+        .zip(&iv.gate)
+        .map(|(t, g)| {
+            (
+                *t,
+                if *g > 0.0 {
+                    (20.0 * g.log10()).max(-100.0)
+                } else {
+                    -100.0
+                },
+            )
+        })
+        .collect();
+    let curves: Vec<Curve> = vec![
+        ("impulse response", RGBColor(214, 120, 0), raw),
+        ("after the gate", RGBColor(0, 90, 200), gated),
+        ("gate (dB)", RGBColor(0, 150, 60), gate),
+    ];
+    for (name, col, pts) in curves {
+        chart
+            .draw_series(LineSeries::new(pts, col.stroke_width(2)))
+            .map_err(pe)?
+            .label(name)
+            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], col.stroke_width(2)));
+    }
+    for (t, name) in [
+        (iv.gate_start_ns, "gate opens"),
+        (iv.gate_stop_ns, "gate closes"),
+    ] {
+        let col = RGBColor(0, 150, 60);
+        chart
+            .draw_series(LineSeries::new(vec![(t, -100.0), (t, 5.0)], col))
+            .map_err(pe)?;
+        chart
+            .draw_series(std::iter::once(Text::new(
+                format!("{name} {t:.2} ns"),
+                (t, -95.0),
+                ("sans-serif", 13).into_font().color(&col),
+            )))
+            .map_err(pe)?;
+    }
+    chart
+        .configure_series_labels()
+        .background_style(WHITE.mix(0.85))
+        .border_style(BLACK)
+        .position(SeriesLabelPosition::UpperRight)
+        .draw()
+        .map_err(pe)?;
+    root.present().map_err(pe)?;
+    Ok(())
+}
+
+/// Writes the report folder; returns the files written.
+pub fn write_report(input: &ReportInput, dir: &Path) -> anyhow::Result<Vec<PathBuf>> {
+    std::fs::create_dir_all(dir).with_context(|| format!("creating {}", dir.display()))?;
+    let mut files = Vec::new();
+    let csv = dir.join("pattern.csv");
+    std::fs::write(&csv, pattern_csv(input)).with_context(|| format!("{}", csv.display()))?;
+    files.push(csv);
+    let sum = dir.join("summary.json");
+    let text = serde_json::to_string_pretty(&summary_json(input))?;
+    std::fs::write(&sum, text + "\n").with_context(|| format!("{}", sum.display()))?;
+    files.push(sum);
+    if !input.bins.is_empty() {
+        for (fi, f) in input.frequencies_hz.iter().enumerate() {
+            let p = dir.join(format!("pattern-rect-{}.svg", mhz_name(*f)));
+            plot_rect(&p, input, fi)?;
+            files.push(p);
+            let p = dir.join(format!("pattern-polar-{}.svg", mhz_name(*f)));
+            plot_polar(&p, input, fi)?;
+            files.push(p);
+        }
+    }
+    if let Some(iv) = &input.impulse {
+        let p = dir.join("impulse-boresight.svg");
+        plot_impulse(&p, input, iv)?;
+        files.push(p);
+    }
+    Ok(files)
+}

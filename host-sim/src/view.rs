@@ -1,0 +1,75 @@
+//! `sweepgate view --from ADDR`: shows a board's preview stream (the same screen as
+//! `sweepgate replay`). `ADDR` is `HOST:PORT` for a TCP stream, or a path (a serial device
+//! or a file of recorded preview bytes) read as a file.
+
+use std::io::Read;
+use std::path::Path;
+use std::sync::atomic::AtomicBool;
+use std::sync::mpsc;
+use std::time::Duration;
+
+use anyhow::Context;
+
+use crate::preview::{self, Feed, Screen};
+
+/// Options of `sweepgate view`.
+#[derive(clap::Args, Debug, Clone)]
+pub struct Args {
+    /// `HOST:PORT` of a TCP preview stream, or a path to a serial device or a file.
+    #[arg(long)]
+    pub from: String,
+    /// No full-screen preview: a progress line on stderr and a summary at the end.
+    #[arg(long)]
+    pub no_preview: bool,
+    /// Number of bins of the scan, for the "filled" count (unknown otherwise).
+    #[arg(long)]
+    pub bins: Option<u16>,
+}
+
+fn open(from: &str) -> anyhow::Result<Box<dyn Read + Send>> {
+    if Path::new(from).exists() {
+        let f = std::fs::File::open(from).with_context(|| format!("opening {from}"))?;
+        return Ok(Box::new(f));
+    }
+    let s = std::net::TcpStream::connect(from).with_context(|| format!("connecting to {from}"))?;
+    Ok(Box::new(s))
+}
+
+/// Reads the stream to its end (or until `q`), returning the final screen.
+pub fn view(args: &Args) -> anyhow::Result<Screen> {
+    let mut src = open(&args.from)?;
+    let (tx, rx) = mpsc::channel();
+    std::thread::spawn(move || {
+        let mut buf = [0u8; 4096];
+        loop {
+            match src.read(&mut buf) {
+                Ok(0) | Err(_) => break,
+                Ok(n) => {
+                    if tx.send(Feed::Bytes(buf[..n].to_vec())).is_err() {
+                        break;
+                    }
+                }
+            }
+        }
+        let _ = tx.send(Feed::End);
+    });
+    let mut screen = Screen::new(format!("stream from {}", args.from));
+    screen.total_bins = args.bins;
+    let quit = AtomicBool::new(false);
+    if !args.no_preview && preview::have_terminal() {
+        preview::run_terminal(&rx, &mut screen, &quit, Duration::from_secs(3600))
+            .context("terminal preview")?;
+    } else {
+        preview::run_plain(&rx, &mut screen, args.bins.is_some());
+    }
+    Ok(screen)
+}
+
+/// Runs the command.
+pub fn run(args: Args) -> anyhow::Result<()> {
+    let screen = view(&args)?;
+    for line in screen.summary_lines() {
+        println!("{line}");
+    }
+    Ok(())
+}
