@@ -253,6 +253,45 @@ impl SizeSource {
     }
 }
 
+/// The planner's view of a scenario's room.
+#[derive(Debug, Clone)]
+pub struct RoomGeometry {
+    /// AUT phase centre.
+    pub aut: sweepgate::plan::Point,
+    /// Probe phase centre.
+    pub probe: sweepgate::plan::Point,
+    /// Reflecting planes.
+    pub planes: Vec<sweepgate::plan::Plane>,
+    /// Point scatterers, each with its field level relative to the direct path from the
+    /// radar equation, √(σ/4π)·R/(r₁·r₂) — the same as the simulator's.
+    pub scatterers: Vec<CoreScatterer>,
+}
+
+/// The room of a scenario as the core planner takes it.
+pub fn room_geometry(s: &Scenario) -> RoomGeometry {
+    let (aut, probe) = (s.aut_position(), s.probe_position());
+    let range_m = aut.distance_m(&probe);
+    let planes = s.planes.iter().map(PlaneSpec::plane).collect();
+    let scatterers = s
+        .scatterers
+        .iter()
+        .map(|sc| {
+            let q = sc.point();
+            let (r1, r2) = (aut.distance_m(&q), q.distance_m(&probe));
+            CoreScatterer {
+                position: q,
+                reflection: (sc.rcs_m2 / (4.0 * std::f64::consts::PI)).sqrt() * range_m / (r1 * r2),
+            }
+        })
+        .collect();
+    RoomGeometry {
+        aut,
+        probe,
+        planes,
+        scatterers,
+    }
+}
+
 /// The AUT's largest dimension by the rule in the module documentation.
 pub fn aut_size_m(s: &Scenario, overrides: &Overrides) -> (f64, SizeSource) {
     if let Some(d) = overrides.aut_size_m {
@@ -534,21 +573,13 @@ pub fn plan_report(
         ),
         (None, FileKind::PlanFile) => (None, "none given"),
     };
-    let (aut, probe) = (s.aut_position(), s.probe_position());
+    let RoomGeometry {
+        aut,
+        probe,
+        planes,
+        scatterers,
+    } = room_geometry(s);
     let range_m = aut.distance_m(&probe);
-    let planes: Vec<_> = s.planes.iter().map(PlaneSpec::plane).collect();
-    let scatterers: Vec<CoreScatterer> = s
-        .scatterers
-        .iter()
-        .map(|sc| {
-            let q = sc.point();
-            let (r1, r2) = (aut.distance_m(&q), q.distance_m(&probe));
-            CoreScatterer {
-                position: q,
-                reflection: (sc.rcs_m2 / (4.0 * std::f64::consts::PI)).sqrt() * range_m / (r1 * r2),
-            }
-        })
-        .collect();
     let input = PlanInput {
         grid,
         aut_size_m: size_m,

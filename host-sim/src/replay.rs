@@ -324,33 +324,18 @@ fn planned_gate(
     band_window: WindowKind,
     remarks: &mut Vec<String>,
 ) -> anyhow::Result<PlannedGate> {
-    let planes: Vec<_> = s
-        .planes
-        .iter()
-        .take(plan::MAX_PLANES)
-        .map(|p| p.plane())
-        .collect();
-    let scatterers: Vec<_> = s
-        .scatterers
-        .iter()
-        .take(plan::MAX_SCATTERERS)
-        .map(|c| plan::Scatterer {
-            position: c.point(),
-            reflection: 1.0,
-        })
-        .collect();
-    let aut_size_m = s
-        .aut
-        .largest_size_m()
-        .filter(|d| *d > 0.0)
-        .unwrap_or(0.5 * plan::SPEED_OF_LIGHT_M_S / grid.stop_hz());
+    // The same room and AUT-size rule as `sweepgate plan`.
+    let room = crate::plan_cmd::room_geometry(s);
+    let planes = &room.planes[..room.planes.len().min(plan::MAX_PLANES)];
+    let scatterers = &room.scatterers[..room.scatterers.len().min(plan::MAX_SCATTERERS)];
+    let (aut_size_m, _) = crate::plan_cmd::aut_size_m(s, &crate::plan_cmd::Overrides::default());
     let input = PlanInput {
         grid: *grid,
         aut_size_m,
-        aut: s.aut_position(),
-        probe: s.probe_position(),
-        planes: &planes,
-        scatterers: &scatterers,
+        aut: room.aut,
+        probe: room.probe,
+        planes,
+        scatterers,
         band_window,
         bin_step_deg: s.bin_width_deg(),
         sweep_duration_s: s.sweep.sweep_duration_s,

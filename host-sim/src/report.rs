@@ -403,20 +403,22 @@ fn plot_rect(path: &Path, input: &ReportInput, fi: usize) -> anyhow::Result<()> 
             .map(|(a, l)| (*a, l.max(PLOT_FLOOR_DB)))
             .collect()
     };
-    let mut curves: Vec<Curve> = vec![
-        ("raw", RGBColor(214, 120, 0), series(c.raw_norm())),
-        ("gated", RGBColor(0, 90, 200), series(c.gated_norm())),
-    ];
+    // Truth first, wide and light, so the gated curve drawn over it stays visible where
+    // the two agree.
+    let mut curves: Vec<Curve> = Vec::new();
     if !c.truth_db.is_empty() {
         curves.push((
             "free-space truth",
-            RGBColor(0, 0, 0),
+            RGBColor(160, 160, 160),
             series(c.truth_norm()),
         ));
     }
+    curves.push(("raw", RGBColor(214, 120, 0), series(c.raw_norm())));
+    curves.push(("gated", RGBColor(0, 90, 200), series(c.gated_norm())));
     for (name, col, pts) in curves {
+        let width = if name == "free-space truth" { 5 } else { 2 };
         chart
-            .draw_series(LineSeries::new(pts, col.stroke_width(2)))
+            .draw_series(LineSeries::new(pts, col.stroke_width(width)))
             .map_err(pe)?
             .label(name)
             .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], col.stroke_width(2)));
@@ -486,14 +488,14 @@ fn plot_polar(path: &Path, input: &ReportInput, fi: usize) -> anyhow::Result<()>
             text_style.clone(),
         )))
         .map_err(pe)?;
-    let mut curves: Vec<(&str, RGBColor, Vec<f64>)> = vec![
-        ("raw", RGBColor(214, 120, 0), c.raw_norm()),
-        ("gated", RGBColor(0, 90, 200), c.gated_norm()),
-    ];
+    let mut curves: Vec<(&str, RGBColor, Vec<f64>)> = Vec::new();
     if !c.truth_db.is_empty() {
-        curves.push(("free-space truth", RGBColor(0, 0, 0), c.truth_norm()));
+        curves.push(("free-space truth", RGBColor(160, 160, 160), c.truth_norm()));
     }
+    curves.push(("raw", RGBColor(214, 120, 0), c.raw_norm()));
+    curves.push(("gated", RGBColor(0, 90, 200), c.gated_norm()));
     for (name, col, levels) in curves {
+        let width = if name == "free-space truth" { 5 } else { 2 };
         let mut pts: Vec<(f64, f64)> = c
             .angles_deg
             .iter()
@@ -506,7 +508,7 @@ fn plot_polar(path: &Path, input: &ReportInput, fi: usize) -> anyhow::Result<()>
             }
         }
         chart
-            .draw_series(LineSeries::new(pts, col.stroke_width(2)))
+            .draw_series(LineSeries::new(pts, col.stroke_width(width)))
             .map_err(pe)?
             .label(name)
             .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], col.stroke_width(2)));
@@ -594,9 +596,10 @@ fn plot_impulse(path: &Path, input: &ReportInput, iv: &ImpulseView) -> anyhow::R
             .label(name)
             .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], col.stroke_width(2)));
     }
-    for (t, name) in [
-        (iv.gate_start_ns, "gate opens"),
-        (iv.gate_stop_ns, "gate closes"),
+    // Labels at two heights so that they do not overlap on a short gate.
+    for (t, name, y) in [
+        (iv.gate_start_ns, "gate opens", -88.0),
+        (iv.gate_stop_ns, "gate closes", -95.0),
     ] {
         let col = RGBColor(0, 150, 60);
         chart
@@ -605,7 +608,7 @@ fn plot_impulse(path: &Path, input: &ReportInput, iv: &ImpulseView) -> anyhow::R
         chart
             .draw_series(std::iter::once(Text::new(
                 format!("{name} {t:.2} ns"),
-                (t, -95.0),
+                (t, y),
                 ("sans-serif", 13).into_font().color(&col),
             )))
             .map_err(pe)?;
