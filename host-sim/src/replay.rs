@@ -6,9 +6,9 @@
 //! - the frequency grid (start, step, points) and the FFT size M: the smallest of 1024, 2048
 //!   and 4096 that holds the K points;
 //! - the pattern frequencies, each taken to the nearest grid point (at most 8);
-//! - the bin layout: the scenario's bin width; a continuous scan gets bins centred where the
-//!   simulator writes its truth (`start + (i + ½)·width`), a step-and-stop scan gets bins
-//!   centred on the step angles (`start + i·width`); a full turn gives a full-circle layout.
+//! - the bin layout: the scenario's bin width, with bins centred where the simulator writes
+//!   its truth — `start + (i + ½)·width` for a continuous scan, the step angles
+//!   `start + i·step` for step-and-stop; a full turn gives a full-circle layout.
 //!   Without a scenario: a full circle of the header's bin width starting at 0°;
 //! - the gate, from the scenario geometry through the core planner
 //!   ([`sweepgate::plan::plan`]): centre at the direct-path delay plus the cable delay, span

@@ -647,12 +647,22 @@ impl Scenario {
         self.pattern.bin_width_deg.unwrap_or(1.0)
     }
 
-    /// Centres of the angle bins covering the scan, degrees, in scan order.
+    /// Centres of the angle bins covering the scan, degrees, in scan order: the step angles
+    /// of a step-and-stop scan, the centres of `bin_width_deg` bins of a continuous one.
     pub fn bin_centres_deg(&self) -> Vec<f64> {
         let q = &self.positioner;
-        let w = self.bin_width_deg();
         let span = (q.stop_deg - q.start_deg).abs();
         let dir = (q.stop_deg - q.start_deg).signum();
+        if q.mode == Mode::Step {
+            // Step-and-stop measures at the step angles themselves: start + i·step (the same
+            // angles as the positioner schedule in `physics::Timeline`).
+            let step = q.step_deg.unwrap_or(1.0);
+            let n = ((span / step + 1e-9).floor() as usize + 1).min(MAX_SWEEPS + 1);
+            return (0..n)
+                .map(|i| q.start_deg + dir * step * i as f64)
+                .collect();
+        }
+        let w = self.bin_width_deg();
         let n = ((span / w).floor() as usize).max(1);
         (0..n)
             .map(|i| q.start_deg + dir * (i as f64 + 0.5) * w)

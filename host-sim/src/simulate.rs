@@ -2,7 +2,7 @@
 //! scenario and writes it as a recording (see [`crate::record`]).
 //!
 //! The recording holds, in order: the header (scenario, grid, sweep format), the
-//! free-space truth at the centre of every angle bin and each pattern frequency, then the
+//! free-space truth at every bin centre (step angle in step-and-stop) and each pattern frequency, then the
 //! positioner samples and sweeps interleaved by time (a sweep is written at its end
 //! time, after every sample stamped up to then), and an end record.
 

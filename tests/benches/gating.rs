@@ -1,14 +1,18 @@
-//! Host benchmarks of the gating core (criterion): one closed bin through the FFT path and
-//! through the kernel path, for M = 256, 1024, 4096 and F = 1, 4, 16.
+//! Host benchmarks of the core (criterion): one closed bin through the FFT path and through
+//! the kernel path for M = 256, 1024, 4096 and F = 1, 4, 16; decoding one IEEE 488.2 block;
+//! and an end-to-end scan of 361 bins through the engine.
 //!
 //! `cargo bench -p sweepgate --bench gating`
 
 use criterion::{criterion_group, criterion_main, BenchmarkId, Criterion, Throughput};
 use std::hint::black_box;
+use sweepgate::bins::BinLayout;
 use sweepgate::fft::Fft;
 use sweepgate::gate::{Gate, GateConfig};
 use sweepgate::grid::Grid;
+use sweepgate::scan::{EchoMode, Scan, ScanConfig};
 use sweepgate::window::WindowKind;
+use sweepgate::wire::block::{emit, BlockConfig, BlockDecoder, ByteOrder, Event, Format};
 use sweepgate::Complex32;
 
 const ZERO: Complex32 = Complex32::new(0.0, 0.0);
@@ -84,5 +88,77 @@ fn gating(c: &mut Criterion) {
     size::<4096>(c, 3201);
 }
 
-criterion_group!(benches, gating);
+fn decoding(c: &mut Criterion) {
+    let (gate, raw) = setup::<1024>(801);
+    let mut bytes = vec![0u8; 801 * 8 + 16];
+    let n = emit(Format::Real32, ByteOrder::Normal, &raw[..801], &mut bytes).unwrap();
+    bytes.truncate(n);
+    let cfg = BlockConfig::for_grid(gate.grid(), Format::Real32, ByteOrder::Normal);
+    let mut g = c.benchmark_group("decode");
+    g.throughput(Throughput::Bytes(n as u64));
+    let mut out = vec![ZERO; 1024];
+    for chunk in [64usize, 4096] {
+        g.bench_function(BenchmarkId::new("REAL,32 801 points, chunk", chunk), |b| {
+            b.iter(|| {
+                let mut d = BlockDecoder::new(cfg);
+                let mut sweeps = 0;
+                for mut part in bytes.chunks(chunk) {
+                    while !part.is_empty() {
+                        let f = d.feed(part, &mut out);
+                        part = &part[f.consumed..];
+                        if let Some(Event::Sweep { .. }) = f.event {
+                            sweeps += 1;
+                        }
+                    }
+                }
+                assert_eq!(sweeps, 1);
+                black_box(&out);
+            })
+        });
+    }
+    g.finish();
+}
+
+/// A full turn of one-degree bins (361 closed: the first bin is passed again at the end),
+/// two sweeps per bin, angle samples every 10 ms at 10°/s.
+fn end_to_end(c: &mut Criterion) {
+    let (gate, raw) = setup::<1024>(801);
+    let sweep = raw[..801].to_vec();
+    let mut g = c.benchmark_group("scan");
+    g.sample_size(10);
+    for echo in [EchoMode::Never, EchoMode::EveryBin] {
+        g.bench_function(
+            BenchmarkId::new("361 bins, 722 sweeps, F = 4", format!("{echo:?}")),
+            |b| {
+                b.iter(|| {
+                    let mut cfg = ScanConfig::new(BinLayout::full_circle(-180.0, 1.0).unwrap());
+                    cfg.echo = echo;
+                    let mut scan: Box<Scan<1024, 4, 361>> =
+                        Box::new(Scan::new(gate.config(), [100, 300, 500, 700], cfg).unwrap());
+                    let mut closed = 0usize;
+                    // 36.1 s of scan: −180.5° to 180.5° at 10°/s.
+                    for i in 0..=3610u64 {
+                        let t = i * 10_000;
+                        scan.push_angle(t, -180.5 + i as f32 * 0.1);
+                        // One 20 ms sweep every 50 ms: two per degree.
+                        if i % 5 == 4 {
+                            for e in scan.push_sweep(t - 30_000, t - 10_000, &sweep) {
+                                closed +=
+                                    matches!(e, sweepgate::scan::Event::BinClosed(_)) as usize;
+                            }
+                        }
+                    }
+                    for e in scan.finish() {
+                        closed += matches!(e, sweepgate::scan::Event::BinClosed(_)) as usize;
+                    }
+                    assert!(closed >= 360, "{closed}");
+                    black_box(closed)
+                })
+            },
+        );
+    }
+    g.finish();
+}
+
+criterion_group!(benches, gating, decoding, end_to_end);
 criterion_main!(benches);
