@@ -218,8 +218,7 @@ where
             // Ideal impulse at the gate centre through the same chain, computed in place in
             // the renormalization table (no M-sized temporaries: this runs on small boards).
             // The start-frequency phase is a constant factor and cancels in the ratio.
-            let u =
-                |n: usize| unit_phasor(-2.0 * PI * n as f64 * cfg.grid.step_hz() * cfg.center_s);
+            let u = |n: usize| unit_phasor_turns(-(n as f64) * cfg.grid.step_hz() * cfg.center_s);
             for (n, v) in g.inv_renorm.iter_mut().enumerate() {
                 *v = if n < points { u(n) } else { ZERO };
             }
@@ -475,8 +474,11 @@ fn echo_db(outside: f32, total: f32) -> f32 {
     (10.0 * libm::log10f(outside / total)).max(ECHO_FLOOR_DB)
 }
 
-fn unit_phasor(phase: f64) -> Complex32 {
-    Complex32::new(libm::cos(phase) as f32, libm::sin(phase) as f32)
+/// e^(j2π·turns): the whole turns are dropped in f64, the rest (|phase| ≤ π) is evaluated in
+/// f32, which is all the precision the stored value has.
+fn unit_phasor_turns(turns: f64) -> Complex32 {
+    let phase = (2.0 * PI * (turns - libm::round(turns))) as f32;
+    Complex32::new(libm::cosf(phase), libm::sinf(phase))
 }
 
 #[cfg(test)]
