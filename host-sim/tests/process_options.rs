@@ -52,7 +52,10 @@ fn settings_file_keys_are_read_and_unknown_keys_refused_by_name() {
     assert!(m.contains("unknown key `gate_centre_ns`"), "{m}");
     assert!(m.contains("s.toml"), "{m}");
     // A known key of the wrong type names the key too (toml's message).
-    let m = format!("{:#}", SettingsFile::parse_str("gate_span_ns = \"wide\"\n", "s.toml").unwrap_err());
+    let m = format!(
+        "{:#}",
+        SettingsFile::parse_str("gate_span_ns = \"wide\"\n", "s.toml").unwrap_err()
+    );
     assert!(m.contains("gate_span_ns"), "{m}");
     // Not TOML at all.
     assert!(SettingsFile::parse_str("gate_span_ns = = 3\n", "s.toml").is_err());
