@@ -283,3 +283,44 @@ fn the_command_writes_pattern_csv_at_grid_frequencies() {
     assert!(!st.status.success());
     assert!(String::from_utf8_lossy(&st.stderr).contains("gate_width_ns"));
 }
+
+#[test]
+fn a_recording_without_scenario_is_gated_on_its_impulse_response_peak() {
+    use sweepgate_host::record::Writer;
+    let (bytes, _) = simulate_to(&short_lab(), None, 1, Vec::new(), false).unwrap();
+    let rec = recover(&bytes);
+    let mut w = Writer::new(Vec::new()).unwrap();
+    let mut step_hz = 0.0;
+    for (_, r) in &rec.records {
+        match r {
+            Record::Header(h) => {
+                let mut h = h.clone();
+                h.scenario = None;
+                h.scenario_toml = None;
+                step_hz = h.grid.step_hz;
+                w.write(&Record::Header(h)).unwrap();
+            }
+            Record::End { .. } => {}
+            other => {
+                w.write(other).unwrap();
+            }
+        }
+    }
+    let (plain, _) = w.finish().unwrap();
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("plain.rec");
+    std::fs::write(&path, plain).unwrap();
+    let r = resolved(Input::Recording(path), &dir.path().join("r"));
+    let p = process::process(&r).unwrap();
+    assert_eq!(p.gate_source, "strongest impulse-response peak");
+    // Direct path 4 m (the demo lab's range; textbook delay = distance / c), to within two
+    // samples of the 1024-point impulse response.
+    let dt = 1.0 / (1024.0 * step_hz);
+    let direct = 4.0 / 299_792_458.0;
+    assert!(
+        (p.gate.center_s - direct).abs() < 2.0 * dt,
+        "{} ns",
+        p.gate.center_s * 1e9
+    );
+    assert!(!p.report.bins.is_empty());
+}
