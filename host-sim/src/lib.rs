@@ -14,6 +14,7 @@ pub mod options;
 pub mod physics;
 pub mod plan_cmd;
 pub mod preview;
+pub mod process;
 pub mod record;
 pub mod replay;
 pub mod report;

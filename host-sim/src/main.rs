@@ -32,6 +32,8 @@ enum Command {
     Acquire(acquire::Args),
     /// Replay a recording through the scan engine with a live preview, and write the report.
     Replay(replay::Args),
+    /// Gate saved sweeps (a manifest of Touchstone files or a recording) and write the report.
+    Process(sweepgate_host::process::Args),
     /// Show a board's preview stream (TCP HOST:PORT, or a serial device or file).
     View(view::Args),
 }
@@ -47,6 +49,7 @@ fn main() {
         Command::Acquire(a) => acquire::run(a),
         Command::Replay(a) => replay::run(a),
         Command::View(a) => view::run(a),
+        Command::Process(a) => sweepgate_host::process::run(a),
     };
     if let Err(e) = result {
         eprintln!("error: {e:#}");

@@ -45,7 +45,7 @@ use sweepgate::fft::Fft;
 use sweepgate::gate::GateConfig;
 use sweepgate::grid::Grid;
 use sweepgate::plan::{self, PlanInput};
-use sweepgate::scan::{Event, Scan, ScanConfig, ScanCounters, ScanMode, Warning};
+use sweepgate::scan::{BinResult, Event, Scan, ScanConfig, ScanCounters, ScanMode, Warning};
 use sweepgate::window::WindowKind;
 use sweepgate::wire::preview::{encode_frame, Record as PreviewRecord, MAX_FRAME};
 use sweepgate::Complex32;
@@ -213,19 +213,82 @@ fn layout_for(h: &Header) -> anyhow::Result<BinLayout> {
     r.map_err(|e| anyhow::anyhow!("bin layout for the scan: {e}"))
 }
 
+/// The gate and frequency choices a set-up is built from (replay fills it from its
+/// options; `sweepgate process` from its options and settings file).
+#[derive(Debug, Clone)]
+pub struct SetupOptions {
+    /// Band window.
+    pub band_window: WindowKind,
+    /// Gate shape.
+    pub gate_shape: WindowKind,
+    /// Gate centre, s, overriding the automatic gate, with where it came from in words
+    /// (e.g. `--gate-center-ns`).
+    pub center_s: Option<(f64, String)>,
+    /// Gate span, s, overriding the automatic gate, with where it came from.
+    pub span_s: Option<(f64, String)>,
+    /// The automatic gate when the header has no scenario to plan from: centre, span and
+    /// the rule in words.
+    pub fallback_gate: Option<(f64, f64, String)>,
+    /// Pattern frequencies, Hz, instead of the header's.
+    pub frequencies_hz: Option<Vec<f64>>,
+}
+
 /// Builds the set-up from a header and the options.
 pub fn setup(h: &Header, args: &Args) -> anyhow::Result<Setup> {
-    let grid = Grid::new(h.grid.start_hz, h.grid.step_hz, h.grid.points)
-        .map_err(|e| anyhow::anyhow!("recording's grid: {e}"))?;
-    if h.sweep_format != record::SWEEP_FORMAT {
-        bail!("unknown sweep format {:?}", h.sweep_format);
+    let band_window = match &args.band_window {
+        Some(s) => parse_window(s)?,
+        None => WindowKind::kaiser_for_sidelobe_db(50.0),
+    };
+    let opts = SetupOptions {
+        band_window,
+        gate_shape: GATE_SHAPE,
+        center_s: args
+            .gate_center_ns
+            .map(|c| (c * 1e-9, "--gate-center-ns".to_string())),
+        span_s: args
+            .gate_span_ns
+            .map(|c| (c * 1e-9, "--gate-span-ns".to_string())),
+        fallback_gate: None,
+        frequencies_hz: None,
+    };
+    setup_with(h, &opts)
+}
+
+/// The FFT size for K points: the smallest of 1024, 2048 and 4096 that holds them.
+pub fn fft_size_for(k: usize) -> anyhow::Result<usize> {
+    [1024usize, 2048, 4096]
+        .into_iter()
+        .find(|&m| k <= m)
+        .with_context(|| format!("{k} points per sweep: more than the largest FFT (4096)"))
+}
+
+/// Pattern frequencies at their nearest grid points, at most [`PREVIEW_F`] (the first
+/// ones), with a remark for each one that moved or was dropped. Empty input: the centre
+/// point.
+pub fn snap_frequencies(
+    grid: &Grid,
+    requested_hz: &[f64],
+    remarks: &mut Vec<String>,
+    report_moves: bool,
+) -> Vec<usize> {
+    let mut indices = Vec::new();
+    for f in requested_hz {
+        match grid.nearest_index(*f) {
+            Some(i) => {
+                let g = grid.frequency_hz(i);
+                if report_moves && g != *f {
+                    remarks.push(format!(
+                        "pattern frequency {f} Hz taken at the nearest grid point, {g} Hz"
+                    ));
+                }
+                indices.push(i);
+            }
+            None if report_moves => remarks.push(format!(
+                "pattern frequency {f} Hz is not on or near the grid; left out"
+            )),
+            None => {}
+        }
     }
-    let mut remarks = Vec::new();
-    let mut indices: Vec<usize> = h
-        .pattern_frequencies_hz
-        .iter()
-        .filter_map(|f| grid.nearest_index(*f))
-        .collect();
     if indices.is_empty() {
         indices.push(grid.points() / 2);
     }
@@ -236,12 +299,24 @@ pub fn setup(h: &Header, args: &Args) -> anyhow::Result<Setup> {
         ));
         indices.truncate(PREVIEW_F);
     }
+    indices
+}
+
+/// Builds the set-up from a header and explicit choices.
+pub fn setup_with(h: &Header, opts: &SetupOptions) -> anyhow::Result<Setup> {
+    let grid = Grid::new(h.grid.start_hz, h.grid.step_hz, h.grid.points)
+        .map_err(|e| anyhow::anyhow!("recording's grid: {e}"))?;
+    if h.sweep_format != record::SWEEP_FORMAT {
+        bail!("unknown sweep format {:?}", h.sweep_format);
+    }
+    let mut remarks = Vec::new();
+    let indices = match &opts.frequencies_hz {
+        Some(f) => snap_frequencies(&grid, f, &mut remarks, true),
+        None => snap_frequencies(&grid, &h.pattern_frequencies_hz, &mut remarks, false),
+    };
     let frequencies_hz = indices.iter().map(|&i| grid.frequency_hz(i)).collect();
     let layout = layout_for(h)?;
-    let band_window = match &args.band_window {
-        Some(s) => parse_window(s)?,
-        None => WindowKind::kaiser_for_sidelobe_db(50.0),
-    };
+    let band_window = opts.band_window;
     let (mut center_s, mut span_s) = (None, None);
     let mut gate_rule = String::new();
     if let Some(s) = &h.scenario {
@@ -249,14 +324,18 @@ pub fn setup(h: &Header, args: &Args) -> anyhow::Result<Setup> {
         center_s = c;
         span_s = sp;
         gate_rule = rule;
+    } else if let Some((c, sp, rule)) = &opts.fallback_gate {
+        center_s = Some(*c);
+        span_s = Some(*sp);
+        gate_rule = rule.clone();
     }
-    if let Some(c) = args.gate_center_ns {
-        center_s = Some(c * 1e-9);
-        gate_rule.push_str("; centre set by --gate-center-ns");
+    if let Some((c, by)) = &opts.center_s {
+        center_s = Some(*c);
+        gate_rule.push_str(&format!("; centre set by {by}"));
     }
-    if let Some(sp) = args.gate_span_ns {
-        span_s = Some(sp * 1e-9);
-        gate_rule.push_str("; span set by --gate-span-ns");
+    if let Some((sp, by)) = &opts.span_s {
+        span_s = Some(*sp);
+        gate_rule.push_str(&format!("; span set by {by}"));
     }
     let (Some(center_s), Some(span_s)) = (center_s, span_s) else {
         bail!("no gate: the recording has no scenario to plan one from; give --gate-center-ns and --gate-span-ns");
@@ -266,14 +345,10 @@ pub fn setup(h: &Header, args: &Args) -> anyhow::Result<Setup> {
         band_window,
         center_s,
         span_s,
-        shape: GATE_SHAPE,
+        shape: opts.gate_shape,
         renormalize: true,
     };
-    let k = grid.points();
-    let fft_size = [1024usize, 2048, 4096]
-        .into_iter()
-        .find(|&m| k <= m)
-        .with_context(|| format!("{k} points per sweep: more than the largest FFT (4096)"))?;
+    let fft_size = fft_size_for(grid.points())?;
     let (mode, settle_us, speed) = match &h.scenario {
         Some(s) if s.positioner.mode == Mode::Step => (
             ScanMode::StepAndStop {
@@ -316,9 +391,12 @@ pub fn setup(h: &Header, args: &Args) -> anyhow::Result<Setup> {
     })
 }
 
-type PlannedGate = (Option<f64>, Option<f64>, String);
+/// A planned gate: centre and span, s, and the rule in words.
+pub type PlannedGate = (Option<f64>, Option<f64>, String);
 
-fn planned_gate(
+/// The gate the core planner ([`sweepgate::plan::plan`]) gives for a scenario, with the
+/// same room and AUT-size rule as `sweepgate plan`; planner findings go to `remarks`.
+pub fn planned_gate(
     s: &Scenario,
     grid: &Grid,
     band_window: WindowKind,
@@ -433,10 +511,44 @@ pub fn replay_records(
         .header()
         .context("the recording has no intact header record")?;
     let s = setup(h, args)?;
+    replay_with_setup(rec, s, sink, pace, quit)
+}
+
+/// Replays recovered records through the scan engine built from `setup` (see
+/// [`replay_records`]).
+pub fn replay_with_setup(
+    rec: &Recovered,
+    s: Setup,
+    sink: &mut dyn Sink,
+    pace: Option<f64>,
+    quit: &AtomicBool,
+) -> anyhow::Result<Outcome> {
+    let h = rec
+        .header()
+        .context("the recording has no intact header record")?;
     match s.fft_size {
         1024 => run_scan::<1024>(rec, h, s, sink, pace, quit),
         2048 => run_scan::<2048>(rec, h, s, sink, pace, quit),
         _ => run_scan::<4096>(rec, h, s, sink, pace, quit),
+    }
+}
+
+/// A closed bin as a report bin (truth not yet known).
+pub fn report_bin<const F: usize>(r: &BinResult<F>, frequencies: usize) -> ReportBin {
+    let values = (0..frequencies.min(F))
+        .map(|j| ReportValue {
+            raw: c64(r.raw[j]),
+            gated: c64(r.gated[j]),
+            truth: None,
+        })
+        .collect();
+    ReportBin {
+        angle_deg: f64::from(r.nominal_deg),
+        mean_deg: f64::from(r.mean_deg),
+        sweeps: r.sweeps,
+        flags: r.flags.0,
+        echo_db: r.echo_db.map(f64::from),
+        values,
     }
 }
 
@@ -520,24 +632,7 @@ where
                 Event::BinClosed(r) => {
                     emit(&PreviewRecord::Bin(r.to_record()), sink, seq);
                     closed.push(r.index);
-                    let values = (0..nf)
-                        .map(|j| ReportValue {
-                            raw: c64(r.raw[j]),
-                            gated: c64(r.gated[j]),
-                            truth: None,
-                        })
-                        .collect();
-                    results.insert(
-                        r.index,
-                        ReportBin {
-                            angle_deg: f64::from(r.nominal_deg),
-                            mean_deg: f64::from(r.mean_deg),
-                            sweeps: r.sweeps,
-                            flags: r.flags.0,
-                            echo_db: r.echo_db.map(f64::from),
-                            values,
-                        },
-                    );
+                    results.insert(r.index, report_bin(&r, nf));
                 }
                 Event::Warning(w) => *warnings.entry(warning_name(&w)).or_insert(0) += 1,
                 Event::Finished(_) => {}
@@ -758,7 +853,8 @@ where
     })
 }
 
-fn c64(z: Complex32) -> Complex64 {
+/// Widens a single-precision value.
+pub fn c64(z: Complex32) -> Complex64 {
     Complex64::new(f64::from(z.re), f64::from(z.im))
 }
 
