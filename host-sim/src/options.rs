@@ -5,6 +5,7 @@
 //! | text | window |
 //! |---|---|
 //! | `kaiser:B` | Kaiser, β = B (0…50); `kaiser` alone is β = 6 |
+//! | `kaiser-sidelobe:DB` | Kaiser with β for a peak sidelobe DB below the main lobe (Kaiser & Schafer 1980) |
 //! | `tukey:A` | Tukey, α = A (0…1); `tukey` alone is α = 0.5 |
 //! | `hann` | Hann |
 //! | `hamming` | Hamming |
@@ -32,7 +33,7 @@ pub const DEFAULT_BAND_WINDOW: WindowKind = WindowKind::Kaiser {
 
 /// What `parse_window` accepts, for error messages and `--help`.
 pub const WINDOW_SPELLINGS: &str =
-    "kaiser:BETA, tukey:ALPHA, hann, hamming, blackman-harris, rectangular";
+    "kaiser:BETA, kaiser-sidelobe:DB, tukey:ALPHA, hann, hamming, blackman-harris, rectangular";
 
 /// Parses a band or gate window from its command-line spelling (see the module table).
 /// The error is one sentence naming what was wrong.
@@ -53,6 +54,14 @@ pub fn parse_window(text: &str) -> Result<WindowKind, String> {
         ("kaiser", Some(v)) => WindowKind::Kaiser {
             beta: number(v, "beta")?,
         },
+        ("kaiser-sidelobe", Some(v)) => {
+            WindowKind::kaiser_for_sidelobe_db(f64::from(number(v, "sidelobe level")?))
+        }
+        ("kaiser-sidelobe", None) => {
+            return Err(format!(
+                "window `{text}`: give the sidelobe level in dB, e.g. kaiser-sidelobe:50"
+            ));
+        }
         ("tukey", None) => WindowKind::Tukey {
             alpha: DEFAULT_TUKEY_ALPHA,
         },
@@ -86,6 +95,18 @@ pub fn format_window(kind: &WindowKind) -> String {
         WindowKind::Hamming => "hamming".into(),
         WindowKind::BlackmanHarris => "blackman-harris".into(),
         WindowKind::Rectangular => "rectangular".into(),
+    }
+}
+
+/// Describes a window in words, for tables and summaries.
+pub fn describe_window(w: &WindowKind) -> String {
+    match w {
+        WindowKind::Rectangular => "rectangular".into(),
+        WindowKind::Kaiser { beta } => format!("Kaiser β = {beta:.3}"),
+        WindowKind::Tukey { alpha } => format!("Tukey α = {alpha:.2}"),
+        WindowKind::Hann => "Hann".into(),
+        WindowKind::Hamming => "Hamming".into(),
+        WindowKind::BlackmanHarris => "Blackman-Harris (4 term)".into(),
     }
 }
 

@@ -62,9 +62,10 @@ use sweepgate::window::WindowKind;
 use sweepgate::Complex32;
 
 use crate::manifest::Manifest;
+use crate::options::describe_window;
 use crate::options::parse_window;
 use crate::record::{self, Record};
-use crate::replay::{self, c64, window_text, SetupOptions, Sink};
+use crate::replay::{self, c64, SetupOptions, Sink};
 use crate::report::{self, ImpulseView, ReportBin, ReportInput, ReportValue};
 use crate::touchstone::{Parameter, Spacing};
 
@@ -624,8 +625,8 @@ pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> 
         "gate": {
             "center_ns": center_s * 1e9,
             "span_ns": span_s * 1e9,
-            "band_window": window_text(&gate.band_window),
-            "shape": window_text(&gate.shape),
+            "band_window": describe_window(&gate.band_window),
+            "shape": describe_window(&gate.shape),
             "renormalized": true,
             "rule": rule.trim_start_matches("; "),
         },

@@ -50,6 +50,7 @@ use sweepgate::window::WindowKind;
 use sweepgate::wire::preview::{encode_frame, Record as PreviewRecord, MAX_FRAME};
 use sweepgate::Complex32;
 
+use crate::options::describe_window;
 use crate::preview::{self, Feed, Screen, PREVIEW_F};
 use crate::record::{self, Header, Record, Recovered};
 use crate::report::{self, ImpulseView, ReportBin, ReportInput, ReportValue};
@@ -104,49 +105,6 @@ impl Args {
             band_window: None,
             serve: None,
         }
-    }
-}
-
-/// Parses a `--band-window` value.
-pub fn parse_window(s: &str) -> anyhow::Result<WindowKind> {
-    let (name, arg) = match s.split_once(':') {
-        Some((n, a)) => (n, Some(a)),
-        None => (s, None),
-    };
-    let num = || -> anyhow::Result<f64> {
-        arg.context("this window needs a value after ':'")?
-            .trim()
-            .parse::<f64>()
-            .context("window parameter is not a number")
-    };
-    let w = match name.trim().to_ascii_lowercase().as_str() {
-        "kaiser" => WindowKind::Kaiser {
-            beta: num()? as f32,
-        },
-        "kaiser-sidelobe" => WindowKind::kaiser_for_sidelobe_db(num()?),
-        "tukey" => WindowKind::Tukey {
-            alpha: num()? as f32,
-        },
-        "hann" => WindowKind::Hann,
-        "hamming" => WindowKind::Hamming,
-        "blackman-harris" => WindowKind::BlackmanHarris,
-        "rectangular" => WindowKind::Rectangular,
-        other => bail!("unknown band window {other:?}"),
-    };
-    w.validate()
-        .map_err(|e| anyhow::anyhow!("band window {s:?}: {e}"))?;
-    Ok(w)
-}
-
-/// Describes a window in words.
-pub fn window_text(w: &WindowKind) -> String {
-    match w {
-        WindowKind::Rectangular => "rectangular".into(),
-        WindowKind::Kaiser { beta } => format!("Kaiser β = {beta:.3}"),
-        WindowKind::Tukey { alpha } => format!("Tukey α = {alpha:.2}"),
-        WindowKind::Hann => "Hann".into(),
-        WindowKind::Hamming => "Hamming".into(),
-        WindowKind::BlackmanHarris => "Blackman-Harris (4 term)".into(),
     }
 }
 
@@ -236,7 +194,9 @@ pub struct SetupOptions {
 /// Builds the set-up from a header and the options.
 pub fn setup(h: &Header, args: &Args) -> anyhow::Result<Setup> {
     let band_window = match &args.band_window {
-        Some(s) => parse_window(s)?,
+        Some(s) => {
+            crate::options::parse_window(s).map_err(|e| anyhow::anyhow!("--band-window: {e}"))?
+        }
         None => WindowKind::kaiser_for_sidelobe_db(50.0),
     };
     let opts = SetupOptions {
@@ -804,8 +764,8 @@ where
         "gate": {
             "center_ns": setup.gate.center_s * 1e9,
             "span_ns": setup.gate.span_s * 1e9,
-            "band_window": window_text(&setup.gate.band_window),
-            "shape": window_text(&setup.gate.shape),
+            "band_window": describe_window(&setup.gate.band_window),
+            "shape": describe_window(&setup.gate.shape),
             "renormalized": setup.gate.renormalize,
             "rule": setup.gate_rule,
         },
