@@ -109,6 +109,13 @@ pub struct Args {
     /// TOML settings file with the same settings (command-line options override it).
     #[arg(long)]
     pub settings: Option<PathBuf>,
+    /// Gain by substitution: the reference antenna's gain table (CSV `frequency_hz,gain_dbi`).
+    #[arg(long, requires = "reference")]
+    pub gain_table: Option<PathBuf>,
+    /// Gain by substitution: a Touchstone file of the reference antenna measured at
+    /// boresight in the same set-up; it is gated like the scan.
+    #[arg(long, requires = "gain_table")]
+    pub reference: Option<PathBuf>,
 }
 
 /// The keys a settings file may hold.
@@ -241,6 +248,8 @@ pub struct Resolved {
     pub spacing: Spacing,
     /// Report folder.
     pub out: PathBuf,
+    /// Gain by substitution: the reference's gain table and its measurement.
+    pub gain: Option<(PathBuf, PathBuf)>,
 }
 
 /// Parses a comma-separated list of frequencies in Hz (each finite and positive).
@@ -355,6 +364,7 @@ pub fn resolve(args: &Args) -> anyhow::Result<Resolved> {
         parameter,
         spacing,
         out,
+        gain: args.gain_table.clone().zip(args.reference.clone()),
     })
 }
 
@@ -647,6 +657,7 @@ pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> 
         counters: json!({ "files": scan.sweeps.len(), "sweeps_binned": scan.sweeps.len() }),
         warnings,
         impulse,
+        gain: None,
     };
     Ok(Processed {
         report,
@@ -721,13 +732,79 @@ where
 
 /// Processes the resolved input and writes the report folder.
 pub fn process(r: &Resolved) -> anyhow::Result<Processed> {
-    let p = match &r.input {
+    let mut p = match &r.input {
         Input::Manifest(m) => process_manifest(r, m)?,
         Input::Recording(rec) => process_recording(r, rec)?,
     };
+    if let Some((table, reference)) = &r.gain {
+        p.report.gain = Some(gain_reference(r, &p, table, reference)?);
+    }
     report::write_report(&p.report, &r.out)
         .with_context(|| format!("writing the report to {}", r.out.display()))?;
     Ok(p)
+}
+
+/// Gates the reference antenna's measurement with the scan's gate and pairs its gated level
+/// with its tabulated gain at each pattern frequency (gain by substitution).
+fn gain_reference(
+    r: &Resolved,
+    p: &Processed,
+    table: &Path,
+    reference: &Path,
+) -> anyhow::Result<report::GainReference> {
+    let gains = crate::gain::GainTable::load(table).map_err(|e| anyhow::anyhow!("{e}"))?;
+    let ts = crate::touchstone::Touchstone::read(reference).map_err(|e| anyhow::anyhow!("{e}"))?;
+    let parameter = r
+        .parameter
+        .unwrap_or_else(|| crate::touchstone::Parameter::default_for(ts.ports()));
+    let sweep = ts
+        .to_sweep(parameter, r.spacing)
+        .map_err(|e| anyhow::anyhow!("{e}"))?;
+    let g = p.gate.grid;
+    let same = sweep.grid.points() == g.points()
+        && (sweep.grid.start_hz() - g.start_hz()).abs() <= 1e-6 * g.step_hz()
+        && (sweep.grid.step_hz() - g.step_hz()).abs() <= 1e-6 * g.step_hz();
+    if !same {
+        bail!(
+            "{}: the reference measurement's frequencies ({} points from {} Hz, step {} Hz) differ from the scan's ({} points from {} Hz, step {} Hz)",
+            reference.display(),
+            sweep.grid.points(),
+            sweep.grid.start_hz(),
+            sweep.grid.step_hz(),
+            g.points(),
+            g.start_hz(),
+            g.step_hz()
+        );
+    }
+    let indices: Vec<usize> = p
+        .report
+        .frequencies_hz
+        .iter()
+        .map(|f| g.nearest_index(*f).unwrap_or(0))
+        .collect();
+    let one = [crate::manifest::AngleSweep {
+        angle_deg: 0.0,
+        values: sweep.values,
+        file: reference.to_path_buf(),
+    }];
+    let (bins, _) = match replay::fft_size_for(g.points())? {
+        1024 => gate_sweeps::<1024>(&p.gate, &one, &indices)?,
+        2048 => gate_sweeps::<2048>(&p.gate, &one, &indices)?,
+        _ => gate_sweeps::<4096>(&p.gate, &one, &indices)?,
+    };
+    let values = &bins.first().context("gating the reference")?.values;
+    let mut per_frequency = Vec::new();
+    for (f, v) in p.report.frequencies_hz.iter().zip(values) {
+        let g_ref = gains
+            .gain_dbi(*f)
+            .map_err(|e| anyhow::anyhow!("{}: at {f} Hz: {e}", table.display()))?;
+        per_frequency.push((g_ref, report::db(v.gated)));
+    }
+    Ok(report::GainReference {
+        table: table.display().to_string(),
+        measurement: reference.display().to_string(),
+        per_frequency,
+    })
 }
 
 /// Runs the command.

@@ -802,6 +802,7 @@ where
         counters: counters_json,
         warnings: warn_lines,
         impulse,
+        gain: None,
     };
     Ok(Outcome {
         setup,

@@ -101,6 +101,27 @@ pub struct ReportInput {
     pub warnings: Vec<String>,
     /// Impulse response near boresight, if available.
     pub impulse: Option<ImpulseView>,
+    /// Gain by substitution, when a reference antenna was measured in the same set-up.
+    pub gain: Option<GainReference>,
+}
+
+/// Gain by substitution (gain transfer): G_AUT = G_ref + P_AUT − P_ref in dB, same range and
+/// set-up (common practice, no source), with P the gated |S21|.
+#[derive(Debug, Clone, PartialEq)]
+pub struct GainReference {
+    /// The reference antenna's gain table, as given.
+    pub table: String,
+    /// The reference antenna's measurement, as given.
+    pub measurement: String,
+    /// Per pattern frequency: the reference's gain (dBi) and its gated |S21| (dB).
+    pub per_frequency: Vec<(f64, f64)>,
+}
+
+impl GainReference {
+    /// Offset (dB) that turns gated dB into dBi at pattern frequency `fi`.
+    pub fn offset_db(&self, fi: usize) -> Option<f64> {
+        self.per_frequency.get(fi).map(|(g, p)| g - p)
+    }
 }
 
 /// Lowest level written or plotted, dB.
@@ -298,6 +319,9 @@ pub fn pattern_csv(input: &ReportInput) -> String {
     if has_truth {
         s.push_str(",truth_db");
     }
+    if input.gain.is_some() {
+        s.push_str(",gain_dbi");
+    }
     s.push('\n');
     for b in input.sorted_bins() {
         for (v, f) in b.values.iter().zip(&input.frequencies_hz) {
@@ -315,6 +339,18 @@ pub fn pattern_csv(input: &ReportInput) -> String {
             );
             if has_truth {
                 let _ = write!(s, ",{:.4}", v.truth.map_or(f64::NAN, db));
+            }
+            if let Some(g) = &input.gain {
+                let fi = input
+                    .frequencies_hz
+                    .iter()
+                    .position(|x| x == f)
+                    .unwrap_or(0);
+                let _ = write!(
+                    s,
+                    ",{:.4}",
+                    db(v.gated) + g.offset_db(fi).unwrap_or(f64::NAN)
+                );
             }
             s.push('\n');
         }
@@ -340,8 +376,27 @@ pub fn summary_json(input: &ReportInput) -> Value {
                 "bins": e.bins,
             })
         });
+        let gain = input.gain.as_ref().map_or(Value::Null, |g| {
+            let (g_ref, p_ref) = g
+                .per_frequency
+                .get(fi)
+                .copied()
+                .unwrap_or((f64::NAN, f64::NAN));
+            let peak = input
+                .bins
+                .iter()
+                .filter_map(|b| b.values.get(fi))
+                .map(|v| db(v.gated))
+                .fold(f64::NEG_INFINITY, f64::max);
+            json!({
+                "reference_gain_dbi": g_ref,
+                "reference_gated_db": p_ref,
+                "peak_gain_dbi": peak + g_ref - p_ref,
+            })
+        });
         per_freq.push(json!({
             "frequency_hz": f,
+            "absolute_gain": gain,
             "gated": metrics_json(input.metrics(&c.angles_deg, &c.gated_norm())),
             "raw": metrics_json(input.metrics(&c.angles_deg, &c.raw_norm())),
             "truth": truth,
@@ -355,6 +410,11 @@ pub fn summary_json(input: &ReportInput) -> Value {
         "counters": input.counters,
         "bins": input.bins.len(),
         "warnings": input.warnings,
+        "gain_by_substitution": input.gain.as_ref().map(|g| json!({
+            "reference_gain_table": g.table,
+            "reference_measurement": g.measurement,
+            "method": "G_AUT = G_ref + P_AUT - P_ref (dB), gated |S21|, same range and set-up",
+        })),
         "metrics_normalized_to_peak": per_freq,
         "caution": "A transmitting antenna can exceed RF exposure limits near its aperture and a positioner is moving machinery: follow local regulations and the lab's licensed practice.",
     })

@@ -41,6 +41,7 @@ fn resolved(input: Input, out: &Path) -> Resolved {
         parameter: None,
         spacing: Spacing::RequireUniform,
         out: out.to_path_buf(),
+        gain: None,
     }
 }
 
@@ -323,4 +324,95 @@ fn a_recording_without_scenario_is_gated_on_its_impulse_response_peak() {
         p.gate.center_s * 1e9
     );
     assert!(!p.report.bins.is_empty());
+}
+
+#[test]
+fn gain_by_substitution_gives_the_aut_gain_in_dbi() {
+    // A cos^n power pattern over the upper hemisphere has directivity D = 2(n + 1)
+    // (shared REFERENCES, computed; e.g. Balanis): the reference, n = 10, is 13.424 dBi; the
+    // AUT, n = 4, is 10.000 dBi at boresight. Both are measured in the same (reflective) bay
+    // and gated alike; gain transfer G_AUT = G_ref + P_AUT − P_ref (common practice, no
+    // source) must give the AUT's gain within 0.05 dB.
+    use sweepgate_host::scenario::Antenna;
+    let dir = tempfile::tempdir().unwrap();
+    let mut aut = short_bay();
+    aut.aut = Antenna::CosPower { n: 4.0 };
+    let (bytes, _) = simulate_to(&aut, None, 3, Vec::new(), false).unwrap();
+    let m = write_manifest(&recover(&bytes), &dir.path().join("aut"), -6.0, 2.0);
+
+    let mut refs = short_bay();
+    refs.aut = Antenna::CosPower { n: 10.0 };
+    let (bytes, _) = simulate_to(&refs, None, 4, Vec::new(), false).unwrap();
+    let rm = write_manifest(&recover(&bytes), &dir.path().join("ref"), -6.0, 2.0);
+    // The stop at 0° (the fourth of −6…6 in 2° steps) is the reference measurement.
+    let reference = rm.parent().unwrap().join("sweeps/stop003.s2p");
+    let table = dir.path().join("reference-gain.csv");
+    let g_ref = 10.0 * 22f64.log10();
+    std::fs::write(
+        &table,
+        format!("frequency_hz,gain_dbi\n1e9,{g_ref}\n20e9,{g_ref}\n"),
+    )
+    .unwrap();
+
+    let out = dir.path().join("report");
+    let st = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
+        .arg("process")
+        .arg("--manifest")
+        .arg(&m)
+        .arg("--gain-table")
+        .arg(&table)
+        .arg("--reference")
+        .arg(&reference)
+        .arg("--out")
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(
+        st.status.success(),
+        "{}",
+        String::from_utf8_lossy(&st.stderr)
+    );
+    let csv = std::fs::read_to_string(out.join("pattern.csv")).unwrap();
+    let header: Vec<&str> = csv.lines().next().unwrap().split(',').collect();
+    let col = |name: &str| header.iter().position(|h| *h == name).unwrap();
+    let (a, g) = (col("angle_deg"), col("gain_dbi"));
+    let mut rows = 0;
+    for line in csv.lines().skip(1) {
+        let v: Vec<&str> = line.split(',').collect();
+        if v[a].parse::<f64>().unwrap().abs() < 1e-9 {
+            let gain: f64 = v[g].parse().unwrap();
+            eprintln!("boresight gain by substitution: {gain:.4} dBi (AUT 10.000 dBi)");
+            assert!(
+                (gain - 10.0).abs() < 0.05,
+                "boresight gain {gain} dBi, want 10.000"
+            );
+            rows += 1;
+        }
+    }
+    assert!(rows > 0, "no boresight rows in\n{csv}");
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    let peak = summary["metrics_normalized_to_peak"][0]["absolute_gain"]["peak_gain_dbi"]
+        .as_f64()
+        .unwrap();
+    assert!((peak - 10.0).abs() < 0.05, "peak gain {peak} dBi");
+
+    // A reference on another grid is refused, naming the file.
+    let bad = dir.path().join("bad.s1p");
+    std::fs::write(&bad, "# GHz S RI R 50\n1 0.1 0\n2 0.1 0\n3 0.1 0\n").unwrap();
+    let st = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
+        .arg("process")
+        .arg("--manifest")
+        .arg(&m)
+        .arg("--gain-table")
+        .arg(&table)
+        .arg("--reference")
+        .arg(&bad)
+        .arg("--out")
+        .arg(dir.path().join("bad-report"))
+        .output()
+        .unwrap();
+    assert!(!st.status.success());
+    let err = String::from_utf8_lossy(&st.stderr);
+    assert!(err.contains("bad.s1p") && err.contains("differ"), "{err}");
 }

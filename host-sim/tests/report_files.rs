@@ -53,6 +53,7 @@ fn input() -> ReportInput {
             gate_start_ns: 8.5,
             gate_stop_ns: 11.5,
         }),
+        gain: None,
     }
 }
 
