@@ -99,7 +99,7 @@ use sweepgate::wire::block::{BlockConfig, BlockDecoder, Event, StreamDecoder};
 
 use crate::instrument::{parse_format, parse_order};
 use crate::physics::Simulator;
-use crate::record::{GridInfo, Header, Record, Writer, SWEEP_FORMAT};
+use crate::record::{GridInfo, Header, Record, SyncPolicy, Writer, SWEEP_FORMAT};
 use crate::scenario::Scenario;
 
 /// The default profile, for `sweepgate instrument`.
@@ -775,8 +775,8 @@ pub fn acquire(
         }
     };
 
-    let file = std::fs::File::create(out).with_context(|| format!("creating {}", out.display()))?;
-    let mut w = Writer::new(file)?;
+    let mut w = Writer::create(out, SyncPolicy::default())
+        .with_context(|| format!("creating {}", out.display()))?;
     let header = Header {
         software: format!("sweepgate {}", env!("CARGO_PKG_VERSION")),
         source: format!(

@@ -1,0 +1,165 @@
+//! Crash safety of recordings: the real `sweepgate simulate --progress-lines` is killed with
+//! SIGKILL at pseudo-random moments (fixed seed) many times; every record the process
+//! reported as written must be read back intact by `record::recover`, byte for byte equal
+//! to an uninterrupted run with the same seed, and the file may end in at most one partial
+//! record. The policy under test is documented in `host-sim/src/record.rs`.
+#![cfg(unix)]
+
+use std::io::{BufRead, BufReader};
+use std::path::{Path, PathBuf};
+use std::process::{Command, Stdio};
+use std::time::Duration;
+
+use sweepgate_host::record::{recover, Fault, Stop};
+
+/// Kills that must land while the file is being written.
+const KILLS: usize = 50;
+/// Most attempts (some land before the first record or after the end).
+const MAX_ATTEMPTS: usize = 100;
+
+/// splitmix64: a fixed-seed generator for the kill times (common practice, no source).
+struct Rng(u64);
+impl Rng {
+    fn next(&mut self) -> u64 {
+        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+        z ^ (z >> 31)
+    }
+}
+
+fn scenario() -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("scenarios/demo-lab.toml")
+}
+
+fn dir() -> PathBuf {
+    let d = std::env::temp_dir().join(format!("sweepgate-kill-{}", std::process::id()));
+    std::fs::create_dir_all(&d).unwrap();
+    d
+}
+
+fn simulate(out: &Path) -> Command {
+    let mut c = Command::new(env!("CARGO_BIN_EXE_sweepgate"));
+    c.args(["simulate", "--seed", "7", "--progress-lines", "--scenario"])
+        .arg(scenario())
+        .arg("--out")
+        .arg(out)
+        .stdout(Stdio::piped())
+        .stderr(Stdio::null());
+    c
+}
+
+fn parse_line(l: &str) -> (u64, u64) {
+    let mut it = l.split_whitespace();
+    assert_eq!(it.next(), Some("written"), "progress line {l:?}");
+    let off = it.next().and_then(|x| x.parse().ok()).expect("offset");
+    let n = it.next().and_then(|x| x.parse().ok()).expect("records");
+    (off, n)
+}
+
+#[test]
+fn killed_simulate_keeps_every_reported_record() {
+    let d = dir();
+    // The uninterrupted run: the reference bytes.
+    let full_path = d.join("full.rec");
+    let t0 = std::time::Instant::now();
+    let mut child = simulate(&full_path).spawn().unwrap();
+    let mut first_ms = None;
+    let mut lines = Vec::new();
+    for l in BufReader::new(child.stdout.take().unwrap()).lines() {
+        first_ms.get_or_insert(t0.elapsed().as_millis() as u64);
+        lines.push(parse_line(&l.unwrap()));
+    }
+    assert!(child.wait().unwrap().success());
+    // Kill times are drawn from the first record to the end of this run (not a timed
+    // assertion: it only spreads the kills over the run on a slow or a fast machine).
+    let run_ms = (t0.elapsed().as_millis() as u64).max(50);
+    let first_ms = first_ms.unwrap_or(0).min(run_ms - 10);
+    let full = std::fs::read(&full_path).unwrap();
+    let &(last_off, last_n) = lines.last().unwrap();
+    assert_eq!(last_off, full.len() as u64);
+    let r = recover(&full);
+    assert_eq!(r.stop, Stop::Complete);
+    assert_eq!(r.records.len() as u64, last_n);
+    let total_records = last_n;
+
+    let mut rng = Rng(0x5EED_0F_C0FFEE);
+    let (mut mid_file, mut partial_tail, mut before_first) = (0, 0, 0);
+    let (mut min_n, mut max_n, mut beyond_reported) = (u64::MAX, 0, 0u64);
+    let mut attempts = 0;
+    for k in 0..MAX_ATTEMPTS {
+        if mid_file == KILLS {
+            break;
+        }
+        attempts += 1;
+        let path = d.join(format!("kill-{k}.rec"));
+        let _ = std::fs::remove_file(&path);
+        // From before the file exists to near the end of the run.
+        let wait_ms = first_ms + rng.next() % (run_ms - first_ms);
+        let mut child = simulate(&path).spawn().unwrap();
+        let stdout = child.stdout.take().unwrap();
+        let reader = std::thread::spawn(move || {
+            let mut last = None;
+            for l in BufReader::new(stdout).lines() {
+                let Ok(l) = l else { break };
+                last = Some(parse_line(&l));
+            }
+            last
+        });
+        std::thread::sleep(Duration::from_millis(wait_ms));
+        child.kill().unwrap(); // SIGKILL on Unix
+        let status = child.wait().unwrap();
+        let reported = reader.join().unwrap();
+        let Some((off, n)) = reported else {
+            before_first += 1;
+            continue;
+        };
+        if status.success() {
+            // Finished before the kill: the file is complete.
+            assert_eq!(std::fs::read(&path).unwrap(), full);
+            continue;
+        }
+        mid_file += 1;
+        min_n = min_n.min(n);
+        max_n = max_n.max(n);
+        let bytes = std::fs::read(&path).unwrap();
+        assert!(
+            bytes.len() as u64 >= off,
+            "kill {k}: file shorter than reported"
+        );
+        // Everything reported is the reference, byte for byte.
+        assert_eq!(&bytes[..off as usize], &full[..off as usize], "kill {k}");
+        let r = recover(&bytes);
+        assert!(r.damage.is_empty(), "kill {k}: damage {:?}", r.damage);
+        assert!(
+            r.records.len() as u64 >= n,
+            "kill {k}: {} < {n}",
+            r.records.len()
+        );
+        assert!(r.stop_offset >= off);
+        beyond_reported += r.records.len() as u64 - n;
+        // The reported records are exactly the reference's first n.
+        let rr = recover(&full);
+        for (i, ((oa, ra), (ob, rb))) in r.records.iter().zip(&rr.records).enumerate() {
+            assert_eq!((oa, ra), (ob, rb), "kill {k}: record {i}");
+        }
+        // At most one partial record at the end.
+        match &r.stop {
+            Stop::EndOfData => {}
+            Stop::Fault(Fault::Truncated { .. }) => partial_tail += 1,
+            other => panic!("kill {k}: stopped with {other:?}"),
+        }
+        assert!(n < total_records);
+    }
+    eprintln!(
+        "kill test: {attempts} kills; {mid_file} mid-file (reported records {min_n}..={max_n} of \
+         {total_records}, {partial_tail} ending in a partial record, {beyond_reported} records \
+         written but not yet reported), {before_first} before the first record"
+    );
+    assert_eq!(
+        mid_file, KILLS,
+        "only {mid_file} of {attempts} kills landed mid-file"
+    );
+    std::fs::remove_dir_all(&d).ok();
+}
