@@ -415,7 +415,8 @@ fn default_backoff() -> f64 {
 impl Profile {
     /// Parses and checks a profile.
     pub fn from_toml(text: &str) -> anyhow::Result<Self> {
-        let p: Profile = toml::from_str(text)?;
+        let p: Profile = toml::from_str(text)
+            .map_err(|e| anyhow::anyhow!("{}", crate::scenario::toml_one_line(text, &e)))?;
         if !(p.timeout_s.is_finite() && p.timeout_s > 0.0) {
             bail!("timeout_s must be above 0 (got {})", p.timeout_s);
         }
