@@ -758,8 +758,7 @@ fn expect_sweep(
         let ev = s.push_sweep(start_us, end_us, &points);
         let c = s.counters();
         check(
-            ev.iter()
-                .any(|e| *e == Event::Warning(Warning::SweepRejected(want))),
+            ev.contains(&Event::Warning(Warning::SweepRejected(want))),
             || format!("events {ev:?}"),
         )?;
         check(s.counters().sweeps_rejected_for(want) == 1, || {

@@ -84,7 +84,7 @@ fn killed_simulate_keeps_every_reported_record() {
     assert_eq!(r.records.len() as u64, last_n);
     let total_records = last_n;
 
-    let mut rng = Rng(0x5EED_0F_C0FFEE);
+    let mut rng = Rng(0x5EED_0FC0_FFEE);
     let (mut mid_file, mut partial_tail, mut before_first) = (0, 0, 0);
     let (mut min_n, mut max_n, mut beyond_reported) = (u64::MAX, 0, 0u64);
     let mut attempts = 0;

@@ -54,14 +54,19 @@ fuzz_target!(|data: &[u8]| {
                         fed_total += fed.consumed as u64;
                         chunk = &chunk[fed.consumed..];
                         if let Some(Event::Sweep { points: p }) = fed.event {
-                            assert!(buf[..p].iter().all(|v| v.re.is_finite() && v.im.is_finite()));
+                            assert!(buf[..p]
+                                .iter()
+                                .all(|v| v.re.is_finite() && v.im.is_finite()));
                         }
                         if fed.consumed == 0 && fed.event.is_none() {
                             break;
                         }
                     }
                     let k = d.counters();
-                    assert_eq!(fed_total, k.bytes_accepted + k.bytes_skipped + d.bytes_pending());
+                    assert_eq!(
+                        fed_total,
+                        k.bytes_accepted + k.bytes_skipped + d.bytes_pending()
+                    );
                 }
             }
         }

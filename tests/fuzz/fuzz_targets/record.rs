@@ -24,7 +24,10 @@ fuzz_target!(|data: &[u8]| {
     assert!(r.records.len() <= bytes.len() / FRAME_OVERHEAD);
     let mut end = FILE_HEADER_LEN as u64;
     for (off, rec) in &r.records {
-        assert!(*off >= end, "record at {off} overlaps the previous one ending at {end}");
+        assert!(
+            *off >= end,
+            "record at {off} overlaps the previous one ending at {end}"
+        );
         let frame = rec.frame();
         let stop = off + frame.len() as u64;
         if !matches!(rec, Record::Header(_)) {

@@ -24,7 +24,10 @@ fuzz_target!(|data: &[u8]| {
             }
             assert!(t.matrix(n).is_none());
             assert!(t.frequencies_hz().windows(2).all(|w| w[0] < w[1]));
-            assert!(t.frequencies_hz().iter().all(|f| f.is_finite() && *f >= 0.0));
+            assert!(t
+                .frequencies_hz()
+                .iter()
+                .all(|f| f.is_finite() && *f >= 0.0));
         }
         Err(e) => {
             let s = e.to_string();
