@@ -2,7 +2,9 @@
 //! SIGKILL at pseudo-random moments (fixed seed) many times; every record the process
 //! reported as written must be read back intact by `record::recover`, byte for byte equal
 //! to an uninterrupted run with the same seed, and the file may end in at most one partial
-//! record. The policy under test is documented in `host-sim/src/record.rs`.
+//! record. The same for `sweepgate acquire` against a local `sweepgate instrument` (it
+//! reports no progress: the file read after the kill must hold whole records in order with
+//! at most one partial record after them). The policy under test is documented in `host-sim/src/record.rs`.
 #![cfg(unix)]
 
 use std::io::{BufRead, BufReader};
@@ -10,7 +12,10 @@ use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 use std::time::Duration;
 
-use sweepgate_host::record::{recover, Fault, Stop};
+use sweepgate_host::record::{recover, Fault, Record, Stop};
+
+#[path = "instrument_support/mod.rs"]
+mod support;
 
 /// Kills that must land while the file is being written.
 const KILLS: usize = 50;
@@ -161,5 +166,79 @@ fn killed_simulate_keeps_every_reported_record() {
         mid_file, KILLS,
         "only {mid_file} of {attempts} kills landed mid-file"
     );
+    std::fs::remove_dir_all(&d).ok();
+}
+
+/// Kills of `acquire` (the simulate test above covers the 50).
+const ACQUIRE_KILLS: usize = 20;
+
+#[test]
+fn killed_acquire_leaves_whole_records_and_at_most_one_partial() {
+    // Its own directory: the simulate test removes its own when done.
+    let d = support::temp_dir("kill-acquire-out");
+    let inst = support::start("kill-acquire", &[]);
+    let mut rng = Rng(0xACC0_1DE5);
+    let (mut kills, mut partial, mut most) = (0, 0, 0usize);
+    for k in 0..ACQUIRE_KILLS {
+        let path = d.join(format!("acq-{k}.rec"));
+        let mut child = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
+            .args([
+                "acquire",
+                "--sweeps",
+                "100000",
+                "--instrument",
+                &inst.addr,
+                "--out",
+            ])
+            .arg(&path)
+            .stdout(Stdio::null())
+            .stderr(Stdio::null())
+            .spawn()
+            .unwrap();
+        std::thread::sleep(Duration::from_millis(100 + rng.next() % 700));
+        child.kill().unwrap();
+        child.wait().unwrap();
+        kills += 1;
+        let Ok(bytes) = std::fs::read(&path) else {
+            continue; // killed before the file was created
+        };
+        let r = recover(&bytes);
+        assert!(r.damage.is_empty(), "kill {k}: damage {:?}", r.damage);
+        let sweeps: Vec<u32> = r
+            .records
+            .iter()
+            .filter_map(|(_, x)| match x {
+                Record::Sweep { index, s21, .. } => {
+                    assert_eq!(s21.len(), 201);
+                    Some(*index)
+                }
+                _ => None,
+            })
+            .collect();
+        assert!(
+            sweeps.iter().enumerate().all(|(i, &n)| n as usize == i),
+            "kill {k}"
+        );
+        most = most.max(sweeps.len());
+        // At most one partial record (a sweep record of 201 points is the longest here).
+        let tail = bytes.len() as u64 - r.stop_offset;
+        match &r.stop {
+            Stop::EndOfData => assert_eq!(tail, 0),
+            Stop::Fault(Fault::Truncated { .. }) => {
+                partial += 1;
+                assert!(
+                    tail < 13 + 24 + 201 * 8,
+                    "kill {k}: {tail} bytes after the last record"
+                );
+            }
+            Stop::BadFileHeader(_) if bytes.is_empty() => {}
+            other => panic!("kill {k}: {other:?}"),
+        }
+    }
+    eprintln!(
+        "acquire kill test: {kills} kills, up to {most} sweeps recovered, {partial} ending in a partial record"
+    );
+    assert_eq!(kills, ACQUIRE_KILLS);
+    assert!(most > 0, "no kill landed after the first sweep");
     std::fs::remove_dir_all(&d).ok();
 }
