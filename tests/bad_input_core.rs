@@ -1174,6 +1174,26 @@ fn capture_table() -> Vec<Case> {
             ),
         ),
         (
+            // Found by the `capture` fuzz target: a sector whose bin count rounds past
+            // 65535 overflowed the u16 count (a panic in debug builds, 0 bins in release).
+            "sector layout with more bins than a u16 counts",
+            Box::new(|| {
+                let r = BinLayout::sector(-40.0, 40.0, 0.0001);
+                check(
+                    r == Err(sweepgate::error::LayoutError::TooManyBins {
+                        needed: 800_001,
+                        capacity: 65535,
+                    }),
+                    || format!("{r:?}"),
+                )?;
+                let r = BinLayout::sector(0.0, 65535.0 * 0.005, 0.005);
+                check(
+                    matches!(r, Err(sweepgate::error::LayoutError::TooManyBins { .. })),
+                    || format!("{r:?}"),
+                )
+            }),
+        ),
+        (
             "unknown echo mode",
             expect_header(|h| h[83] = 9, CaptureError::UnknownEchoMode(9)),
         ),
