@@ -628,9 +628,24 @@ fn scenario_err(
 
 fn scenario_table() -> Vec<Case> {
     let s = shipped("demo-lab.toml");
-    let sub = |from: &str, to: &str| {
-        assert!(s.contains(from), "{from}");
-        s.replacen(from, to, 1)
+    // Replaces the first line setting `key` (values of the shipped file may change).
+    let sub = |key_line: &str, to: &str| {
+        let key = key_line.split('=').next().unwrap().trim();
+        let mut done = false;
+        let out: Vec<String> = s
+            .lines()
+            .map(|l| {
+                let t = l.trim_start();
+                if !done && t.starts_with(key) && t[key.len()..].trim_start().starts_with('=') {
+                    done = true;
+                    to.to_owned()
+                } else {
+                    l.to_owned()
+                }
+            })
+            .collect();
+        assert!(done, "{key}");
+        out.join("\n")
     };
     vec![
         (
@@ -664,7 +679,7 @@ fn scenario_table() -> Vec<Case> {
             "wrong type",
             scenario_err(
                 sub("points = 201", "points = \"many\""),
-                &["line 10, column 10", "many"],
+                &["column 10", "many"],
             ),
         ),
         (
