@@ -113,6 +113,13 @@ impl BinLayout {
         if libm::fabs(n * step - span) > 1e-3 * step.max(1.0) {
             return Err(LayoutError::SpanNotWholeSteps);
         }
+        // A bin index is a u16: at most 65535 bins (a tiny step would overflow the count).
+        if n + 1.0 > 65535.0 {
+            return Err(LayoutError::TooManyBins {
+                needed: libm::fmin(n + 1.0, f64::from(u32::MAX)) as u32,
+                capacity: 65535,
+            });
+        }
         Ok(Self {
             start_deg,
             step_deg,

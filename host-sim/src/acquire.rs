@@ -55,6 +55,29 @@
 //! block holding a non-finite value is counted, the link is drained, and the next sweep
 //! is taken.
 //!
+//! # Link faults
+//!
+//! The instrument closing the connection, not answering within `timeout_s` (a stall), an
+//! I/O error, or an answer the decoder cannot read after at least one sweep was taken
+//! (garbage mid-scan) is a link fault. It is reported on standard error
+//! (`sweep N: link fault: …; retry i of R in W s: reconnecting`), and the sweep is taken
+//! again on a new connection: up to `retries` reconnections per sweep (default 3; the
+//! count starts again after each good sweep), waiting `retry_backoff_s` (default 0.5 s)
+//! before the first and doubling the wait before each further one (0.5, 1, 2 s: 3.5 s in
+//! all), sending `reconnect_setup` (default: `setup`) on each new connection, then the
+//! trigger, wait and data queries again. The decoder forgets any partial answer. When the
+//! retries are used up the recording is finished cleanly (end record) with every sweep
+//! taken before the fault, and `acquire` exits non-zero naming the fault. An unreadable
+//! answer to the very first sweep is not retried: the profile does not match the
+//! instrument. Note that a setup that resets the instrument (`*RST` for the simulated
+//! one) restarts its sweep state; give a `reconnect_setup` without it to resume.
+//!
+//! ```toml
+//! retries = 3                       # reconnections per sweep after a link fault
+//! retry_backoff_s = 0.5             # first wait, doubling
+//! reconnect_setup = ["FORMat:DATA REAL,32", "FORMat:BORDer SWAPped"]  # default: setup
+//! ```
+//!
 //! # Positioner line protocol
 //!
 //! `--positioner HOST:PORT` connects to a TCP server sending one sample per line, in ASCII:
@@ -99,7 +122,7 @@ use sweepgate::wire::block::{BlockConfig, BlockDecoder, Event, StreamDecoder};
 
 use crate::instrument::{parse_format, parse_order};
 use crate::physics::Simulator;
-use crate::record::{GridInfo, Header, Record, Writer, SWEEP_FORMAT};
+use crate::record::{GridInfo, Header, Record, SyncPolicy, Writer, SWEEP_FORMAT};
 use crate::scenario::Scenario;
 
 /// The default profile, for `sweepgate instrument`.
@@ -363,6 +386,14 @@ pub struct Profile {
     /// The frequency grid.
     #[serde(default)]
     pub grid: GridSpec,
+    /// Reconnections tried per sweep after a link fault (see the module docs).
+    #[serde(default = "default_retries")]
+    pub retries: u32,
+    /// Wait before the first reconnection, s; it doubles with each further one.
+    #[serde(default = "default_backoff")]
+    pub retry_backoff_s: f64,
+    /// Sent after reconnecting (default: `setup`).
+    pub reconnect_setup: Option<Vec<String>>,
 }
 
 fn default_timeout() -> f64 {
@@ -374,11 +405,18 @@ fn default_order() -> String {
 fn default_cpt() -> u32 {
     36000
 }
+fn default_retries() -> u32 {
+    3
+}
+fn default_backoff() -> f64 {
+    0.5
+}
 
 impl Profile {
     /// Parses and checks a profile.
     pub fn from_toml(text: &str) -> anyhow::Result<Self> {
-        let p: Profile = toml::from_str(text)?;
+        let p: Profile = toml::from_str(text)
+            .map_err(|e| anyhow::anyhow!("{}", crate::scenario::toml_one_line(text, &e)))?;
         if !(p.timeout_s.is_finite() && p.timeout_s > 0.0) {
             bail!("timeout_s must be above 0 (got {})", p.timeout_s);
         }
@@ -388,6 +426,15 @@ impl Profile {
         }
         if p.counts_per_turn == 0 {
             bail!("counts_per_turn must be above 0");
+        }
+        if !(p.retry_backoff_s.is_finite() && (0.0..=60.0).contains(&p.retry_backoff_s)) {
+            bail!(
+                "retry_backoff_s must be 0 to 60 (got {})",
+                p.retry_backoff_s
+            );
+        }
+        if p.retries > 16 {
+            bail!("retries must be at most 16 (got {})", p.retries);
         }
         let g = &p.grid;
         for (name, v, q) in [
@@ -634,6 +681,16 @@ enum Decoder {
     Ascii(AsciiDecoder),
 }
 
+impl Decoder {
+    /// Forgets any partial answer (after a dropped sweep or a new connection).
+    fn reset(&mut self) {
+        match self {
+            Decoder::Block(d) => d.reset(),
+            Decoder::Ascii(d) => d.reset(),
+        }
+    }
+}
+
 /// What an acquisition wrote.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct Summary {
@@ -647,6 +704,10 @@ pub struct Summary {
     pub malformed_lines: u64,
     /// Bins the scan engine closed (0 without gating).
     pub bins_closed: u64,
+    /// Link faults met (closed connection, timeout, garbage mid-scan).
+    pub link_faults: u64,
+    /// Successful reconnections after a link fault.
+    pub reconnects: u64,
 }
 
 /// Where angles come from.
@@ -775,8 +836,8 @@ pub fn acquire(
         }
     };
 
-    let file = std::fs::File::create(out).with_context(|| format!("creating {}", out.display()))?;
-    let mut w = Writer::new(file)?;
+    let mut w = Writer::create(out, SyncPolicy::default())
+        .with_context(|| format!("creating {}", out.display()))?;
     let header = Header {
         software: format!("sweepgate {}", env!("CARGO_PKG_VERSION")),
         source: format!(
@@ -813,6 +874,8 @@ pub fn acquire(
         rejected: 0,
         malformed_lines: 0,
         bins_closed: 0,
+        link_faults: 0,
+        reconnects: 0,
     };
     let mut positioner_done = false;
     let write_lines = |w: &mut Writer<std::fs::File>,
@@ -861,6 +924,7 @@ pub fn acquire(
 
     let mut sweep = vec![Complex32::new(0.0, 0.0); points];
     let mut taken: u64 = 0;
+    let mut fatal: Option<anyhow::Error> = None;
     loop {
         if max_sweeps.is_some_and(|m| sum.sweeps >= m) {
             break;
@@ -874,64 +938,70 @@ pub fn acquire(
                 break;
             }
         }
-        let t_start = epoch.elapsed().as_micros() as u64;
-        for cmd in &profile.trigger {
-            link.send(cmd)?;
-        }
-        if let Some(q) = &profile.wait {
-            let r = link.query(q);
-            if let Err(e) = r {
-                return Err(with_queue(&mut link, err_q, e));
+        let mut attempt = 0u32;
+        let taken_ok = 'sweep: loop {
+            let t_start = epoch.elapsed().as_micros() as u64;
+            let fault = match take_sweep(&mut link, &mut dec, &mut sweep, profile) {
+                Ok(Ok(())) => break 'sweep Some(t_start),
+                Ok(Err((why, true))) => {
+                    taken += 1;
+                    sum.rejected += 1;
+                    eprintln!("sweep {}: dropped: {why}", taken - 1);
+                    link.drain(Duration::from_millis(200));
+                    dec.reset();
+                    break 'sweep None;
+                }
+                Ok(Err((why, false))) => {
+                    let e = anyhow::anyhow!(
+                        "answer to {:?} rejected: {why} (the profile expects {points} points, format {}, byte order {})",
+                        profile.data,
+                        profile.format,
+                        profile.byte_order
+                    );
+                    if sum.sweeps == 0 && sum.rejected == 0 {
+                        // Nothing decoded yet: the profile does not match the instrument.
+                        fatal = Some(with_queue(&mut link, err_q, e));
+                        break 'sweep None;
+                    }
+                    e
+                }
+                Err(e) => e,
+            };
+            sum.link_faults += 1;
+            // Reconnect with bounded attempts and doubling waits, then take the sweep again.
+            loop {
+                if attempt >= profile.retries {
+                    let e = with_queue(&mut link, err_q, fault);
+                    fatal = Some(e.context(format!(
+                        "link fault at sweep {taken}, {} retries failed",
+                        profile.retries
+                    )));
+                    break 'sweep None;
+                }
+                attempt += 1;
+                let wait_s = profile.retry_backoff_s * f64::from(1u32 << (attempt - 1).min(16));
+                eprintln!(
+                    "sweep {taken}: link fault: {fault:#}; retry {attempt} of {} in {wait_s:.2} s: reconnecting",
+                    profile.retries
+                );
+                std::thread::sleep(Duration::from_secs_f64(wait_s));
+                match reconnect(instrument, profile) {
+                    Ok(l) => {
+                        link = l;
+                        sum.reconnects += 1;
+                        dec.reset();
+                        break;
+                    }
+                    Err(e) => eprintln!("sweep {taken}: reconnecting failed: {e:#}"),
+                }
             }
+        };
+        if fatal.is_some() {
+            break;
         }
-        link.send(&profile.data)?;
-        let ev = match &mut dec {
-            Decoder::Block(d) => link
-                .read_data(d, &mut sweep, &profile.data)
-                .map(|e| match e {
-                    Event::Sweep { .. } => Ok(()),
-                    Event::Rejected(e) => Err((
-                        e.to_string(),
-                        matches!(e, sweepgate::error::BlockError::NonFinite { .. }),
-                    )),
-                }),
-            Decoder::Ascii(d) => link
-                .read_data(d, &mut sweep, &profile.data)
-                .map(|e| match e {
-                    Event::Sweep { .. } => Ok(()),
-                    Event::Rejected(e) => Err((
-                        e.to_string(),
-                        matches!(e, sweepgate::error::AsciiError::NonFinite { .. }),
-                    )),
-                }),
-        };
-        let ev = match ev {
-            Ok(ev) => ev,
-            Err(e) => return Err(with_queue(&mut link, err_q, e)),
-        };
+        let Some(t_start) = taken_ok else { continue };
         taken += 1;
         let t_end = epoch.elapsed().as_micros() as u64;
-        match ev {
-            Ok(()) => {}
-            Err((why, true)) => {
-                sum.rejected += 1;
-                eprintln!("sweep {}: dropped: {why}", taken - 1);
-                link.drain(Duration::from_millis(200));
-                if let Decoder::Block(d) = &mut dec {
-                    d.reset();
-                }
-                continue;
-            }
-            Err((why, false)) => {
-                let e = anyhow::anyhow!(
-                    "answer to {:?} rejected: {why} (the profile expects {points} points, format {}, byte order {})",
-                    profile.data,
-                    profile.format,
-                    profile.byte_order
-                );
-                return Err(with_queue(&mut link, err_q, e));
-            }
-        }
         let (start_us, end_us) = match &mut sim_state {
             Some((samples, starts, dur, next)) => {
                 let t0 = starts.get(taken as usize - 1).copied().unwrap_or(0.0);
@@ -972,6 +1042,15 @@ pub fn acquire(
             eprintln!("{} sweeps, {} angle samples", sum.sweeps, sum.positions);
         }
     }
+    if let Some(e) = fatal {
+        // Keep the partial scan: every record written so far is whole; end it cleanly.
+        let swept = sum.sweeps;
+        w.finish()?;
+        return Err(e.context(format!(
+            "acquisition stopped; the recording {} keeps the {swept} sweeps taken before the fault",
+            out.display()
+        )));
+    }
     if let Some((samples, _, _, next)) = &sim_state {
         for s in samples.get(*next..).unwrap_or(&[]) {
             w.write(&Record::Position {
@@ -1005,6 +1084,53 @@ pub fn acquire(
         sum.bins_closed = e.finish();
     }
     Ok(sum)
+}
+
+/// Triggers one sweep, waits for it and reads its data: `Ok(Err((why, non_finite)))` when
+/// the decoder rejected the answer, `Err` for a link failure (closed, timeout, I/O).
+fn take_sweep(
+    link: &mut Link,
+    dec: &mut Decoder,
+    sweep: &mut [Complex32],
+    profile: &Profile,
+) -> anyhow::Result<Result<(), (String, bool)>> {
+    for cmd in &profile.trigger {
+        link.send(cmd)?;
+    }
+    if let Some(q) = &profile.wait {
+        link.query(q)?;
+    }
+    link.send(&profile.data)?;
+    Ok(match dec {
+        Decoder::Block(d) => match link.read_data(d, sweep, &profile.data)? {
+            Event::Sweep { .. } => Ok(()),
+            Event::Rejected(e) => Err((
+                e.to_string(),
+                matches!(e, sweepgate::error::BlockError::NonFinite { .. }),
+            )),
+        },
+        Decoder::Ascii(d) => match link.read_data(d, sweep, &profile.data)? {
+            Event::Sweep { .. } => Ok(()),
+            Event::Rejected(e) => Err((
+                e.to_string(),
+                matches!(e, sweepgate::error::AsciiError::NonFinite { .. }),
+            )),
+        },
+    })
+}
+
+/// A new connection after a link fault, with the profile's `reconnect_setup` (default: its
+/// `setup`) sent again.
+fn reconnect(instrument: &str, profile: &Profile) -> anyhow::Result<Link> {
+    let mut link = Link::connect(instrument, profile.timeout_s)?;
+    for cmd in profile.reconnect_setup.as_ref().unwrap_or(&profile.setup) {
+        if is_query(cmd) {
+            link.query(cmd)?;
+        } else {
+            link.send(cmd)?;
+        }
+    }
+    Ok(link)
 }
 
 /// Adds the instrument's error queue entries to an error, when there is an error query.
@@ -1056,12 +1182,14 @@ pub fn run(args: Args) -> anyhow::Result<()> {
         &args.out,
     )?;
     eprintln!(
-        "wrote {} sweeps and {} angle samples to {} ({} sweeps dropped, {} malformed positioner lines)",
+        "wrote {} sweeps and {} angle samples to {} ({} sweeps dropped, {} malformed positioner lines, {} link faults, {} reconnections)",
         sum.sweeps,
         sum.positions,
         args.out.display(),
         sum.rejected,
-        sum.malformed_lines
+        sum.malformed_lines,
+        sum.link_faults,
+        sum.reconnects
     );
     if gating.is_some() {
         eprintln!("scan engine closed {} bins", sum.bins_closed);

@@ -859,7 +859,7 @@ pub fn run_read_block(args: ReadBlockArgs) -> anyhow::Result<()> {
         parse_format(&args.format)?,
         parse_order(&args.byte_order)?,
     )?;
-    let v = decode_block(&bytes, cfg)?;
+    let v = decode_block(&bytes, cfg).with_context(|| format!("in {}", args.file.display()))?;
     let json = serde_json::json!({
         "re": v.iter().map(|c| c.re).collect::<Vec<_>>(),
         "im": v.iter().map(|c| c.im).collect::<Vec<_>>(),

@@ -435,10 +435,30 @@ impl Antenna {
     }
 }
 
+/// A TOML error as one line: `line L, column C: message` (the toml crate's own display
+/// spans several lines with a snippet).
+pub(crate) fn toml_one_line(text: &str, e: &toml::de::Error) -> String {
+    let msg = e.message().trim().replace('\n', " ");
+    match e.span() {
+        Some(span) => {
+            let before = text.get(..span.start).unwrap_or(text);
+            let line = before.matches('\n').count() + 1;
+            let column = before
+                .rfind('\n')
+                .map_or(before.len(), |i| before.len() - i - 1)
+                + 1;
+            format!("line {line}, column {column}: {msg}")
+        }
+        None => msg,
+    }
+}
+
 impl Scenario {
-    /// Parses TOML text and validates it.
+    /// Parses TOML text and validates it. Errors are one line (`line L, column C: …` for
+    /// TOML syntax and field types).
     pub fn from_toml(text: &str) -> anyhow::Result<Self> {
-        let s: Scenario = toml::from_str(text)?;
+        let s: Scenario =
+            toml::from_str(text).map_err(|e| anyhow::anyhow!("{}", toml_one_line(text, &e)))?;
         s.validate()?;
         Ok(s)
     }

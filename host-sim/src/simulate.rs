@@ -1,5 +1,11 @@
-//! `sweepgate simulate --scenario FILE --out REC [--seed N]`: simulates a scan of a room
-//! scenario and writes it as a recording (see [`crate::record`]).
+//! `sweepgate simulate --scenario FILE --out REC [--seed N] [--progress-lines]`: simulates
+//! a scan of a room scenario and writes it as a recording (see [`crate::record`]).
+//!
+//! The file is written by [`Writer::create`]: every record flushed as it is written and
+//! synced to the disk by the default [`crate::record::SyncPolicy`] (every 64 records or
+//! 1 s, and at the end). With `--progress-lines`, a line `written <offset> <records>` goes
+//! to standard output after each record is flushed: the file holds `records` whole
+//! records ending at byte `offset`, which survive the process being killed.
 //!
 //! The recording holds, in order: the header (scenario, grid, sweep format), the
 //! free-space truth at every bin centre (step angle in step-and-stop) and each pattern frequency, then the
@@ -12,7 +18,7 @@ use anyhow::Context;
 use num_complex::Complex32;
 
 use crate::physics::{self, Simulator};
-use crate::record::{GridInfo, Header, Record, Writer, SWEEP_FORMAT};
+use crate::record::{GridInfo, Header, Record, SyncPolicy, Writer, SWEEP_FORMAT};
 use crate::scenario::Scenario;
 
 /// Options of `sweepgate simulate`.
@@ -27,6 +33,9 @@ pub struct Args {
     /// Seed of the noise and jitter (default: the scenario's `simulation.seed`).
     #[arg(long)]
     pub seed: Option<u64>,
+    /// Print `written <offset> <records>` on standard output after each flushed record.
+    #[arg(long)]
+    pub progress_lines: bool,
 }
 
 /// What a simulation wrote.
@@ -52,7 +61,14 @@ pub fn run(args: Args) -> anyhow::Result<()> {
         eprintln!("warning: {w}");
     }
     let seed = args.seed.unwrap_or(scenario.simulation.seed);
-    let sum = simulate_to_file(&scenario, Some(&text), seed, &args.out, true)?;
+    let sum = simulate_to_file_with(
+        &scenario,
+        Some(&text),
+        seed,
+        &args.out,
+        !args.progress_lines,
+        args.progress_lines,
+    )?;
     eprintln!(
         "wrote {} sweeps, {} positioner samples and {} truth records ({} bytes) to {}",
         sum.sweeps,
@@ -72,8 +88,25 @@ pub fn simulate_to_file(
     out: &Path,
     progress: bool,
 ) -> anyhow::Result<Summary> {
-    let file = std::fs::File::create(out).with_context(|| format!("creating {}", out.display()))?;
-    let (_, sum) = simulate_to(scenario, toml_text, seed, file, progress)
+    simulate_to_file_with(scenario, toml_text, seed, out, progress, false)
+}
+
+/// [`simulate_to_file`], and with `lines` a `written <offset> <records>` line on standard
+/// output after each flushed record.
+pub fn simulate_to_file_with(
+    scenario: &Scenario,
+    toml_text: Option<&str>,
+    seed: u64,
+    out: &Path,
+    progress: bool,
+    lines: bool,
+) -> anyhow::Result<Summary> {
+    let mut w = Writer::create(out, SyncPolicy::default())
+        .with_context(|| format!("creating {}", out.display()))?;
+    if lines {
+        w.set_on_written(|offset, records| println!("written {offset} {records}"));
+    }
+    let (_, sum) = simulate_into(scenario, toml_text, seed, w, progress)
         .with_context(|| format!("writing {}", out.display()))?;
     Ok(sum)
 }
@@ -86,10 +119,19 @@ pub fn simulate_to<W: std::io::Write>(
     out: W,
     progress: bool,
 ) -> anyhow::Result<(W, Summary)> {
+    simulate_into(scenario, toml_text, seed, Writer::new(out)?, progress)
+}
+
+fn simulate_into<W: std::io::Write>(
+    scenario: &Scenario,
+    toml_text: Option<&str>,
+    seed: u64,
+    mut w: Writer<W>,
+    progress: bool,
+) -> anyhow::Result<(W, Summary)> {
     scenario.validate()?;
     let grid = scenario.grid()?;
     let mut sim = Simulator::new(scenario, seed);
-    let mut w = Writer::new(out)?;
     let freqs = scenario.pattern_frequencies_hz();
     let header = Header {
         software: format!("sweepgate {}", env!("CARGO_PKG_VERSION")),

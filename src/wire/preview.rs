@@ -557,7 +557,9 @@ pub struct DecoderCounters {
     pub bad_body: u32,
     /// Bytes taken in.
     pub bytes: u32,
-    /// Sequence numbers skipped between consecutive good frames (frames lost on the link).
+    /// Sequence numbers skipped between consecutive good frames (frames lost on the link);
+    /// a sequence number equal to or up to 32768 behind the previous one (a duplicate, a
+    /// restarted sender) adds nothing.
     pub seq_gaps: u32,
 }
 
@@ -673,8 +675,12 @@ impl<const F: usize, const N: usize> Decoder<F, N> {
                 let c = &mut self.counters;
                 c.good = c.good.saturating_add(1);
                 if let Some(prev) = self.last_seq {
+                    // Forward distance minus one; a repeated or older sequence number (a
+                    // duplicate frame, a restarted sender) loses nothing.
                     let gap = seq.wrapping_sub(prev).wrapping_sub(1);
-                    c.seq_gaps = c.seq_gaps.saturating_add(u32::from(gap));
+                    if gap < 0x8000 {
+                        c.seq_gaps = c.seq_gaps.saturating_add(u32::from(gap));
+                    }
                 }
                 self.last_seq = Some(*seq);
             }
