@@ -42,8 +42,12 @@
 //! process. A writer on any other `Write` ([`Writer::new`]) only flushes.
 //!
 //! [`Writer::set_on_written`] gives a callback the file offset and record count after
-//! each flushed record (`sweepgate simulate --progress-lines` prints them). A reader meeting a bad record (wrong sync, impossible length, CRC
-//! mismatch, malformed payload) searches forward for the next sync whose record checks
+//! each flushed record (`sweepgate simulate --progress-lines` and
+//! `sweepgate replay --record FILE --progress-lines` print them). `simulate`, `acquire` and
+//! `replay --record` all write through [`Writer::create`].
+//!
+//! A reader meeting a bad record (wrong sync, impossible length, CRC mismatch, malformed
+//! payload) searches forward for the next sync whose record checks
 //! out, reports the skipped byte range, and goes on; at the end it says at which byte
 //! offset and why it stopped. Kinds it does not know are passed through as
 //! [`Record::Unknown`].

@@ -89,6 +89,13 @@ pub struct Args {
     /// Also serve the preview byte stream on 127.0.0.1:PORT.
     #[arg(long)]
     pub serve: Option<u16>,
+    /// Also write the records as they are replayed to this recording (crash-safe, with the
+    /// same flush and sync policy as `simulate`): a clean copy of what was recovered.
+    #[arg(long)]
+    pub record: Option<PathBuf>,
+    /// With `--record`: print `written <offset> <records>` after each record reaches the file.
+    #[arg(long, requires = "record")]
+    pub progress_lines: bool,
 }
 
 impl Args {
@@ -104,6 +111,8 @@ impl Args {
             gate_span_ns: None,
             band_window: None,
             serve: None,
+            record: None,
+            progress_lines: false,
         }
     }
 }
@@ -138,6 +147,9 @@ pub struct Setup {
     pub speed_deg_s: Option<f64>,
     /// FFT size.
     pub fft_size: usize,
+    /// Where to write the replayed records (`replay --record`), and whether to print a
+    /// progress line per record.
+    pub record_to: Option<(PathBuf, bool)>,
 }
 
 fn layout_for(h: &Header) -> anyhow::Result<BinLayout> {
@@ -348,6 +360,7 @@ pub fn setup_with(h: &Header, opts: &SetupOptions) -> anyhow::Result<Setup> {
         settle_us,
         speed_deg_s: speed,
         fft_size,
+        record_to: None,
     })
 }
 
@@ -470,7 +483,8 @@ pub fn replay_records(
     let h = rec
         .header()
         .context("the recording has no intact header record")?;
-    let s = setup(h, args)?;
+    let mut s = setup(h, args)?;
+    s.record_to = args.record.clone().map(|p| (p, args.progress_lines));
     replay_with_setup(rec, s, sink, pace, quit)
 }
 
@@ -550,6 +564,25 @@ where
     );
     let nf = setup.indices.len();
     let k = setup.grid.points();
+
+    // `--record`: the header and truth first, then each record as it is streamed.
+    let mut copy = match &setup.record_to {
+        None => None,
+        Some((path, lines)) => {
+            let mut w = record::Writer::create(path, record::SyncPolicy::default())
+                .with_context(|| format!("creating {}", path.display()))?;
+            if *lines {
+                w.set_on_written(|offset, n| println!("written {offset} {n}"));
+            }
+            for (_, r) in &rec.records {
+                if matches!(r, Record::Header(_) | Record::Truth { .. }) {
+                    w.write(r)
+                        .with_context(|| format!("writing {}", path.display()))?;
+                }
+            }
+            Some((w, path.clone()))
+        }
+    };
 
     // Records in time order: positions at their time, sweeps at their end.
     let mut order: Vec<(u64, usize)> = rec
@@ -649,6 +682,10 @@ where
             interrupted = true;
             break;
         }
+        if let (Some((w, path)), Some((_, r))) = (copy.as_mut(), rec.records.get(i)) {
+            w.write(r)
+                .with_context(|| format!("writing {}", path.display()))?;
+        }
         if let Some(p) = pace {
             let due = Duration::from_secs_f64(t_us as f64 * 1e-6 * p);
             let now = start.elapsed();
@@ -698,6 +735,10 @@ where
     let ev = scan.finish();
     take(ev, sink, &mut seq, &mut emit);
     emit(&PreviewRecord::Status(scan.status()), sink, &mut seq);
+    if let Some((w, path)) = copy {
+        w.finish()
+            .with_context(|| format!("finishing {}", path.display()))?;
+    }
     let counters = scan.counters();
 
     // Truth at each bin.

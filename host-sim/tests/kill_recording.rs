@@ -2,7 +2,8 @@
 //! SIGKILL at pseudo-random moments (fixed seed) many times; every record the process
 //! reported as written must be read back intact by `record::recover`, byte for byte equal
 //! to an uninterrupted run with the same seed, and the file may end in at most one partial
-//! record. The same for `sweepgate acquire` against a local `sweepgate instrument` (it
+//! record. The same for `sweepgate replay --record --progress-lines` (20 kills), and for
+//! `sweepgate acquire` against a local `sweepgate instrument` (it
 //! reports no progress: the file read after the kill must hold whole records in order with
 //! at most one partial record after them). The policy under test is documented in `host-sim/src/record.rs`.
 #![cfg(unix)]
@@ -36,7 +37,11 @@ impl Rng {
 
 /// The demo lab over a quarter turn (−45° to 45°), so that each run is short.
 fn scenario() -> PathBuf {
-    let p = dir().join("quarter.toml");
+    scenario_in(&dir())
+}
+
+fn scenario_in(d: &Path) -> PathBuf {
+    let p = d.join("quarter.toml");
     if !p.exists() {
         let text = std::fs::read_to_string(
             Path::new(env!("CARGO_MANIFEST_DIR")).join("scenarios/demo-lab.toml"),
@@ -58,9 +63,13 @@ fn dir() -> PathBuf {
 }
 
 fn simulate(out: &Path) -> Command {
+    simulate_with(&scenario(), out)
+}
+
+fn simulate_with(scenario: &Path, out: &Path) -> Command {
     let mut c = Command::new(env!("CARGO_BIN_EXE_sweepgate"));
     c.args(["simulate", "--seed", "7", "--progress-lines", "--scenario"])
-        .arg(scenario())
+        .arg(scenario)
         .arg("--out")
         .arg(out)
         .stdout(Stdio::piped())
@@ -78,7 +87,51 @@ fn parse_line(l: &str) -> (u64, u64) {
 
 #[test]
 fn killed_simulate_keeps_every_reported_record() {
-    let d = dir();
+    kill_many("simulate", KILLS, &dir(), &|out| simulate(out));
+}
+
+/// Kills of `replay --record` (the simulate test covers the 50).
+const REPLAY_KILLS: usize = 20;
+
+/// `replay --record`, paced (×8) so that a run lasts about a second.
+fn replay_record(input: &Path, out: &Path) -> Command {
+    let mut c = Command::new(env!("CARGO_BIN_EXE_sweepgate"));
+    c.arg("replay")
+        .arg(input)
+        .args([
+            "--speed",
+            "8",
+            "--no-preview",
+            "--progress-lines",
+            "--record",
+        ])
+        .arg(out)
+        .arg("--out")
+        .arg(out.with_extension("report"))
+        .stdout(Stdio::piped())
+        .stderr(Stdio::null());
+    c
+}
+
+#[test]
+fn killed_replay_record_keeps_every_reported_record() {
+    let d = std::env::temp_dir().join(format!("sweepgate-kill-replay-{}", std::process::id()));
+    std::fs::create_dir_all(&d).unwrap();
+    let input = d.join("input.rec");
+    assert!(simulate_with(&scenario_in(&d), &input)
+        .status()
+        .unwrap()
+        .success());
+    kill_many("replay --record", REPLAY_KILLS, &d, &|out| {
+        replay_record(&input, out)
+    });
+}
+
+/// Kills the command `cmd(out)` at pseudo-random moments until `kills` of them landed while
+/// the file was being written, and checks each file against an uninterrupted run.
+fn kill_many(what: &str, kills: usize, d: &Path, cmd: &dyn Fn(&Path) -> Command) {
+    let simulate = cmd;
+    let d = d.to_path_buf();
     // The uninterrupted run: the reference bytes.
     let full_path = d.join("full.rec");
     let t0 = std::time::Instant::now();
@@ -108,7 +161,7 @@ fn killed_simulate_keeps_every_reported_record() {
     let mut attempts = 0;
     let mut hi_ms = run_ms;
     for k in 0..MAX_ATTEMPTS {
-        if mid_file == KILLS {
+        if mid_file == kills {
             break;
         }
         attempts += 1;
@@ -176,13 +229,13 @@ fn killed_simulate_keeps_every_reported_record() {
         assert!(n <= total_records);
     }
     eprintln!(
-        "kill test: {attempts} kills; {mid_file} mid-file (reported records {min_n}..={max_n} of \
+        "kill test ({what}): {attempts} kills; {mid_file} mid-file (reported records {min_n}..={max_n} of \
          {total_records}, {partial_tail} ending in a partial record, {beyond_reported} records \
          written but not yet reported), {before_first} before the first record"
     );
     assert_eq!(
-        mid_file, KILLS,
-        "only {mid_file} of {attempts} kills landed mid-file"
+        mid_file, kills,
+        "{what}: only {mid_file} of {attempts} kills landed mid-file"
     );
     std::fs::remove_dir_all(&d).ok();
 }
