@@ -10,7 +10,14 @@ use sweepgate_host::{replay, view};
 
 /// Time-domain gating for antenna pattern scans in ordinary rooms.
 #[derive(Parser)]
-#[command(name = "sweepgate", version, about)]
+#[command(
+    name = "sweepgate",
+    version,
+    about,
+    after_help = "Caution: a transmitting antenna can exceed RF exposure limits near its aperture, and a \
+                  positioner is moving machinery. Follow local regulations and your lab's licensed \
+                  practice; sweepgate is no interlock."
+)]
 struct Cli {
     #[command(subcommand)]
     command: Command,
