@@ -346,10 +346,11 @@ impl<const M: usize, const B: usize> Bins<M, B> {
     /// Closes the open bin, if any, and calls `on_close` with the result, the bin's sum of
     /// sweeps (`[..K]` meaningful, the rest zero) and 1/count, the factor that turns the sum
     /// into the average. The sum is passed unscaled so that the caller can fold the factor
-    /// into its first pass over the data (gating is linear).
+    /// into its first pass over the data (gating is linear), and mutably so that it can gate
+    /// in place: the sum is not used again (the next bin starts from zero).
     pub fn close<R>(
         &mut self,
-        on_close: impl FnOnce(&ClosedBin, &[Complex32; M], f32) -> R,
+        on_close: impl FnOnce(&ClosedBin, &mut [Complex32; M], f32) -> R,
     ) -> Option<R> {
         let o = self.open.take()?;
         let n = o.count.max(1);
@@ -393,7 +394,7 @@ impl<const M: usize, const B: usize> Bins<M, B> {
             max_smear_deg: o.max_smear_deg,
             flags: BinFlags(f),
         };
-        Some(on_close(&closed, &self.sum, inv))
+        Some(on_close(&closed, &mut self.sum, inv))
     }
 
     /// Whether adding a sweep of bin `index` moving `direction` would first close the
@@ -419,7 +420,7 @@ impl<const M: usize, const B: usize> Bins<M, B> {
         index: u16,
         sweep: &SweepAngle,
         points: &[Complex32],
-        on_close: impl FnOnce(&ClosedBin, &[Complex32; M], f32) -> R,
+        on_close: impl FnOnce(&ClosedBin, &mut [Complex32; M], f32) -> R,
     ) -> (Result<(), SweepReject>, Option<R>) {
         if index >= self.layout.count() {
             return (Err(SweepReject::OutsideLayout), None);

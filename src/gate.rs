@@ -297,9 +297,24 @@ where
     /// level in dB.
     pub fn apply(&self, raw: &[Complex32; M], out: &mut [Complex32; M]) -> f32 {
         self.impulse_response(raw, out);
-        // Echo level and time gate in one pass over the impulse response.
+        self.gate_forward_renormalize(out)
+    }
+
+    /// FFT path in place: `buf[..K]` holds the sweep on entry and the gated spectrum on
+    /// return (`buf[K..]` zeroed); returns the echo level in dB. `scale` multiplies the input
+    /// first (for the 1/count of a sum of sweeps; the echo level, a ratio, does not change).
+    /// Needs no second M-point buffer.
+    pub fn apply_in_place(&self, buf: &mut [Complex32; M], scale: f32) -> f32 {
+        self.window(buf, scale);
+        buf.inverse();
+        self.gate_forward_renormalize(buf)
+    }
+
+    /// Steps 3–5 on an impulse response: echo level and time gate in one pass, forward FFT,
+    /// renormalization; returns the echo level.
+    fn gate_forward_renormalize(&self, buf: &mut [Complex32; M]) -> f32 {
         let (mut outside, mut total) = (0.0f32, 0.0f32);
-        for (h, &g) in out.iter_mut().zip(self.gate.iter()) {
+        for (h, &g) in buf.iter_mut().zip(self.gate.iter()) {
             let e = h.norm_sqr();
             total += e;
             if g == 0.0 {
@@ -307,9 +322,9 @@ where
             }
             *h *= g;
         }
-        out.forward();
+        buf.forward();
         let echo_db = echo_db(outside, total);
-        for (k, o) in out.iter_mut().enumerate() {
+        for (k, o) in buf.iter_mut().enumerate() {
             *o = if k < self.points {
                 *o * self.inv_renorm[k]
             } else {

@@ -462,16 +462,21 @@ where
         renormalize: true,
     };
     let t0 = c.now();
-    let gate = Gate::<M>::new(&cfg).map_err(Failure::Gate)?;
+    // Used inside the Result: moving the gate out would put a second copy on the stack.
+    let built = Gate::<M>::new(&cfg);
+    let gate = match &built {
+        Ok(g) => g,
+        Err(e) => return Err(Failure::Gate(*e)),
+    };
     let setup = c.instructions(t0, c.now());
     let mut raw = [ZERO; M];
     two_path(&grid, &mut raw);
     let mut out = [ZERO; M];
     let mut echo_db = 0.0;
     let fft_path = c.measure(|| echo_db = gate.apply(&raw, &mut out));
-    let f1 = kernel_case::<M, 1>(c, &gate, &raw, &mut out)?;
-    let f4 = kernel_case::<M, 4>(c, &gate, &raw, &mut out)?;
-    let f8 = kernel_case::<M, 8>(c, &gate, &raw, &mut out)?;
+    let f1 = kernel_case::<M, 1>(c, gate, &raw, &mut out)?;
+    let f4 = kernel_case::<M, 4>(c, gate, &raw, &mut out)?;
+    let f8 = kernel_case::<M, 8>(c, gate, &raw, &mut out)?;
     hprintln!(
         "gate M={} K={}: set-up {} | FFT path {} (echo {} dB)",
         M,
@@ -526,7 +531,8 @@ fn run(c: &Counter) -> Result<(), Failure> {
     }
     capture_case(c)?;
     hprintln!(
-        "memory: peak stack of the board loop (Scan<1024, 8, 361> on the stack) {} bytes",
+        "memory: peak stack of the board loop (Scan<1024, 8, 361>, {} bytes, on the stack) {} bytes",
+        core::mem::size_of::<BoardScan>(),
         stack::peak()
     );
     Ok(())
