@@ -161,36 +161,23 @@ fn still_positioner() -> Positioner {
     }
 }
 
-/// One line: `toml` errors carry a multi-line snippet, this keeps the message and position.
-fn toml_error(text: &str, e: &toml::de::Error) -> String {
-    let msg = e.message().trim().replace('\n', " ");
-    match e.span() {
-        Some(span) => {
-            let before = text.get(..span.start).unwrap_or(text);
-            let line = before.matches('\n').count() + 1;
-            let column = before
-                .rfind('\n')
-                .map_or(before.len(), |i| before.len() - i - 1)
-                + 1;
-            format!("line {line}, column {column}: {msg}")
-        }
-        None => msg,
-    }
-}
-
 /// Parses scenario or plan-file text (`origin` names it in errors). Errors are one line.
 pub fn parse_plan_source(text: &str, origin: &str) -> anyhow::Result<PlanSource> {
-    let table: toml::Table = toml::from_str(text)
-        .map_err(|e| anyhow!("{origin}: not valid TOML: {}", toml_error(text, &e)))?;
+    let table: toml::Table = toml::from_str(text).map_err(|e| {
+        anyhow!(
+            "{origin}: not valid TOML: {}",
+            crate::scenario::toml_one_line(text, &e)
+        )
+    })?;
     let (scenario, kind) = if table.contains_key("positioner") {
-        let s: Scenario =
-            toml::from_str(text).map_err(|e| anyhow!("{origin}: {}", toml_error(text, &e)))?;
+        let s: Scenario = toml::from_str(text)
+            .map_err(|e| anyhow!("{origin}: {}", crate::scenario::toml_one_line(text, &e)))?;
         (s, FileKind::Scenario)
     } else {
         let p: PlanFile = toml::from_str(text).map_err(|e| {
             anyhow!(
                 "{origin}: {} (a plan file holds sweep, range, planes, scatterers, aut, pattern and plan; a scenario also needs positioner)",
-                toml_error(text, &e)
+                crate::scenario::toml_one_line(text, &e)
             )
         })?;
         let s = Scenario {
