@@ -12,7 +12,6 @@ use sweepgate::bins::BinLayout;
 use sweepgate::gate::GateConfig;
 use sweepgate::grid::Grid;
 use sweepgate::scan::{EchoMode, Event, Scan, ScanConfig, ScanCounters};
-use sweepgate::window::WindowKind;
 use sweepgate::wire::block::{
     emit, BlockConfig, BlockDecoder, ByteOrder, Event as BlockEvent, Format,
 };
@@ -61,10 +60,11 @@ pub fn header_for(
     Ok(CaptureHeader {
         gate: GateConfig {
             grid,
-            band_window: WindowKind::Kaiser { beta: 6.0 },
+            // The same windows as `plan` (which chose the gate) and `replay`.
+            band_window: crate::options::default_band_window(),
             center_s,
             span_s,
-            shape: WindowKind::Tukey { alpha: 0.5 },
+            shape: crate::replay::GATE_SHAPE,
             renormalize: true,
         },
         layout,

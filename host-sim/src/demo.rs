@@ -99,7 +99,7 @@ pub fn compute(floor_reflection: f64, gate_span_ns: Option<f64>) -> anyhow::Resu
     // Spherical spreading: amplitude falls as 1/path length.
     let echo_ratio = floor_reflection * direct_m / bounce_m;
 
-    let band_window = WindowKind::kaiser_for_sidelobe_db(50.0);
+    let band_window = sweepgate_host::options::default_band_window();
     let mainlobe_s = band_window.mainlobe_width() / grid.span_hz();
     let span_s = gate_span_ns.map_or(excess_delay_s, |ns| ns * 1e-9);
     let cfg = GateConfig {

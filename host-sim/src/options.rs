@@ -26,10 +26,12 @@ use sweepgate::window::WindowKind;
 pub const DEFAULT_KAISER_BETA: f32 = 6.0;
 /// Tukey α when `tukey` is given without a value.
 pub const DEFAULT_TUKEY_ALPHA: f32 = 0.5;
-/// The band window commands use when none is given.
-pub const DEFAULT_BAND_WINDOW: WindowKind = WindowKind::Kaiser {
-    beta: DEFAULT_KAISER_BETA,
-};
+/// The band window every command (`plan`, `replay`, `process`, `demo`) uses when none is
+/// given: a Kaiser window for 50 dB sidelobes (β = 6.851 by Kaiser & Schafer 1980), so that
+/// the gate `plan` recommends is the gate the other commands apply.
+pub fn default_band_window() -> WindowKind {
+    WindowKind::kaiser_for_sidelobe_db(50.0)
+}
 
 /// What `parse_window` accepts, for error messages and `--help`.
 pub const WINDOW_SPELLINGS: &str =
@@ -50,7 +52,9 @@ pub fn parse_window(text: &str) -> Result<WindowKind, String> {
             .ok_or_else(|| format!("window `{text}`: {what} `{v}` is not a number"))
     };
     let kind = match (name, value) {
-        ("kaiser", None) => DEFAULT_BAND_WINDOW,
+        ("kaiser", None) => WindowKind::Kaiser {
+            beta: DEFAULT_KAISER_BETA,
+        },
         ("kaiser", Some(v)) => WindowKind::Kaiser {
             beta: number(v, "beta")?,
         },
@@ -129,7 +133,12 @@ mod tests {
         ] {
             assert_eq!(parse_window(&format_window(&k)), Ok(k));
         }
-        assert_eq!(parse_window(" Kaiser "), Ok(DEFAULT_BAND_WINDOW));
+        assert_eq!(
+            parse_window(" Kaiser "),
+            Ok(WindowKind::Kaiser {
+                beta: DEFAULT_KAISER_BETA
+            })
+        );
         assert_eq!(
             parse_window("tukey"),
             Ok(WindowKind::Tukey {

@@ -18,7 +18,8 @@
 //!   D₀ = 2(n + 1) for cos^n; Balanis, Antenna Theory, directivity of cos^n patterns).
 //! - fractional bandwidth: `--fractional-bandwidth`, else `[plan] aut_fractional_bandwidth`,
 //!   else no ring-down check;
-//! - band window: `--band-window`, else `[plan] band_window`, else `kaiser:6`;
+//! - band window: `--band-window`, else `[plan] band_window`, else a Kaiser window for 50 dB
+//!   sidelobes (`options::default_band_window`, the same as `replay` and `process`);
 //! - bin step: `[pattern] bin_width_deg` (1° when absent); sweep duration and cable delay
 //!   from `[sweep]` and `[range]`;
 //! - rotation speed: `--rotation-deg-s`, else the positioner's top speed in continuous mode;
@@ -54,7 +55,7 @@ use sweepgate::plan::{
 };
 use sweepgate::window::WindowKind;
 
-use crate::options::{format_window, parse_window, DEFAULT_BAND_WINDOW};
+use crate::options::{default_band_window, format_window, parse_window};
 use crate::scenario::{
     Antenna, Mode, Pattern, PlanSettings, PlaneSpec, Positioner, Range, Scatterer, Scenario, Sweep,
 };
@@ -543,7 +544,7 @@ pub fn plan_report(
     let band_window = match (overrides.band_window, &s.plan.band_window) {
         (Some(w), _) => w,
         (None, Some(text)) => parse_window(text).map_err(|e| anyhow!("{origin}: {e}"))?,
-        (None, None) => DEFAULT_BAND_WINDOW,
+        (None, None) => default_band_window(),
     };
     let fbw = overrides
         .fractional_bandwidth

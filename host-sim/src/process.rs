@@ -329,7 +329,7 @@ pub fn resolve(args: &Args) -> anyhow::Result<Resolved> {
         &args.band_window,
         &file.band_window,
         "band-window",
-        WindowKind::kaiser_for_sidelobe_db(50.0),
+        crate::options::default_band_window(),
     )?;
     let gate_shape = window(
         &args.gate_shape,

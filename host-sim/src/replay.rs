@@ -209,7 +209,7 @@ pub fn setup(h: &Header, args: &Args) -> anyhow::Result<Setup> {
         Some(s) => {
             crate::options::parse_window(s).map_err(|e| anyhow::anyhow!("--band-window: {e}"))?
         }
-        None => WindowKind::kaiser_for_sidelobe_db(50.0),
+        None => crate::options::default_band_window(),
     };
     let opts = SetupOptions {
         band_window,
