@@ -1,4 +1,5 @@
-//! Errors of the `wire` boundary: the VNA link decoders and the block encoder.
+//! Errors of the `wire` boundary: the VNA link decoders, the block encoder, preview frames and
+//! link captures.
 
 use core::fmt;
 
@@ -228,3 +229,63 @@ impl fmt::Display for CaptureError {
 }
 
 impl core::error::Error for CaptureError {}
+
+/// Why a preview record could not be written.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum EmitError {
+    /// The output buffer is too small for the record or its frame.
+    BufferFull,
+    /// A bin record carries more frequencies than [`crate::wire::preview::MAX_FREQUENCIES`].
+    TooManyFrequencies,
+}
+
+impl fmt::Display for EmitError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            Self::BufferFull => "output buffer too small for the preview record",
+            Self::TooManyFrequencies => "bin record carries too many frequencies",
+        })
+    }
+}
+
+impl core::error::Error for EmitError {}
+
+/// Why a preview frame was dropped by the decoder. Each is counted.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum FrameError {
+    /// The frame was longer than the decoder's buffer.
+    TooLong,
+    /// The COBS encoding is broken (a code byte points past the frame end).
+    Cobs,
+    /// The frame is shorter than a header and CRC.
+    TooShort,
+    /// The CRC-32 does not match.
+    Crc,
+    /// The record kind byte is unknown.
+    UnknownKind(u8),
+    /// The record version is not one this decoder reads.
+    UnknownVersion(u8),
+    /// The record body has the wrong length for its kind.
+    BadLength,
+    /// A field holds an impossible value (e.g. more frequencies than the receiver holds).
+    BadField,
+}
+
+impl fmt::Display for FrameError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            Self::TooLong => f.write_str("preview frame longer than the decoder buffer"),
+            Self::Cobs => f.write_str("preview frame has a broken COBS encoding"),
+            Self::TooShort => f.write_str("preview frame too short for header and CRC"),
+            Self::Crc => f.write_str("preview frame CRC-32 mismatch"),
+            Self::UnknownKind(k) => write!(f, "unknown preview record kind {k}"),
+            Self::UnknownVersion(v) => write!(f, "unknown preview record version {v}"),
+            Self::BadLength => f.write_str("preview record body has the wrong length"),
+            Self::BadField => f.write_str("preview record field holds an impossible value"),
+        }
+    }
+}
+
+impl core::error::Error for FrameError {}
