@@ -1,6 +1,4 @@
-//! Errors of the `scan` boundary: positioner tracking, bin layout, the scan engine and the
-//! preview records it sends.
-
+//! Errors of the `scan` boundary: positioner tracking, bin layout and the scan engine.
 use core::fmt;
 
 use super::GateError;
