@@ -1,4 +1,5 @@
 //! Errors of the `scan` boundary: positioner tracking, bin layout and the scan engine.
+
 use core::fmt;
 
 use super::GateError;
