@@ -1,4 +1,4 @@
-//! Link captures for the emulated board (see `sweepgate_host::capture`).
+//! Link captures for the emulated board (see `sweepgate_host::pipeline::capture`).
 //!
 //! ```text
 //! cargo run --release -p sweepgate-host --example capture -- make REC CAPTURE [--echo never|every]
@@ -12,9 +12,9 @@
 
 use anyhow::{bail, Context};
 use sweepgate::scan::EchoMode;
-use sweepgate_host::capture;
-use sweepgate_host::plan_cmd::{parse_plan_source, plan_report, Overrides};
-use sweepgate_host::record::recover_file;
+use sweepgate_host::formats::recording::recover_file;
+use sweepgate_host::pipeline::capture;
+use sweepgate_host::pipeline::plan::{parse_plan_source, plan_report, Overrides};
 
 fn main() {
     if let Err(e) = run() {

@@ -5,20 +5,9 @@
 #![forbid(unsafe_code)]
 #![warn(missing_docs)]
 
-pub mod acquire;
-pub mod capture;
-pub mod gain;
-pub mod instrument;
-pub mod manifest;
-pub mod options;
-pub mod physics;
-pub mod plan_cmd;
-pub mod preview;
-pub mod process;
-pub mod record;
-pub mod replay;
-pub mod report;
-pub mod scenario;
-pub mod simulate;
-pub mod touchstone;
-pub mod view;
+pub mod cli;
+pub mod formats;
+pub mod link;
+pub mod model;
+pub mod output;
+pub mod pipeline;

@@ -2,11 +2,9 @@
 
 use clap::{Parser, Subcommand};
 
-mod demo;
-
-use sweepgate_host::simulate;
-use sweepgate_host::{acquire, instrument};
-use sweepgate_host::{replay, view};
+use sweepgate_host::cli::demo;
+use sweepgate_host::link::{acquire, instrument, view};
+use sweepgate_host::pipeline::{replay, simulate};
 
 /// Time-domain gating for antenna pattern scans in ordinary rooms.
 #[derive(Parser)]
@@ -30,7 +28,7 @@ enum Command {
     /// Simulate a scan of a room scenario and write it as a recording.
     Simulate(simulate::Args),
     /// Plan a gated measurement from a scenario or plan file: far field, echoes, gate, speed.
-    Plan(sweepgate_host::plan_cmd::Args),
+    Plan(sweepgate_host::pipeline::plan::Args),
     /// Run a simulated VNA on a TCP port, answering SCPI queries.
     Instrument(instrument::Args),
     /// Decode one IEEE 488.2 block from a file and print its values as JSON.
@@ -40,7 +38,7 @@ enum Command {
     /// Replay a recording through the scan engine with a live preview, and write the report.
     Replay(replay::Args),
     /// Gate saved sweeps (a manifest of Touchstone files or a recording) and write the report.
-    Process(sweepgate_host::process::Args),
+    Process(sweepgate_host::pipeline::process::Args),
     /// Show a board's preview stream (TCP HOST:PORT, or a serial device or file).
     View(view::Args),
 }
@@ -50,13 +48,13 @@ fn main() {
     let result = match cli.command {
         Command::Demo(a) => demo::run(a),
         Command::Simulate(a) => simulate::run(a),
-        Command::Plan(a) => sweepgate_host::plan_cmd::run(a),
+        Command::Plan(a) => sweepgate_host::pipeline::plan::run(a),
         Command::Instrument(a) => instrument::run(a),
         Command::ReadBlock(a) => instrument::run_read_block(a),
         Command::Acquire(a) => acquire::run(a),
         Command::Replay(a) => replay::run(a),
         Command::View(a) => view::run(a),
-        Command::Process(a) => sweepgate_host::process::run(a),
+        Command::Process(a) => sweepgate_host::pipeline::process::run(a),
     };
     if let Err(e) = result {
         eprintln!("error: {e:#}");

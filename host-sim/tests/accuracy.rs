@@ -6,11 +6,11 @@
 use std::path::PathBuf;
 use std::sync::atomic::AtomicBool;
 
-use sweepgate_host::record::recover_file;
-use sweepgate_host::replay::{replay_records, Args};
-use sweepgate_host::report::db;
-use sweepgate_host::scenario::Scenario;
-use sweepgate_host::simulate::simulate_to_file;
+use sweepgate_host::formats::recording::recover_file;
+use sweepgate_host::model::scenario::Scenario;
+use sweepgate_host::output::report::db;
+use sweepgate_host::pipeline::replay::{replay_records, Args};
+use sweepgate_host::pipeline::simulate::simulate_to_file;
 
 struct Figures {
     gated_10: f64,

@@ -12,13 +12,13 @@ use std::panic::{catch_unwind, AssertUnwindSafe};
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
-use sweepgate_host::acquire::{parse_angle_line, Profile};
-use sweepgate_host::gain::GainTable;
-use sweepgate_host::manifest::{Manifest, ManifestErrorKind};
-use sweepgate_host::plan_cmd::parse_plan_source;
-use sweepgate_host::record::{recover, Fault, Record, Stop, Writer};
-use sweepgate_host::scenario::Scenario;
-use sweepgate_host::touchstone::{Touchstone, TouchstoneErrorKind as TK};
+use sweepgate_host::formats::gain_table::GainTable;
+use sweepgate_host::formats::manifest::{Manifest, ManifestErrorKind};
+use sweepgate_host::formats::recording::{recover, Fault, Record, Stop, Writer};
+use sweepgate_host::formats::touchstone::{Touchstone, TouchstoneErrorKind as TK};
+use sweepgate_host::link::acquire::{parse_angle_line, Profile};
+use sweepgate_host::model::scenario::Scenario;
+use sweepgate_host::pipeline::plan::parse_plan_source;
 
 type Case = (&'static str, Box<dyn Fn() -> Result<(), String>>);
 
@@ -101,7 +101,7 @@ fn recording() -> (Vec<u8>, Vec<u64>) {
 
 fn rec_case(
     edit: fn(&mut Vec<u8>, &[u64]),
-    want: fn(&sweepgate_host::record::Recovered, &[u64]) -> bool,
+    want: fn(&sweepgate_host::formats::recording::Recovered, &[u64]) -> bool,
     names: fn(&[u64]) -> Vec<String>,
 ) -> Box<dyn Fn() -> Result<(), String>> {
     Box::new(move || {
@@ -117,7 +117,7 @@ fn rec_case(
     })
 }
 
-fn sweeps(r: &sweepgate_host::record::Recovered) -> usize {
+fn sweeps(r: &sweepgate_host::formats::recording::Recovered) -> usize {
     r.records
         .iter()
         .filter(|(_, x)| matches!(x, Record::Sweep { .. }))

@@ -6,9 +6,9 @@ use std::f64::consts::PI;
 use std::path::PathBuf;
 
 use sweepgate::plan::SPEED_OF_LIGHT_M_S as C;
-use sweepgate_host::gain::{pattern_gain_dbi_from_s21, GainTable};
-use sweepgate_host::physics::Room;
-use sweepgate_host::scenario::Scenario;
+use sweepgate_host::formats::gain_table::{pattern_gain_dbi_from_s21, GainTable};
+use sweepgate_host::model::physics::Room;
+use sweepgate_host::model::scenario::Scenario;
 
 /// The same range and probe, with `aut` (a TOML `[aut]` body) on the turntable.
 fn set_up(aut: &str) -> Room {

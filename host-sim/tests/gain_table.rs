@@ -1,7 +1,7 @@
 //! The reference gain table reader: what it accepts, and errors that name file and line.
 
 use sweepgate::error::GainError;
-use sweepgate_host::gain::GainTable;
+use sweepgate_host::formats::gain_table::GainTable;
 
 #[test]
 fn reads_a_table_with_comments_and_interpolates() {

@@ -246,7 +246,7 @@ fn clients_share_one_instrument() {
 fn a_scenario_file_sets_the_grid() {
     let s = concat!(env!("CARGO_MANIFEST_DIR"), "/scenarios/workshop-bay.toml");
     let text = std::fs::read_to_string(s).unwrap();
-    let sc = sweepgate_host::scenario::Scenario::from_toml(&text).unwrap();
+    let sc = sweepgate_host::model::scenario::Scenario::from_toml(&text).unwrap();
     let inst = start("scenario", &["--scenario", s]);
     let mut c = Client::connect(&inst.addr);
     assert_eq!(c.query("SWE:POIN?"), sc.sweep.points.to_string());

@@ -13,7 +13,7 @@ use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 use std::sync::Arc;
 use std::time::Duration;
 
-use sweepgate_host::record::{recover, Record, Stop};
+use sweepgate_host::formats::recording::{recover, Record, Stop};
 
 const POINTS: usize = 5;
 

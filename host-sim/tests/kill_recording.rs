@@ -13,7 +13,7 @@ use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 use std::time::Duration;
 
-use sweepgate_host::record::{recover, Fault, Record, Stop};
+use sweepgate_host::formats::recording::{recover, Fault, Record, Stop};
 
 #[path = "instrument_support/mod.rs"]
 mod support;
@@ -47,7 +47,7 @@ fn scenario_in(d: &Path) -> PathBuf {
             Path::new(env!("CARGO_MANIFEST_DIR")).join("scenarios/demo-lab.toml"),
         )
         .unwrap();
-        let mut s = sweepgate_host::scenario::Scenario::from_toml(&text).unwrap();
+        let mut s = sweepgate_host::model::scenario::Scenario::from_toml(&text).unwrap();
         s.positioner.start_deg = -45.0;
         s.positioner.stop_deg = 45.0;
         s.validate().unwrap();

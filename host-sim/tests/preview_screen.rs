@@ -10,10 +10,10 @@ use sweepgate::wire::preview::{
     encode_frame, BinRecord, FreqValue, PositionerState, Record, StatusRecord, MAX_FRAME,
 };
 use sweepgate::Complex32;
-use sweepgate_host::preview::{draw, Screen, PREVIEW_F};
-use sweepgate_host::replay::{replay_records, Args};
-use sweepgate_host::scenario::Scenario;
-use sweepgate_host::simulate::simulate_to;
+use sweepgate_host::model::scenario::Scenario;
+use sweepgate_host::output::screen::{draw, Screen, PREVIEW_F};
+use sweepgate_host::pipeline::replay::{replay_records, Args};
+use sweepgate_host::pipeline::simulate::simulate_to;
 
 fn text_of(term: &Terminal<TestBackend>) -> String {
     let buf = term.backend().buffer();
@@ -112,7 +112,7 @@ fn replayed_scan_fills_the_screen_from_its_byte_stream() {
     s.positioner.start_deg = -20.0;
     s.positioner.stop_deg = 20.0;
     let (bytes, _) = simulate_to(&s, None, 3, Vec::new(), false).unwrap();
-    let rec = sweepgate_host::record::recover(&bytes);
+    let rec = sweepgate_host::formats::recording::recover(&bytes);
     let mut stream = Vec::new();
     let o = replay_records(
         &rec,

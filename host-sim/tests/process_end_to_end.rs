@@ -7,13 +7,13 @@ use std::path::{Path, PathBuf};
 use std::process::Command;
 use std::sync::atomic::AtomicBool;
 
-use sweepgate_host::process::{self, Input, Origin, Resolved};
-use sweepgate_host::record::{recover, Record, Recovered};
-use sweepgate_host::replay::{self, replay_records};
-use sweepgate_host::report::{db, ReportBin};
-use sweepgate_host::scenario::Scenario;
-use sweepgate_host::simulate::simulate_to;
-use sweepgate_host::touchstone::Spacing;
+use sweepgate_host::formats::recording::{recover, Record, Recovered};
+use sweepgate_host::formats::touchstone::Spacing;
+use sweepgate_host::model::scenario::Scenario;
+use sweepgate_host::output::report::{db, ReportBin};
+use sweepgate_host::pipeline::process::{self, Input, Origin, Resolved};
+use sweepgate_host::pipeline::replay::{self, replay_records};
+use sweepgate_host::pipeline::simulate::simulate_to;
 
 /// The workshop bay cut to seven stops, −6°…6° in 2° steps, one sweep per stop.
 fn short_bay() -> Scenario {
@@ -287,7 +287,7 @@ fn the_command_writes_pattern_csv_at_grid_frequencies() {
 
 #[test]
 fn a_recording_without_scenario_is_gated_on_its_impulse_response_peak() {
-    use sweepgate_host::record::Writer;
+    use sweepgate_host::formats::recording::Writer;
     let (bytes, _) = simulate_to(&short_lab(), None, 1, Vec::new(), false).unwrap();
     let rec = recover(&bytes);
     let mut w = Writer::new(Vec::new()).unwrap();
@@ -333,7 +333,7 @@ fn gain_by_substitution_gives_the_aut_gain_in_dbi() {
     // AUT, n = 4, is 10.000 dBi at boresight. Both are measured in the same (reflective) bay
     // and gated alike; gain transfer G_AUT = G_ref + P_AUT − P_ref (common practice, no
     // source) must give the AUT's gain within 0.05 dB.
-    use sweepgate_host::scenario::Antenna;
+    use sweepgate_host::model::scenario::Antenna;
     let dir = tempfile::tempdir().unwrap();
     let mut aut = short_bay();
     aut.aut = Antenna::CosPower { n: 4.0 };

@@ -3,10 +3,10 @@
 use std::path::PathBuf;
 
 use sweepgate::window::WindowKind;
-use sweepgate_host::process::{
+use sweepgate_host::formats::touchstone::{Parameter, Spacing};
+use sweepgate_host::pipeline::process::{
     detect, parse_frequencies, resolve, Args, Input, Origin, SettingsFile,
 };
-use sweepgate_host::touchstone::{Parameter, Spacing};
 
 fn args_for(input: &str) -> Args {
     Args {
@@ -100,7 +100,7 @@ fn defaults_match_replay() {
     let r = resolve(&args_for("scan.csv")).unwrap();
     // replay's defaults: Kaiser for 50 dB sidelobes, Tukey α = 0.3 gate, no gate given.
     assert_eq!(r.band_window, WindowKind::kaiser_for_sidelobe_db(50.0));
-    assert_eq!(r.gate_shape, sweepgate_host::replay::GATE_SHAPE);
+    assert_eq!(r.gate_shape, sweepgate_host::pipeline::replay::GATE_SHAPE);
     assert_eq!(r.center_ns, None);
     assert_eq!(r.parameter, None);
     assert_eq!(r.spacing, Spacing::RequireUniform);

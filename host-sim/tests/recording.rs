@@ -1,10 +1,10 @@
 //! Recordings survive truncation and damage: every intact record is read back, and the
 //! reader says where and why it stopped.
 
-use sweepgate_host::physics::Noise;
-use sweepgate_host::record::{recover, Fault, Record, Stop, FILE_HEADER_LEN};
-use sweepgate_host::scenario::Scenario;
-use sweepgate_host::simulate::simulate_to;
+use sweepgate_host::formats::recording::{recover, Fault, Record, Stop, FILE_HEADER_LEN};
+use sweepgate_host::model::physics::Noise;
+use sweepgate_host::model::scenario::Scenario;
+use sweepgate_host::pipeline::simulate::simulate_to;
 
 /// A short, small simulated recording (demo lab, ±3°, 21 points).
 fn small_recording() -> Vec<u8> {

@@ -6,11 +6,11 @@ use std::path::Path;
 use std::process::Command;
 use std::sync::atomic::AtomicBool;
 
-use sweepgate_host::record::recover;
-use sweepgate_host::replay::{replay_records, setup, Args};
-use sweepgate_host::scenario::Scenario;
-use sweepgate_host::simulate::simulate_to;
-use sweepgate_host::view;
+use sweepgate_host::formats::recording::recover;
+use sweepgate_host::link::view;
+use sweepgate_host::model::scenario::Scenario;
+use sweepgate_host::pipeline::replay::{replay_records, setup, Args};
+use sweepgate_host::pipeline::simulate::simulate_to;
 
 fn short_lab() -> Scenario {
     let mut s = Scenario::from_toml(include_str!("../scenarios/demo-lab.toml")).unwrap();

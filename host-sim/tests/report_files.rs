@@ -4,7 +4,7 @@
 use num_complex::Complex64;
 use serde_json::json;
 use sweepgate::bins::BinFlags;
-use sweepgate_host::report::{
+use sweepgate_host::output::report::{
     flag_words, pattern_csv, write_report, ImpulseView, ReportBin, ReportInput, ReportValue,
 };
 

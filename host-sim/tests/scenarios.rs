@@ -2,9 +2,9 @@
 
 use std::path::PathBuf;
 
-use sweepgate_host::record::{recover, Record, Stop};
-use sweepgate_host::scenario::{Mode, Scenario};
-use sweepgate_host::simulate::{simulate_to, simulate_to_file};
+use sweepgate_host::formats::recording::{recover, Record, Stop};
+use sweepgate_host::model::scenario::{Mode, Scenario};
+use sweepgate_host::pipeline::simulate::{simulate_to, simulate_to_file};
 
 fn shipped() -> Vec<PathBuf> {
     let dir = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("scenarios");

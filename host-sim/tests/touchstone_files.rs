@@ -5,7 +5,9 @@
 use std::path::PathBuf;
 
 use num_complex::Complex64;
-use sweepgate_host::touchstone::{Parameter, Spacing, Touchstone, TouchstoneErrorKind, Version};
+use sweepgate_host::formats::touchstone::{
+    Parameter, Spacing, Touchstone, TouchstoneErrorKind, Version,
+};
 
 struct Dir(PathBuf);
 

@@ -13,7 +13,7 @@ use std::path::{Path, PathBuf};
 
 use num_complex::Complex64;
 use serde::Deserialize;
-use sweepgate_host::touchstone::{Parameter, Spacing, Touchstone};
+use sweepgate_host::formats::touchstone::{Parameter, Spacing, Touchstone};
 
 /// Relative agreement required (the acceptance criterion of the Touchstone issue).
 const RELATIVE: f64 = 1e-9;

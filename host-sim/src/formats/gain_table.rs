@@ -12,7 +12,7 @@
 //! are interpolated linearly in dB between rows and never extrapolated.
 //!
 //! ```
-//! use sweepgate_host::gain::{pattern_gain_dbi, GainTable};
+//! use sweepgate_host::formats::gain_table::{pattern_gain_dbi, GainTable};
 //! let table = GainTable::parse("frequency_hz,gain_dbi\n8e9,15.0\n12e9,17.0\n", "horn.csv").unwrap();
 //! // Reference measured at −40 dB, the AUT's cut at −43…−37 dB: the AUT is 3 dB below to 3 dB
 //! // above the reference's 16 dBi at 10 GHz.

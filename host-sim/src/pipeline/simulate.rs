@@ -1,8 +1,8 @@
 //! `sweepgate simulate --scenario FILE --out REC [--seed N] [--progress-lines]`: simulates
-//! a scan of a room scenario and writes it as a recording (see [`crate::record`]).
+//! a scan of a room scenario and writes it as a recording (see [`crate::formats::recording`]).
 //!
 //! The file is written by [`Writer::create`]: every record flushed as it is written and
-//! synced to the disk by the default [`crate::record::SyncPolicy`] (every 64 records or
+//! synced to the disk by the default [`crate::formats::recording::SyncPolicy`] (every 64 records or
 //! 1 s, and at the end). With `--progress-lines`, a line `written <offset> <records>` goes
 //! to standard output after each record is flushed: the file holds `records` whole
 //! records ending at byte `offset`, which survive the process being killed.
@@ -17,9 +17,9 @@ use std::path::{Path, PathBuf};
 use anyhow::Context;
 use num_complex::Complex32;
 
-use crate::physics::{self, Simulator};
-use crate::record::{GridInfo, Header, Record, SyncPolicy, Writer, SWEEP_FORMAT};
-use crate::scenario::Scenario;
+use crate::formats::recording::{GridInfo, Header, Record, SyncPolicy, Writer, SWEEP_FORMAT};
+use crate::model::physics::{self, Simulator};
+use crate::model::scenario::Scenario;
 
 /// Options of `sweepgate simulate`.
 #[derive(clap::Args, Debug)]

@@ -14,7 +14,7 @@
 //!
 //! ```
 //! use sweepgate::window::WindowKind;
-//! use sweepgate_host::options::{format_window, parse_window};
+//! use sweepgate_host::pipeline::options::{format_window, parse_window};
 //! assert_eq!(parse_window("kaiser:6"), Ok(WindowKind::Kaiser { beta: 6.0 }));
 //! assert_eq!(format_window(&WindowKind::Tukey { alpha: 0.25 }), "tukey:0.25");
 //! assert!(parse_window("kaiser:99").is_err());

@@ -10,7 +10,7 @@ use std::time::Duration;
 
 use anyhow::Context;
 
-use crate::preview::{self, Feed, Screen};
+use crate::output::screen::{self as preview, Feed, Screen};
 
 /// Options of `sweepgate view`.
 #[derive(clap::Args, Debug, Clone)]

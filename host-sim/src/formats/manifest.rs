@@ -16,8 +16,8 @@
 //! writes them).
 //!
 //! ```
-//! use sweepgate_host::manifest::Manifest;
-//! use sweepgate_host::touchstone::Spacing;
+//! use sweepgate_host::formats::manifest::Manifest;
+//! use sweepgate_host::formats::touchstone::Spacing;
 //! let dir = std::env::temp_dir().join(format!("sweepgate-manifest-doc-{}", std::process::id()));
 //! std::fs::create_dir_all(&dir).unwrap();
 //! for (name, s21) in [("a.s2p", "0.5 0"), ("b.s2p", "0.25 0")] {
@@ -40,7 +40,7 @@ use std::path::{Path, PathBuf};
 use sweepgate::grid::Grid;
 use sweepgate::Complex32;
 
-use crate::touchstone::{
+use crate::formats::touchstone::{
     Parameter, Spacing, Touchstone, TouchstoneError, UNIFORM_TOLERANCE_OF_STEP,
 };
 

@@ -3,7 +3,7 @@
 //! the core planner's input ([`sweepgate::plan::PlanInput`]), runs [`sweepgate::plan::plan`]
 //! and prints a readable table or JSON.
 //!
-//! Two kinds of file are read, with the same section structs as [`crate::scenario`]:
+//! Two kinds of file are read, with the same section structs as [`crate::model::scenario`]:
 //! - a whole scenario (it has a `[positioner]` section);
 //! - a plan file: only `[sweep]`, `[range]`, `[[planes]]`, `[[scatterers]]`, and the AUT
 //!   size (`[plan] aut_size_m`, or an `[aut]` model); `[pattern] bin_width_deg` is read too.
@@ -25,7 +25,7 @@
 //! - rotation speed: `--rotation-deg-s`, else the positioner's top speed in continuous mode;
 //!   step mode and plan files have none (the turntable stands still during sweeps);
 //! - scatterers' reflection: the echo's field relative to the direct path between isotropic
-//!   antennas, √(σ/4π)·R/(r₁·r₂) (radar equation, as in [`crate::physics`]).
+//!   antennas, √(σ/4π)·R/(r₁·r₂) (radar equation, as in [`crate::model::physics`]).
 //!
 //! Findings are warnings: the command fails only when the file cannot be read or planned.
 //!
@@ -55,10 +55,10 @@ use sweepgate::plan::{
 };
 use sweepgate::window::WindowKind;
 
-use crate::options::{default_band_window, format_window, parse_window};
-use crate::scenario::{
+use crate::model::scenario::{
     Antenna, Mode, Pattern, PlanSettings, PlaneSpec, Positioner, Range, Scatterer, Scenario, Sweep,
 };
+use crate::pipeline::options::{default_band_window, format_window, parse_window};
 
 /// The cautions every plan carries, one sentence each.
 pub const CAUTIONS: [&str; 3] = [
@@ -167,18 +167,22 @@ pub fn parse_plan_source(text: &str, origin: &str) -> anyhow::Result<PlanSource>
     let table: toml::Table = toml::from_str(text).map_err(|e| {
         anyhow!(
             "{origin}: not valid TOML: {}",
-            crate::scenario::toml_one_line(text, &e)
+            crate::model::scenario::toml_one_line(text, &e)
         )
     })?;
     let (scenario, kind) = if table.contains_key("positioner") {
-        let s: Scenario = toml::from_str(text)
-            .map_err(|e| anyhow!("{origin}: {}", crate::scenario::toml_one_line(text, &e)))?;
+        let s: Scenario = toml::from_str(text).map_err(|e| {
+            anyhow!(
+                "{origin}: {}",
+                crate::model::scenario::toml_one_line(text, &e)
+            )
+        })?;
         (s, FileKind::Scenario)
     } else {
         let p: PlanFile = toml::from_str(text).map_err(|e| {
             anyhow!(
                 "{origin}: {} (a plan file holds sweep, range, planes, scatterers, aut, pattern and plan; a scenario also needs positioner)",
-                crate::scenario::toml_one_line(text, &e)
+                crate::model::scenario::toml_one_line(text, &e)
             )
         })?;
         let s = Scenario {

@@ -12,7 +12,7 @@
 //! instrument state, as with a real instrument. `--once` stops after the first client
 //! disconnects.
 //!
-//! Its sweeps come from a room scenario (`--scenario`, see [`crate::scenario`]) or, when
+//! Its sweeps come from a room scenario (`--scenario`, see [`crate::model::scenario`]) or, when
 //! none is given, from the built-in default, the `demo-lab` scenario compiled in. Each
 //! `INITiate` takes the next sweep of the simulated scan ([`Simulator::sweep`]); after the
 //! last sweep of the scan the next one starts the scan again. `*RST` restarts the scan at
@@ -71,8 +71,8 @@ use num_complex::Complex32;
 use sweepgate::grid::Grid;
 use sweepgate::wire::block::{self, BlockConfig, BlockDecoder, ByteOrder, Event, Format};
 
-use crate::physics::Simulator;
-use crate::scenario::Scenario;
+use crate::model::physics::Simulator;
+use crate::model::scenario::Scenario;
 
 /// The `*IDN?` answer.
 pub const IDN: &str = concat!("sweepgate,simulated-vna,0,", env!("CARGO_PKG_VERSION"));
@@ -85,7 +85,7 @@ pub const FREQ_RANGE_HZ: (f64, f64) = (10e6, 50e9);
 /// Point count limits.
 pub const POINTS_RANGE: (usize, usize) = (2, 10001);
 
-const DEMO_SCENARIO: &str = include_str!("../scenarios/demo-lab.toml");
+const DEMO_SCENARIO: &str = include_str!("../../scenarios/demo-lab.toml");
 
 /// Options of `sweepgate instrument`.
 #[derive(clap::Args, Debug)]
@@ -160,7 +160,7 @@ impl std::fmt::Display for ScpiError {
 /// The state of the simulated instrument (shared by all clients).
 ///
 /// ```
-/// use sweepgate_host::instrument::{Instrument, IDN};
+/// use sweepgate_host::link::instrument::{Instrument, IDN};
 /// let mut inst = Instrument::builtin(None).unwrap();
 /// assert_eq!(inst.handle_line(b"*IDN?"), Some(format!("{IDN}\n").into_bytes()));
 /// assert_eq!(inst.handle_line(b"form real,32;INIT"), None);
@@ -170,7 +170,7 @@ impl std::fmt::Display for ScpiError {
 /// ```
 pub struct Instrument {
     scenario: Scenario,
-    original: crate::scenario::Sweep,
+    original: crate::model::scenario::Sweep,
     seed: u64,
     sim: Simulator,
     format: DataFormat,

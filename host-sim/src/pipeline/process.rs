@@ -1,13 +1,13 @@
 //! `sweepgate process`: gates saved sweeps offline and writes the same report folder as
-//! `sweepgate replay` (`pattern.csv`, `summary.json`, SVG plots; see [`crate::report`]).
+//! `sweepgate replay` (`pattern.csv`, `summary.json`, SVG plots; see [`crate::output::report`]).
 //!
 //! # Inputs
 //!
 //! - `--manifest FILE`: a step-and-stop scan saved as one Touchstone file per angle (see
-//!   [`crate::manifest`]). Each file is one sweep; each manifest angle is one bin, gated with
+//!   [`crate::formats::manifest`]). Each file is one sweep; each manifest angle is one bin, gated with
 //!   the core [`Gate`] on its FFT path (echo level and gated values), which is what the scan
 //!   engine computes for a bin holding one sweep.
-//! - `--recording REC`: a recording (see [`crate::record`]), streamed through the same scan
+//! - `--recording REC`: a recording (see [`crate::formats::recording`]), streamed through the same scan
 //!   engine as `replay` ([`replay::setup_with`], [`replay::replay_with_setup`]) with no
 //!   preview and no waiting. With the settings it was replayed with, the bins are the
 //!   replay's bit for bit.
@@ -61,13 +61,13 @@ use sweepgate::grid::Grid;
 use sweepgate::window::WindowKind;
 use sweepgate::Complex32;
 
-use crate::manifest::Manifest;
-use crate::options::describe_window;
-use crate::options::parse_window;
-use crate::record::{self, Record};
-use crate::replay::{self, c64, SetupOptions, Sink};
-use crate::report::{self, ImpulseView, ReportBin, ReportInput, ReportValue};
-use crate::touchstone::{Parameter, Spacing};
+use crate::formats::manifest::Manifest;
+use crate::formats::recording::{self as record, Record};
+use crate::formats::touchstone::{Parameter, Spacing};
+use crate::output::report::{self, ImpulseView, ReportBin, ReportInput, ReportValue};
+use crate::pipeline::options::describe_window;
+use crate::pipeline::options::parse_window;
+use crate::pipeline::replay::{self, c64, SetupOptions, Sink};
 
 /// Options of `sweepgate process`.
 #[derive(clap::Args, Debug, Clone, Default)]
@@ -329,7 +329,7 @@ pub fn resolve(args: &Args) -> anyhow::Result<Resolved> {
         &args.band_window,
         &file.band_window,
         "band-window",
-        crate::options::default_band_window(),
+        crate::pipeline::options::default_band_window(),
     )?;
     let gate_shape = window(
         &args.gate_shape,
@@ -670,7 +670,7 @@ type Gated = (Vec<ReportBin>, Option<ImpulseView>);
 
 fn gate_sweeps<const M: usize>(
     cfg: &GateConfig,
-    sweeps: &[crate::manifest::AngleSweep],
+    sweeps: &[crate::formats::manifest::AngleSweep],
     indices: &[usize],
 ) -> anyhow::Result<Gated>
 where
@@ -752,11 +752,13 @@ fn gain_reference(
     table: &Path,
     reference: &Path,
 ) -> anyhow::Result<report::GainReference> {
-    let gains = crate::gain::GainTable::load(table).map_err(|e| anyhow::anyhow!("{e}"))?;
-    let ts = crate::touchstone::Touchstone::read(reference).map_err(|e| anyhow::anyhow!("{e}"))?;
+    let gains =
+        crate::formats::gain_table::GainTable::load(table).map_err(|e| anyhow::anyhow!("{e}"))?;
+    let ts = crate::formats::touchstone::Touchstone::read(reference)
+        .map_err(|e| anyhow::anyhow!("{e}"))?;
     let parameter = r
         .parameter
-        .unwrap_or_else(|| crate::touchstone::Parameter::default_for(ts.ports()));
+        .unwrap_or_else(|| crate::formats::touchstone::Parameter::default_for(ts.ports()));
     let sweep = ts
         .to_sweep(parameter, r.spacing)
         .map_err(|e| anyhow::anyhow!("{e}"))?;
@@ -782,7 +784,7 @@ fn gain_reference(
         .iter()
         .map(|f| g.nearest_index(*f).unwrap_or(0))
         .collect();
-    let one = [crate::manifest::AngleSweep {
+    let one = [crate::formats::manifest::AngleSweep {
         angle_deg: 0.0,
         values: sweep.values,
         file: reference.to_path_buf(),

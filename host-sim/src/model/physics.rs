@@ -29,7 +29,7 @@ use std::f64::consts::PI;
 use num_complex::{Complex32, Complex64};
 use sweepgate::plan::{Point, SPEED_OF_LIGHT_M_S};
 
-use crate::scenario::{Antenna, AxisName, Mode, Scenario, Taper};
+use crate::model::scenario::{Antenna, AxisName, Mode, Scenario, Taper};
 
 type Vec3 = [f64; 3];
 
@@ -534,7 +534,7 @@ impl Timeline {
                 });
                 end_s = t1;
                 let mut t = 0.0;
-                while t + dur <= t1 && sweeps.len() <= crate::scenario::MAX_SWEEPS {
+                while t + dur <= t1 && sweeps.len() <= crate::model::scenario::MAX_SWEEPS {
                     sweeps.push(t);
                     t += period;
                 }
@@ -544,7 +544,7 @@ impl Timeline {
                 let span = (q.stop_deg - q.start_deg).abs();
                 let dir = (q.stop_deg - q.start_deg).signum();
                 let n = (span / step + 1e-9).floor() as usize + 1;
-                let n = n.min(crate::scenario::MAX_SWEEPS + 1);
+                let n = n.min(crate::model::scenario::MAX_SWEEPS + 1);
                 let mut t = 0.0;
                 let mut prev = q.start_deg;
                 for i in 0..n {
@@ -562,7 +562,7 @@ impl Timeline {
                         t += period;
                     }
                     prev = angle;
-                    if sweeps.len() > crate::scenario::MAX_SWEEPS {
+                    if sweeps.len() > crate::model::scenario::MAX_SWEEPS {
                         break;
                     }
                 }
@@ -778,10 +778,10 @@ fn to_us(t_s: f64) -> u64 {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::scenario::Scenario;
+    use crate::model::scenario::Scenario;
 
     fn lab() -> Scenario {
-        Scenario::from_toml(include_str!("../scenarios/demo-lab.toml")).unwrap()
+        Scenario::from_toml(include_str!("../../scenarios/demo-lab.toml")).unwrap()
     }
 
     #[test]

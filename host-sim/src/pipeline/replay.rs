@@ -50,11 +50,11 @@ use sweepgate::window::WindowKind;
 use sweepgate::wire::preview::{encode_frame, Record as PreviewRecord, MAX_FRAME};
 use sweepgate::Complex32;
 
-use crate::options::describe_window;
-use crate::preview::{self, Feed, Screen, PREVIEW_F};
-use crate::record::{self, Header, Record, Recovered};
-use crate::report::{self, ImpulseView, ReportBin, ReportInput, ReportValue};
-use crate::scenario::{Mode, Scenario};
+use crate::formats::recording::{self as record, Header, Record, Recovered};
+use crate::model::scenario::{Mode, Scenario};
+use crate::output::report::{self, ImpulseView, ReportBin, ReportInput, ReportValue};
+use crate::output::screen::{self as preview, Feed, Screen, PREVIEW_F};
+use crate::pipeline::options::describe_window;
 
 /// Bins the replay engine can hold.
 pub const MAX_BINS: usize = 3600;
@@ -206,10 +206,9 @@ pub struct SetupOptions {
 /// Builds the set-up from a header and the options.
 pub fn setup(h: &Header, args: &Args) -> anyhow::Result<Setup> {
     let band_window = match &args.band_window {
-        Some(s) => {
-            crate::options::parse_window(s).map_err(|e| anyhow::anyhow!("--band-window: {e}"))?
-        }
-        None => crate::options::default_band_window(),
+        Some(s) => crate::pipeline::options::parse_window(s)
+            .map_err(|e| anyhow::anyhow!("--band-window: {e}"))?,
+        None => crate::pipeline::options::default_band_window(),
     };
     let opts = SetupOptions {
         band_window,
@@ -376,10 +375,11 @@ pub fn planned_gate(
     remarks: &mut Vec<String>,
 ) -> anyhow::Result<PlannedGate> {
     // The same room and AUT-size rule as `sweepgate plan`.
-    let room = crate::plan_cmd::room_geometry(s);
+    let room = crate::pipeline::plan::room_geometry(s);
     let planes = &room.planes[..room.planes.len().min(plan::MAX_PLANES)];
     let scatterers = &room.scatterers[..room.scatterers.len().min(plan::MAX_SCATTERERS)];
-    let (aut_size_m, _) = crate::plan_cmd::aut_size_m(s, &crate::plan_cmd::Overrides::default());
+    let (aut_size_m, _) =
+        crate::pipeline::plan::aut_size_m(s, &crate::pipeline::plan::Overrides::default());
     let input = PlanInput {
         grid: *grid,
         aut_size_m,
@@ -911,7 +911,7 @@ fn attach_truth(
     }
     if let Some(s) = &h.scenario {
         let angles: Vec<f64> = bins.values().map(|b| b.angle_deg).collect();
-        let rows = crate::physics::truth(s, &setup.frequencies_hz, &angles);
+        let rows = crate::model::physics::truth(s, &setup.frequencies_hz, &angles);
         for (b, row) in bins.values_mut().zip(rows) {
             for (v, t) in b.values.iter_mut().zip(row) {
                 v.truth = Some(t);

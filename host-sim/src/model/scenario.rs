@@ -347,7 +347,7 @@ pub struct PlanSettings {
     #[serde(default)]
     pub longest_path_m: Option<f64>,
     /// Band window, spelled as on the command line (`kaiser:6`, `hann`, …; see
-    /// [`crate::options`]).
+    /// [`crate::pipeline::options`]).
     #[serde(default)]
     pub band_window: Option<String>,
 }
@@ -366,7 +366,7 @@ impl PlanSettings {
             positive("plan.longest_path_m", l)?;
         }
         if let Some(w) = &self.band_window {
-            crate::options::parse_window(w).map_err(|e| bad("plan.band_window", e))?;
+            crate::pipeline::options::parse_window(w).map_err(|e| bad("plan.band_window", e))?;
         }
         Ok(())
     }
@@ -601,7 +601,7 @@ impl Scenario {
             return w;
         };
         let direct = self.range_length_m();
-        let longest = crate::physics::Room::new(self)
+        let longest = crate::model::physics::Room::new(self)
             .paths()
             .iter()
             .map(|p| p.length_m)
@@ -691,7 +691,9 @@ impl Scenario {
 
     /// Number of sweeps the scan will take.
     pub fn expected_sweeps(&self) -> usize {
-        crate::physics::Timeline::new(self).sweep_starts_s().len()
+        crate::model::physics::Timeline::new(self)
+            .sweep_starts_s()
+            .len()
     }
 }
 

@@ -23,7 +23,7 @@
 //! parameter on a uniform grid, see [`Touchstone::to_sweep`].
 //!
 //! ```
-//! use sweepgate_host::touchstone::{Parameter, Spacing, Touchstone};
+//! use sweepgate_host::formats::touchstone::{Parameter, Spacing, Touchstone};
 //! let text = "! a made-up through line\n# MHz S RI R 50\n\
 //!             100 0.1 0 0.9 0 0.9 0 0.1 0\n\
 //!             101 0.1 0 0 0.9 0 0.9 0.1 0\n\

@@ -59,7 +59,7 @@ use std::path::Path;
 use num_complex::Complex32;
 use serde::{Deserialize, Serialize};
 
-use crate::scenario::Scenario;
+use crate::model::scenario::Scenario;
 
 /// First eight bytes of every recording.
 pub const MAGIC: &[u8; 8] = b"SWEEPREC";
@@ -618,7 +618,7 @@ type SyncFn<W> = fn(&mut W) -> std::io::Result<()>;
 /// [`SyncPolicy`]; see the module docs).
 ///
 /// ```
-/// use sweepgate_host::record::{recover, Record, Stop, Writer};
+/// use sweepgate_host::formats::recording::{recover, Record, Stop, Writer};
 /// let mut w = Writer::new(Vec::new()).unwrap();
 /// w.write(&Record::Position { t_us: 1_000, counts: 250, angle_deg: 2.5 }).unwrap();
 /// let (bytes, len) = w.finish().unwrap();

@@ -10,6 +10,9 @@
 //! replayed through the scan engine with the live preview at an accelerated pace (a progress
 //! line without a terminal), and the report is written to `./sweepgate-demo/`.
 
+use crate::model::scenario::Scenario;
+use crate::output::report;
+use crate::pipeline::{replay, simulate};
 use anyhow::Context;
 use std::f64::consts::PI;
 use std::path::PathBuf;
@@ -18,8 +21,6 @@ use sweepgate::grid::Grid;
 use sweepgate::plan::{Axis, Plane, Point, SPEED_OF_LIGHT_M_S};
 use sweepgate::window::WindowKind;
 use sweepgate::Complex32;
-use sweepgate_host::scenario::Scenario;
-use sweepgate_host::{replay, report, simulate};
 
 /// FFT size of the demo.
 const M: usize = 1024;
@@ -48,7 +49,7 @@ pub struct Args {
 }
 
 /// The built-in demo scenario.
-pub const DEMO_SCENARIO: &str = include_str!("../scenarios/demo-lab.toml");
+pub const DEMO_SCENARIO: &str = include_str!("../../scenarios/demo-lab.toml");
 
 /// The usual caution, printed once.
 pub const CAUTION: &str = "Caution: a transmitting antenna can exceed RF exposure limits near its aperture, and a positioner is moving machinery; follow local regulations and your lab's licensed practice.";
@@ -99,7 +100,7 @@ pub fn compute(floor_reflection: f64, gate_span_ns: Option<f64>) -> anyhow::Resu
     // Spherical spreading: amplitude falls as 1/path length.
     let echo_ratio = floor_reflection * direct_m / bounce_m;
 
-    let band_window = sweepgate_host::options::default_band_window();
+    let band_window = crate::pipeline::options::default_band_window();
     let mainlobe_s = band_window.mainlobe_width() / grid.span_hz();
     let span_s = gate_span_ns.map_or(excess_delay_s, |ns| ns * 1e-9);
     let cfg = GateConfig {

@@ -120,13 +120,13 @@ use serde::Deserialize;
 use sweepgate::wire::ascii::{AsciiConfig, AsciiDecoder};
 use sweepgate::wire::block::{BlockConfig, BlockDecoder, Event, StreamDecoder};
 
-use crate::instrument::{parse_format, parse_order};
-use crate::physics::Simulator;
-use crate::record::{GridInfo, Header, Record, SyncPolicy, Writer, SWEEP_FORMAT};
-use crate::scenario::Scenario;
+use crate::formats::recording::{GridInfo, Header, Record, SyncPolicy, Writer, SWEEP_FORMAT};
+use crate::link::instrument::{parse_format, parse_order};
+use crate::model::physics::Simulator;
+use crate::model::scenario::Scenario;
 
 /// The default profile, for `sweepgate instrument`.
-pub const SIMULATED_PROFILE: &str = include_str!("../profiles/simulated.toml");
+pub const SIMULATED_PROFILE: &str = include_str!("../../profiles/simulated.toml");
 
 /// Longest answer line accepted, bytes.
 pub const MAX_ANSWER_LINE: usize = 1 << 20;
@@ -348,7 +348,7 @@ pub struct GridSpec {
 /// An instrument profile: the strings to send (see the module doc).
 ///
 /// ```
-/// use sweepgate_host::acquire::{Profile, SIMULATED_PROFILE};
+/// use sweepgate_host::link::acquire::{Profile, SIMULATED_PROFILE};
 /// let p = Profile::from_toml(SIMULATED_PROFILE).unwrap();
 /// assert_eq!(p.data, "TRACe:DATA?");
 /// assert!(Profile::from_toml("name = 'x'\ndata = 'D?'\nformat = 'real16'").is_err());
@@ -416,7 +416,7 @@ impl Profile {
     /// Parses and checks a profile.
     pub fn from_toml(text: &str) -> anyhow::Result<Self> {
         let p: Profile = toml::from_str(text)
-            .map_err(|e| anyhow::anyhow!("{}", crate::scenario::toml_one_line(text, &e)))?;
+            .map_err(|e| anyhow::anyhow!("{}", crate::model::scenario::toml_one_line(text, &e)))?;
         if !(p.timeout_s.is_finite() && p.timeout_s > 0.0) {
             bail!("timeout_s must be above 0 (got {})", p.timeout_s);
         }

@@ -6,7 +6,7 @@
 //! Cortex-M4F; comparing its preview records with [`replay`]'s shows that the board computes
 //! what the host computes.
 
-use crate::record::{Header, Record};
+use crate::formats::recording::{Header, Record};
 use anyhow::{bail, Context};
 use sweepgate::bins::BinLayout;
 use sweepgate::gate::GateConfig;
@@ -61,10 +61,10 @@ pub fn header_for(
         gate: GateConfig {
             grid,
             // The same windows as `plan` (which chose the gate) and `replay`.
-            band_window: crate::options::default_band_window(),
+            band_window: crate::pipeline::options::default_band_window(),
             center_s,
             span_s,
-            shape: crate::replay::GATE_SHAPE,
+            shape: crate::pipeline::replay::GATE_SHAPE,
             renormalize: true,
         },
         layout,

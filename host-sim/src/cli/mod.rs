@@ -1,0 +1,4 @@
+//! One thin file per subcommand: its arguments and one call into the library. Nothing in
+//! the library imports this folder; only `main.rs` does.
+
+pub mod demo;

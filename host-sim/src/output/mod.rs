@@ -1,0 +1,4 @@
+//! What people read: the report (CSV, JSON, SVG) and the terminal screen.
+
+pub mod report;
+pub mod screen;
