@@ -302,6 +302,78 @@ fn validate_cut(
     Ok(())
 }
 
+/// The peak sample: the highest level; among levels within [`PEAK_TIE_DB`] of it, the one
+/// nearest mechanical boresight (0°).
+fn peak_sample(angles_deg: &[f64], levels_db: &[f64]) -> Option<usize> {
+    let mut best: Option<(usize, f64, f64)> = None;
+    for (i, (&a, &l)) in angles_deg.iter().zip(levels_db).enumerate() {
+        let off = libm::fabs(wrap_deg(a));
+        best = match best {
+            Some((_, bl, _)) if l < bl - PEAK_TIE_DB => best,
+            Some((_, bl, boff)) if l <= bl + PEAK_TIE_DB && off >= boff => best,
+            _ => Some((i, l, off)),
+        };
+    }
+    best.map(|(i, _, _)| i)
+}
+
+impl Cut<'_> {
+    /// The beam between the crossings `drop_db` below `peak_db` on each side of `peak`.
+    fn beam(&self, peak: isize, peak_db: f64, drop_db: f64) -> Option<Beam> {
+        let t = peak_db - drop_db;
+        Some(Beam {
+            lower_deg: self.crossing(peak, -1, t)?,
+            upper_deg: self.crossing(peak, 1, t)?,
+        })
+    }
+
+    /// The lobe at virtual position `pos`, its level relative to `peak_db`.
+    fn lobe(&self, pos: isize, peak_db: f64) -> Option<Lobe> {
+        let (angle_deg, l) = self.refine(pos)?;
+        Some(Lobe {
+            angle_deg,
+            level_db: l - peak_db,
+        })
+    }
+
+    /// Virtual position of the highest local maximum outside the main lobe between the
+    /// first nulls `null_lo` and `null_hi`.
+    fn highest_outside(&self, null_lo: Option<isize>, null_hi: Option<isize>) -> Option<isize> {
+        let n = self.len();
+        let (from, to) = if self.circle {
+            match (null_lo, null_hi) {
+                (Some(lo), Some(hi)) => (hi + 1, lo + n - 1),
+                _ => (1, 0),
+            }
+        } else {
+            (0, n - 1)
+        };
+        let lo_edge = null_lo.unwrap_or(0);
+        let hi_edge = null_hi.unwrap_or(n - 1);
+        let mut highest: Option<isize> = None;
+        for pos in from..=to {
+            let outside = self.circle || pos < lo_edge || pos > hi_edge;
+            if outside && self.is_local_max(pos) {
+                let better = match highest.and_then(|h| self.level(h)) {
+                    Some(hl) => self.level(pos).is_some_and(|l| l > hl),
+                    None => true,
+                };
+                if better {
+                    highest = Some(pos);
+                }
+            }
+        }
+        highest
+    }
+
+    /// Peak level minus the level half a turn from the peak, when the cut reaches it.
+    fn front_to_back(&self, peak_angle_deg: f64, peak_db: f64) -> Option<f64> {
+        self.level_at_angle(peak_angle_deg + 180.0)
+            .or_else(|| self.level_at_angle(peak_angle_deg - 180.0))
+            .map(|back| peak_db - back)
+    }
+}
+
 /// Computes the figures of a pattern cut. See the module documentation for the definitions.
 /// Work is linear in the number of samples.
 pub fn pattern_metrics(
@@ -315,96 +387,29 @@ pub fn pattern_metrics(
         levels: levels_db,
         circle: coverage == Coverage::FullCircle,
     };
-
-    // Peak sample; ties go to the one nearest boresight.
-    let mut best: Option<(usize, f64, f64)> = None;
-    for (i, (&a, &l)) in angles_deg.iter().zip(levels_db).enumerate() {
-        let off = libm::fabs(wrap_deg(a));
-        best = match best {
-            Some((_, bl, _)) if l < bl - PEAK_TIE_DB => best,
-            Some((_, bl, boff)) if l <= bl + PEAK_TIE_DB && off >= boff => best,
-            _ => Some((i, l, off)),
-        };
-    }
-    let Some((peak_i, _, _)) = best else {
-        return Err(MetricsError::Empty);
-    };
-    let peak = peak_i as isize;
+    let peak = peak_sample(angles_deg, levels_db).ok_or(MetricsError::Empty)? as isize;
     let (peak_angle_deg, peak_db) = cut.refine(peak).ok_or(MetricsError::Empty)?;
-
-    let beam = |drop_db: f64| -> Option<Beam> {
-        let t = peak_db - drop_db;
-        Some(Beam {
-            lower_deg: cut.crossing(peak, -1, t)?,
-            upper_deg: cut.crossing(peak, 1, t)?,
-        })
-    };
-    let beam_3db = beam(HALF_POWER_DB);
-    let beam_10db = beam(10.0);
-
+    let beam_3db = cut.beam(peak, peak_db, HALF_POWER_DB);
     let null_lo = cut.first_null(peak, -1);
     let null_hi = cut.first_null(peak, 1);
-    let lobe = |pos: isize| -> Option<Lobe> {
-        let (angle_deg, l) = cut.refine(pos)?;
-        Some(Lobe {
-            angle_deg,
-            level_db: l - peak_db,
-        })
+    let sidelobe = |null: Option<isize>, dir: isize| {
+        null.and_then(|z| cut.first_max_after(peak, z, dir))
+            .and_then(|pos| cut.lobe(pos, peak_db))
     };
-    let first_sidelobe_lower = null_lo
-        .and_then(|z| cut.first_max_after(peak, z, -1))
-        .and_then(lobe);
-    let first_sidelobe_upper = null_hi
-        .and_then(|z| cut.first_max_after(peak, z, 1))
-        .and_then(lobe);
-
-    // Highest local maximum outside the main lobe [null_lo, null_hi].
-    let n = cut.len();
-    let (from, to) = if cut.circle {
-        match (null_lo, null_hi) {
-            (Some(lo), Some(hi)) => (hi + 1, lo + n - 1),
-            _ => (1, 0),
-        }
-    } else {
-        (0, n - 1)
-    };
-    let lo_edge = null_lo.unwrap_or(0);
-    let hi_edge = null_hi.unwrap_or(n - 1);
-    let mut highest: Option<isize> = None;
-    let mut pos = from;
-    while pos <= to {
-        let outside = cut.circle || pos < lo_edge || pos > hi_edge;
-        if outside && cut.is_local_max(pos) {
-            let better = match highest.and_then(|h| cut.level(h)) {
-                Some(hl) => cut.level(pos).is_some_and(|l| l > hl),
-                None => true,
-            };
-            if better {
-                highest = Some(pos);
-            }
-        }
-        pos += 1;
-    }
-    let highest_sidelobe = highest.and_then(lobe);
-
-    let front_to_back_db = cut
-        .level_at_angle(peak_angle_deg + 180.0)
-        .or_else(|| cut.level_at_angle(peak_angle_deg - 180.0))
-        .map(|back| peak_db - back);
-    let squint_deg = beam_3db.map(|b| wrap_deg(b.centre_deg()));
-
     Ok(PatternMetrics {
         peak_db,
         peak_angle_deg,
         beam_3db,
-        beam_10db,
+        beam_10db: cut.beam(peak, peak_db, 10.0),
         first_null_lower_deg: null_lo.and_then(|p| cut.at(p)).map(|(a, _)| a),
         first_null_upper_deg: null_hi.and_then(|p| cut.at(p)).map(|(a, _)| a),
-        first_sidelobe_lower,
-        first_sidelobe_upper,
-        highest_sidelobe,
-        front_to_back_db,
-        squint_deg,
+        first_sidelobe_lower: sidelobe(null_lo, -1),
+        first_sidelobe_upper: sidelobe(null_hi, 1),
+        highest_sidelobe: cut
+            .highest_outside(null_lo, null_hi)
+            .and_then(|pos| cut.lobe(pos, peak_db)),
+        front_to_back_db: cut.front_to_back(peak_angle_deg, peak_db),
+        squint_deg: beam_3db.map(|b| wrap_deg(b.centre_deg())),
     })
 }
 
