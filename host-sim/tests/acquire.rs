@@ -11,8 +11,8 @@ use std::process::{Command, Output};
 
 use instrument_support::{dumped, start, temp_dir};
 use sweepgate_host::formats::recording::{recover_file, Record, Stop};
-use sweepgate_host::model::physics::Simulator;
 use sweepgate_host::model::scenario::Scenario;
+use sweepgate_host::model::simulator::Simulator;
 
 fn acquire(args: &[&str], out: &Path) -> Output {
     Command::new(env!("CARGO_BIN_EXE_sweepgate"))
@@ -183,7 +183,7 @@ fn acquire_with_the_simulated_positioner_covers_the_whole_schedule() {
     assert!(h.scenario.is_some());
     assert_eq!(h.counts_per_turn, Some(s.positioner.counts_per_turn));
     // Sweep times follow the scenario's schedule.
-    let starts = sweepgate_host::model::physics::Timeline::new(&s)
+    let starts = sweepgate_host::model::timeline::Timeline::new(&s)
         .sweep_starts_s()
         .to_vec();
     for (rec, t0) in sweeps.iter().zip(&starts) {

@@ -7,7 +7,7 @@ use std::path::PathBuf;
 
 use sweepgate::plan::SPEED_OF_LIGHT_M_S as C;
 use sweepgate_host::formats::gain_table::{pattern_gain_dbi_from_s21, GainTable};
-use sweepgate_host::model::physics::Room;
+use sweepgate_host::model::room::Room;
 use sweepgate_host::model::scenario::Scenario;
 
 /// The same range and probe, with `aut` (a TOML `[aut]` body) on the turntable.

@@ -5,8 +5,10 @@ use std::f64::consts::PI;
 
 use num_complex::Complex64;
 use sweepgate::plan::SPEED_OF_LIGHT_M_S as C;
-use sweepgate_host::model::physics::{PathKind, Room, Simulator};
+use sweepgate_host::model::geometry::PathKind;
+use sweepgate_host::model::room::Room;
 use sweepgate_host::model::scenario::Scenario;
+use sweepgate_host::model::simulator::Simulator;
 
 /// Isotropic antennas `r_m` apart at height `h_m`, optionally over a floor reflecting
 /// `floor` (no noise).
@@ -130,7 +132,7 @@ fn the_truth_is_the_direct_path_of_the_turning_aut() {
     s.positioner.stop_deg = 20.0;
     s.validate().unwrap();
     let room = Room::new(&s);
-    let t = sweepgate_host::model::physics::truth(&s, &[10e9], &[0.0, 10.0, -10.0]);
+    let t = sweepgate_host::model::room::truth(&s, &[10e9], &[0.0, 10.0, -10.0]);
     // A horn at boresight with a probe facing it: the strongest of the three, and the
     // pattern is left-right symmetric.
     assert!(t[0][0].norm() > t[1][0].norm());

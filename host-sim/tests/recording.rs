@@ -2,8 +2,8 @@
 //! reader says where and why it stopped.
 
 use sweepgate_host::formats::recording::{recover, Fault, Record, Stop, FILE_HEADER_LEN};
-use sweepgate_host::model::physics::Noise;
 use sweepgate_host::model::scenario::Scenario;
+use sweepgate_host::model::simulator::Noise;
 use sweepgate_host::pipeline::simulate::simulate_to;
 
 /// A short, small simulated recording (demo lab, ±3°, 21 points).

@@ -122,8 +122,8 @@ use sweepgate::wire::block::{BlockConfig, BlockDecoder, Event, StreamDecoder};
 
 use crate::formats::recording::{GridInfo, Header, Record, SyncPolicy, Writer, SWEEP_FORMAT};
 use crate::link::instrument::{parse_format, parse_order};
-use crate::model::physics::Simulator;
 use crate::model::scenario::Scenario;
+use crate::model::simulator::Simulator;
 
 /// The default profile, for `sweepgate instrument`.
 pub const SIMULATED_PROFILE: &str = include_str!("../../profiles/simulated.toml");

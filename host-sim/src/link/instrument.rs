@@ -71,8 +71,8 @@ use num_complex::Complex32;
 use sweepgate::grid::Grid;
 use sweepgate::wire::block::{self, BlockConfig, BlockDecoder, ByteOrder, Event, Format};
 
-use crate::model::physics::Simulator;
 use crate::model::scenario::Scenario;
+use crate::model::simulator::Simulator;
 
 /// The `*IDN?` answer.
 pub const IDN: &str = concat!("sweepgate,simulated-vna,0,", env!("CARGO_PKG_VERSION"));

@@ -1,5 +1,13 @@
-//! The invented room as pure data, leaf first: the scenario description, then the physics
-//! that simulates a scan of it.
+//! The invented room, leaf first: the scenario as pure data ([`scenario`]), the paths in its
+//! room ([`geometry`]), the antennas' patterns ([`antennas`]), the S21 they add up to
+//! ([`room`]), the turntable's schedule ([`timeline`]), reading and checking a scenario as
+//! a whole ([`load`]), and the simulated scan ([`simulator`]). Each module imports only
+//! the ones before it.
 
-pub mod physics;
+pub mod antennas;
+pub mod geometry;
+pub mod load;
+pub mod room;
 pub mod scenario;
+pub mod simulator;
+pub mod timeline;

@@ -1,5 +1,8 @@
 //! Room scenarios: a TOML description of a range, its echoes, the antennas, the sweep and
-//! the positioner, validated once into a [`Scenario`].
+//! the positioner, as pure data. This module imports nothing else of the crate: the checks
+//! of each field live here ([`Scenario::check_fields`]); reading a file and the checks of
+//! the scan as a whole, which need the schedule and the paths, live in
+//! [`crate::model::load`] ([`Scenario::from_toml`], [`Scenario::validate`]).
 //!
 //! Geometry follows the core's convention (`sweepgate::plan`): the turntable axis is
 //! vertical through the origin, x points from the AUT to the probe, y to the left, z up
@@ -24,11 +27,10 @@
 //! | `[plan]` | `aut_size_m`, `aut_fractional_bandwidth`, `longest_path_m`, `band_window` (all optional; read by `sweepgate plan`) |
 
 use std::fmt;
-use std::path::Path;
 
 use serde::{Deserialize, Serialize};
 use sweepgate::grid::Grid;
-use sweepgate::plan::{Axis, Plane, Point, SPEED_OF_LIGHT_M_S};
+use sweepgate::plan::{Axis, Plane, Point};
 
 /// Most sweeps a scenario may ask for (a guard against a typo running for hours).
 pub const MAX_SWEEPS: usize = 200_000;
@@ -50,7 +52,7 @@ impl fmt::Display for ScenarioError {
 
 impl std::error::Error for ScenarioError {}
 
-fn bad(field: impl Into<String>, reason: impl Into<String>) -> ScenarioError {
+pub(crate) fn bad(field: impl Into<String>, reason: impl Into<String>) -> ScenarioError {
     ScenarioError {
         field: field.into(),
         reason: reason.into(),
@@ -305,6 +307,58 @@ fn one() -> usize {
     1
 }
 
+impl Positioner {
+    /// The angles a step-and-stop scan stands at: start + i·step towards stop, at most
+    /// [`MAX_SWEEPS`] + 1 of them (1° steps when `step_deg` is absent).
+    pub fn step_angles_deg(&self) -> Vec<f64> {
+        let step = self.step_deg.unwrap_or(1.0);
+        let span = (self.stop_deg - self.start_deg).abs();
+        let dir = (self.stop_deg - self.start_deg).signum();
+        let n = ((span / step + 1e-9).floor() as usize + 1).min(MAX_SWEEPS + 1);
+        (0..n)
+            .map(|i| self.start_deg + dir * step * i as f64)
+            .collect()
+    }
+
+    fn validate(&self) -> Result<(), ScenarioError> {
+        let q = self;
+        finite("positioner.start_deg", q.start_deg)?;
+        finite("positioner.stop_deg", q.stop_deg)?;
+        if q.start_deg == q.stop_deg {
+            return Err(bad("positioner.stop_deg", "must differ from start_deg"));
+        }
+        if (q.stop_deg - q.start_deg).abs() > 3600.0 {
+            return Err(bad("positioner.stop_deg", "span above 10 turns"));
+        }
+        positive("positioner.speed_deg_s", q.speed_deg_s)?;
+        positive("positioner.acceleration_deg_s2", q.acceleration_deg_s2)?;
+        non_negative("positioner.settle_s", q.settle_s)?;
+        if q.mode == Mode::Step {
+            match q.step_deg {
+                None => return Err(bad("positioner.step_deg", "required in step mode")),
+                Some(st) => {
+                    positive("positioner.step_deg", st)?;
+                }
+            }
+            if q.sweeps_per_step == 0 {
+                return Err(bad("positioner.sweeps_per_step", "must be at least 1"));
+            }
+        }
+        if q.counts_per_turn == 0 {
+            return Err(bad("positioner.counts_per_turn", "must be at least 1"));
+        }
+        positive("positioner.sample_interval_s", q.sample_interval_s)?;
+        non_negative("positioner.timing_jitter_s", q.timing_jitter_s)?;
+        if q.timing_jitter_s > q.sample_interval_s {
+            return Err(bad(
+                "positioner.timing_jitter_s",
+                "must not exceed sample_interval_s",
+            ));
+        }
+        Ok(())
+    }
+}
+
 /// `[pattern]`: what the scan is for. The simulator writes the true free-space pattern
 /// at these frequencies, at the centre of each bin.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize, Default)]
@@ -319,7 +373,7 @@ pub struct Pattern {
     pub bin_width_deg: Option<f64>,
 }
 
-/// `[simulation]`: physics switches.
+/// `[simulation]`: simulator switches.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize, Default)]
 #[serde(deny_unknown_fields)]
 pub struct Simulation {
@@ -346,8 +400,9 @@ pub struct PlanSettings {
     /// The room's longest plausible path, m (for the alias-free check).
     #[serde(default)]
     pub longest_path_m: Option<f64>,
-    /// Band window, spelled as on the command line (`kaiser:6`, `hann`, …; see
-    /// [`crate::pipeline::options`]).
+    /// Band window, spelled as on the command line (`kaiser:6`, `hann`, …). The spelling
+    /// is checked by the planner, its only reader (`crate::pipeline::plan`), so that this
+    /// description imports nothing of the pipeline.
     #[serde(default)]
     pub band_window: Option<String>,
 }
@@ -365,14 +420,11 @@ impl PlanSettings {
         if let Some(l) = self.longest_path_m {
             positive("plan.longest_path_m", l)?;
         }
-        if let Some(w) = &self.band_window {
-            crate::pipeline::options::parse_window(w).map_err(|e| bad("plan.band_window", e))?;
-        }
         Ok(())
     }
 }
 
-fn finite(field: &str, v: f64) -> Result<f64, ScenarioError> {
+pub(crate) fn finite(field: &str, v: f64) -> Result<f64, ScenarioError> {
     if v.is_finite() {
         Ok(v)
     } else {
@@ -380,7 +432,7 @@ fn finite(field: &str, v: f64) -> Result<f64, ScenarioError> {
     }
 }
 
-fn positive(field: &str, v: f64) -> Result<f64, ScenarioError> {
+pub(crate) fn positive(field: &str, v: f64) -> Result<f64, ScenarioError> {
     if finite(field, v)? > 0.0 {
         Ok(v)
     } else {
@@ -388,7 +440,7 @@ fn positive(field: &str, v: f64) -> Result<f64, ScenarioError> {
     }
 }
 
-fn non_negative(field: &str, v: f64) -> Result<f64, ScenarioError> {
+pub(crate) fn non_negative(field: &str, v: f64) -> Result<f64, ScenarioError> {
     if finite(field, v)? >= 0.0 {
         Ok(v)
     } else {
@@ -454,28 +506,26 @@ pub(crate) fn toml_one_line(text: &str, e: &toml::de::Error) -> String {
 }
 
 impl Scenario {
-    /// Parses TOML text and validates it. Errors are one line (`line L, column C: …` for
-    /// TOML syntax and field types).
-    pub fn from_toml(text: &str) -> anyhow::Result<Self> {
-        let s: Scenario =
-            toml::from_str(text).map_err(|e| anyhow::anyhow!("{}", toml_one_line(text, &e)))?;
-        s.validate()?;
-        Ok(s)
-    }
-
-    /// Reads and validates a scenario file.
-    pub fn load(path: &Path) -> anyhow::Result<Self> {
-        use anyhow::Context;
-        let text = std::fs::read_to_string(path)
-            .with_context(|| format!("reading scenario {}", path.display()))?;
-        Self::from_toml(&text).with_context(|| format!("in scenario {}", path.display()))
-    }
-
-    /// Checks every field; the error names the first bad one.
-    pub fn validate(&self) -> Result<(), ScenarioError> {
+    /// Checks every field on its own and against the others (the sweep is a usable grid,
+    /// each plane has both antennas on one side, pattern frequencies lie in the sweep, …);
+    /// the error names the first bad field. [`Scenario::validate`] (in
+    /// [`crate::model::load`]) adds the checks of the scan as a whole.
+    pub fn check_fields(&self) -> Result<(), ScenarioError> {
         if self.name.trim().is_empty() {
             return Err(bad("name", "must not be empty"));
         }
+        self.check_sweep()?;
+        self.check_range()?;
+        self.check_planes()?;
+        self.check_scatterers()?;
+        self.aut.validate("aut")?;
+        self.probe.validate("probe")?;
+        self.plan.validate()?;
+        self.positioner.validate()?;
+        self.check_pattern()
+    }
+
+    fn check_sweep(&self) -> Result<(), ScenarioError> {
         let s = &self.sweep;
         positive("sweep.start_hz", s.start_hz)?;
         positive("sweep.stop_hz", s.stop_hz)?;
@@ -492,13 +542,19 @@ impl Scenario {
         }
         self.grid()
             .map_err(|e| bad("sweep", format!("not a usable grid: {e}")))?;
+        Ok(())
+    }
 
+    fn check_range(&self) -> Result<(), ScenarioError> {
         let r = &self.range;
         positive("range.distance_m", r.distance_m)?;
         finite("range.aut_height_m", r.aut_height_m)?;
         finite("range.probe_height_m", r.probe_height_m)?;
         non_negative("range.cable_delay_s", r.cable_delay_s)?;
+        Ok(())
+    }
 
+    fn check_planes(&self) -> Result<(), ScenarioError> {
         let (a, p) = (self.aut_position(), self.probe_position());
         for (i, pl) in self.planes.iter().enumerate() {
             let field = |n: &str| format!("planes[{i}].{n}");
@@ -514,6 +570,11 @@ impl Scenario {
                 ));
             }
         }
+        Ok(())
+    }
+
+    fn check_scatterers(&self) -> Result<(), ScenarioError> {
+        let (a, p) = (self.aut_position(), self.probe_position());
         for (i, sc) in self.scatterers.iter().enumerate() {
             let field = |n: &str| format!("scatterers[{i}].{n}");
             for v in sc.position_m {
@@ -527,45 +588,10 @@ impl Scenario {
                 ));
             }
         }
-        self.aut.validate("aut")?;
-        self.probe.validate("probe")?;
-        self.plan.validate()?;
+        Ok(())
+    }
 
-        let q = &self.positioner;
-        finite("positioner.start_deg", q.start_deg)?;
-        finite("positioner.stop_deg", q.stop_deg)?;
-        if q.start_deg == q.stop_deg {
-            return Err(bad("positioner.stop_deg", "must differ from start_deg"));
-        }
-        if (q.stop_deg - q.start_deg).abs() > 3600.0 {
-            return Err(bad("positioner.stop_deg", "span above 10 turns"));
-        }
-        positive("positioner.speed_deg_s", q.speed_deg_s)?;
-        positive("positioner.acceleration_deg_s2", q.acceleration_deg_s2)?;
-        non_negative("positioner.settle_s", q.settle_s)?;
-        if q.mode == Mode::Step {
-            match q.step_deg {
-                None => return Err(bad("positioner.step_deg", "required in step mode")),
-                Some(st) => {
-                    positive("positioner.step_deg", st)?;
-                }
-            }
-            if q.sweeps_per_step == 0 {
-                return Err(bad("positioner.sweeps_per_step", "must be at least 1"));
-            }
-        }
-        if q.counts_per_turn == 0 {
-            return Err(bad("positioner.counts_per_turn", "must be at least 1"));
-        }
-        positive("positioner.sample_interval_s", q.sample_interval_s)?;
-        non_negative("positioner.timing_jitter_s", q.timing_jitter_s)?;
-        if q.timing_jitter_s > q.sample_interval_s {
-            return Err(bad(
-                "positioner.timing_jitter_s",
-                "must not exceed sample_interval_s",
-            ));
-        }
-
+    fn check_pattern(&self) -> Result<(), ScenarioError> {
         let grid = self.grid().map_err(|e| bad("sweep", e.to_string()))?;
         for (i, f) in self.pattern.frequencies_hz.iter().enumerate() {
             let field = format!("pattern.frequencies_hz[{i}]");
@@ -577,53 +603,7 @@ impl Scenario {
         if let Some(b) = self.pattern.bin_width_deg {
             positive("pattern.bin_width_deg", b)?;
         }
-        let n = self.expected_sweeps();
-        if n > MAX_SWEEPS {
-            return Err(bad(
-                "positioner",
-                format!("the scan would take {n} sweeps (limit {MAX_SWEEPS})"),
-            ));
-        }
-        if n == 0 {
-            return Err(bad(
-                "positioner",
-                "the scan is shorter than one sweep: no sweep would be taken",
-            ));
-        }
         Ok(())
-    }
-
-    /// Things that are legal but probably not what was meant (echoes beyond the
-    /// alias-free range, a far field farther than the range).
-    pub fn warnings(&self) -> Vec<String> {
-        let mut w = Vec::new();
-        let Ok(grid) = self.grid() else {
-            return w;
-        };
-        let direct = self.range_length_m();
-        let longest = crate::model::physics::Room::new(self)
-            .paths()
-            .iter()
-            .map(|p| p.length_m)
-            .fold(direct, f64::max);
-        let excess_s = (longest - direct) / SPEED_OF_LIGHT_M_S;
-        if excess_s >= grid.alias_free_s() {
-            w.push(format!(
-                "the longest echo arrives {:.1} ns after the direct path, beyond the alias-free range {:.1} ns (1/Δf): it will wrap",
-                excess_s * 1e9,
-                grid.alias_free_s() * 1e9
-            ));
-        }
-        if let Some(d) = self.aut.largest_size_m() {
-            let lambda = SPEED_OF_LIGHT_M_S / self.sweep.stop_hz;
-            let ff = 2.0 * d * d / lambda;
-            if ff > direct {
-                w.push(format!(
-                    "the far field of the AUT at the top frequency starts at {ff:.2} m (2D²/λ), beyond the range length {direct:.2} m"
-                ));
-            }
-        }
-        w
     }
 
     /// The sweep's frequency grid.
@@ -668,32 +648,20 @@ impl Scenario {
     }
 
     /// Centres of the angle bins covering the scan, degrees, in scan order: the step angles
-    /// of a step-and-stop scan, the centres of `bin_width_deg` bins of a continuous one.
+    /// of a step-and-stop scan (where the turntable stands while sweeping), the centres of
+    /// `bin_width_deg` bins of a continuous one.
     pub fn bin_centres_deg(&self) -> Vec<f64> {
         let q = &self.positioner;
+        if q.mode == Mode::Step {
+            return q.step_angles_deg();
+        }
         let span = (q.stop_deg - q.start_deg).abs();
         let dir = (q.stop_deg - q.start_deg).signum();
-        if q.mode == Mode::Step {
-            // Step-and-stop measures at the step angles themselves: start + i·step (the same
-            // angles as the positioner schedule in `physics::Timeline`).
-            let step = q.step_deg.unwrap_or(1.0);
-            let n = ((span / step + 1e-9).floor() as usize + 1).min(MAX_SWEEPS + 1);
-            return (0..n)
-                .map(|i| q.start_deg + dir * step * i as f64)
-                .collect();
-        }
         let w = self.bin_width_deg();
         let n = ((span / w).floor() as usize).max(1);
         (0..n)
             .map(|i| q.start_deg + dir * (i as f64 + 0.5) * w)
             .collect()
-    }
-
-    /// Number of sweeps the scan will take.
-    pub fn expected_sweeps(&self) -> usize {
-        crate::model::physics::Timeline::new(self)
-            .sweep_starts_s()
-            .len()
     }
 }
 
@@ -712,99 +680,5 @@ impl Antenna {
             } => Some(*elements as f64 * spacing_m),
             Antenna::Isotropic | Antenna::CosPower { .. } => None,
         }
-    }
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    const SMALL: &str = r#"
-name = "t"
-[sweep]
-start_hz = 8e9
-stop_hz = 12e9
-points = 201
-sweep_duration_s = 0.02
-[range]
-distance_m = 4.0
-aut_height_m = 1.5
-probe_height_m = 1.5
-[[planes]]
-axis = "z"
-position_m = 0.0
-reflection = -0.3
-[aut]
-kind = "aperture"
-width_m = 0.1
-height_m = 0.08
-width_taper = "cosine"
-[positioner]
-mode = "continuous"
-start_deg = -10
-stop_deg = 10
-speed_deg_s = 20
-acceleration_deg_s2 = 40
-counts_per_turn = 36000
-sample_interval_s = 0.01
-"#;
-
-    #[test]
-    fn parses_a_small_scenario() {
-        let s = Scenario::from_toml(SMALL).unwrap();
-        assert_eq!(s.sweep.points, 201);
-        assert_eq!(s.probe, Antenna::Isotropic);
-        assert!(matches!(
-            s.aut,
-            Antenna::Aperture {
-                width_taper: Taper::Cosine,
-                ..
-            }
-        ));
-        assert!(s.expected_sweeps() > 10);
-    }
-
-    #[test]
-    fn errors_name_the_field() {
-        let e = Scenario::from_toml(&SMALL.replace("stop_hz = 12e9", "stop_hz = 7e9"))
-            .unwrap_err()
-            .to_string();
-        assert!(e.contains("sweep.stop_hz"), "{e}");
-        let e = Scenario::from_toml(&SMALL.replace("reflection = -0.3", "reflection = -1.3"))
-            .unwrap_err()
-            .to_string();
-        assert!(e.contains("planes[0].reflection"), "{e}");
-        let e = Scenario::from_toml(&SMALL.replace("position_m = 0.0", "position_m = 1.5"))
-            .unwrap_err()
-            .to_string();
-        assert!(e.contains("planes[0].position_m"), "{e}");
-        let e = Scenario::from_toml(&SMALL.replace("width_m = 0.1", "width_m = -0.1"))
-            .unwrap_err()
-            .to_string();
-        assert!(e.contains("aut.width_m"), "{e}");
-        let e = Scenario::from_toml(&SMALL.replace("mode = \"continuous\"", "mode = \"step\""))
-            .unwrap_err()
-            .to_string();
-        assert!(e.contains("positioner.step_deg"), "{e}");
-        // Unknown fields are refused, and serde names them.
-        let e = format!(
-            "{:#}",
-            Scenario::from_toml(&SMALL.replace("points = 201", "points = 201\npoint = 3"))
-                .unwrap_err()
-        );
-        assert!(e.contains("point"), "{e}");
-    }
-
-    #[test]
-    fn warns_about_echoes_beyond_the_alias_free_range() {
-        let s = Scenario::from_toml(SMALL).unwrap();
-        assert!(s.warnings().is_empty(), "{:?}", s.warnings());
-        // 21 points over 4 GHz: 200 MHz steps, alias-free 5 ns (1.5 m); a wall 3 m behind
-        // the probe adds 6 m.
-        let text = SMALL.replace("points = 201", "points = 21")
-            + "[[planes]]\naxis = \"x\"\nposition_m = 7.0\nreflection = -0.5\n";
-        let s = Scenario::from_toml(&text).unwrap();
-        let w = s.warnings();
-        assert!(w.iter().any(|x| x.contains("alias-free")), "{w:?}");
     }
 }

@@ -25,7 +25,8 @@
 //! - rotation speed: `--rotation-deg-s`, else the positioner's top speed in continuous mode;
 //!   step mode and plan files have none (the turntable stands still during sweeps);
 //! - scatterers' reflection: the echo's field relative to the direct path between isotropic
-//!   antennas, √(σ/4π)·R/(r₁·r₂) (radar equation, as in [`crate::model::physics`]).
+//!   antennas, √(σ/4π)·R/(r₁·r₂) (radar equation; `sweepgate::plan::Scatterer::from_rcs`,
+//!   the level the simulator uses too).
 //!
 //! Findings are warnings: the command fails only when the file cannot be read or planned.
 //!
@@ -201,7 +202,10 @@ pub fn parse_plan_source(text: &str, origin: &str) -> anyhow::Result<PlanSource>
         };
         (s, FileKind::PlanFile)
     };
-    scenario.validate().map_err(|e| anyhow!("{origin}: {e}"))?;
+    scenario.validate().with_context(|| origin.to_string())?;
+    if let Some(w) = &scenario.plan.band_window {
+        parse_window(w).map_err(|e| anyhow!("{origin}: scenario field `plan.band_window`: {e}"))?;
+    }
     Ok(PlanSource { scenario, kind })
 }
 
@@ -262,19 +266,11 @@ pub struct RoomGeometry {
 /// The room of a scenario as the core planner takes it.
 pub fn room_geometry(s: &Scenario) -> RoomGeometry {
     let (aut, probe) = (s.aut_position(), s.probe_position());
-    let range_m = aut.distance_m(&probe);
     let planes = s.planes.iter().map(PlaneSpec::plane).collect();
     let scatterers = s
         .scatterers
         .iter()
-        .map(|sc| {
-            let q = sc.point();
-            let (r1, r2) = (aut.distance_m(&q), q.distance_m(&probe));
-            CoreScatterer {
-                position: q,
-                reflection: (sc.rcs_m2 / (4.0 * std::f64::consts::PI)).sqrt() * range_m / (r1 * r2),
-            }
-        })
+        .map(|sc| CoreScatterer::from_rcs(sc.point(), sc.rcs_m2, &aut, &probe))
         .collect();
     RoomGeometry {
         aut,
@@ -965,5 +961,19 @@ mod tests {
             assert!(e.starts_with("room.toml: "), "{e}");
             assert!(!e.contains('\n'), "{e}");
         }
+    }
+
+    #[test]
+    fn a_bad_band_window_is_refused_by_name() {
+        let text = "[sweep]\nstart_hz = 1e9\nstop_hz = 3e9\npoints = 3\nsweep_duration_s = 1\n\
+                    [range]\ndistance_m = 5\naut_height_m = 1\nprobe_height_m = 1\n\
+                    [plan]\nband_window = \"kaiser:99\"\n";
+        let e = format!("{:#}", parse_plan_source(text, "room.toml").unwrap_err());
+        assert!(
+            e.contains("plan.band_window") && e.contains("kaiser:99"),
+            "{e}"
+        );
+        let good = text.replace("kaiser:99", "hann");
+        assert!(parse_plan_source(&good, "room.toml").is_ok());
     }
 }

@@ -911,7 +911,7 @@ fn attach_truth(
     }
     if let Some(s) = &h.scenario {
         let angles: Vec<f64> = bins.values().map(|b| b.angle_deg).collect();
-        let rows = crate::model::physics::truth(s, &setup.frequencies_hz, &angles);
+        let rows = crate::model::room::truth(s, &setup.frequencies_hz, &angles);
         for (b, row) in bins.values_mut().zip(rows) {
             for (v, t) in b.values.iter_mut().zip(row) {
                 v.truth = Some(t);

@@ -18,8 +18,9 @@ use anyhow::Context;
 use num_complex::Complex32;
 
 use crate::formats::recording::{GridInfo, Header, Record, SyncPolicy, Writer, SWEEP_FORMAT};
-use crate::model::physics::{self, Simulator};
+use crate::model::room;
 use crate::model::scenario::Scenario;
+use crate::model::simulator::Simulator;
 
 /// Options of `sweepgate simulate`.
 #[derive(clap::Args, Debug)]
@@ -152,7 +153,7 @@ fn simulate_into<W: std::io::Write>(
     w.write(&Record::Header(Box::new(header)))?;
 
     let angles = scenario.bin_centres_deg();
-    for (a, row) in angles.iter().zip(physics::truth(scenario, &freqs, &angles)) {
+    for (a, row) in angles.iter().zip(room::truth(scenario, &freqs, &angles)) {
         let values = freqs
             .iter()
             .zip(row)
