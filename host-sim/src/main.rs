@@ -28,7 +28,7 @@ enum Command {
     /// Simulate a scan of a room scenario and write it as a recording.
     Simulate(simulate::Args),
     /// Plan a gated measurement from a scenario or plan file: far field, echoes, gate, speed.
-    Plan(sweepgate_host::pipeline::plan::Args),
+    Plan(sweepgate_host::cli::plan::Args),
     /// Run a simulated VNA on a TCP port, answering SCPI queries.
     Instrument(instrument::Args),
     /// Decode one IEEE 488.2 block from a file and print its values as JSON.
@@ -48,7 +48,7 @@ fn main() {
     let result = match cli.command {
         Command::Demo(a) => demo::run(a),
         Command::Simulate(a) => simulate::run(a),
-        Command::Plan(a) => sweepgate_host::pipeline::plan::run(a),
+        Command::Plan(a) => sweepgate_host::cli::plan::run(a),
         Command::Instrument(a) => instrument::run(a),
         Command::ReadBlock(a) => instrument::run_read_block(a),
         Command::Acquire(a) => acquire::run(a),

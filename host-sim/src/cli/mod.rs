@@ -2,3 +2,4 @@
 //! the library imports this folder; only `main.rs` does.
 
 pub mod demo;
+pub mod plan;
