@@ -3,7 +3,8 @@
 use clap::{Parser, Subcommand};
 
 use sweepgate_host::cli::demo;
-use sweepgate_host::link::{acquire, instrument, view};
+use sweepgate_host::cli::{instrument, read_block};
+use sweepgate_host::link::{acquire, view};
 use sweepgate_host::pipeline::{replay, simulate};
 
 /// Time-domain gating for antenna pattern scans in ordinary rooms.
@@ -32,7 +33,7 @@ enum Command {
     /// Run a simulated VNA on a TCP port, answering SCPI queries.
     Instrument(instrument::Args),
     /// Decode one IEEE 488.2 block from a file and print its values as JSON.
-    ReadBlock(instrument::ReadBlockArgs),
+    ReadBlock(read_block::ReadBlockArgs),
     /// Drive an instrument and a positioner over TCP and record the scan.
     Acquire(acquire::Args),
     /// Replay a recording through the scan engine with a live preview, and write the report.
@@ -50,7 +51,7 @@ fn main() {
         Command::Simulate(a) => simulate::run(a),
         Command::Plan(a) => sweepgate_host::cli::plan::run(a),
         Command::Instrument(a) => instrument::run(a),
-        Command::ReadBlock(a) => instrument::run_read_block(a),
+        Command::ReadBlock(a) => read_block::run(a),
         Command::Acquire(a) => acquire::run(a),
         Command::Replay(a) => replay::run(a),
         Command::View(a) => view::run(a),

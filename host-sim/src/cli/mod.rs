@@ -2,4 +2,6 @@
 //! the library imports this folder; only `main.rs` does.
 
 pub mod demo;
+pub mod instrument;
 pub mod plan;
+pub mod read_block;

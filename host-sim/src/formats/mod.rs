@@ -1,5 +1,7 @@
-//! Files, parse and emit only: recordings, Touchstone, manifests, gain tables.
+//! Files, parse and emit only: recordings, Touchstone, manifests, gain tables, IEEE 488.2
+//! block files.
 
+pub mod block;
 pub mod gain_table;
 pub mod manifest;
 pub mod recording;

@@ -120,8 +120,8 @@ use serde::Deserialize;
 use sweepgate::wire::ascii::{AsciiConfig, AsciiDecoder};
 use sweepgate::wire::block::{BlockConfig, BlockDecoder, Event, StreamDecoder};
 
+use crate::formats::block::{parse_format, parse_order};
 use crate::formats::recording::{GridInfo, Header, Record, SyncPolicy, Writer, SWEEP_FORMAT};
-use crate::link::instrument::{parse_format, parse_order};
 use crate::model::scenario::Scenario;
 use crate::model::simulator::Simulator;
 

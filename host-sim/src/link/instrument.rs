@@ -1,4 +1,5 @@
-//! `sweepgate instrument`: a simulated VNA on a TCP port, speaking SCPI.
+//! The simulated instrument of `sweepgate instrument` (the command is
+//! `crate::cli::instrument`): a simulated VNA on a TCP port, speaking SCPI.
 //!
 //! ```text
 //! sweepgate instrument [--port 5025] [--bind 127.0.0.1] [--scenario FILE] [--seed N]
@@ -63,13 +64,13 @@
 use std::collections::VecDeque;
 use std::io::{BufRead, BufReader, Read, Write};
 use std::net::{TcpListener, TcpStream};
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 use std::sync::{Arc, Mutex};
 
 use anyhow::Context;
 use num_complex::Complex32;
 use sweepgate::grid::Grid;
-use sweepgate::wire::block::{self, BlockConfig, BlockDecoder, ByteOrder, Event, Format};
+use sweepgate::wire::block::{self, ByteOrder, Format};
 
 use crate::model::scenario::Scenario;
 use crate::model::simulator::Simulator;
@@ -86,29 +87,6 @@ pub const FREQ_RANGE_HZ: (f64, f64) = (10e6, 50e9);
 pub const POINTS_RANGE: (usize, usize) = (2, 10001);
 
 const DEMO_SCENARIO: &str = include_str!("../../scenarios/demo-lab.toml");
-
-/// Options of `sweepgate instrument`.
-#[derive(clap::Args, Debug)]
-pub struct Args {
-    /// TCP port (5025 is the registered SCPI raw-socket port; 0 picks a free one).
-    #[arg(long, default_value_t = 5025)]
-    pub port: u16,
-    /// Address to listen on.
-    #[arg(long, default_value = "127.0.0.1")]
-    pub bind: String,
-    /// Scenario whose scan the sweeps come from (default: the built-in demo lab).
-    #[arg(long)]
-    pub scenario: Option<PathBuf>,
-    /// Seed of the noise (default: the scenario's `simulation.seed`).
-    #[arg(long)]
-    pub seed: Option<u64>,
-    /// Write every sweep taken as DIR/sweep-<n>.json.
-    #[arg(long)]
-    pub dump: Option<PathBuf>,
-    /// Stop after the first client disconnects.
-    #[arg(long)]
-    pub once: bool,
-}
 
 /// Data format set by `FORMat:DATA`.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -414,115 +392,21 @@ impl Instrument {
         if let Some(common) = header.strip_prefix('*') {
             return self.common(&common.to_ascii_uppercase(), query, &params);
         }
-        let tokens: Vec<String> = header
-            .strip_prefix(':')
-            .unwrap_or(header)
-            .split(':')
-            .map(str::to_ascii_uppercase)
-            .collect();
-        if tokens
-            .iter()
-            .any(|t| t.is_empty() || !t.chars().all(|c| c.is_ascii_alphanumeric()))
-        {
-            return Err(ScpiError::SYNTAX);
-        }
-        let no_params = |p: &[&str]| {
-            if p.is_empty() {
-                Ok(())
-            } else {
-                Err(ScpiError::PARAMETER_NOT_ALLOWED)
-            }
-        };
-        let one = |p: &[&str]| -> Result<String, ScpiError> {
-            match p {
-                [] => Err(ScpiError::MISSING_PARAMETER),
-                [x] => Ok(x.to_ascii_uppercase()),
-                _ => Err(ScpiError::PARAMETER_NOT_ALLOWED),
-            }
-        };
+        let tokens = mnemonics(header)?;
         let t = tokens.as_slice();
-        let g = self.scenario.sweep.clone();
         if matches(t, FORM_DATA) {
-            if query {
-                no_params(&params)?;
-                return Ok(Some(Answer::Text(match self.format {
-                    DataFormat::Real(Format::Real32) => "REAL,32".into(),
-                    DataFormat::Real(Format::Real64) => "REAL,64".into(),
-                    DataFormat::Ascii(n) => format!("ASC,{n}"),
-                })));
-            }
-            let kind = params
-                .first()
-                .ok_or(ScpiError::MISSING_PARAMETER)?
-                .to_ascii_uppercase();
-            let len = params.get(1).map(|s| s.parse::<u32>());
-            if params.len() > 2 {
-                return Err(ScpiError::PARAMETER_NOT_ALLOWED);
-            }
-            self.format = match (kind.as_str(), len) {
-                ("REAL", None | Some(Ok(32))) => DataFormat::Real(Format::Real32),
-                ("REAL", Some(Ok(64))) => DataFormat::Real(Format::Real64),
-                ("REAL", Some(Ok(_))) => return Err(ScpiError::ILLEGAL_VALUE),
-                ("ASC" | "ASCII", None) => DataFormat::Ascii(0),
-                ("ASC" | "ASCII", Some(Ok(n))) if n <= 17 => DataFormat::Ascii(n as u8),
-                ("ASC" | "ASCII", Some(Ok(_))) => return Err(ScpiError::OUT_OF_RANGE),
-                (_, Some(Err(_))) => return Err(ScpiError::DATA_TYPE),
-                _ => return Err(ScpiError::ILLEGAL_VALUE),
-            };
-            return Ok(None);
+            return self.data_format(query, &params);
         }
         if matches(t, FORM_BORD) {
-            if query {
-                no_params(&params)?;
-                let s = match self.order {
-                    ByteOrder::Normal => "NORM",
-                    ByteOrder::Swapped => "SWAP",
-                };
-                return Ok(Some(Answer::Text(s.into())));
-            }
-            self.order = match one(&params)?.as_str() {
-                "NORM" | "NORMAL" => ByteOrder::Normal,
-                "SWAP" | "SWAPPED" => ByteOrder::Swapped,
-                _ => return Err(ScpiError::ILLEGAL_VALUE),
-            };
-            return Ok(None);
+            return self.byte_order(query, &params);
         }
-        let freq = [(FREQ_STAR, true), (FREQ_STOP, false)];
-        for (pattern, is_start) in freq {
+        for (pattern, is_start) in [(FREQ_STAR, true), (FREQ_STOP, false)] {
             if matches(t, pattern) {
-                if query {
-                    no_params(&params)?;
-                    let v = if is_start { g.start_hz } else { g.stop_hz };
-                    return Ok(Some(Answer::Text(nr3(v))));
-                }
-                let v = parse_hz(&one(&params)?)?;
-                if !(FREQ_RANGE_HZ.0..=FREQ_RANGE_HZ.1).contains(&v) {
-                    return Err(ScpiError::OUT_OF_RANGE);
-                }
-                let (a, b) = if is_start {
-                    (v, g.stop_hz)
-                } else {
-                    (g.start_hz, v)
-                };
-                self.set_grid(a, b, g.points)?;
-                return Ok(None);
+                return self.frequency(is_start, query, &params);
             }
         }
         if matches(t, SWE_POIN) {
-            if query {
-                no_params(&params)?;
-                return Ok(Some(Answer::Text(g.points.to_string())));
-            }
-            let p = one(&params)?;
-            let v: f64 = p.parse().map_err(|_| ScpiError::DATA_TYPE)?;
-            if !v.is_finite() || v.fract() != 0.0 {
-                return Err(ScpiError::DATA_TYPE);
-            }
-            if v < POINTS_RANGE.0 as f64 || v > POINTS_RANGE.1 as f64 {
-                return Err(ScpiError::OUT_OF_RANGE);
-            }
-            self.set_grid(g.start_hz, g.stop_hz, v as usize)?;
-            return Ok(None);
+            return self.points(query, &params);
         }
         if matches(t, INIT) {
             if query {
@@ -533,34 +417,140 @@ impl Instrument {
             return Ok(None);
         }
         if matches(t, TRAC_DATA) || matches(t, CALC_DATA) {
-            if !query {
-                return Err(ScpiError::UNDEFINED_HEADER);
-            }
-            if params.len() > 1 {
-                return Err(ScpiError::PARAMETER_NOT_ALLOWED);
-            }
-            let Some((_, values)) = &self.sweep else {
-                return Err(ScpiError::STALE);
-            };
-            return Ok(Some(encode(self.format, self.order, values)));
+            return self.trace(query, &params);
         }
-        if matches(t, SYST_ERR) && query {
-            no_params(&params)?;
-            let e = self.errors.pop_front();
-            return Ok(Some(Answer::Text(match e {
-                Some(e) => e.to_string(),
-                None => "0,\"No error\"".into(),
-            })));
-        }
-        if matches(t, SYST_ERR_COUN) && query {
-            no_params(&params)?;
-            return Ok(Some(Answer::Text(self.errors.len().to_string())));
-        }
-        if matches(t, SYST_VERS) && query {
-            no_params(&params)?;
-            return Ok(Some(Answer::Text("1999.0".into())));
+        if query {
+            return self.system_query(t, &params);
         }
         Err(ScpiError::UNDEFINED_HEADER)
+    }
+
+    /// `FORMat[:DATA]` and its query.
+    fn data_format(&mut self, query: bool, params: &[&str]) -> Result<Option<Answer>, ScpiError> {
+        if query {
+            no_params(params)?;
+            return Ok(Some(Answer::Text(match self.format {
+                DataFormat::Real(Format::Real32) => "REAL,32".into(),
+                DataFormat::Real(Format::Real64) => "REAL,64".into(),
+                DataFormat::Ascii(n) => format!("ASC,{n}"),
+            })));
+        }
+        let kind = params
+            .first()
+            .ok_or(ScpiError::MISSING_PARAMETER)?
+            .to_ascii_uppercase();
+        let len = params.get(1).map(|s| s.parse::<u32>());
+        if params.len() > 2 {
+            return Err(ScpiError::PARAMETER_NOT_ALLOWED);
+        }
+        self.format = match (kind.as_str(), len) {
+            ("REAL", None | Some(Ok(32))) => DataFormat::Real(Format::Real32),
+            ("REAL", Some(Ok(64))) => DataFormat::Real(Format::Real64),
+            ("REAL", Some(Ok(_))) => return Err(ScpiError::ILLEGAL_VALUE),
+            ("ASC" | "ASCII", None) => DataFormat::Ascii(0),
+            ("ASC" | "ASCII", Some(Ok(n))) if n <= 17 => DataFormat::Ascii(n as u8),
+            ("ASC" | "ASCII", Some(Ok(_))) => return Err(ScpiError::OUT_OF_RANGE),
+            (_, Some(Err(_))) => return Err(ScpiError::DATA_TYPE),
+            _ => return Err(ScpiError::ILLEGAL_VALUE),
+        };
+        Ok(None)
+    }
+
+    /// `FORMat:BORDer` and its query.
+    fn byte_order(&mut self, query: bool, params: &[&str]) -> Result<Option<Answer>, ScpiError> {
+        if query {
+            no_params(params)?;
+            let s = match self.order {
+                ByteOrder::Normal => "NORM",
+                ByteOrder::Swapped => "SWAP",
+            };
+            return Ok(Some(Answer::Text(s.into())));
+        }
+        self.order = match one(params)?.as_str() {
+            "NORM" | "NORMAL" => ByteOrder::Normal,
+            "SWAP" | "SWAPPED" => ByteOrder::Swapped,
+            _ => return Err(ScpiError::ILLEGAL_VALUE),
+        };
+        Ok(None)
+    }
+
+    /// `[SENSe]:FREQuency:STARt` (`is_start`) or `:STOP`, and their queries.
+    fn frequency(
+        &mut self,
+        is_start: bool,
+        query: bool,
+        params: &[&str],
+    ) -> Result<Option<Answer>, ScpiError> {
+        let g = self.scenario.sweep.clone();
+        if query {
+            no_params(params)?;
+            let v = if is_start { g.start_hz } else { g.stop_hz };
+            return Ok(Some(Answer::Text(nr3(v))));
+        }
+        let v = parse_hz(&one(params)?)?;
+        if !(FREQ_RANGE_HZ.0..=FREQ_RANGE_HZ.1).contains(&v) {
+            return Err(ScpiError::OUT_OF_RANGE);
+        }
+        let (a, b) = if is_start {
+            (v, g.stop_hz)
+        } else {
+            (g.start_hz, v)
+        };
+        self.set_grid(a, b, g.points)?;
+        Ok(None)
+    }
+
+    /// `[SENSe]:SWEep:POINts` and its query.
+    fn points(&mut self, query: bool, params: &[&str]) -> Result<Option<Answer>, ScpiError> {
+        let g = self.scenario.sweep.clone();
+        if query {
+            no_params(params)?;
+            return Ok(Some(Answer::Text(g.points.to_string())));
+        }
+        let p = one(params)?;
+        let v: f64 = p.parse().map_err(|_| ScpiError::DATA_TYPE)?;
+        if !v.is_finite() || v.fract() != 0.0 {
+            return Err(ScpiError::DATA_TYPE);
+        }
+        if v < POINTS_RANGE.0 as f64 || v > POINTS_RANGE.1 as f64 {
+            return Err(ScpiError::OUT_OF_RANGE);
+        }
+        self.set_grid(g.start_hz, g.stop_hz, v as usize)?;
+        Ok(None)
+    }
+
+    /// `TRACe[:DATA]?` / `CALCulate[:DATA]?`: the last sweep in the current format.
+    fn trace(&self, query: bool, params: &[&str]) -> Result<Option<Answer>, ScpiError> {
+        if !query {
+            return Err(ScpiError::UNDEFINED_HEADER);
+        }
+        if params.len() > 1 {
+            return Err(ScpiError::PARAMETER_NOT_ALLOWED);
+        }
+        let Some((_, values)) = &self.sweep else {
+            return Err(ScpiError::STALE);
+        };
+        Ok(Some(encode(self.format, self.order, values)))
+    }
+
+    /// The `SYSTem` queries: error queue and version.
+    fn system_query(&mut self, t: &[String], params: &[&str]) -> Result<Option<Answer>, ScpiError> {
+        let answer = if matches(t, SYST_ERR) {
+            no_params(params)?;
+            match self.errors.pop_front() {
+                Some(e) => e.to_string(),
+                None => "0,\"No error\"".into(),
+            }
+        } else if matches(t, SYST_ERR_COUN) {
+            no_params(params)?;
+            self.errors.len().to_string()
+        } else if matches(t, SYST_VERS) {
+            no_params(params)?;
+            "1999.0".into()
+        } else {
+            return Err(ScpiError::UNDEFINED_HEADER);
+        };
+        Ok(Some(Answer::Text(answer)))
     }
 
     fn common(
@@ -626,6 +616,42 @@ impl Instrument {
             }
             _ => Err(ScpiError::UNDEFINED_HEADER),
         }
+    }
+}
+
+/// The header's mnemonics in upper case (a leading `:` dropped); a syntax error when one
+/// is empty or holds anything but letters and digits.
+fn mnemonics(header: &str) -> Result<Vec<String>, ScpiError> {
+    let tokens: Vec<String> = header
+        .strip_prefix(':')
+        .unwrap_or(header)
+        .split(':')
+        .map(str::to_ascii_uppercase)
+        .collect();
+    if tokens
+        .iter()
+        .any(|t| t.is_empty() || !t.chars().all(|c| c.is_ascii_alphanumeric()))
+    {
+        return Err(ScpiError::SYNTAX);
+    }
+    Ok(tokens)
+}
+
+/// No parameters allowed.
+fn no_params(p: &[&str]) -> Result<(), ScpiError> {
+    if p.is_empty() {
+        Ok(())
+    } else {
+        Err(ScpiError::PARAMETER_NOT_ALLOWED)
+    }
+}
+
+/// Exactly one parameter, in upper case.
+fn one(p: &[&str]) -> Result<String, ScpiError> {
+    match p {
+        [] => Err(ScpiError::MISSING_PARAMETER),
+        [x] => Ok(x.to_ascii_uppercase()),
+        _ => Err(ScpiError::PARAMETER_NOT_ALLOWED),
     }
 }
 
@@ -761,26 +787,38 @@ pub fn serve(listener: TcpListener, inst: Instrument, once: bool) -> anyhow::Res
     Ok(())
 }
 
-/// Runs the command.
-pub fn run(args: Args) -> anyhow::Result<()> {
-    let (scenario, seed) = match &args.scenario {
-        Some(path) => {
-            let s = Scenario::load(path)?;
-            let seed = args.seed.unwrap_or(s.simulation.seed);
-            (s, seed)
-        }
-        None => {
-            let s = Scenario::from_toml(DEMO_SCENARIO)?;
-            let seed = args.seed.unwrap_or(s.simulation.seed);
-            (s, seed)
-        }
+/// What `sweepgate instrument` is asked to run: where to listen, which scan to simulate,
+/// where to dump the sweeps, and whether to stop after one client.
+#[derive(Debug, Clone)]
+pub struct ServerOptions {
+    /// Address to listen on.
+    pub bind: String,
+    /// TCP port (0 picks a free one).
+    pub port: u16,
+    /// Scenario whose scan the sweeps come from; `None`: the built-in demo lab.
+    pub scenario: Option<PathBuf>,
+    /// Seed of the noise; `None`: the scenario's `simulation.seed`.
+    pub seed: Option<u64>,
+    /// Folder for `sweep-<n>.json` files, created when missing.
+    pub dump: Option<PathBuf>,
+    /// Stop after the first client disconnects.
+    pub once: bool,
+}
+
+/// Builds the instrument, listens, prints `listening on <address>` on standard output, and
+/// serves clients (see the module documentation).
+pub fn run_server(o: &ServerOptions) -> anyhow::Result<()> {
+    let scenario = match &o.scenario {
+        Some(path) => Scenario::load(path)?,
+        None => Scenario::from_toml(DEMO_SCENARIO)?,
     };
-    if let Some(d) = &args.dump {
+    let seed = o.seed.unwrap_or(scenario.simulation.seed);
+    if let Some(d) = &o.dump {
         std::fs::create_dir_all(d).with_context(|| format!("creating {}", d.display()))?;
     }
-    let inst = Instrument::new(scenario, seed, args.dump.clone())?;
-    let listener = TcpListener::bind((args.bind.as_str(), args.port))
-        .with_context(|| format!("listening on {}:{}", args.bind, args.port))?;
+    let inst = Instrument::new(scenario, seed, o.dump.clone())?;
+    let listener = TcpListener::bind((o.bind.as_str(), o.port))
+        .with_context(|| format!("listening on {}:{}", o.bind, o.port))?;
     let addr = listener.local_addr()?;
     println!("listening on {addr}");
     std::io::stdout().flush()?;
@@ -790,86 +828,7 @@ pub fn run(args: Args) -> anyhow::Result<()> {
         inst.scenario.sweep.points,
         inst.scenario.name
     );
-    serve(listener, inst, args.once)
-}
-
-/// Options of `sweepgate read-block`.
-#[derive(clap::Args, Debug)]
-pub struct ReadBlockArgs {
-    /// File holding one IEEE 488.2 block.
-    pub file: PathBuf,
-    /// Value format: real32 or real64.
-    #[arg(long, default_value = "real32")]
-    pub format: String,
-    /// Byte order: normal (big-endian) or swapped (little-endian).
-    #[arg(long, default_value = "normal")]
-    pub byte_order: String,
-    /// Complex points the block must hold.
-    #[arg(long)]
-    pub points: usize,
-}
-
-/// Parses a format word (`real32`, `real64`).
-pub fn parse_format(s: &str) -> anyhow::Result<Format> {
-    match s.to_ascii_lowercase().replace([',', ' '], "").as_str() {
-        "real32" => Ok(Format::Real32),
-        "real64" => Ok(Format::Real64),
-        _ => anyhow::bail!("unknown format {s:?} (real32 or real64)"),
-    }
-}
-
-/// Parses a byte order word (`normal`, `swapped`).
-pub fn parse_order(s: &str) -> anyhow::Result<ByteOrder> {
-    match s.to_ascii_lowercase().as_str() {
-        "normal" | "norm" => Ok(ByteOrder::Normal),
-        "swapped" | "swap" => Ok(ByteOrder::Swapped),
-        _ => anyhow::bail!("unknown byte order {s:?} (normal or swapped)"),
-    }
-}
-
-/// Decodes one block with the core's [`BlockDecoder`].
-pub fn decode_block(bytes: &[u8], cfg: BlockConfig) -> anyhow::Result<Vec<Complex32>> {
-    let mut dec = BlockDecoder::new(cfg);
-    let mut buf = vec![Complex32::new(0.0, 0.0); cfg.points()];
-    let mut rest = bytes;
-    loop {
-        let fed = dec.feed(rest, &mut buf);
-        rest = rest.get(fed.consumed..).unwrap_or(&[]);
-        match fed.event {
-            Some(Event::Sweep { .. }) => return Ok(buf),
-            Some(Event::Rejected(e)) => anyhow::bail!("block rejected: {e}"),
-            None if rest.is_empty() => {
-                if let Some(e) = dec.finish() {
-                    anyhow::bail!("block rejected: {e}");
-                }
-                anyhow::bail!("no block in the input");
-            }
-            None => {}
-        }
-    }
-}
-
-/// `sweepgate read-block FILE --points K [--format real32|real64] [--byte-order
-/// normal|swapped]`: decodes one IEEE 488.2 block from a file with the core decoder and
-/// prints its values as JSON, `{"re": [...], "im": [...]}`.
-pub fn run_read_block(args: ReadBlockArgs) -> anyhow::Result<()> {
-    let bytes = read_file(&args.file)?;
-    let cfg = BlockConfig::new(
-        args.points,
-        parse_format(&args.format)?,
-        parse_order(&args.byte_order)?,
-    )?;
-    let v = decode_block(&bytes, cfg).with_context(|| format!("in {}", args.file.display()))?;
-    let json = serde_json::json!({
-        "re": v.iter().map(|c| c.re).collect::<Vec<_>>(),
-        "im": v.iter().map(|c| c.im).collect::<Vec<_>>(),
-    });
-    println!("{json}");
-    Ok(())
-}
-
-fn read_file(p: &Path) -> anyhow::Result<Vec<u8>> {
-    std::fs::read(p).with_context(|| format!("reading {}", p.display()))
+    serve(listener, inst, o.once)
 }
 
 #[cfg(test)]
