@@ -11,3 +11,4 @@ pub mod link;
 pub mod model;
 pub mod output;
 pub mod pipeline;
+pub mod units;

@@ -8,9 +8,9 @@ use std::sync::atomic::AtomicBool;
 
 use sweepgate_host::formats::recording::recover_file;
 use sweepgate_host::model::scenario::Scenario;
-use sweepgate_host::output::report::db;
 use sweepgate_host::pipeline::replay::{replay_records, Args};
 use sweepgate_host::pipeline::simulate::simulate_to_file;
+use sweepgate_host::units::db;
 
 struct Figures {
     gated_10: f64,

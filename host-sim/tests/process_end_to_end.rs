@@ -10,10 +10,11 @@ use std::sync::atomic::AtomicBool;
 use sweepgate_host::formats::recording::{recover, Record, Recovered};
 use sweepgate_host::formats::touchstone::Spacing;
 use sweepgate_host::model::scenario::Scenario;
-use sweepgate_host::output::report::{db, ReportBin};
+use sweepgate_host::output::report::ReportBin;
 use sweepgate_host::pipeline::process::{self, Input, Origin, Resolved};
 use sweepgate_host::pipeline::replay::{self, replay_records};
 use sweepgate_host::pipeline::simulate::simulate_to;
+use sweepgate_host::units::db;
 
 /// The workshop bay cut to seven stops, −6°…6° in 2° steps, one sweep per stop.
 fn short_bay() -> Scenario {

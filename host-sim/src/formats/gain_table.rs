@@ -27,11 +27,10 @@ use num_complex::Complex64;
 use sweepgate::error::GainError;
 use sweepgate::metrics::{absolute_gain_dbi, interpolate_gain_dbi, pattern_to_dbi};
 
+use crate::units::db;
+
 /// The header line a gain table must start with.
 pub const GAIN_TABLE_HEADER: &str = "frequency_hz,gain_dbi";
-
-/// Levels below this are clipped when converting |S21| to dB (zero magnitude has no dB).
-pub const FLOOR_DB: f64 = -300.0;
 
 /// Why a gain table could not be read, naming the file and (when there is one) the line.
 #[derive(Debug, Clone, PartialEq)]
@@ -155,16 +154,6 @@ impl GainTable {
     }
 }
 
-/// 20·log10|S21|, clipped at [`FLOOR_DB`].
-pub fn s21_db(s21: Complex64) -> f64 {
-    let m = s21.norm();
-    if m > 0.0 {
-        (20.0 * m.log10()).max(FLOOR_DB)
-    } else {
-        FLOOR_DB
-    }
-}
-
 /// Absolute gain in dBi of a measured pattern cut `cut_db` (|S21| in dB, any common
 /// reference) at `frequency_hz`, given the reference antenna's level `reference_db`
 /// measured in the same set-up and its gain table.
@@ -187,15 +176,16 @@ pub fn pattern_gain_dbi(
     Ok(out)
 }
 
-/// [`pattern_gain_dbi`] from complex S21: the cut and the reference measurement.
+/// [`pattern_gain_dbi`] from complex S21: the cut and the reference measurement, each
+/// converted by [`crate::units::db`].
 pub fn pattern_gain_dbi_from_s21(
     table: &GainTable,
     frequency_hz: f64,
     cut: &[Complex64],
     reference: Complex64,
 ) -> Result<Vec<f64>, GainError> {
-    let cut_db: Vec<f64> = cut.iter().map(|c| s21_db(*c)).collect();
-    pattern_gain_dbi(table, frequency_hz, &cut_db, s21_db(reference))
+    let cut_db: Vec<f64> = cut.iter().map(|c| db(*c)).collect();
+    pattern_gain_dbi(table, frequency_hz, &cut_db, db(reference))
 }
 
 #[cfg(test)]
@@ -216,7 +206,16 @@ mod tests {
             pattern_gain_dbi(&t, 1.5e9, &[f64::NAN], -20.0),
             Err(GainError::NonFiniteInput)
         );
-        assert_eq!(s21_db(Complex64::new(0.0, 0.0)), FLOOR_DB);
-        assert!((s21_db(Complex64::new(0.0, 0.1)) + 20.0).abs() < 1e-12);
+        // The cut and the reference in dB through the one conversion (`units::db`).
+        assert_eq!(db(Complex64::new(0.0, 0.0)), crate::units::FLOOR_DB);
+        assert!((db(Complex64::new(0.0, 0.1)) + 20.0).abs() < 1e-12);
+        let from_s21 = pattern_gain_dbi_from_s21(
+            &t,
+            1.5e9,
+            &[Complex64::new(0.0, 10f64.powf(-18.0 / 20.0))],
+            Complex64::new(0.1, 0.0),
+        )
+        .unwrap();
+        assert!((from_s21[0] - 13.0).abs() < 1e-9, "{from_s21:?}");
     }
 }

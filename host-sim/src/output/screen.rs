@@ -18,7 +18,7 @@ use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::mpsc::{Receiver, RecvTimeoutError};
 use std::time::{Duration, Instant};
 
-use ratatui::layout::{Constraint, Direction, Layout};
+use ratatui::layout::{Constraint, Direction, Layout, Rect};
 use ratatui::style::{Color, Style};
 use ratatui::symbols::Marker;
 use ratatui::text::Line;
@@ -302,7 +302,15 @@ pub fn draw(frame: &mut Frame, screen: &Screen) {
         .get(screen.selected)
         .map(|&i| screen.frequency_label(i))
         .unwrap_or_else(|| "waiting for bins".into());
+    draw_pattern(frame, cols[0], screen, &freq_text);
+    let lines = scan_lines(screen, &freq_text, freqs.len());
+    let info = Paragraph::new(lines).block(Block::default().borders(Borders::ALL).title("scan"));
+    frame.render_widget(info, cols[1]);
+}
 
+/// The chart of raw and gated |S21| against angle at the selected frequency, its level
+/// axis spanning 60 dB under the highest point (rounded up to 10 dB).
+fn draw_pattern(frame: &mut Frame, area: Rect, screen: &Screen, freq_text: &str) {
     let pts = screen.pattern_points();
     let raw: Vec<(f64, f64)> = pts.iter().map(|p| (p.0, p.1)).collect();
     let gated: Vec<(f64, f64)> = pts.iter().map(|p| (p.0, p.2)).collect();
@@ -316,19 +324,17 @@ pub fn draw(frame: &mut Frame, screen: &Screen) {
     } else {
         (-100.0, 0.0)
     };
+    let line = |name: &'static str, colour: Color, data| {
+        Dataset::default()
+            .name(name)
+            .marker(Marker::Braille)
+            .graph_type(GraphType::Line)
+            .style(Style::default().fg(colour))
+            .data(data)
+    };
     let datasets = vec![
-        Dataset::default()
-            .name("raw")
-            .marker(Marker::Braille)
-            .graph_type(GraphType::Line)
-            .style(Style::default().fg(Color::Yellow))
-            .data(&raw),
-        Dataset::default()
-            .name("gated")
-            .marker(Marker::Braille)
-            .graph_type(GraphType::Line)
-            .style(Style::default().fg(Color::Cyan))
-            .data(&gated),
+        line("raw", Color::Yellow, &raw),
+        line("gated", Color::Cyan, &gated),
     ];
     let chart = Chart::new(datasets)
         .block(
@@ -352,13 +358,17 @@ pub fn draw(frame: &mut Frame, screen: &Screen) {
                     format!("{y1:.0}"),
                 ]),
         );
-    frame.render_widget(chart, cols[0]);
+    frame.render_widget(chart, area);
+}
 
+/// The scan panel: frequency, bins, echo level, rates, positioner and counters, warnings,
+/// and the keys.
+fn scan_lines(screen: &Screen, freq_text: &str, n_freqs: usize) -> Vec<Line<'static>> {
     let mut lines: Vec<Line> = vec![
         Line::from(format!(
             "frequency    {freq_text} ({}/{})",
-            (screen.selected + 1).min(freqs.len()),
-            freqs.len()
+            (screen.selected + 1).min(n_freqs),
+            n_freqs
         )),
         Line::from(format!("bins filled  {}", screen.bins_filled_text())),
         Line::from(format!(
@@ -374,6 +384,32 @@ pub fn draw(frame: &mut Frame, screen: &Screen) {
                 .map_or("-".into(), |r| format!("{r:.1}"))
         )),
     ];
+    lines.extend(counter_lines(screen));
+    lines.push(Line::from(""));
+    let warns = screen.warnings();
+    if warns.is_empty() {
+        lines.push(Line::from("no warnings"));
+    } else {
+        lines.push(Line::from("warnings:"));
+        for w in warns {
+            lines.push(Line::styled(
+                format!(" {w}"),
+                Style::default().fg(Color::LightRed),
+            ));
+        }
+    }
+    lines.push(Line::from(""));
+    if screen.ended {
+        lines.push(Line::from("stream ended"));
+    }
+    lines.push(Line::from("f: next frequency  q: quit"));
+    lines
+}
+
+/// The positioner and the engine's counters (from the last status record), and the
+/// preview decoder's frame counts.
+fn counter_lines(screen: &Screen) -> Vec<Line<'static>> {
+    let mut lines = Vec::new();
     if let Some(s) = &screen.status {
         lines.push(Line::from(format!(
             "positioner   {:.2} deg, {}",
@@ -395,26 +431,7 @@ pub fn draw(frame: &mut Frame, screen: &Screen) {
         d.good,
         d.damaged()
     )));
-    lines.push(Line::from(""));
-    let warns = screen.warnings();
-    if warns.is_empty() {
-        lines.push(Line::from("no warnings"));
-    } else {
-        lines.push(Line::from("warnings:"));
-        for w in warns {
-            lines.push(Line::styled(
-                format!(" {w}"),
-                Style::default().fg(Color::LightRed),
-            ));
-        }
-    }
-    lines.push(Line::from(""));
-    if screen.ended {
-        lines.push(Line::from("stream ended"));
-    }
-    lines.push(Line::from("f: next frequency  q: quit"));
-    let info = Paragraph::new(lines).block(Block::default().borders(Borders::ALL).title("scan"));
-    frame.render_widget(info, cols[1]);
+    lines
 }
 
 /// True when stdout is a terminal (the full screen can be shown).

@@ -800,7 +800,7 @@ fn gain_reference(
         let g_ref = gains
             .gain_dbi(*f)
             .map_err(|e| anyhow::anyhow!("{}: at {f} Hz: {e}", table.display()))?;
-        per_frequency.push((g_ref, report::db(v.gated)));
+        per_frequency.push((g_ref, crate::units::db(v.gated)));
     }
     Ok(report::GainReference {
         table: table.display().to_string(),

@@ -23,15 +23,18 @@
 //! Plots are SVG drawn by `plotters` with its SVG backend: text is written as SVG text
 //! elements, so no fonts are needed on the machine.
 
+mod plot;
+
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
 use anyhow::Context;
 use num_complex::Complex64;
-use plotters::prelude::*;
 use serde_json::{json, Value};
 use sweepgate::bins::BinFlags;
-use sweepgate::metrics::{pattern_metrics, Coverage, PatternMetrics};
+use sweepgate::metrics::{pattern_metrics, wrap_deg, Coverage, PatternMetrics};
+
+use crate::units::{db, FLOOR_DB};
 
 /// One pattern frequency's values in one bin.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -124,14 +127,6 @@ impl GainReference {
     }
 }
 
-/// Lowest level written or plotted, dB.
-pub const FLOOR_DB: f64 = -300.0;
-
-/// 20·log10|z|, clipped at [`FLOOR_DB`].
-pub fn db(z: Complex64) -> f64 {
-    (20.0 * z.norm().log10()).max(FLOOR_DB)
-}
-
 /// Flag bits as words joined by `|`.
 pub fn flag_words(bits: u16) -> String {
     let names = [
@@ -149,10 +144,6 @@ pub fn flag_words(bits: u16) -> String {
         .map(|(_, n)| *n)
         .collect::<Vec<_>>()
         .join("|")
-}
-
-fn wrap180(a: f64) -> f64 {
-    (a + 180.0).rem_euclid(360.0) - 180.0
 }
 
 /// A cut at one pattern frequency: angles (increasing) and raw, gated and true values.
@@ -193,7 +184,7 @@ impl ReportInput {
     pub fn sorted_bins(&self) -> Vec<&ReportBin> {
         let key = |b: &ReportBin| {
             if self.full_circle {
-                wrap180(b.angle_deg)
+                wrap_deg(b.angle_deg)
             } else {
                 b.angle_deg
             }
@@ -212,7 +203,7 @@ impl ReportInput {
         for b in self.sorted_bins() {
             let Some(v) = b.values.get(fi) else { continue };
             c.angles_deg.push(if self.full_circle {
-                wrap180(b.angle_deg)
+                wrap_deg(b.angle_deg)
             } else {
                 b.angle_deg
             });
@@ -420,270 +411,6 @@ pub fn summary_json(input: &ReportInput) -> Value {
     })
 }
 
-fn pe<E: std::fmt::Debug>(e: E) -> anyhow::Error {
-    anyhow::anyhow!("plot: {e:?}")
-}
-
-const PLOT_FLOOR_DB: f64 = -50.0;
-
-/// A named, coloured line of (x, y) points.
-type Curve = (&'static str, RGBColor, Vec<(f64, f64)>);
-
-fn plot_rect(path: &Path, input: &ReportInput, fi: usize) -> anyhow::Result<()> {
-    let c = input.cut(fi);
-    let f = input.frequencies_hz.get(fi).copied().unwrap_or(0.0);
-    let (x0, x1) = match (c.angles_deg.first(), c.angles_deg.last()) {
-        (Some(a), Some(b)) if b > a => (*a, *b),
-        _ => (-180.0, 180.0),
-    };
-    let root = SVGBackend::new(path, (960, 560)).into_drawing_area();
-    root.fill(&WHITE).map_err(pe)?;
-    let mut chart = ChartBuilder::on(&root)
-        .caption(
-            format!("{}: pattern at {:.3} GHz", input.title, f / 1e9),
-            ("sans-serif", 20),
-        )
-        .margin(12)
-        .x_label_area_size(45)
-        .y_label_area_size(60)
-        .build_cartesian_2d(x0..x1, PLOT_FLOOR_DB..5.0)
-        .map_err(pe)?;
-    chart
-        .configure_mesh()
-        .axis_desc_style(("sans-serif", 15))
-        .label_style(("sans-serif", 13))
-        .x_desc("angle (deg)")
-        .y_desc("level relative to peak (dB)")
-        .draw()
-        .map_err(pe)?;
-    let series = |v: Vec<f64>| -> Vec<(f64, f64)> {
-        c.angles_deg
-            .iter()
-            .zip(v)
-            .map(|(a, l)| (*a, l.max(PLOT_FLOOR_DB)))
-            .collect()
-    };
-    // Truth first, wide and light, so the gated curve drawn over it stays visible where
-    // the two agree.
-    let mut curves: Vec<Curve> = Vec::new();
-    if !c.truth_db.is_empty() {
-        curves.push((
-            "free-space truth",
-            RGBColor(160, 160, 160),
-            series(c.truth_norm()),
-        ));
-    }
-    curves.push(("raw", RGBColor(214, 120, 0), series(c.raw_norm())));
-    curves.push(("gated", RGBColor(0, 90, 200), series(c.gated_norm())));
-    for (name, col, pts) in curves {
-        let width = if name == "free-space truth" { 5 } else { 2 };
-        chart
-            .draw_series(LineSeries::new(pts, col.stroke_width(width)))
-            .map_err(pe)?
-            .label(name)
-            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], col.stroke_width(2)));
-    }
-    chart
-        .configure_series_labels()
-        .background_style(WHITE.mix(0.85))
-        .border_style(BLACK)
-        .position(SeriesLabelPosition::LowerRight)
-        .draw()
-        .map_err(pe)?;
-    root.present().map_err(pe)?;
-    Ok(())
-}
-
-fn plot_polar(path: &Path, input: &ReportInput, fi: usize) -> anyhow::Result<()> {
-    let c = input.cut(fi);
-    let f = input.frequencies_hz.get(fi).copied().unwrap_or(0.0);
-    let root = SVGBackend::new(path, (760, 800)).into_drawing_area();
-    root.fill(&WHITE).map_err(pe)?;
-    let mut chart = ChartBuilder::on(&root)
-        .caption(
-            format!("{}: polar pattern at {:.3} GHz", input.title, f / 1e9),
-            ("sans-serif", 20),
-        )
-        .margin(12)
-        .build_cartesian_2d(-1.25f64..1.25, -1.25f64..1.25)
-        .map_err(pe)?;
-    let r_of = |l: f64| ((l.max(PLOT_FLOOR_DB) - PLOT_FLOOR_DB) / -PLOT_FLOOR_DB).clamp(0.0, 1.0);
-    let xy = |a_deg: f64, r: f64| {
-        let t = a_deg.to_radians();
-        (r * t.sin(), r * t.cos())
-    };
-    let grey = RGBColor(190, 190, 190);
-    let text_style = ("sans-serif", 14).into_font().color(&BLACK);
-    // Rings every 10 dB with their level, spokes every 30° with their angle.
-    for l in [0.0, -10.0, -20.0, -30.0, -40.0] {
-        let r = r_of(l);
-        let ring: Vec<(f64, f64)> = (0..=360).map(|a| xy(a as f64, r)).collect();
-        chart.draw_series(LineSeries::new(ring, grey)).map_err(pe)?;
-        chart
-            .draw_series(std::iter::once(Text::new(
-                format!("{l:.0} dB"),
-                xy(15.0, r),
-                text_style.clone(),
-            )))
-            .map_err(pe)?;
-    }
-    for a in (0..360).step_by(30) {
-        let a = a as f64;
-        chart
-            .draw_series(LineSeries::new(vec![(0.0, 0.0), xy(a, 1.0)], grey))
-            .map_err(pe)?;
-        let label = if a > 180.0 { a - 360.0 } else { a };
-        chart
-            .draw_series(std::iter::once(Text::new(
-                format!("{label:.0}°"),
-                xy(a, 1.1),
-                text_style.clone(),
-            )))
-            .map_err(pe)?;
-    }
-    chart
-        .draw_series(std::iter::once(Text::new(
-            "angle (deg); radius: level relative to peak (dB)",
-            (-1.2, -1.22),
-            text_style.clone(),
-        )))
-        .map_err(pe)?;
-    let mut curves: Vec<(&str, RGBColor, Vec<f64>)> = Vec::new();
-    if !c.truth_db.is_empty() {
-        curves.push(("free-space truth", RGBColor(160, 160, 160), c.truth_norm()));
-    }
-    curves.push(("raw", RGBColor(214, 120, 0), c.raw_norm()));
-    curves.push(("gated", RGBColor(0, 90, 200), c.gated_norm()));
-    for (name, col, levels) in curves {
-        let width = if name == "free-space truth" { 5 } else { 2 };
-        let mut pts: Vec<(f64, f64)> = c
-            .angles_deg
-            .iter()
-            .zip(&levels)
-            .map(|(a, l)| xy(*a, r_of(*l)))
-            .collect();
-        if input.full_circle {
-            if let Some(p) = pts.first().copied() {
-                pts.push(p);
-            }
-        }
-        chart
-            .draw_series(LineSeries::new(pts, col.stroke_width(width)))
-            .map_err(pe)?
-            .label(name)
-            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], col.stroke_width(2)));
-    }
-    chart
-        .configure_series_labels()
-        .background_style(WHITE.mix(0.85))
-        .border_style(BLACK)
-        .position(SeriesLabelPosition::UpperRight)
-        .draw()
-        .map_err(pe)?;
-    root.present().map_err(pe)?;
-    Ok(())
-}
-
-fn plot_impulse(path: &Path, input: &ReportInput, iv: &ImpulseView) -> anyhow::Result<()> {
-    let peak = iv.magnitude.iter().copied().fold(0.0f64, f64::max);
-    let lvl = |m: f64| {
-        if peak > 0.0 {
-            (20.0 * (m / peak).log10()).max(-100.0)
-        } else {
-            -100.0
-        }
-    };
-    let t_end = iv.time_ns.last().copied().unwrap_or(1.0).max(1e-3);
-    let root = SVGBackend::new(path, (960, 560)).into_drawing_area();
-    root.fill(&WHITE).map_err(pe)?;
-    let mut chart = ChartBuilder::on(&root)
-        .caption(
-            format!(
-                "{}: impulse response at {:.1}° ({} sweeps) with the gate",
-                input.title, iv.angle_deg, iv.sweeps
-            ),
-            ("sans-serif", 20),
-        )
-        .margin(12)
-        .x_label_area_size(45)
-        .y_label_area_size(60)
-        .build_cartesian_2d(0.0..t_end, -100.0f64..5.0)
-        .map_err(pe)?;
-    chart
-        .configure_mesh()
-        .axis_desc_style(("sans-serif", 15))
-        .label_style(("sans-serif", 13))
-        .x_desc("time (ns)")
-        .y_desc("|h| relative to peak (dB)")
-        .draw()
-        .map_err(pe)?;
-    let raw: Vec<(f64, f64)> = iv
-        .time_ns
-        .iter()
-        .zip(&iv.magnitude)
-        .map(|(t, m)| (*t, lvl(*m)))
-        .collect();
-    let gated: Vec<(f64, f64)> = iv
-        .time_ns
-        .iter()
-        .zip(iv.magnitude.iter().zip(&iv.gate))
-        .map(|(t, (m, g))| (*t, lvl(m * g)))
-        .collect();
-    let gate: Vec<(f64, f64)> = iv
-        .time_ns
-        .iter()
-        .zip(&iv.gate)
-        .map(|(t, g)| {
-            (
-                *t,
-                if *g > 0.0 {
-                    (20.0 * g.log10()).max(-100.0)
-                } else {
-                    -100.0
-                },
-            )
-        })
-        .collect();
-    let curves: Vec<Curve> = vec![
-        ("impulse response", RGBColor(214, 120, 0), raw),
-        ("after the gate", RGBColor(0, 90, 200), gated),
-        ("gate (dB)", RGBColor(0, 150, 60), gate),
-    ];
-    for (name, col, pts) in curves {
-        chart
-            .draw_series(LineSeries::new(pts, col.stroke_width(2)))
-            .map_err(pe)?
-            .label(name)
-            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], col.stroke_width(2)));
-    }
-    // Labels at two heights so that they do not overlap on a short gate.
-    for (t, name, y) in [
-        (iv.gate_start_ns, "gate opens", -88.0),
-        (iv.gate_stop_ns, "gate closes", -95.0),
-    ] {
-        let col = RGBColor(0, 150, 60);
-        chart
-            .draw_series(LineSeries::new(vec![(t, -100.0), (t, 5.0)], col))
-            .map_err(pe)?;
-        chart
-            .draw_series(std::iter::once(Text::new(
-                format!("{name} {t:.2} ns"),
-                (t, y),
-                ("sans-serif", 13).into_font().color(&col),
-            )))
-            .map_err(pe)?;
-    }
-    chart
-        .configure_series_labels()
-        .background_style(WHITE.mix(0.85))
-        .border_style(BLACK)
-        .position(SeriesLabelPosition::UpperRight)
-        .draw()
-        .map_err(pe)?;
-    root.present().map_err(pe)?;
-    Ok(())
-}
-
 /// Writes the report folder; returns the files written.
 pub fn write_report(input: &ReportInput, dir: &Path) -> anyhow::Result<Vec<PathBuf>> {
     std::fs::create_dir_all(dir).with_context(|| format!("creating {}", dir.display()))?;
@@ -698,17 +425,61 @@ pub fn write_report(input: &ReportInput, dir: &Path) -> anyhow::Result<Vec<PathB
     if !input.bins.is_empty() {
         for (fi, f) in input.frequencies_hz.iter().enumerate() {
             let p = dir.join(format!("pattern-rect-{}.svg", mhz_name(*f)));
-            plot_rect(&p, input, fi)?;
+            plot::rect(&p, input, fi)?;
             files.push(p);
             let p = dir.join(format!("pattern-polar-{}.svg", mhz_name(*f)));
-            plot_polar(&p, input, fi)?;
+            plot::polar(&p, input, fi)?;
             files.push(p);
         }
     }
     if let Some(iv) = &input.impulse {
         let p = dir.join("impulse-boresight.svg");
-        plot_impulse(&p, input, iv)?;
+        plot::impulse(&p, input, iv)?;
         files.push(p);
     }
     Ok(files)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn bin(angle_deg: f64) -> ReportBin {
+        ReportBin {
+            angle_deg,
+            mean_deg: angle_deg,
+            sweeps: 1,
+            flags: 0,
+            echo_db: None,
+            values: vec![ReportValue {
+                raw: Complex64::new(1.0, 0.0),
+                gated: Complex64::new(0.5, 0.0),
+                truth: None,
+            }],
+        }
+    }
+
+    #[test]
+    fn a_full_circle_is_ordered_in_the_cores_angle_range() {
+        // `sweepgate::metrics::wrap_deg` maps onto (−180°, 180°]: a bin at 540° is the
+        // bin at 180°, the last of the cut; −180° is the same bin and is dropped.
+        let input = ReportInput {
+            title: "t".into(),
+            source: "s".into(),
+            frequencies_hz: vec![1e9],
+            full_circle: true,
+            bins: [540.0, -90.0, 0.1, 90.0, -180.0].map(bin).to_vec(),
+            settings: Value::Null,
+            counters: Value::Null,
+            warnings: Vec::new(),
+            impulse: None,
+            gain: None,
+        };
+        let c = input.cut(0);
+        assert_eq!(c.angles_deg, [-90.0, 0.1, 90.0, 180.0]);
+        assert_eq!(c.gated_db[0], db(Complex64::new(0.5, 0.0)));
+        let mut sector = input.clone();
+        sector.full_circle = false;
+        assert_eq!(sector.cut(0).angles_deg, [-180.0, -90.0, 0.1, 90.0, 540.0]);
+    }
 }
