@@ -123,6 +123,9 @@ fn still_positioner() -> Positioner {
 }
 
 /// Parses scenario or plan-file text (`origin` names it in errors). Errors are one line.
+///
+/// A TOML error is rendered by `toml_one_line` (message and position on one line) rather
+/// than kept as a cause: the toml crate's own message spans several lines with a snippet.
 pub fn parse_plan_source(text: &str, origin: &str) -> anyhow::Result<PlanSource> {
     let table: toml::Table = toml::from_str(text).map_err(|e| {
         anyhow!(
