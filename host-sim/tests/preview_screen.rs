@@ -12,7 +12,7 @@ use sweepgate::wire::preview::{
 use sweepgate::Complex32;
 use sweepgate_host::model::scenario::Scenario;
 use sweepgate_host::output::screen::{draw, Screen, PREVIEW_F};
-use sweepgate_host::pipeline::replay::{replay_records, Args};
+use sweepgate_host::pipeline::replay::{replay_records, Options};
 use sweepgate_host::pipeline::simulate::simulate_to;
 
 fn text_of(term: &Terminal<TestBackend>) -> String {
@@ -116,7 +116,7 @@ fn replayed_scan_fills_the_screen_from_its_byte_stream() {
     let mut stream = Vec::new();
     let o = replay_records(
         &rec,
-        &Args::fast(std::path::Path::new("x.rec")),
+        &Options::fast(std::path::Path::new("x.rec")),
         &mut stream,
         None,
         &AtomicBool::new(false),

@@ -31,9 +31,9 @@ use sweepgate::wire::preview::{
 };
 
 /// Pattern frequencies a preview record may carry here (unused slots are padded).
-pub const PREVIEW_F: usize = 8;
+pub const PREVIEW_F: usize = crate::limits::MAX_FREQUENCIES;
 /// Frame buffer of the preview decoder, bytes (≥ the longest frame).
-pub const PREVIEW_BUF: usize = 1024;
+pub const PREVIEW_BUF: usize = crate::limits::MAX_FRAME_BYTES;
 
 /// The decoder the preview uses.
 pub type PreviewDecoder = Decoder<PREVIEW_F, PREVIEW_BUF>;
