@@ -107,6 +107,42 @@ fn screen_shows_title_axes_and_bins_filled() {
 }
 
 #[test]
+fn the_sweep_rate_is_the_scans_own() {
+    // From the first status record to the latest, not between the last two (common
+    // practice, no source: a rate over the whole scan is what "sweeps per second" says).
+    let st = |t: u64, n: u32| {
+        Record::Status(StatusRecord {
+            time_us: t,
+            angle_deg: 0.0,
+            speed_deg_s: 10.0,
+            state: PositionerState::Moving,
+            open_bin: None,
+            bins_closed: 0,
+            sweeps_pushed: n,
+            sweeps_binned: n,
+            sweeps_rejected: 0,
+            angles_pushed: 10,
+            angles_rejected: 0,
+        })
+    };
+    let mut screen = Screen::new("rate");
+    let mut bytes = Vec::new();
+    for (i, (t, n)) in [(1_000_000, 10), (2_000_000, 30), (3_000_000, 90)]
+        .into_iter()
+        .enumerate()
+    {
+        bytes.extend(frame(&st(t, n), i as u16));
+    }
+    screen.feed(&bytes);
+    // 80 sweeps in 2 s; the last two records alone would say 60.
+    assert!((screen.sweeps_per_s.unwrap() - 40.0).abs() < 1e-9);
+    assert!(screen
+        .summary_lines()
+        .iter()
+        .any(|l| l == "sweeps per second over the scan (scan time): 40.0"));
+}
+
+#[test]
 fn replayed_scan_fills_the_screen_from_its_byte_stream() {
     let mut s = Scenario::from_toml(include_str!("../scenarios/workshop-bay.toml")).unwrap();
     s.positioner.start_deg = -20.0;
