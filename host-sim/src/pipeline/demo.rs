@@ -6,7 +6,7 @@
 //! and the single floor bounce (image method) are summed at each swept frequency; the table
 //! shows what the gate does to the ripple that the echo puts on the response. The gate is
 //! set up as every command sets it up ([`crate::pipeline::setup`]): the default band window
-//! and gate shape, centred on the direct path and closing halfway to the floor echo unless
+//! and gate shape, centered on the direct path and closing halfway to the floor echo unless
 //! `--gate-span-ns` says otherwise.
 //!
 //! Then the main job on the built-in scenario `scenarios/demo-lab.toml` (embedded, so the

@@ -98,7 +98,7 @@ pub const SETTINGS_KEYS: [&str; 8] = [
 #[derive(Debug, Clone, Default, PartialEq, serde::Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct SettingsFile {
-    /// Gate centre, ns.
+    /// Gate center, ns.
     pub gate_center_ns: Option<f64>,
     /// Gate span, ns.
     pub gate_span_ns: Option<f64>,

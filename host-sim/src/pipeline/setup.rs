@@ -16,7 +16,7 @@
 //!   center point; each taken at its nearest grid point (a remark says when a chosen one
 //!   moved or was left out), at most [`MAX_FREQUENCIES`].
 //! - **Bins**: the chosen width, else the recording's, else the scenario's, else 1°. With
-//!   a scenario, bins are centred where the simulator writes its truth: `start + (i + ½)·w`
+//!   a scenario, bins are centered where the simulator writes its truth: `start + (i + ½)·w`
 //!   for a continuous scan, the step angles `start + i·w` for step-and-stop; a full turn
 //!   gives a full-circle layout. Without one, a full circle starting at 0°.
 //! - **Gate**: a given center or span is used as it is; what is not given comes from the
@@ -28,7 +28,7 @@
 //!     direct path, span four main lobes (at most half the alias-free range).
 //!   - `strongest impulse-response peak` (saved sweeps without a scenario): the sweep of
 //!     largest Σ|S|² is windowed with the band window and transformed; the gate is
-//!     centred on the sample of largest |h| and spans four band-window main lobes
+//!     centered on the sample of largest |h| and spans four band-window main lobes
 //!     (4·`mainlobe_width()`/(K·Δf)), at most half the alias-free range.
 //!
 //! `gate_source` (in `summary.json`) says where center and span came from: `command line`,
@@ -342,7 +342,7 @@ pub struct BinSpec {
 }
 
 impl BinSpec {
-    /// A full circle of `width_deg` bins, the first centred at `first_deg`.
+    /// A full circle of `width_deg` bins, the first centered at `first_deg`.
     pub fn full_circle(first_deg: f64, width_deg: f64) -> Self {
         Self {
             first_deg,
@@ -394,7 +394,7 @@ impl BinSpec {
     }
 
     /// Bin centers in scan order, degrees.
-    pub fn centres_deg(&self) -> Vec<f64> {
+    pub fn centers_deg(&self) -> Vec<f64> {
         let mut v: Vec<f64> = (0..self.count)
             .map(|i| self.first_deg + i as f64 * self.width_deg)
             .collect();
@@ -411,7 +411,7 @@ pub fn truth_points(s: &Scenario) -> anyhow::Result<(Vec<f64>, Vec<f64>)> {
     let grid = s.grid().context("the scenario's sweep")?;
     let indices = snap_frequencies(&grid, &s.pattern.frequencies_hz, &mut Vec::new(), false);
     let frequencies_hz = indices.iter().map(|&i| grid.frequency_hz(i)).collect();
-    let angles = BinSpec::for_scenario(s, s.bin_width_deg()).centres_deg();
+    let angles = BinSpec::for_scenario(s, s.bin_width_deg()).centers_deg();
     Ok((frequencies_hz, angles))
 }
 

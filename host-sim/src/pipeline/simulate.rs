@@ -8,9 +8,11 @@
 //! records ending at byte `offset`, which survive the process being killed.
 //!
 //! The recording holds, in order: the header (scenario, grid, sweep format), the
-//! free-space truth at every bin centre (step angle in step-and-stop) and each pattern frequency, then the
-//! positioner samples and sweeps interleaved by time (a sweep is written at its end
-//! time, after every sample stamped up to then), and an end record.
+//! free-space truth at each pattern frequency and bin center that a recording of the
+//! scenario is set up with ([`crate::pipeline::setup::truth_points`]: the bin centers of a
+//! continuous scan, the step angles of a step-and-stop one), then the positioner samples
+//! and sweeps interleaved by time (a sweep is written at its end time, after every sample
+//! stamped up to then), and an end record.
 
 use std::path::{Path, PathBuf};
 
