@@ -9,6 +9,7 @@
 //!   engine used to default to (Kaiser β = 6, Tukey α = 0.5) gives bins far outside it.
 //! - `plan`, `replay` and `process` report the same gate (center and span) for every
 //!   shipped scenario, including one whose `[plan] band_window` differs from the default.
+//! - `simulate` writes its truth at the bins the set-up gives every command.
 //!
 //! Source for the tolerance: common practice, no source (1e-5 relative is f32 rounding of
 //! a few operations; the paths here run the same engine on the same records).
@@ -22,7 +23,7 @@ use num_complex::Complex64;
 use sweepgate::window::WindowKind;
 use sweepgate_host::formats::recording::recover_file;
 use sweepgate_host::link::acquire::{acquire, Positioner, Profile, Request, SIMULATED_PROFILE};
-use sweepgate_host::model::scenario::Scenario;
+use sweepgate_host::model::scenario::{Mode, Scenario};
 use sweepgate_host::output::report::ReportBin;
 use sweepgate_host::pipeline::options::{
     default_band_window, describe_window, format_window, parse_window, Choices, DEFAULT_GATE_SHAPE,
@@ -30,6 +31,7 @@ use sweepgate_host::pipeline::options::{
 use sweepgate_host::pipeline::plan::{parse_plan_source, plan_report, Overrides};
 use sweepgate_host::pipeline::process;
 use sweepgate_host::pipeline::replay::{self, replay_records};
+use sweepgate_host::pipeline::setup::{truth_points, BinSpec};
 use sweepgate_host::pipeline::simulate::simulate_to_file;
 
 /// Largest relative difference allowed between the gated values of two commands.
@@ -293,4 +295,47 @@ fn plan_replay_and_process_report_the_same_gate() {
         checked += 1;
     }
     assert_eq!((checked, named), (4, 1));
+}
+
+#[test]
+fn simulate_writes_truth_at_the_bins_every_command_sets_up() {
+    // The simulator's own bin centres (the step angles of a step-and-stop scan, the
+    // centres of the bins of a continuous one; `Scenario::bin_centres_deg`) are where the
+    // set-up puts the engine's bins and where `simulate` writes its truth.
+    let dir = instrument_support::temp_dir("one-pipeline-truth");
+    for name in [
+        "demo-lab",
+        "outdoor-ground",
+        "workshop-bay",
+        "example-annotated",
+    ] {
+        for half_deg in [4.0, 180.0] {
+            let (s, _) = cut(name, half_deg, &dir);
+            let spec = BinSpec::for_scenario(&s, s.bin_width_deg());
+            let layout = spec.layout().unwrap();
+            let (_, truth_deg) = truth_points(&s).unwrap();
+            let mut model = s.bin_centres_deg();
+            let mut ours = truth_deg.clone();
+            if half_deg == 180.0 && s.positioner.mode == Mode::Step {
+                // A full turn of steps ends where it started: the model lists +180° as well.
+                model.retain(|a| *a < 180.0 - 1e-9);
+            }
+            model.sort_by(f64::total_cmp);
+            ours.sort_by(f64::total_cmp);
+            assert_eq!(ours.len(), model.len(), "{name} ±{half_deg}°");
+            assert_eq!(
+                usize::from(layout.count()),
+                ours.len(),
+                "{name} ±{half_deg}°"
+            );
+            for (i, (a, b)) in ours.iter().zip(&model).enumerate() {
+                assert!((a - b).abs() < 1e-9, "{name} ±{half_deg}°: {a} vs {b}");
+                let n = f64::from(layout.nominal_deg(i as u16));
+                assert!(
+                    (n - a).abs() < 1e-4,
+                    "{name} ±{half_deg}°: bin {i} at {n}°, truth at {a}°"
+                );
+            }
+        }
+    }
 }

@@ -953,9 +953,11 @@ fn live_engine(header: &mut Header, choices: &Choices) -> anyhow::Result<Option<
     if header.scenario.is_none() && *choices == Choices::default() {
         return Ok(None);
     }
+    if choices.bin_width_deg.is_some() {
+        header.bin_width_deg = choices.bin_width_deg;
+    }
     let setup = setup::for_recording(header, choices, &[]).context("the live scan engine")?;
     header.pattern_frequencies_hz = setup.frequencies_hz.clone();
-    header.bin_width_deg = Some(f64::from(setup.layout.step_deg()));
     let g = &setup.gate;
     eprintln!(
         "scan engine: gate center {:.3} ns, span {:.3} ns ({}; {}); band window {}, gate shape {}; {} bins",
