@@ -7,6 +7,7 @@
 
 pub mod cli;
 pub mod formats;
+pub mod limits;
 pub mod link;
 pub mod model;
 pub mod output;

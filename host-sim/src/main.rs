@@ -2,10 +2,7 @@
 
 use clap::{Parser, Subcommand};
 
-use sweepgate_host::cli::demo;
-use sweepgate_host::cli::{instrument, read_block};
-use sweepgate_host::link::{acquire, view};
-use sweepgate_host::pipeline::{replay, simulate};
+use sweepgate_host::cli::{acquire, demo, instrument, process, read_block, replay, simulate, view};
 
 /// Time-domain gating for antenna pattern scans in ordinary rooms.
 #[derive(Parser)]
@@ -39,7 +36,7 @@ enum Command {
     /// Replay a recording through the scan engine with a live preview, and write the report.
     Replay(replay::Args),
     /// Gate saved sweeps (a manifest of Touchstone files or a recording) and write the report.
-    Process(sweepgate_host::pipeline::process::Args),
+    Process(process::Args),
     /// Show a board's preview stream (TCP HOST:PORT, or a serial device or file).
     View(view::Args),
 }
@@ -55,7 +52,7 @@ fn main() {
         Command::Acquire(a) => acquire::run(a),
         Command::Replay(a) => replay::run(a),
         Command::View(a) => view::run(a),
-        Command::Process(a) => sweepgate_host::pipeline::process::run(a),
+        Command::Process(a) => process::run(a),
     };
     if let Err(e) = result {
         eprintln!("error: {e:#}");

@@ -8,7 +8,7 @@ use std::sync::atomic::AtomicBool;
 
 use sweepgate_host::formats::recording::recover_file;
 use sweepgate_host::model::scenario::Scenario;
-use sweepgate_host::pipeline::replay::{replay_records, Args};
+use sweepgate_host::pipeline::replay::{replay_records, Options};
 use sweepgate_host::pipeline::simulate::simulate_to_file;
 use sweepgate_host::units::db;
 
@@ -30,7 +30,7 @@ fn run(name: &str) -> Vec<(f64, Figures)> {
     let recovered = recover_file(&rec).unwrap();
     let o = replay_records(
         &recovered,
-        &Args::fast(&rec),
+        &Options::fast(&rec),
         &mut Vec::new(),
         None,
         &AtomicBool::new(false),

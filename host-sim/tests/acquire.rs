@@ -311,7 +311,7 @@ fn with_a_gate_sweeps_go_through_the_scan_engine_and_bins_are_printed() {
             "13.3",
             "--gate-span-ns",
             "2.5",
-            "--frequency-hz",
+            "--frequencies-hz",
             "10e9",
         ],
         &dir.join("scan.rec"),

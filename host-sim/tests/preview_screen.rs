@@ -12,7 +12,7 @@ use sweepgate::wire::preview::{
 use sweepgate::Complex32;
 use sweepgate_host::model::scenario::Scenario;
 use sweepgate_host::output::screen::{draw, Screen, PREVIEW_F};
-use sweepgate_host::pipeline::replay::{replay_records, Args};
+use sweepgate_host::pipeline::replay::{replay_records, Options};
 use sweepgate_host::pipeline::simulate::simulate_to;
 
 fn text_of(term: &Terminal<TestBackend>) -> String {
@@ -107,6 +107,42 @@ fn screen_shows_title_axes_and_bins_filled() {
 }
 
 #[test]
+fn the_sweep_rate_is_the_scans_own() {
+    // From the first status record to the latest, not between the last two (common
+    // practice, no source: a rate over the whole scan is what "sweeps per second" says).
+    let st = |t: u64, n: u32| {
+        Record::Status(StatusRecord {
+            time_us: t,
+            angle_deg: 0.0,
+            speed_deg_s: 10.0,
+            state: PositionerState::Moving,
+            open_bin: None,
+            bins_closed: 0,
+            sweeps_pushed: n,
+            sweeps_binned: n,
+            sweeps_rejected: 0,
+            angles_pushed: 10,
+            angles_rejected: 0,
+        })
+    };
+    let mut screen = Screen::new("rate");
+    let mut bytes = Vec::new();
+    for (i, (t, n)) in [(1_000_000, 10), (2_000_000, 30), (3_000_000, 90)]
+        .into_iter()
+        .enumerate()
+    {
+        bytes.extend(frame(&st(t, n), i as u16));
+    }
+    screen.feed(&bytes);
+    // 80 sweeps in 2 s; the last two records alone would say 60.
+    assert!((screen.sweeps_per_s.unwrap() - 40.0).abs() < 1e-9);
+    assert!(screen
+        .summary_lines()
+        .iter()
+        .any(|l| l == "sweeps per second over the scan (scan time): 40.0"));
+}
+
+#[test]
 fn replayed_scan_fills_the_screen_from_its_byte_stream() {
     let mut s = Scenario::from_toml(include_str!("../scenarios/workshop-bay.toml")).unwrap();
     s.positioner.start_deg = -20.0;
@@ -116,7 +152,7 @@ fn replayed_scan_fills_the_screen_from_its_byte_stream() {
     let mut stream = Vec::new();
     let o = replay_records(
         &rec,
-        &Args::fast(std::path::Path::new("x.rec")),
+        &Options::fast(std::path::Path::new("x.rec")),
         &mut stream,
         None,
         &AtomicBool::new(false),

@@ -11,7 +11,8 @@ use sweepgate_host::formats::recording::{recover, Record, Recovered};
 use sweepgate_host::formats::touchstone::Spacing;
 use sweepgate_host::model::scenario::Scenario;
 use sweepgate_host::output::report::ReportBin;
-use sweepgate_host::pipeline::process::{self, Input, Origin, Resolved};
+use sweepgate_host::pipeline::options::{Choices, Origin, DEFAULT_GATE_SHAPE};
+use sweepgate_host::pipeline::process::{self, Input, Resolved};
 use sweepgate_host::pipeline::replay::{self, replay_records};
 use sweepgate_host::pipeline::simulate::simulate_to;
 use sweepgate_host::units::db;
@@ -34,11 +35,11 @@ fn short_lab() -> Scenario {
 fn resolved(input: Input, out: &Path) -> Resolved {
     Resolved {
         input,
-        center_ns: None,
-        span_ns: None,
-        frequencies_hz: None,
-        band_window: sweepgate::window::WindowKind::kaiser_for_sidelobe_db(50.0),
-        gate_shape: replay::GATE_SHAPE,
+        choices: Choices {
+            band_window: Some(sweepgate::window::WindowKind::kaiser_for_sidelobe_db(50.0)),
+            gate_shape: Some(DEFAULT_GATE_SHAPE),
+            ..Choices::default()
+        },
         parameter: None,
         spacing: Spacing::RequireUniform,
         out: out.to_path_buf(),
@@ -90,7 +91,7 @@ fn manifest_of_touchstone_files_gives_the_replayed_pattern() {
     let q = AtomicBool::new(false);
     let live = replay_records(
         &rec,
-        &replay::Args::fast(Path::new("bay.rec")),
+        &replay::Options::fast(Path::new("bay.rec")),
         &mut Vec::new(),
         None,
         &q,
@@ -107,9 +108,9 @@ fn manifest_of_touchstone_files_gives_the_replayed_pattern() {
     let m = write_manifest(&rec, dir.path(), -6.0, 2.0);
     // The same gate as the replay (the planner's), given in ns as a user would.
     let mut r = resolved(Input::Manifest(m.clone()), &dir.path().join("report"));
-    r.center_ns = Some((live.setup.gate.center_s * 1e9, Origin::CommandLine));
-    r.span_ns = Some((live.setup.gate.span_s * 1e9, Origin::CommandLine));
-    r.frequencies_hz = Some(live.setup.frequencies_hz.clone());
+    r.choices.center_ns = Some((live.setup.gate.center_s * 1e9, Origin::CommandLine));
+    r.choices.span_ns = Some((live.setup.gate.span_s * 1e9, Origin::CommandLine));
+    r.choices.frequencies_hz = Some(live.setup.frequencies_hz.clone());
     let p = process::process(&r).unwrap();
     assert_eq!(p.gate_source, "command line");
     let off = by_angle(&p.report.bins);
@@ -182,7 +183,14 @@ fn reprocessing_a_recording_reproduces_the_replayed_bins_bit_for_bit() {
     let dir = tempfile::tempdir().unwrap();
     let (path, rec) = write_recording(&short_lab(), dir.path());
     let q = AtomicBool::new(false);
-    let live = replay_records(&rec, &replay::Args::fast(&path), &mut Vec::new(), None, &q).unwrap();
+    let live = replay_records(
+        &rec,
+        &replay::Options::fast(&path),
+        &mut Vec::new(),
+        None,
+        &q,
+    )
+    .unwrap();
     assert_eq!(live.report.bins.len(), 20);
 
     // Defaults: the planner's gate, as replay.
@@ -193,21 +201,21 @@ fn reprocessing_a_recording_reproduces_the_replayed_bins_bit_for_bit() {
     assert_bins_bit_equal(&live.report.bins, &p.report.bins);
 
     // Explicit gate and band window, the same on both sides.
-    let mut a = replay::Args::fast(&path);
-    a.gate_center_ns = Some(13.0);
-    a.gate_span_ns = Some(2.5);
-    a.band_window = Some("hamming".into());
+    let mut a = replay::Options::fast(&path);
+    a.gate.gate_center_ns = Some(13.0);
+    a.gate.gate_span_ns = Some(2.5);
+    a.gate.band_window = Some("hamming".into());
     let live = replay_records(&rec, &a, &mut Vec::new(), None, &q).unwrap();
     let mut r = resolved(Input::Recording(path), &dir.path().join("b"));
-    r.center_ns = Some((13.0, Origin::SettingsFile));
-    r.span_ns = Some((2.5, Origin::SettingsFile));
-    r.band_window = sweepgate::window::WindowKind::Hamming;
+    r.choices.center_ns = Some((13.0, Origin::SettingsFile));
+    r.choices.span_ns = Some((2.5, Origin::SettingsFile));
+    r.choices.band_window = Some(sweepgate::window::WindowKind::Hamming);
     let p = process::process(&r).unwrap();
     assert_eq!(p.gate_source, "settings file");
     assert_eq!(p.gate, live.setup.gate);
     assert_bins_bit_equal(&live.report.bins, &p.report.bins);
     // A different gate gives different bins (the comparison above can fail).
-    r.span_ns = Some((1.5, Origin::SettingsFile));
+    r.choices.span_ns = Some((1.5, Origin::SettingsFile));
     let q = process::process(&r).unwrap();
     assert_ne!(
         q.report.bins[0].values[0].gated,

@@ -4,14 +4,14 @@ use std::path::PathBuf;
 
 use sweepgate::window::WindowKind;
 use sweepgate_host::formats::touchstone::{Parameter, Spacing};
-use sweepgate_host::pipeline::process::{
-    detect, parse_frequencies, resolve, Args, Input, Origin, SettingsFile,
-};
+use sweepgate_host::pipeline::options::{parse_frequencies, Choices, Origin, DEFAULT_GATE_SHAPE};
+use sweepgate_host::pipeline::process::{detect, resolve, Input, Options, SettingsFile};
+use sweepgate_host::pipeline::setup;
 
-fn args_for(input: &str) -> Args {
-    Args {
+fn args_for(input: &str) -> Options {
+    Options {
         manifest: Some(PathBuf::from(input)),
-        ..Args::default()
+        ..Options::default()
     }
 }
 
@@ -74,34 +74,43 @@ fn command_line_overrides_the_settings_file() {
     a.settings = Some(path.clone());
     let r = resolve(&a).unwrap();
     assert_eq!(r.input, Input::Manifest(PathBuf::from("m.csv")));
-    assert_eq!(r.center_ns, Some((10.5, Origin::SettingsFile)));
-    assert_eq!(r.span_ns, Some((3.0, Origin::SettingsFile)));
-    assert_eq!(r.frequencies_hz, Some(vec![6e9]));
-    assert_eq!(r.band_window, WindowKind::Hann);
+    assert_eq!(r.choices.center_ns, Some((10.5, Origin::SettingsFile)));
+    assert_eq!(r.choices.span_ns, Some((3.0, Origin::SettingsFile)));
+    assert_eq!(r.choices.frequencies_hz, Some(vec![6e9]));
+    assert_eq!(r.choices.band_window, Some(WindowKind::Hann));
     assert_eq!(r.parameter, Some(Parameter::S12));
     assert_eq!(r.spacing, Spacing::Resample);
     // `out` in the settings file is relative to the settings file's folder.
     assert_eq!(r.out, dir.path().join("rep"));
 
-    a.gate_center_ns = Some(9.0);
-    a.frequencies_hz = Some("7e9,8e9".into());
-    a.band_window = Some("kaiser:8".into());
+    a.gate.gate_center_ns = Some(9.0);
+    a.gate.frequencies_hz = Some("7e9,8e9".into());
+    a.gate.band_window = Some("kaiser:8".into());
     a.out = Some(PathBuf::from("elsewhere"));
     let r = resolve(&a).unwrap();
-    assert_eq!(r.center_ns, Some((9.0, Origin::CommandLine)));
-    assert_eq!(r.span_ns, Some((3.0, Origin::SettingsFile)));
-    assert_eq!(r.frequencies_hz, Some(vec![7e9, 8e9]));
-    assert_eq!(r.band_window, WindowKind::Kaiser { beta: 8.0 });
+    assert_eq!(r.choices.center_ns, Some((9.0, Origin::CommandLine)));
+    assert_eq!(r.choices.span_ns, Some((3.0, Origin::SettingsFile)));
+    assert_eq!(r.choices.frequencies_hz, Some(vec![7e9, 8e9]));
+    assert_eq!(
+        r.choices.band_window,
+        Some(WindowKind::Kaiser { beta: 8.0 })
+    );
     assert_eq!(r.out, PathBuf::from("elsewhere"));
 }
 
 #[test]
 fn defaults_match_replay() {
     let r = resolve(&args_for("scan.csv")).unwrap();
-    // replay's defaults: Kaiser for 50 dB sidelobes, Tukey α = 0.3 gate, no gate given.
-    assert_eq!(r.band_window, WindowKind::kaiser_for_sidelobe_db(50.0));
-    assert_eq!(r.gate_shape, sweepgate_host::pipeline::replay::GATE_SHAPE);
-    assert_eq!(r.center_ns, None);
+    // Nothing chosen: the set-up's defaults, the same as replay's: Kaiser for 50 dB
+    // sidelobes, Tukey α = 0.3 gate, no gate given.
+    assert_eq!(r.choices, Choices::default());
+    assert_eq!(
+        setup::band_window(&r.choices, None).unwrap(),
+        WindowKind::kaiser_for_sidelobe_db(50.0)
+    );
+    assert_eq!(setup::gate_shape(&r.choices), DEFAULT_GATE_SHAPE);
+    assert_eq!(DEFAULT_GATE_SHAPE, WindowKind::Tukey { alpha: 0.3 });
+    assert_eq!(r.choices.center_ns, None);
     assert_eq!(r.parameter, None);
     assert_eq!(r.spacing, Spacing::RequireUniform);
     assert_eq!(r.out, PathBuf::from("scan-report"));
@@ -110,18 +119,20 @@ fn defaults_match_replay() {
 #[test]
 fn bad_values_are_refused_with_the_option_named() {
     let mut a = args_for("m.csv");
-    a.band_window = Some("triangle".into());
+    a.gate.band_window = Some("triangle".into());
     assert!(format!("{:#}", resolve(&a).unwrap_err()).contains("--band-window"));
     let mut a = args_for("m.csv");
-    a.gate_shape = Some("tukey:2".into());
+    a.gate.gate_shape = Some("tukey:2".into());
     assert!(format!("{:#}", resolve(&a).unwrap_err()).contains("--gate-shape"));
     let mut a = args_for("m.csv");
     a.parameter = Some("Z21".into());
     assert!(format!("{:#}", resolve(&a).unwrap_err()).contains("Z21"));
     let mut a = args_for("m.csv");
-    a.frequencies_hz = Some("8e9,x".into());
+    a.gate.frequencies_hz = Some("8e9,x".into());
     assert!(format!("{:#}", resolve(&a).unwrap_err()).contains("--frequencies-hz"));
-    assert!(format!("{:#}", resolve(&Args::default()).unwrap_err()).contains("nothing to process"));
+    assert!(
+        format!("{:#}", resolve(&Options::default()).unwrap_err()).contains("nothing to process")
+    );
 
     let dir = tempfile::tempdir().unwrap();
     let path = dir.path().join("s.toml");
@@ -143,9 +154,9 @@ fn positional_input_kind_is_detected() {
     let r = dir.path().join("scan.rec");
     std::fs::write(&r, [0u8, 1, 2, 3]).unwrap();
     assert_eq!(detect(&r).unwrap(), Input::Recording(r.clone()));
-    let a = Args {
+    let a = Options {
         input: Some(m.clone()),
-        ..Args::default()
+        ..Options::default()
     };
     assert_eq!(resolve(&a).unwrap().input, Input::Manifest(m));
     assert!(detect(&dir.path().join("none")).is_err());

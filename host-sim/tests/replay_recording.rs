@@ -9,7 +9,7 @@ use std::sync::atomic::AtomicBool;
 use sweepgate_host::formats::recording::recover;
 use sweepgate_host::link::view;
 use sweepgate_host::model::scenario::Scenario;
-use sweepgate_host::pipeline::replay::{replay_records, setup, Args};
+use sweepgate_host::pipeline::replay::{replay_records, setup, Options};
 use sweepgate_host::pipeline::simulate::simulate_to;
 
 fn short_lab() -> Scenario {
@@ -19,8 +19,8 @@ fn short_lab() -> Scenario {
     s
 }
 
-fn fast() -> Args {
-    Args::fast(Path::new("scan.rec"))
+fn fast() -> Options {
+    Options::fast(Path::new("scan.rec"))
 }
 
 #[test]
@@ -28,8 +28,7 @@ fn gate_follows_the_planner_and_options_override_it() {
     let s = short_lab();
     let (bytes, _) = simulate_to(&s, None, 1, Vec::new(), false).unwrap();
     let rec = recover(&bytes);
-    let h = rec.header().unwrap();
-    let st = setup(h, &fast()).unwrap();
+    let st = setup(&rec, &fast()).unwrap();
     // Direct path 4 m: centre 4 m / c (cable delay 0), by the image method the floor echo
     // 2·√(2² + 1.4²) − 4 m later; the gate closes half a main lobe before the first echo
     // (common practice, no source: the planner's documented rule, recomputed here).
@@ -46,18 +45,18 @@ fn gate_follows_the_planner_and_options_override_it() {
     assert_eq!(st.frequencies_hz, vec![9e9, 10e9, 11e9]);
     assert_eq!(st.layout.count(), 20);
     assert!((st.layout.nominal_deg(0) + 9.5).abs() < 1e-6);
-    assert_eq!(st.fft_size, 1024);
+    assert_eq!(st.fft_size.points(), 1024);
 
     let mut a = fast();
-    a.gate_center_ns = Some(13.0);
-    a.gate_span_ns = Some(2.0);
-    a.band_window = Some("hann".into());
-    let st = setup(h, &a).unwrap();
+    a.gate.gate_center_ns = Some(13.0);
+    a.gate.gate_span_ns = Some(2.0);
+    a.gate.band_window = Some("hann".into());
+    let st = setup(&rec, &a).unwrap();
     assert!((st.gate.center_s - 13e-9).abs() < 1e-18);
     assert!((st.gate.span_s - 2e-9).abs() < 1e-18);
     assert!(st.gate_rule.contains("--gate-span-ns"));
-    a.band_window = Some("triangle".into());
-    assert!(setup(h, &a).is_err());
+    a.gate.band_window = Some("triangle".into());
+    assert!(setup(&rec, &a).is_err());
 }
 
 #[test]
@@ -145,7 +144,7 @@ fn view_reads_a_stream_from_a_file_and_over_tcp() {
     let dir = tempfile::tempdir().unwrap();
     let file = dir.path().join("preview.bin");
     std::fs::write(&file, &stream).unwrap();
-    let args = view::Args {
+    let args = view::Options {
         from: file.display().to_string(),
         no_preview: true,
         bins: Some(20),
@@ -159,7 +158,7 @@ fn view_reads_a_stream_from_a_file_and_over_tcp() {
         // Join mid-frame: the first partial frame is dropped, the rest decode.
         s.write_all(&stream[5..]).unwrap();
     });
-    let args = view::Args {
+    let args = view::Options {
         from: addr.to_string(),
         no_preview: true,
         bins: None,

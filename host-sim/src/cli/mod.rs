@@ -1,7 +1,13 @@
 //! One thin file per subcommand: its arguments and one call into the library. Nothing in
 //! the library imports this folder; only `main.rs` does.
 
+pub mod acquire;
 pub mod demo;
+pub mod gate;
 pub mod instrument;
 pub mod plan;
+pub mod process;
 pub mod read_block;
+pub mod replay;
+pub mod simulate;
+pub mod view;

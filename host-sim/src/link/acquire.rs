@@ -5,16 +5,20 @@
 //! sweepgate acquire [--profile FILE] --instrument HOST:PORT
 //!                   [--positioner HOST:PORT | --positioner-sim --scenario FILE]
 //!                   [--sweeps N] [--linger-s S] --out REC
-//!                   [--gate-center-ns T --gate-span-ns S [--frequency-hz F] [--bin-width-deg W]]
+//!                   [--gate-center-ns T] [--gate-span-ns S] [--band-window W] [--gate-shape W]
+//!                   [--frequencies-hz F1,F2] [--bin-width-deg W]
 //! ```
 //!
-//! With `--gate-center-ns` and `--gate-span-ns`, angle samples and sweeps also go through
-//! the core scan engine ([`sweepgate::scan::Scan`], Kaiser β = 6 band window, Tukey α = 0.5
-//! gate, renormalised; one pattern frequency, `--frequency-hz` or the grid's centre point;
-//! bins of `--bin-width-deg` from the scenario's start angle, else −180°) as on the board,
-//! and each bin is printed on standard output as it closes:
-//! `bin <index> <deg> deg: <n> sweeps, at <GHz> GHz raw <dB> dB, gated <dB> dB, echo <dB>`.
-//! Without them sweeps are only recorded.
+//! When a gate can be set up — the scenario of `--positioner-sim` to plan one from, or
+//! `--gate-center-ns` and `--gate-span-ns` — angle samples and sweeps also go through the
+//! core scan engine as on the board, set up exactly as `replay` and `process` set up a
+//! recording ([`crate::pipeline::setup`]: the same gate, band window and gate shape, FFT
+//! size, pattern frequencies and bins) and fed in the same order ([`Engine`]), so the live
+//! bins equal the bins `replay` and `process` give for the recording with the same
+//! options. The recording's header holds the pattern frequencies and bin width the live
+//! engine used. Each bin is printed on standard output as it closes:
+//! `bin <index> <deg> deg: <n> sweeps, at <GHz> GHz raw <dB> dB, gated <dB> dB[; at …], echo <dB>`.
+//! Without a gate sweeps are only recorded.
 //!
 //! Caution: `acquire` can run a scan with a transmitting antenna and a moving turntable.
 //! Keep clear of the aperture of a transmitting antenna (RF exposure) and of the moving
@@ -108,22 +112,31 @@
 //! still arriving are read for up to `--linger-s` (default 1 s) until the line server
 //! closes, then the recording is finished.
 
+use std::collections::BTreeSet;
 use std::io::{Read, Write};
 use std::net::{TcpStream, ToSocketAddrs};
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 use std::sync::mpsc;
 use std::time::{Duration, Instant};
 
 use anyhow::{bail, Context};
 use num_complex::Complex32;
 use serde::Deserialize;
+use sweepgate::grid::Grid;
+use sweepgate::scan::Event as ScanEvent;
 use sweepgate::wire::ascii::{AsciiConfig, AsciiDecoder};
 use sweepgate::wire::block::{BlockConfig, BlockDecoder, Event, StreamDecoder};
 
 use crate::formats::block::{parse_format, parse_order};
 use crate::formats::recording::{GridInfo, Header, Record, SyncPolicy, Writer, SWEEP_FORMAT};
+use crate::limits::MAX_FREQUENCIES;
 use crate::model::scenario::Scenario;
-use crate::model::simulator::Simulator;
+use crate::model::simulator::{Sample, Simulator};
+use crate::output::report::ReportBin;
+use crate::pipeline::engine::{c64, warning_text, Engine};
+use crate::pipeline::options::{describe_window, Choices, GateOptions};
+use crate::pipeline::setup::{self, Setup};
+use crate::units::db;
 
 /// The default profile, for `sweepgate instrument`.
 pub const SIMULATED_PROFILE: &str = include_str!("../../profiles/simulated.toml");
@@ -131,200 +144,31 @@ pub const SIMULATED_PROFILE: &str = include_str!("../../profiles/simulated.toml"
 /// Longest answer line accepted, bytes.
 pub const MAX_ANSWER_LINE: usize = 1 << 20;
 
-/// Options of `sweepgate acquire`.
-#[derive(clap::Args, Debug)]
-pub struct Args {
+/// Options of `sweepgate acquire`, as given (`cli/acquire.rs` spells them).
+#[derive(Debug, Clone)]
+pub struct Options {
     /// Profile file (TOML) with the strings to send (default: the built-in simulated one).
-    #[arg(long)]
     pub profile: Option<PathBuf>,
     /// Instrument address, HOST:PORT.
-    #[arg(long)]
     pub instrument: String,
     /// Positioner line server, HOST:PORT.
-    #[arg(long, conflicts_with = "positioner_sim")]
     pub positioner: Option<String>,
-    /// Take angles from the simulator's positioner model of --scenario.
-    #[arg(long, requires = "scenario")]
+    /// Take angles from the simulator's positioner model of `scenario`.
     pub positioner_sim: bool,
-    /// Scenario for --positioner-sim.
-    #[arg(long)]
+    /// Scenario for `positioner_sim`.
     pub scenario: Option<PathBuf>,
-    /// Seed for --positioner-sim (default: the scenario's).
-    #[arg(long)]
+    /// Seed for `positioner_sim` (default: the scenario's).
     pub seed: Option<u64>,
     /// Stop after this many sweeps.
-    #[arg(long)]
     pub sweeps: Option<u64>,
     /// Seconds to keep reading angle samples after the last sweep.
-    #[arg(long, default_value_t = 1.0)]
     pub linger_s: f64,
     /// Recording to write.
-    #[arg(long)]
     pub out: PathBuf,
-    /// Gate centre, ns after the VNA's time zero (with --gate-span-ns: run the scan engine).
-    #[arg(long, requires = "gate_span_ns")]
-    pub gate_center_ns: Option<f64>,
-    /// Gate span (full width), ns.
-    #[arg(long, requires = "gate_center_ns")]
-    pub gate_span_ns: Option<f64>,
-    /// Pattern frequency for the scan engine, Hz (default: the grid's centre point).
-    #[arg(long)]
-    pub frequency_hz: Option<f64>,
-    /// Angle bin width for the scan engine, degrees (default: the scenario's, else 1).
-    #[arg(long)]
+    /// Gate and pattern options for the live engine.
+    pub gate: GateOptions,
+    /// Angle bin width for the live engine, degrees (default: the scenario's, else 1).
     pub bin_width_deg: Option<f64>,
-}
-
-/// Scan engine settings: when given, sweeps and angles also go through
-/// [`sweepgate::scan::Scan`] and each closed bin is printed.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Gating {
-    /// Gate centre, s.
-    pub center_s: f64,
-    /// Gate span, s.
-    pub span_s: f64,
-    /// Pattern frequency, Hz (`None`: the grid's centre point).
-    pub frequency_hz: Option<f64>,
-    /// Bin width, degrees (`None`: the scenario's, else 1).
-    pub bin_width_deg: Option<f64>,
-}
-
-/// Largest number of angle bins (0.1° bins over a full turn).
-pub const MAX_BINS: usize = 3600;
-
-/// The scan engine behind a small interface, so that the FFT size can follow K.
-trait Engine {
-    fn angle(&mut self, t_us: u64, angle_deg: f64);
-    fn sweep(&mut self, start_us: u64, end_us: u64, s21: &[Complex32]);
-    fn finish(&mut self) -> u64;
-}
-
-struct ScanEngine<const M: usize>
-where
-    [Complex32; M]: sweepgate::fft::Fft,
-{
-    scan: Box<sweepgate::scan::Scan<M, 1, MAX_BINS>>,
-    closed: u64,
-    frequency_hz: f64,
-    warnings: std::collections::BTreeMap<String, u64>,
-}
-
-fn db(c: Complex32) -> f32 {
-    20.0 * c.norm().max(1e-30).log10()
-}
-
-impl<const M: usize> ScanEngine<M>
-where
-    [Complex32; M]: sweepgate::fft::Fft,
-{
-    fn report(&mut self, events: sweepgate::scan::Events<1>) {
-        use sweepgate::scan::Event as E;
-        for e in events {
-            match e {
-                E::BinClosed(r) => {
-                    self.closed += 1;
-                    let echo = r.echo_db.map_or("-".into(), |e| format!("{e:.1} dB"));
-                    println!(
-                        "bin {:>4} {:>8.2} deg: {:>3} sweeps, at {:.4} GHz raw {:>7.2} dB, gated {:>7.2} dB, echo {echo}",
-                        r.index,
-                        r.nominal_deg,
-                        r.sweeps,
-                        self.frequency_hz / 1e9,
-                        db(r.raw[0]),
-                        db(r.gated[0]),
-                    );
-                }
-                E::Warning(w) => {
-                    // The first of each kind is shown; all are counted.
-                    let key = format!("{w:?}");
-                    let n = self.warnings.entry(key.clone()).or_insert(0);
-                    if *n == 0 {
-                        eprintln!("scan: {key} (further ones counted)");
-                    }
-                    *n += 1;
-                }
-                E::Finished(c) => {
-                    eprintln!(
-                        "scan: {} sweeps binned, {} refused; {} bins closed",
-                        c.sweeps_binned,
-                        c.sweeps_rejected(),
-                        c.bins_closed
-                    );
-                    for (k, n) in &self.warnings {
-                        eprintln!("scan: {n} × {k}");
-                    }
-                }
-            }
-        }
-    }
-}
-
-impl<const M: usize> Engine for ScanEngine<M>
-where
-    [Complex32; M]: sweepgate::fft::Fft,
-{
-    fn angle(&mut self, t_us: u64, angle_deg: f64) {
-        let e = self.scan.push_angle(t_us, angle_deg as f32);
-        self.report(e);
-    }
-    fn sweep(&mut self, start_us: u64, end_us: u64, s21: &[Complex32]) {
-        let e = self.scan.push_sweep(start_us, end_us, s21);
-        self.report(e);
-    }
-    fn finish(&mut self) -> u64 {
-        let e = self.scan.finish();
-        self.report(e);
-        self.closed
-    }
-}
-
-fn engine(
-    g: &Gating,
-    grid: &sweepgate::grid::Grid,
-    bin_width_deg: f64,
-    start_deg: f64,
-) -> anyhow::Result<Box<dyn Engine>> {
-    use sweepgate::window::WindowKind;
-    let cfg = sweepgate::gate::GateConfig {
-        grid: *grid,
-        // Common practice, no source: a Kaiser band window and a Tukey gate.
-        band_window: WindowKind::Kaiser { beta: 6.0 },
-        center_s: g.center_s,
-        span_s: g.span_s,
-        shape: WindowKind::Tukey { alpha: 0.5 },
-        renormalize: true,
-    };
-    let f = g
-        .frequency_hz
-        .unwrap_or(grid.frequency_hz(grid.points() / 2));
-    let k = grid
-        .nearest_index(f)
-        .with_context(|| format!("pattern frequency {f} Hz is off the grid"))?;
-    let layout = sweepgate::bins::BinLayout::full_circle(start_deg as f32, bin_width_deg as f32)
-        .map_err(|e| anyhow::anyhow!("bin layout: {e}"))?;
-    let sc = sweepgate::scan::ScanConfig::new(layout);
-    let frequency_hz = grid.frequency_hz(k);
-    Ok(if grid.points() <= 1024 {
-        Box::new(ScanEngine::<1024> {
-            scan: Box::new(
-                sweepgate::scan::Scan::new(&cfg, [k], sc)
-                    .map_err(|e| anyhow::anyhow!("scan engine: {e}"))?,
-            ),
-            closed: 0,
-            frequency_hz,
-            warnings: Default::default(),
-        })
-    } else {
-        Box::new(ScanEngine::<4096> {
-            scan: Box::new(
-                sweepgate::scan::Scan::new(&cfg, [k], sc)
-                    .map_err(|e| anyhow::anyhow!("scan engine: {e}"))?,
-            ),
-            closed: 0,
-            frequency_hz,
-            warnings: Default::default(),
-        })
-    })
 }
 
 /// `[grid]` of a profile.
@@ -692,7 +536,7 @@ impl Decoder {
 }
 
 /// What an acquisition wrote.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Default)]
 pub struct Summary {
     /// Sweep records.
     pub sweeps: u64,
@@ -702,12 +546,17 @@ pub struct Summary {
     pub rejected: u64,
     /// Malformed positioner lines.
     pub malformed_lines: u64,
-    /// Bins the scan engine closed (0 without gating).
+    /// Bins the live engine closed (0 without one).
     pub bins_closed: u64,
     /// Link faults met (closed connection, timeout, garbage mid-scan).
     pub link_faults: u64,
     /// Successful reconnections after a link fault.
     pub reconnects: u64,
+    /// The live engine's set-up, when it ran.
+    pub setup: Option<Setup>,
+    /// The live engine's closed bins in index order (a revisited bin holds its latest
+    /// result).
+    pub bins: Vec<ReportBin>,
 }
 
 /// Where angles come from.
@@ -720,20 +569,243 @@ pub enum Positioner {
     Sim(Box<Scenario>, u64),
 }
 
+/// What to acquire.
+pub struct Request {
+    /// Instrument address, HOST:PORT.
+    pub instrument: String,
+    /// Where angles come from.
+    pub positioner: Positioner,
+    /// Stop after this many sweeps.
+    pub max_sweeps: Option<u64>,
+    /// Seconds to keep reading angle samples after the last sweep.
+    pub linger_s: f64,
+    /// Gate and pattern choices for the live engine.
+    pub choices: Choices,
+    /// Recording to write.
+    pub out: PathBuf,
+}
+
+/// Angle samples on their way in.
+enum Angles {
+    /// No positioner.
+    None,
+    /// A line server; `done` once it closed.
+    Lines {
+        rx: mpsc::Receiver<PosMsg>,
+        done: bool,
+    },
+    /// The simulator's samples and sweep schedule; `next` is the first sample not yet sent.
+    Sim {
+        samples: Vec<Sample>,
+        starts_s: Vec<f64>,
+        duration_s: f64,
+        next: usize,
+    },
+}
+
+/// The live engine and what it prints.
+struct LiveEngine {
+    engine: Engine,
+    setup: Setup,
+    frequencies_hz: Vec<f64>,
+    shown: BTreeSet<String>,
+    closed: u64,
+}
+
+impl LiveEngine {
+    /// Prints each closed bin, the first warning of each kind, and the closing count.
+    fn print(&mut self, events: &[ScanEvent<MAX_FREQUENCIES>]) {
+        for e in events {
+            match e {
+                ScanEvent::BinClosed(r) => {
+                    self.closed += 1;
+                    let values: Vec<String> = self
+                        .frequencies_hz
+                        .iter()
+                        .enumerate()
+                        .map(|(j, f)| {
+                            format!(
+                                "at {:.4} GHz raw {:>7.2} dB, gated {:>7.2} dB",
+                                f / 1e9,
+                                db(c64(r.raw[j])),
+                                db(c64(r.gated[j]))
+                            )
+                        })
+                        .collect();
+                    let echo = r.echo_db.map_or("-".into(), |e| format!("{e:.1} dB"));
+                    println!(
+                        "bin {:>4} {:>8.2} deg: {:>3} sweeps, {}, echo {echo}",
+                        r.index,
+                        r.nominal_deg,
+                        r.sweeps,
+                        values.join("; ")
+                    );
+                }
+                ScanEvent::Warning(w) => {
+                    // The first of each kind is shown; all are counted.
+                    let text = warning_text(w);
+                    if self.shown.insert(text.clone()) {
+                        eprintln!("scan: {text} (further ones counted)");
+                    }
+                }
+                ScanEvent::Finished(c) => {
+                    eprintln!(
+                        "scan: {} sweeps binned, {} refused; {} bins closed",
+                        c.sweeps_binned,
+                        c.sweeps_rejected(),
+                        c.bins_closed
+                    );
+                    for (k, n) in self.engine.warnings() {
+                        eprintln!("scan: {n} × {k}");
+                    }
+                }
+            }
+        }
+    }
+}
+
+/// The recording and the live engine: every record goes to both.
+struct Recorder {
+    w: Writer<std::fs::File>,
+    engine: Option<LiveEngine>,
+    sum: Summary,
+}
+
+impl Recorder {
+    fn position(&mut self, t_us: u64, counts: i64, angle_deg: f64) -> anyhow::Result<()> {
+        self.w.write(&Record::Position {
+            t_us,
+            counts,
+            angle_deg,
+        })?;
+        self.sum.positions += 1;
+        if let Some(e) = &mut self.engine {
+            let ev = e.engine.angle(t_us, angle_deg);
+            e.print(&ev);
+        }
+        Ok(())
+    }
+
+    fn sweep(&mut self, start_us: u64, end_us: u64, s21: &[Complex32]) -> anyhow::Result<()> {
+        self.w.write(&Record::Sweep {
+            index: self.sum.sweeps as u32,
+            start_us,
+            end_us,
+            s21: s21.to_vec(),
+        })?;
+        if let Some(e) = &mut self.engine {
+            e.engine.sweep(start_us, end_us, s21);
+        }
+        self.sum.sweeps += 1;
+        if self.sum.sweeps % 50 == 0 {
+            eprintln!(
+                "{} sweeps, {} angle samples",
+                self.sum.sweeps, self.sum.positions
+            );
+        }
+        Ok(())
+    }
+
+    /// Forwards line-protocol samples: those waiting (`wait` = `None`) or those arriving
+    /// within `wait`. Returns true once the line server has closed.
+    fn lines(
+        &mut self,
+        rx: &mpsc::Receiver<PosMsg>,
+        wait: Option<Duration>,
+        counts_per_turn: f64,
+    ) -> anyhow::Result<bool> {
+        let deadline = wait.map(|d| Instant::now() + d);
+        loop {
+            let msg = match deadline {
+                None => match rx.try_recv() {
+                    Ok(m) => m,
+                    Err(mpsc::TryRecvError::Empty) => return Ok(false),
+                    Err(mpsc::TryRecvError::Disconnected) => return Ok(true),
+                },
+                Some(d) => match rx.recv_timeout(d.saturating_duration_since(Instant::now())) {
+                    Ok(m) => m,
+                    Err(mpsc::RecvTimeoutError::Timeout) => return Ok(false),
+                    Err(mpsc::RecvTimeoutError::Disconnected) => return Ok(true),
+                },
+            };
+            match msg {
+                PosMsg::Sample(s) => {
+                    let counts = (s.angle_deg / 360.0 * counts_per_turn).round() as i64;
+                    self.position(s.t_us, counts, s.angle_deg)?;
+                }
+                PosMsg::Malformed(e) => {
+                    self.sum.malformed_lines += 1;
+                    eprintln!("positioner: malformed line: {e}");
+                }
+            }
+        }
+    }
+}
+
+/// One acquisition: the instrument link, the angle source and the recorder.
+struct Session<'a> {
+    profile: &'a Profile,
+    instrument: &'a str,
+    link: Link,
+    dec: Decoder,
+    epoch: Instant,
+    points: usize,
+    angles: Angles,
+    rec: Recorder,
+    /// Sweeps triggered, including dropped ones.
+    taken: u64,
+}
+
+/// How one sweep went.
+enum Took {
+    /// Taken; it started at this time, µs.
+    Sweep(u64),
+    /// Dropped (non-finite values); go on.
+    Dropped,
+    /// Stop the acquisition.
+    Fatal(anyhow::Error),
+}
+
 /// Runs an acquisition.
-pub fn acquire(
-    profile: &Profile,
-    instrument: &str,
-    positioner: Positioner,
-    max_sweeps: Option<u64>,
-    linger_s: f64,
-    gating: Option<Gating>,
-    out: &std::path::Path,
-) -> anyhow::Result<Summary> {
-    if max_sweeps.is_none() && matches!(positioner, Positioner::None) {
+pub fn acquire(profile: &Profile, req: Request) -> anyhow::Result<Summary> {
+    if req.max_sweeps.is_none() && matches!(req.positioner, Positioner::None) {
         bail!("with no positioner, give --sweeps");
     }
     let epoch = Instant::now();
+    let (link, idn, grid) = connect_and_set_up(profile, &req.instrument)?;
+    let dec = decoder(profile, grid.points())?;
+    let timeout = Duration::from_secs_f64(profile.timeout_s);
+    let (angles, scenario) = start_angles(req.positioner, epoch, timeout)?;
+    let mut header = header_for(profile, &req.instrument, idn, &grid, scenario);
+    let engine = live_engine(&mut header, &req.choices)?;
+    let mut w = Writer::create(&req.out, SyncPolicy::default())
+        .with_context(|| format!("creating {}", req.out.display()))?;
+    w.write(&Record::Header(Box::new(header)))?;
+    let mut s = Session {
+        profile,
+        instrument: &req.instrument,
+        link,
+        dec,
+        epoch,
+        points: grid.points(),
+        angles,
+        rec: Recorder {
+            w,
+            engine,
+            sum: Summary::default(),
+        },
+        taken: 0,
+    };
+    let fatal = s.sweeps(req.max_sweeps);
+    s.finish(fatal, req.linger_s, &req.out)
+}
+
+/// Connects, identifies, sends the profile's setup, checks the error queue and reads the
+/// grid.
+fn connect_and_set_up(
+    profile: &Profile,
+    instrument: &str,
+) -> anyhow::Result<(Link, Option<String>, Grid)> {
     let mut link = Link::connect(instrument, profile.timeout_s)?;
     let idn = match &profile.identify {
         Some(q) => Some(link.query(q)?),
@@ -742,17 +814,7 @@ pub fn acquire(
     if let Some(i) = &idn {
         eprintln!("instrument: {i}");
     }
-    let err_q = profile.error_query.as_deref();
-    let check_errors = |link: &mut Link, when: &str| -> anyhow::Result<()> {
-        if let Some(q) = err_q {
-            let e = link.errors(q)?;
-            if !e.is_empty() {
-                bail!("instrument error queue {when}: {}", e.join("; "));
-            }
-        }
-        Ok(())
-    };
-    if let Some(q) = err_q {
+    if let Some(q) = &profile.error_query {
         // Old entries are not ours: drain them (a *CLS in setup would also do).
         link.errors(q)?;
     }
@@ -764,9 +826,26 @@ pub fn acquire(
             link.send(cmd)?;
         }
     }
-    check_errors(&mut link, "after setup")?;
-    let g = &profile.grid;
-    let num = |link: &mut Link, v: Option<f64>, q: &Option<String>| -> anyhow::Result<f64> {
+    if let Some(q) = &profile.error_query {
+        let e = link.errors(q)?;
+        if !e.is_empty() {
+            bail!("instrument error queue after setup: {}", e.join("; "));
+        }
+    }
+    let grid = query_grid(&mut link, &profile.grid)?;
+    eprintln!(
+        "grid: {} Hz to {} Hz, {} points; format {}",
+        grid.start_hz(),
+        grid.stop_hz(),
+        grid.points(),
+        profile.format
+    );
+    Ok((link, idn, grid))
+}
+
+/// The grid from the profile's fixed values or queries.
+fn query_grid(link: &mut Link, g: &GridSpec) -> anyhow::Result<Grid> {
+    let mut num = |v: Option<f64>, q: &Option<String>| -> anyhow::Result<f64> {
         match (v, q) {
             (Some(v), _) => Ok(v),
             (None, Some(q)) => {
@@ -778,24 +857,20 @@ pub fn acquire(
             (None, None) => bail!("no grid value"),
         }
     };
-    let start_hz = num(&mut link, g.start_hz, &g.start_query)?;
-    let stop_hz = num(&mut link, g.stop_hz, &g.stop_query)?;
-    let points = num(&mut link, g.points.map(|p| p as f64), &g.points_query)?;
+    let start_hz = num(g.start_hz, &g.start_query)?;
+    let stop_hz = num(g.stop_hz, &g.stop_query)?;
+    let points = num(g.points.map(|p| p as f64), &g.points_query)?;
     if points.fract() != 0.0 || points < 1.0 {
         bail!("point count {points} is not a positive whole number");
     }
     let points = points as usize;
-    let grid = sweepgate::grid::Grid::from_start_stop(start_hz, stop_hz, points)
-        .with_context(|| format!("grid {start_hz} Hz to {stop_hz} Hz, {points} points"))?;
-    eprintln!(
-        "grid: {} Hz to {} Hz, {} points; format {}",
-        grid.start_hz(),
-        grid.stop_hz(),
-        grid.points(),
-        profile.format
-    );
+    Grid::from_start_stop(start_hz, stop_hz, points)
+        .with_context(|| format!("grid {start_hz} Hz to {stop_hz} Hz, {points} points"))
+}
 
-    let mut dec = if profile.format.eq_ignore_ascii_case("ascii") {
+/// The data decoder the profile's format selects.
+fn decoder(profile: &Profile, points: usize) -> anyhow::Result<Decoder> {
+    Ok(if profile.format.eq_ignore_ascii_case("ascii") {
         Decoder::Ascii(AsciiDecoder::new(AsciiConfig::new(points)?))
     } else {
         Decoder::Block(BlockDecoder::new(BlockConfig::new(
@@ -803,42 +878,47 @@ pub fn acquire(
             parse_format(&profile.format)?,
             parse_order(&profile.byte_order)?,
         )?))
-    };
+    })
+}
 
-    // Positioner.
-    let timeout = Duration::from_secs_f64(profile.timeout_s);
-    let mut lines_rx = None;
-    let mut sim_state = None;
-    let mut scenario = None;
-    match positioner {
-        Positioner::None => {}
-        Positioner::Lines(addr) => lines_rx = Some(spawn_positioner(&addr, epoch, timeout)?),
+/// Starts the angle source; the simulated positioner also gives its scenario.
+fn start_angles(
+    positioner: Positioner,
+    epoch: Instant,
+    timeout: Duration,
+) -> anyhow::Result<(Angles, Option<Scenario>)> {
+    Ok(match positioner {
+        Positioner::None => (Angles::None, None),
+        Positioner::Lines(addr) => (
+            Angles::Lines {
+                rx: spawn_positioner(&addr, epoch, timeout)?,
+                done: false,
+            },
+            None,
+        ),
         Positioner::Sim(s, seed) => {
             s.validate()?;
             let mut sim = Simulator::new(&s, seed);
-            let samples = sim.samples();
-            let starts = sim.timeline().sweep_starts_s().to_vec();
-            let dur = sim.timeline().sweep_duration_s();
-            sim_state = Some((samples, starts, dur, 0usize));
-            scenario = Some(*s);
+            let angles = Angles::Sim {
+                samples: sim.samples(),
+                starts_s: sim.timeline().sweep_starts_s().to_vec(),
+                duration_s: sim.timeline().sweep_duration_s(),
+                next: 0,
+            };
+            (angles, Some(*s))
         }
-    }
+    })
+}
 
-    let mut engine = match &gating {
-        None => None,
-        Some(g) => {
-            let width = g
-                .bin_width_deg
-                .or(scenario.as_ref().map(|s| s.bin_width_deg()))
-                .unwrap_or(1.0);
-            let start = scenario.as_ref().map_or(-180.0, |s| s.positioner.start_deg);
-            Some(engine(g, &grid, width, start)?)
-        }
-    };
-
-    let mut w = Writer::create(out, SyncPolicy::default())
-        .with_context(|| format!("creating {}", out.display()))?;
-    let header = Header {
+/// The recording's header.
+fn header_for(
+    profile: &Profile,
+    instrument: &str,
+    idn: Option<String>,
+    grid: &Grid,
+    scenario: Option<Scenario>,
+) -> Header {
+    Header {
         software: format!("sweepgate {}", env!("CARGO_PKG_VERSION")),
         source: format!(
             "acquire: {} at {instrument}, profile {:?}",
@@ -864,226 +944,230 @@ pub fn acquire(
             points: grid.points(),
         },
         sweep_format: SWEEP_FORMAT.into(),
-    };
-    w.write(&Record::Header(Box::new(header)))?;
+    }
+}
 
-    let cpt = f64::from(profile.counts_per_turn);
-    let mut sum = Summary {
-        sweeps: 0,
-        positions: 0,
-        rejected: 0,
-        malformed_lines: 0,
-        bins_closed: 0,
-        link_faults: 0,
-        reconnects: 0,
-    };
-    let mut positioner_done = false;
-    let write_lines = |w: &mut Writer<std::fs::File>,
-                       sum: &mut Summary,
-                       rx: &mpsc::Receiver<PosMsg>,
-                       wait: Option<Duration>,
-                       eng: &mut Option<Box<dyn Engine>>|
-     -> anyhow::Result<bool> {
-        // Returns true once the line server has closed.
-        let deadline = wait.map(|d| Instant::now() + d);
-        loop {
-            let msg = match deadline {
-                None => match rx.try_recv() {
-                    Ok(m) => m,
-                    Err(mpsc::TryRecvError::Empty) => return Ok(false),
-                    Err(mpsc::TryRecvError::Disconnected) => return Ok(true),
-                },
-                Some(d) => {
-                    let left = d.saturating_duration_since(Instant::now());
-                    match rx.recv_timeout(left) {
-                        Ok(m) => m,
-                        Err(mpsc::RecvTimeoutError::Timeout) => return Ok(false),
-                        Err(mpsc::RecvTimeoutError::Disconnected) => return Ok(true),
-                    }
-                }
+/// The live engine, when a gate can be set up: from the header (as `replay` and `process`
+/// set up the recording) and the choices. The header then records the pattern frequencies
+/// and bin width the engine uses.
+fn live_engine(header: &mut Header, choices: &Choices) -> anyhow::Result<Option<LiveEngine>> {
+    if header.scenario.is_none() && *choices == Choices::default() {
+        return Ok(None);
+    }
+    if choices.bin_width_deg.is_some() {
+        header.bin_width_deg = choices.bin_width_deg;
+    }
+    let setup = setup::for_recording(header, choices, &[]).context("the live scan engine")?;
+    header.pattern_frequencies_hz = setup.frequencies_hz.clone();
+    let g = &setup.gate;
+    eprintln!(
+        "scan engine: gate center {:.3} ns, span {:.3} ns ({}; {}); band window {}, gate shape {}; {} bins",
+        g.center_s * 1e9,
+        g.span_s * 1e9,
+        setup.gate_source,
+        setup.gate_rule,
+        describe_window(&g.band_window),
+        describe_window(&g.shape),
+        setup.layout.count()
+    );
+    for r in &setup.remarks {
+        eprintln!("scan engine: {r}");
+    }
+    Ok(Some(LiveEngine {
+        engine: Engine::new(&setup)?,
+        frequencies_hz: setup.frequencies_hz.clone(),
+        setup,
+        shown: BTreeSet::new(),
+        closed: 0,
+    }))
+}
+
+impl Session<'_> {
+    /// Takes sweeps until a stop condition; returns the fault that stopped it, if any.
+    fn sweeps(&mut self, max_sweeps: Option<u64>) -> Option<anyhow::Error> {
+        let mut sweep = vec![Complex32::new(0.0, 0.0); self.points];
+        while !self.should_stop(max_sweeps) {
+            let t_start = match self.take_with_retries(&mut sweep) {
+                Took::Sweep(t) => t,
+                Took::Dropped => continue,
+                Took::Fatal(e) => return Some(e),
             };
-            match msg {
-                PosMsg::Sample(s) => {
-                    w.write(&Record::Position {
-                        t_us: s.t_us,
-                        counts: (s.angle_deg / 360.0 * cpt).round() as i64,
-                        angle_deg: s.angle_deg,
-                    })?;
-                    sum.positions += 1;
-                    if let Some(e) = eng {
-                        e.angle(s.t_us, s.angle_deg);
-                    }
-                }
-                PosMsg::Malformed(e) => {
-                    sum.malformed_lines += 1;
-                    eprintln!("positioner: malformed line: {e}");
-                }
+            self.taken += 1;
+            if let Err(e) = self.record(t_start, &sweep) {
+                return Some(e);
             }
         }
-    };
+        None
+    }
 
-    let mut sweep = vec![Complex32::new(0.0, 0.0); points];
-    let mut taken: u64 = 0;
-    let mut fatal: Option<anyhow::Error> = None;
-    loop {
-        if max_sweeps.is_some_and(|m| sum.sweeps >= m) {
-            break;
+    /// After `--sweeps`, at the end of the simulated schedule, or when the line server has
+    /// closed (without `--sweeps`).
+    fn should_stop(&self, max_sweeps: Option<u64>) -> bool {
+        if max_sweeps.is_some_and(|m| self.rec.sum.sweeps >= m) {
+            return true;
         }
-        if positioner_done && max_sweeps.is_none() {
-            eprintln!("positioner closed its connection: end of the scan");
-            break;
-        }
-        if let Some((_, starts, _, _)) = &sim_state {
-            if taken as usize >= starts.len() {
-                break;
+        match &self.angles {
+            Angles::Lines { done: true, .. } if max_sweeps.is_none() => {
+                eprintln!("positioner closed its connection: end of the scan");
+                true
             }
+            Angles::Sim { starts_s, .. } => self.taken as usize >= starts_s.len(),
+            _ => false,
         }
+    }
+
+    /// Takes one sweep, reconnecting after link faults (see the module notes).
+    fn take_with_retries(&mut self, sweep: &mut [Complex32]) -> Took {
         let mut attempt = 0u32;
-        let taken_ok = 'sweep: loop {
-            let t_start = epoch.elapsed().as_micros() as u64;
-            let fault = match take_sweep(&mut link, &mut dec, &mut sweep, profile) {
-                Ok(Ok(())) => break 'sweep Some(t_start),
+        loop {
+            let t_start = self.epoch.elapsed().as_micros() as u64;
+            let fault = match take_sweep(&mut self.link, &mut self.dec, sweep, self.profile) {
+                Ok(Ok(())) => return Took::Sweep(t_start),
                 Ok(Err((why, true))) => {
-                    taken += 1;
-                    sum.rejected += 1;
-                    eprintln!("sweep {}: dropped: {why}", taken - 1);
-                    link.drain(Duration::from_millis(200));
-                    dec.reset();
-                    break 'sweep None;
+                    self.taken += 1;
+                    self.rec.sum.rejected += 1;
+                    eprintln!("sweep {}: dropped: {why}", self.taken - 1);
+                    self.link.drain(Duration::from_millis(200));
+                    self.dec.reset();
+                    return Took::Dropped;
                 }
                 Ok(Err((why, false))) => {
+                    let p = self.profile;
                     let e = anyhow::anyhow!(
-                        "answer to {:?} rejected: {why} (the profile expects {points} points, format {}, byte order {})",
-                        profile.data,
-                        profile.format,
-                        profile.byte_order
+                        "answer to {:?} rejected: {why} (the profile expects {} points, format {}, byte order {})",
+                        p.data,
+                        self.points,
+                        p.format,
+                        p.byte_order
                     );
-                    if sum.sweeps == 0 && sum.rejected == 0 {
+                    if self.rec.sum.sweeps == 0 && self.rec.sum.rejected == 0 {
                         // Nothing decoded yet: the profile does not match the instrument.
-                        fatal = Some(with_queue(&mut link, err_q, e));
-                        break 'sweep None;
+                        let q = p.error_query.as_deref();
+                        return Took::Fatal(with_queue(&mut self.link, q, e));
                     }
                     e
                 }
                 Err(e) => e,
             };
-            sum.link_faults += 1;
-            // Reconnect with bounded attempts and doubling waits, then take the sweep again.
-            loop {
-                if attempt >= profile.retries {
-                    let e = with_queue(&mut link, err_q, fault);
-                    fatal = Some(e.context(format!(
-                        "link fault at sweep {taken}, {} retries failed",
-                        profile.retries
-                    )));
-                    break 'sweep None;
-                }
-                attempt += 1;
-                let wait_s = profile.retry_backoff_s * f64::from(1u32 << (attempt - 1).min(16));
-                eprintln!(
-                    "sweep {taken}: link fault: {fault:#}; retry {attempt} of {} in {wait_s:.2} s: reconnecting",
-                    profile.retries
-                );
-                std::thread::sleep(Duration::from_secs_f64(wait_s));
-                match reconnect(instrument, profile) {
-                    Ok(l) => {
-                        link = l;
-                        sum.reconnects += 1;
-                        dec.reset();
-                        break;
-                    }
-                    Err(e) => eprintln!("sweep {taken}: reconnecting failed: {e:#}"),
-                }
+            self.rec.sum.link_faults += 1;
+            if let Err(e) = self.reconnect(fault, &mut attempt) {
+                return Took::Fatal(e);
             }
-        };
-        if fatal.is_some() {
-            break;
         }
-        let Some(t_start) = taken_ok else { continue };
-        taken += 1;
-        let t_end = epoch.elapsed().as_micros() as u64;
-        let (start_us, end_us) = match &mut sim_state {
-            Some((samples, starts, dur, next)) => {
-                let t0 = starts.get(taken as usize - 1).copied().unwrap_or(0.0);
+    }
+
+    /// Reconnects with bounded attempts and doubling waits; the error when they run out.
+    fn reconnect(&mut self, fault: anyhow::Error, attempt: &mut u32) -> Result<(), anyhow::Error> {
+        let p = self.profile;
+        let n = self.taken;
+        loop {
+            if *attempt >= p.retries {
+                let e = with_queue(&mut self.link, p.error_query.as_deref(), fault);
+                return Err(e.context(format!(
+                    "link fault at sweep {n}, {} retries failed",
+                    p.retries
+                )));
+            }
+            *attempt += 1;
+            let wait_s = p.retry_backoff_s * f64::from(1u32 << (*attempt - 1).min(16));
+            eprintln!(
+                "sweep {n}: link fault: {fault:#}; retry {} of {} in {wait_s:.2} s: reconnecting",
+                *attempt, p.retries
+            );
+            std::thread::sleep(Duration::from_secs_f64(wait_s));
+            match reconnect(self.instrument, p) {
+                Ok(l) => {
+                    self.link = l;
+                    self.rec.sum.reconnects += 1;
+                    self.dec.reset();
+                    return Ok(());
+                }
+                Err(e) => eprintln!("sweep {n}: reconnecting failed: {e:#}"),
+            }
+        }
+    }
+
+    /// Forwards the angle samples up to the sweep, then records the sweep: stamped by the
+    /// simulated schedule, else by our clock.
+    fn record(&mut self, t_start: u64, sweep: &[Complex32]) -> anyhow::Result<()> {
+        let t_end = self.epoch.elapsed().as_micros() as u64;
+        let cpt = f64::from(self.profile.counts_per_turn);
+        let (start_us, end_us) = match &mut self.angles {
+            Angles::Sim {
+                samples,
+                starts_s,
+                duration_s,
+                next,
+            } => {
+                let t0 = starts_s
+                    .get(self.taken as usize - 1)
+                    .copied()
+                    .unwrap_or(0.0);
                 let s_us = (t0 * 1e6).round() as u64;
-                let e_us = ((t0 + *dur) * 1e6).round() as u64;
+                let e_us = ((t0 + *duration_s) * 1e6).round() as u64;
                 while let Some(s) = samples.get(*next).filter(|s| s.t_us <= e_us) {
-                    w.write(&Record::Position {
-                        t_us: s.t_us,
-                        counts: s.counts,
-                        angle_deg: s.angle_deg,
-                    })?;
-                    sum.positions += 1;
-                    if let Some(e) = &mut engine {
-                        e.angle(s.t_us, s.angle_deg);
-                    }
+                    self.rec.position(s.t_us, s.counts, s.angle_deg)?;
                     *next += 1;
                 }
                 (s_us, e_us)
             }
-            None => {
-                if let (Some(rx), false) = (&lines_rx, positioner_done) {
-                    positioner_done = write_lines(&mut w, &mut sum, rx, None, &mut engine)?;
+            Angles::Lines { rx, done } => {
+                if !*done {
+                    *done = self.rec.lines(rx, None, cpt)?;
                 }
                 (t_start, t_end)
             }
+            Angles::None => (t_start, t_end),
         };
-        w.write(&Record::Sweep {
-            index: sum.sweeps as u32,
-            start_us,
-            end_us,
-            s21: sweep.clone(),
-        })?;
-        if let Some(e) = &mut engine {
-            e.sweep(start_us, end_us, &sweep);
-        }
-        sum.sweeps += 1;
-        if sum.sweeps % 50 == 0 {
-            eprintln!("{} sweeps, {} angle samples", sum.sweeps, sum.positions);
-        }
+        self.rec.sweep(start_us, end_us, sweep)
     }
-    if let Some(e) = fatal {
-        // Keep the partial scan: every record written so far is whole; end it cleanly.
-        let swept = sum.sweeps;
-        w.finish()?;
-        return Err(e.context(format!(
-            "acquisition stopped; the recording {} keeps the {swept} sweeps taken before the fault",
-            out.display()
-        )));
-    }
-    if let Some((samples, _, _, next)) = &sim_state {
-        for s in samples.get(*next..).unwrap_or(&[]) {
-            w.write(&Record::Position {
-                t_us: s.t_us,
-                counts: s.counts,
-                angle_deg: s.angle_deg,
-            })?;
-            sum.positions += 1;
-            if let Some(e) = &mut engine {
-                e.angle(s.t_us, s.angle_deg);
+
+    /// Ends the recording: on a fault it keeps the partial scan and returns the fault;
+    /// otherwise the remaining angle samples, the error queue, and the live engine's end.
+    fn finish(
+        mut self,
+        fatal: Option<anyhow::Error>,
+        linger_s: f64,
+        out: &Path,
+    ) -> anyhow::Result<Summary> {
+        if let Some(e) = fatal {
+            // Keep the partial scan: every record written so far is whole; end it cleanly.
+            let swept = self.rec.sum.sweeps;
+            self.rec.w.finish()?;
+            return Err(e.context(format!(
+                "acquisition stopped; the recording {} keeps the {swept} sweeps taken before the fault",
+                out.display()
+            )));
+        }
+        let cpt = f64::from(self.profile.counts_per_turn);
+        match &self.angles {
+            Angles::Sim { samples, next, .. } => {
+                for s in samples.get(*next..).unwrap_or(&[]) {
+                    self.rec.position(s.t_us, s.counts, s.angle_deg)?;
+                }
+            }
+            Angles::Lines { rx, done: false } => {
+                let linger = Duration::from_secs_f64(linger_s.max(0.0));
+                self.rec.lines(rx, Some(linger), cpt)?;
+            }
+            _ => {}
+        }
+        if let Some(q) = &self.profile.error_query {
+            for x in self.link.errors(q)? {
+                eprintln!("instrument error queue at the end: {x}");
             }
         }
-    }
-    if let (Some(rx), false) = (&lines_rx, positioner_done) {
-        write_lines(
-            &mut w,
-            &mut sum,
-            rx,
-            Some(Duration::from_secs_f64(linger_s.max(0.0))),
-            &mut engine,
-        )?;
-    }
-    if let Some(q) = err_q {
-        let e = link.errors(q)?;
-        for x in e {
-            eprintln!("instrument error queue at the end: {x}");
+        let Recorder { w, engine, mut sum } = self.rec;
+        w.finish()?;
+        if let Some(mut e) = engine {
+            let ev = e.engine.finish(false);
+            e.print(&ev);
+            sum.bins_closed = e.closed;
+            sum.bins = e.engine.bins().values().cloned().collect();
+            sum.setup = Some(e.setup);
         }
+        Ok(sum)
     }
-    w.finish()?;
-    if let Some(e) = &mut engine {
-        sum.bins_closed = e.finish();
-    }
-    Ok(sum)
 }
 
 /// Triggers one sweep, waits for it and reads its data: `Ok(Err((why, non_finite)))` when
@@ -1143,55 +1227,49 @@ fn with_queue(link: &mut Link, q: Option<&str>, e: anyhow::Error) -> anyhow::Err
     }
 }
 
-/// Runs the command.
-pub fn run(args: Args) -> anyhow::Result<()> {
-    let text = match &args.profile {
+/// Runs the command: reads the profile, starts the angle source, acquires and says what
+/// was written.
+pub fn run(opts: &Options) -> anyhow::Result<()> {
+    let text = match &opts.profile {
         Some(p) => std::fs::read_to_string(p)
             .with_context(|| format!("reading profile {}", p.display()))?,
         None => SIMULATED_PROFILE.to_owned(),
     };
     let profile = Profile::from_toml(&text).context("in the profile")?;
-    let positioner = if let Some(a) = args.positioner {
-        Positioner::Lines(a)
-    } else if args.positioner_sim {
-        let Some(path) = &args.scenario else {
+    let positioner = if let Some(a) = &opts.positioner {
+        Positioner::Lines(a.clone())
+    } else if opts.positioner_sim {
+        let Some(path) = &opts.scenario else {
             bail!("--positioner-sim needs --scenario");
         };
         let s = Scenario::load(path)?;
-        let seed = args.seed.unwrap_or(s.simulation.seed);
+        let seed = opts.seed.unwrap_or(s.simulation.seed);
         Positioner::Sim(Box::new(s), seed)
     } else {
         Positioner::None
     };
-    let gating = match (args.gate_center_ns, args.gate_span_ns) {
-        (Some(c), Some(sp)) => Some(Gating {
-            center_s: c * 1e-9,
-            span_s: sp * 1e-9,
-            frequency_hz: args.frequency_hz,
-            bin_width_deg: args.bin_width_deg,
-        }),
-        _ => None,
-    };
-    let sum = acquire(
-        &profile,
-        &args.instrument,
+    let mut choices = opts.gate.choices()?;
+    choices.bin_width_deg = opts.bin_width_deg;
+    let req = Request {
+        instrument: opts.instrument.clone(),
         positioner,
-        args.sweeps,
-        args.linger_s,
-        gating,
-        &args.out,
-    )?;
+        max_sweeps: opts.sweeps,
+        linger_s: opts.linger_s,
+        choices,
+        out: opts.out.clone(),
+    };
+    let sum = acquire(&profile, req)?;
     eprintln!(
         "wrote {} sweeps and {} angle samples to {} ({} sweeps dropped, {} malformed positioner lines, {} link faults, {} reconnections)",
         sum.sweeps,
         sum.positions,
-        args.out.display(),
+        opts.out.display(),
         sum.rejected,
         sum.malformed_lines,
         sum.link_faults,
         sum.reconnects
     );
-    if gating.is_some() {
+    if sum.setup.is_some() {
         eprintln!("scan engine closed {} bins", sum.bins_closed);
     }
     Ok(())

@@ -1,6 +1,8 @@
 //! `sweepgate view --from ADDR`: shows a board's preview stream (the same screen as
 //! `sweepgate replay`). `ADDR` is `HOST:PORT` for a TCP stream, or a path (a serial device
-//! or a file of recorded preview bytes) read as a file.
+//! or a file of recorded preview bytes) read as a file. The screen decodes records of up to
+//! [`crate::limits::MAX_FREQUENCIES`] pattern frequencies in frames of up to
+//! [`crate::limits::MAX_FRAME_BYTES`], the sizes every command's engine sends.
 
 use std::io::Read;
 use std::path::Path;
@@ -13,16 +15,13 @@ use anyhow::Context;
 use crate::output::screen::{self as preview, Feed, Screen};
 
 /// Options of `sweepgate view`.
-#[derive(clap::Args, Debug, Clone)]
-pub struct Args {
+#[derive(Debug, Clone)]
+pub struct Options {
     /// `HOST:PORT` of a TCP preview stream, or a path to a serial device or a file.
-    #[arg(long)]
     pub from: String,
     /// No full-screen preview: a progress line on stderr and a summary at the end.
-    #[arg(long)]
     pub no_preview: bool,
     /// Number of bins of the scan, for the "filled" count (unknown otherwise).
-    #[arg(long)]
     pub bins: Option<u16>,
 }
 
@@ -36,7 +35,7 @@ fn open(from: &str) -> anyhow::Result<Box<dyn Read + Send>> {
 }
 
 /// Reads the stream to its end (or until `q`), returning the final screen.
-pub fn view(args: &Args) -> anyhow::Result<Screen> {
+pub fn view(args: &Options) -> anyhow::Result<Screen> {
     let mut src = open(&args.from)?;
     let (tx, rx) = mpsc::channel();
     std::thread::spawn(move || {
@@ -65,9 +64,9 @@ pub fn view(args: &Args) -> anyhow::Result<Screen> {
     Ok(screen)
 }
 
-/// Runs the command.
-pub fn run(args: Args) -> anyhow::Result<()> {
-    let screen = view(&args)?;
+/// Runs the command: shows the stream, then prints the summary.
+pub fn run(args: &Options) -> anyhow::Result<()> {
+    let screen = view(args)?;
     for line in screen.summary_lines() {
         println!("{line}");
     }

@@ -6,7 +6,7 @@
 //! The same model serves `sweepgate replay` (fed by the replayed scan engine) and
 //! `sweepgate view` (fed by a board's byte stream), so what the screen shows is exactly what
 //! the records carry: raw and gated |S21| in dB at each pattern frequency against angle, bins
-//! filled, the last echo level, sweeps per second (from status records), counters and
+//! filled, the last echo level, the scan's sweeps per second (from status records), counters and
 //! warnings.
 //!
 //! Keys: `q` or Esc quits (the terminal is restored), `f`/Tab/→ shows the next pattern
@@ -31,9 +31,9 @@ use sweepgate::wire::preview::{
 };
 
 /// Pattern frequencies a preview record may carry here (unused slots are padded).
-pub const PREVIEW_F: usize = 8;
+pub const PREVIEW_F: usize = crate::limits::MAX_FREQUENCIES;
 /// Frame buffer of the preview decoder, bytes (≥ the longest frame).
-pub const PREVIEW_BUF: usize = 1024;
+pub const PREVIEW_BUF: usize = crate::limits::MAX_FRAME_BYTES;
 
 /// The decoder the preview uses.
 pub type PreviewDecoder = Decoder<PREVIEW_F, PREVIEW_BUF>;
@@ -64,7 +64,8 @@ pub struct Screen {
     pub bins: BTreeMap<u16, BinRecord<PREVIEW_F>>,
     /// Latest status record.
     pub status: Option<StatusRecord>,
-    /// Sweeps per second of scan time, from the last two status records.
+    /// The scan's sweep rate: sweeps per second of scan time from the first status record
+    /// to the latest.
     pub sweeps_per_s: Option<f64>,
     /// Echo level of the last closed bin, dB.
     pub last_echo_db: Option<f32>,
@@ -75,7 +76,7 @@ pub struct Screen {
     /// The stream has ended.
     pub ended: bool,
     decoder: PreviewDecoder,
-    prev_status: Option<(u64, u32)>,
+    first_status: Option<(u64, u32)>,
 }
 
 impl Screen {
@@ -94,7 +95,7 @@ impl Screen {
             notes: Vec::new(),
             ended: false,
             decoder: PreviewDecoder::new(),
-            prev_status: None,
+            first_status: None,
         }
     }
 
@@ -117,13 +118,14 @@ impl Screen {
                 self.bins.insert(b.bin, b);
             }
             Record::Status(s) => {
-                if let Some((t0, n0)) = self.prev_status {
+                if let Some((t0, n0)) = self.first_status {
                     if s.time_us > t0 && s.sweeps_pushed >= n0 {
                         let dt = (s.time_us - t0) as f64 * 1e-6;
                         self.sweeps_per_s = Some(f64::from(s.sweeps_pushed - n0) / dt);
                     }
                 }
-                self.prev_status = Some((s.time_us, s.sweeps_pushed));
+                self.first_status
+                    .get_or_insert((s.time_us, s.sweeps_pushed));
                 self.status = Some(s);
             }
         }
@@ -263,7 +265,9 @@ impl Screen {
             ));
         }
         if let Some(r) = self.sweeps_per_s {
-            v.push(format!("sweeps per second (scan time): {r:.1}"));
+            v.push(format!(
+                "sweeps per second over the scan (scan time): {r:.1}"
+            ));
         }
         let d = self.decoder.counters();
         v.push(format!(

@@ -1,10 +1,15 @@
 //! The one set-up (grid, options, settings and plan → gate, FFT size, bins, frequencies),
-//! streaming a recording through the engine, offline gating of saved sweeps, truth,
-//! simulation runs and link captures.
+//! the engine and its dispatch over FFT sizes, streaming a recording through it, offline
+//! gating of saved sweeps, truth, simulation runs, the demo and link captures.
 
 pub mod capture;
+pub mod demo;
+pub mod engine;
 pub mod options;
 pub mod plan;
 pub mod process;
 pub mod replay;
+pub mod setup;
 pub mod simulate;
+pub mod stream;
+pub mod summary;

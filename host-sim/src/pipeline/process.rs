@@ -4,13 +4,12 @@
 //! # Inputs
 //!
 //! - `--manifest FILE`: a step-and-stop scan saved as one Touchstone file per angle (see
-//!   [`crate::formats::manifest`]). Each file is one sweep; each manifest angle is one bin, gated with
-//!   the core [`Gate`] on its FFT path (echo level and gated values), which is what the scan
-//!   engine computes for a bin holding one sweep.
-//! - `--recording REC`: a recording (see [`crate::formats::recording`]), streamed through the same scan
-//!   engine as `replay` ([`replay::setup_with`], [`replay::replay_with_setup`]) with no
-//!   preview and no waiting. With the settings it was replayed with, the bins are the
-//!   replay's bit for bit.
+//!   [`crate::formats::manifest`]). Each file is one sweep; each manifest angle is one bin,
+//!   gated with the core [`Gate`] on its FFT path (echo level and gated values), which is
+//!   what the scan engine computes for a bin holding one sweep.
+//! - `--recording REC`: a recording (see [`crate::formats::recording`]), streamed through
+//!   the same scan engine as `replay` ([`crate::pipeline::stream`]) with no preview and no
+//!   waiting. With the same choices, the bins are the replay's bit for bit.
 //! - a positional `INPUT`: a manifest when its first line starts with `angle_deg`,
 //!   otherwise a recording.
 //!
@@ -33,88 +32,53 @@
 //!
 //! # The gate
 //!
-//! Given centre and span (command line or settings file) are used as they are. Otherwise
-//! (`gate_source` in `summary.json` says which):
-//!
-//! - `planner`: a recording with a scenario gets the planner's gate
-//!   ([`replay::planned_gate`]), as `replay` does;
-//! - `strongest impulse-response peak`: any other input. The strongest sweep (largest
-//!   Σ|S|² over the grid; for a pattern scan, the one nearest the main beam) is windowed
-//!   with the band window and transformed ([`Gate::impulse_response`]); the gate is centred
-//!   on the sample of largest |h| and spans four band-window main lobes
-//!   (4·`mainlobe_width()`/(K·Δf), the planner's rule when no echo is separable), at most
-//!   half the alias-free range.
-//!
-//! Pattern frequencies are each taken at their nearest grid point; `frequency_hz` in
-//! `pattern.csv` is the grid point's, and a warning in `summary.json` says when one moved.
-//! The band window defaults to a Kaiser window for 50 dB sidelobes and the gate shape to
-//! Tukey α = 0.3, as in `replay`.
+//! The set-up is [`crate::pipeline::setup`]'s, as for every command: a given center and
+//! span (command line or settings file) are used as they are; otherwise a recording with a
+//! scenario gets the planner's gate, and any other input the gate on the strongest
+//! impulse-response peak (`gate_source` in `summary.json` says which). The band window and
+//! gate shape defaults are [`crate::pipeline::options`]'s.
 
 use std::path::{Path, PathBuf};
 use std::sync::atomic::AtomicBool;
 
 use anyhow::{bail, Context};
-use serde_json::{json, Value};
-use sweepgate::fft::Fft;
-use sweepgate::gate::{Gate, GateConfig};
-use sweepgate::grid::Grid;
-use sweepgate::window::WindowKind;
+use sweepgate::gate::GateConfig;
+use sweepgate::metrics::wrap_deg;
 use sweepgate::Complex32;
 
-use crate::formats::manifest::Manifest;
-use crate::formats::recording::{self as record, Record};
-use crate::formats::touchstone::{Parameter, Spacing};
+use crate::formats::gain_table::GainTable;
+use crate::formats::manifest::{AngleSweep, Manifest};
+use crate::formats::recording as record;
+use crate::formats::touchstone::{Parameter, Spacing, Touchstone};
 use crate::output::report::{self, ImpulseView, ReportBin, ReportInput, ReportValue};
-use crate::pipeline::options::describe_window;
-use crate::pipeline::options::parse_window;
-use crate::pipeline::replay::{self, c64, SetupOptions, Sink};
+use crate::pipeline::engine::{c64, gate_sweeps};
+use crate::pipeline::options::{default_report_dir, window_option, Choices, GateOptions, Origin};
+use crate::pipeline::setup::{self, Automatic};
+use crate::pipeline::stream::{self, Discard, Pacing};
+use crate::pipeline::summary::Settings;
 
-/// Options of `sweepgate process`.
-#[derive(clap::Args, Debug, Clone, Default)]
-pub struct Args {
+/// Options of `sweepgate process`, as given (`cli/process.rs` spells them).
+#[derive(Debug, Clone, Default)]
+pub struct Options {
     /// Manifest or recording (kind detected from the content).
-    #[arg(conflicts_with_all = ["manifest", "recording"])]
     pub input: Option<PathBuf>,
     /// Manifest CSV (`angle_deg,file`) of per-angle Touchstone files.
-    #[arg(long, conflicts_with = "recording")]
     pub manifest: Option<PathBuf>,
     /// Recording written by `simulate` or `acquire`.
-    #[arg(long)]
     pub recording: Option<PathBuf>,
-    /// Gate centre, ns from the VNA's time zero.
-    #[arg(long, allow_negative_numbers = true)]
-    pub gate_center_ns: Option<f64>,
-    /// Gate span, ns.
-    #[arg(long, allow_negative_numbers = true)]
-    pub gate_span_ns: Option<f64>,
-    /// Pattern frequencies, Hz, comma-separated (each taken at its nearest grid point).
-    #[arg(long)]
-    pub frequencies_hz: Option<String>,
-    /// Band window: kaiser:BETA, tukey:ALPHA, hann, hamming, blackman-harris, rectangular
-    /// (default: Kaiser for 50 dB sidelobes).
-    #[arg(long)]
-    pub band_window: Option<String>,
-    /// Gate shape, same spellings (default: tukey:0.3).
-    #[arg(long)]
-    pub gate_shape: Option<String>,
+    /// Gate and pattern options.
+    pub gate: GateOptions,
     /// Touchstone parameter of the pattern signal (default: S21, or S11 for 1-port files).
-    #[arg(long)]
     pub parameter: Option<String>,
     /// Resample Touchstone files whose frequencies are not uniformly spaced.
-    #[arg(long)]
     pub resample: bool,
     /// Report folder (default: `<input stem>-report/` next to the input).
-    #[arg(long)]
     pub out: Option<PathBuf>,
     /// TOML settings file with the same settings (command-line options override it).
-    #[arg(long)]
     pub settings: Option<PathBuf>,
-    /// Gain by substitution: the reference antenna's gain table (CSV `frequency_hz,gain_dbi`).
-    #[arg(long, requires = "reference")]
+    /// Gain by substitution: the reference antenna's gain table.
     pub gain_table: Option<PathBuf>,
-    /// Gain by substitution: a Touchstone file of the reference antenna measured at
-    /// boresight in the same set-up; it is gated like the scan.
-    #[arg(long, requires = "gain_table")]
+    /// Gain by substitution: a Touchstone file of the reference antenna at boresight.
     pub reference: Option<PathBuf>,
 }
 
@@ -134,7 +98,7 @@ pub const SETTINGS_KEYS: [&str; 8] = [
 #[derive(Debug, Clone, Default, PartialEq, serde::Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct SettingsFile {
-    /// Gate centre, ns.
+    /// Gate center, ns.
     pub gate_center_ns: Option<f64>,
     /// Gate span, ns.
     pub gate_span_ns: Option<f64>,
@@ -157,7 +121,7 @@ impl SettingsFile {
     pub fn parse_str(text: &str, name: &str) -> anyhow::Result<Self> {
         let table: toml::Table = text
             .parse()
-            .map_err(|e| anyhow::anyhow!("settings file {name}: {e}"))?;
+            .with_context(|| format!("settings file {name}"))?;
         for key in table.keys() {
             if !SETTINGS_KEYS.contains(&key.as_str()) {
                 bail!(
@@ -166,7 +130,7 @@ impl SettingsFile {
                 );
             }
         }
-        toml::from_str(text).map_err(|e| anyhow::anyhow!("settings file {name}: {e}"))
+        toml::from_str(text).with_context(|| format!("settings file {name}"))
     }
 
     /// Reads a settings file; a relative `out` is taken against the file's folder.
@@ -181,31 +145,6 @@ impl SettingsFile {
             }
         }
         Ok(s)
-    }
-}
-
-/// Where a setting came from.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Origin {
-    /// A command-line option.
-    CommandLine,
-    /// The settings file.
-    SettingsFile,
-}
-
-impl Origin {
-    /// In words, as `summary.json` writes it.
-    pub fn text(self) -> &'static str {
-        match self {
-            Origin::CommandLine => "command line",
-            Origin::SettingsFile => "settings file",
-        }
-    }
-    fn by(self, option: &str, key: &str) -> String {
-        match self {
-            Origin::CommandLine => format!("--{option}"),
-            Origin::SettingsFile => format!("`{key}` in the settings file"),
-        }
     }
 }
 
@@ -232,16 +171,8 @@ impl Input {
 pub struct Resolved {
     /// The input.
     pub input: Input,
-    /// Gate centre, ns, and where it came from.
-    pub center_ns: Option<(f64, Origin)>,
-    /// Gate span, ns, and where it came from.
-    pub span_ns: Option<(f64, Origin)>,
-    /// Requested pattern frequencies, Hz.
-    pub frequencies_hz: Option<Vec<f64>>,
-    /// Band window.
-    pub band_window: WindowKind,
-    /// Gate shape.
-    pub gate_shape: WindowKind,
+    /// Gate and pattern choices.
+    pub choices: Choices,
     /// Touchstone parameter (`None`: the file's usual one).
     pub parameter: Option<Parameter>,
     /// Uniform spacing required or resampling allowed.
@@ -250,24 +181,6 @@ pub struct Resolved {
     pub out: PathBuf,
     /// Gain by substitution: the reference's gain table and its measurement.
     pub gain: Option<(PathBuf, PathBuf)>,
-}
-
-/// Parses a comma-separated list of frequencies in Hz (each finite and positive).
-pub fn parse_frequencies(text: &str) -> Result<Vec<f64>, String> {
-    let mut v = Vec::new();
-    for part in text.split(',') {
-        let p = part.trim();
-        let f: f64 = p
-            .parse()
-            .map_err(|_| format!("frequency `{p}` in `{text}` is not a number"))?;
-        if !(f.is_finite() && f > 0.0) {
-            return Err(format!(
-                "frequency `{p}` in `{text}` is not a positive frequency"
-            ));
-        }
-        v.push(f);
-    }
-    Ok(v)
 }
 
 /// A manifest when the file's first line starts with `angle_deg`, else a recording.
@@ -285,13 +198,9 @@ pub fn detect(path: &Path) -> anyhow::Result<Input> {
     })
 }
 
-/// Merges the settings file (if any) and the command line.
-pub fn resolve(args: &Args) -> anyhow::Result<Resolved> {
-    let file = match &args.settings {
-        Some(p) => SettingsFile::read(p)?,
-        None => SettingsFile::default(),
-    };
-    let input = match (&args.manifest, &args.recording, &args.input) {
+/// The one input the options name.
+fn input_of(opts: &Options) -> anyhow::Result<Input> {
+    Ok(match (&opts.manifest, &opts.recording, &opts.input) {
         (Some(m), None, None) => Input::Manifest(m.clone()),
         (None, Some(r), None) => Input::Recording(r.clone()),
         (None, None, Some(i)) => detect(i)?,
@@ -299,166 +208,65 @@ pub fn resolve(args: &Args) -> anyhow::Result<Resolved> {
             bail!("nothing to process: give --manifest FILE, --recording REC or an input file")
         }
         _ => bail!("give one input: --manifest, --recording or a positional file"),
-    };
-    let pick = |cli: Option<f64>, file: Option<f64>| {
-        cli.map(|v| (v, Origin::CommandLine))
-            .or(file.map(|v| (v, Origin::SettingsFile)))
-    };
-    let frequencies_hz = match &args.frequencies_hz {
-        Some(t) => {
-            Some(parse_frequencies(t).map_err(|e| anyhow::anyhow!("--frequencies-hz: {e}"))?)
-        }
-        None => match file.frequencies_hz {
-            Some(v) => {
-                if let Some(bad) = v.iter().find(|f| !(f.is_finite() && **f > 0.0)) {
-                    bail!("settings file: `frequencies_hz` holds {bad}, not a positive frequency");
-                }
-                Some(v)
+    })
+}
+
+/// The command line's choices, completed from the settings file.
+fn merge(cli: &GateOptions, file: &SettingsFile) -> anyhow::Result<Choices> {
+    let mut c = cli.choices()?;
+    let from_file = |v: Option<f64>| v.map(|v| (v, Origin::SettingsFile));
+    c.center_ns = c.center_ns.or(from_file(file.gate_center_ns));
+    c.span_ns = c.span_ns.or(from_file(file.gate_span_ns));
+    if c.band_window.is_none() {
+        c.band_window = window_option(&file.band_window, "settings file `band_window`")?;
+    }
+    if c.gate_shape.is_none() {
+        c.gate_shape = window_option(&file.gate_shape, "settings file `gate_shape`")?;
+    }
+    if c.frequencies_hz.is_none() {
+        if let Some(v) = &file.frequencies_hz {
+            if let Some(bad) = v.iter().find(|f| !(f.is_finite() && **f > 0.0)) {
+                bail!("settings file: `frequencies_hz` holds {bad}, not a positive frequency");
             }
-            None => None,
-        },
+            c.frequencies_hz = Some(v.clone());
+        }
+    }
+    Ok(c)
+}
+
+/// Merges the settings file (if any) and the command line.
+pub fn resolve(opts: &Options) -> anyhow::Result<Resolved> {
+    let file = match &opts.settings {
+        Some(p) => SettingsFile::read(p)?,
+        None => SettingsFile::default(),
     };
-    let window =
-        |cli: &Option<String>, file: &Option<String>, option: &str, default| match (cli, file) {
-            (Some(t), _) => parse_window(t).map_err(|e| anyhow::anyhow!("--{option}: {e}")),
-            (None, Some(t)) => parse_window(t)
-                .map_err(|e| anyhow::anyhow!("settings file `{}`: {e}", option.replace('-', "_"))),
-            (None, None) => Ok(default),
-        };
-    let band_window = window(
-        &args.band_window,
-        &file.band_window,
-        "band-window",
-        crate::pipeline::options::default_band_window(),
-    )?;
-    let gate_shape = window(
-        &args.gate_shape,
-        &file.gate_shape,
-        "gate-shape",
-        replay::GATE_SHAPE,
-    )?;
-    let parameter = match args.parameter.as_ref().or(file.parameter.as_ref()) {
+    let input = input_of(opts)?;
+    let choices = merge(&opts.gate, &file)?;
+    let parameter = match opts.parameter.as_ref().or(file.parameter.as_ref()) {
         Some(t) => Some(
             t.parse::<Parameter>()
-                .map_err(|e| anyhow::anyhow!("parameter `{t}`: {e}"))?,
+                .with_context(|| format!("parameter `{t}`"))?,
         ),
         None => None,
     };
-    let spacing = if args.resample || file.resample == Some(true) {
+    let spacing = if opts.resample || file.resample == Some(true) {
         Spacing::Resample
     } else {
         Spacing::RequireUniform
     };
-    let out = args
+    let out = opts
         .out
         .clone()
         .or(file.out)
-        .unwrap_or_else(|| replay::default_out(input.path()));
+        .unwrap_or_else(|| default_report_dir(input.path()));
     Ok(Resolved {
         input,
-        center_ns: pick(args.gate_center_ns, file.gate_center_ns),
-        span_ns: pick(args.gate_span_ns, file.gate_span_ns),
-        frequencies_hz,
-        band_window,
-        gate_shape,
+        choices,
         parameter,
         spacing,
         out,
-        gain: args.gain_table.clone().zip(args.reference.clone()),
+        gain: opts.gain_table.clone().zip(opts.reference.clone()),
     })
-}
-
-/// Index of the sweep with the largest Σ|S|² (the first, on ties; 0 when empty).
-pub fn strongest(sweeps: &[&[Complex32]]) -> usize {
-    let energy = |s: &[Complex32]| s.iter().map(|z| f64::from(z.norm_sqr())).sum::<f64>();
-    let mut best = (0usize, f64::NEG_INFINITY);
-    for (i, s) in sweeps.iter().enumerate() {
-        let e = energy(s);
-        if e > best.1 {
-            best = (i, e);
-        }
-    }
-    best.0
-}
-
-/// The gate from the strongest impulse-response peak of `sweep` (see the module notes):
-/// centre, span (s) and the rule in words.
-pub fn gate_from_peak(
-    grid: &Grid,
-    band_window: WindowKind,
-    sweep: &[Complex32],
-) -> anyhow::Result<(f64, f64, String)> {
-    match replay::fft_size_for(grid.points())? {
-        1024 => peak_gate::<1024>(grid, band_window, sweep),
-        2048 => peak_gate::<2048>(grid, band_window, sweep),
-        _ => peak_gate::<4096>(grid, band_window, sweep),
-    }
-}
-
-fn peak_gate<const M: usize>(
-    grid: &Grid,
-    band_window: WindowKind,
-    sweep: &[Complex32],
-) -> anyhow::Result<(f64, f64, String)>
-where
-    [Complex32; M]: Fft,
-{
-    let alias_free = grid.alias_free_s();
-    // Only the band window matters for the impulse response; the gate is a placeholder.
-    let provisional = GateConfig {
-        grid: *grid,
-        band_window,
-        center_s: 0.0,
-        span_s: 0.25 * alias_free,
-        shape: WindowKind::Rectangular,
-        renormalize: false,
-    };
-    let gate = Box::new(
-        Gate::<M>::new(&provisional).map_err(|e| anyhow::anyhow!("provisional gate: {e}"))?,
-    );
-    let mut buf = vec![Complex32::new(0.0, 0.0); M];
-    for (b, v) in buf.iter_mut().zip(sweep) {
-        *b = *v;
-    }
-    let raw: Box<[Complex32; M]> = buf
-        .into_boxed_slice()
-        .try_into()
-        .map_err(|_| anyhow::anyhow!("buffer size"))?;
-    let mut ir: Box<[Complex32; M]> = Box::new([Complex32::new(0.0, 0.0); M]);
-    gate.impulse_response(&raw, &mut ir);
-    let mut peak = (0usize, -1.0f32);
-    for (m, h) in ir.iter().enumerate() {
-        if h.norm() > peak.1 {
-            peak = (m, h.norm());
-        }
-    }
-    if peak.1 <= 0.0 {
-        bail!("no impulse-response peak to gate on (the sweep is all zero); give --gate-center-ns and --gate-span-ns");
-    }
-    let center_s = grid.time_s(M, peak.0);
-    let mainlobe_s = band_window.mainlobe_width() / (grid.points() as f64 * grid.step_hz());
-    let span_s = (4.0 * mainlobe_s)
-        .min(0.5 * alias_free)
-        .max(4.0 * grid.time_step_s(M));
-    Ok((
-        center_s,
-        span_s,
-        format!(
-            "strongest impulse-response peak: centre on the peak at {:.3} ns, span four band-window main lobes ({:.3} ns)",
-            center_s * 1e9,
-            span_s * 1e9
-        ),
-    ))
-}
-
-fn gate_source(r: &Resolved, automatic: &str) -> String {
-    let c = r.center_ns.map_or(automatic, |(_, o)| o.text());
-    let s = r.span_ns.map_or(automatic, |(_, o)| o.text());
-    if c == s {
-        c.to_string()
-    } else {
-        format!("{c} (centre) + {s} (span)")
-    }
 }
 
 /// A processed input, ready for the report.
@@ -469,86 +277,38 @@ pub struct Processed {
     /// The gate used.
     pub gate: GateConfig,
     /// `"command line"`, `"settings file"`, `"planner"` or `"strongest impulse-response peak"`
-    /// (two joined when centre and span came from different places).
+    /// (two joined when center and span came from different places).
     pub gate_source: String,
 }
 
-struct Discard;
-impl Sink for Discard {
-    fn send(&mut self, _bytes: &[u8]) {}
-}
-
-fn insert(settings: &mut Value, key: &str, v: Value) {
-    if let Some(o) = settings.as_object_mut() {
-        o.insert(key.into(), v);
-    }
-}
-
-/// Processes a recording through the replay engine.
+/// Processes a recording: streamed through the engine as `replay` does.
 pub fn process_recording(r: &Resolved, path: &Path) -> anyhow::Result<Processed> {
     let rec = record::recover_file(path).with_context(|| format!("reading {}", path.display()))?;
     let h = rec
         .header()
         .context("the recording has no intact header record")?;
-    let need_auto = r.center_ns.is_none() || r.span_ns.is_none();
-    let (automatic, fallback_gate) = if h.scenario.is_some() {
-        ("planner", None)
-    } else if need_auto {
-        let grid = Grid::new(h.grid.start_hz, h.grid.step_hz, h.grid.points)
-            .map_err(|e| anyhow::anyhow!("recording's grid: {e}"))?;
-        let sweeps: Vec<&[Complex32]> = rec
-            .records
-            .iter()
-            .filter_map(|(_, x)| match x {
-                Record::Sweep { s21, .. } if s21.len() == grid.points() => Some(&s21[..]),
-                _ => None,
-            })
-            .collect();
-        let Some(sw) = sweeps.get(strongest(&sweeps)) else {
-            bail!("the recording has no sweeps to find a gate in");
-        };
-        (
-            "strongest impulse-response peak",
-            Some(gate_from_peak(&grid, r.band_window, sw)?),
-        )
-    } else {
-        ("strongest impulse-response peak", None)
-    };
-    let opts = SetupOptions {
-        band_window: r.band_window,
-        gate_shape: r.gate_shape,
-        center_s: r
-            .center_ns
-            .map(|(c, o)| (c * 1e-9, o.by("gate-center-ns", "gate_center_ns"))),
-        span_s: r
-            .span_ns
-            .map(|(c, o)| (c * 1e-9, o.by("gate-span-ns", "gate_span_ns"))),
-        fallback_gate,
-        frequencies_hz: r.frequencies_hz.clone(),
-    };
-    let setup = replay::setup_with(h, &opts)?;
+    let setup = setup::for_recording(h, &r.choices, &stream::sweeps_of(&rec))?;
     let quit = AtomicBool::new(false);
-    let o = replay::replay_with_setup(&rec, setup, &mut Discard, None, &quit)?;
-    let mut report = o.report;
-    let src = gate_source(r, automatic);
-    insert(&mut report.settings, "input", json!("recording"));
-    insert(&mut report.settings, "gate_source", json!(src));
-    if let Some(f) = &r.frequencies_hz {
-        insert(
-            &mut report.settings,
-            "pattern_frequencies_requested_hz",
-            json!(f),
-        );
-    }
+    let o = stream::stream(&rec, setup, &mut Discard, &Pacing::default(), &quit)?;
     Ok(Processed {
-        report,
+        report: o.report,
         gate: o.setup.gate,
-        gate_source: src,
+        gate_source: o.setup.gate_source,
     })
 }
 
-fn wrap180(a: f64) -> f64 {
-    (a + 180.0).rem_euclid(360.0) - 180.0
+/// Whether manifest angles cover a full turn (their span plus the smallest step).
+fn covers_full_circle(angles_deg: &[f64]) -> bool {
+    let mut sorted = angles_deg.to_vec();
+    sorted.sort_by(f64::total_cmp);
+    let (Some(lo), Some(hi)) = (sorted.first(), sorted.last()) else {
+        return false;
+    };
+    let step = sorted
+        .windows(2)
+        .map(|w| w[1] - w[0])
+        .fold(f64::INFINITY, f64::min);
+    sorted.len() > 1 && hi - lo + step >= 360.0 - 1e-6
 }
 
 /// Processes a manifest: one bin per angle, each file's sweep gated on the FFT path.
@@ -558,176 +318,81 @@ pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> 
     if scan.sweeps.is_empty() {
         bail!("{}: no sweeps", path.display());
     }
-    let grid = scan.grid;
+    let sweeps: Vec<&[Complex32]> = scan.sweeps.iter().map(|s| &s.values[..]).collect();
+    let angles: Vec<f64> = scan.sweeps.iter().map(|s| s.angle_deg).collect();
+    let auto = Automatic::Peak {
+        sweeps: &sweeps,
+        angles_deg: Some(&angles),
+    };
+    let bw = setup::band_window(&r.choices, None)?;
+    let g = setup::gating(scan.grid, &r.choices, bw, &[], auto)?;
+    let (bins, impulse) = gate_each(&g.gate, &scan.sweeps, &g.indices)?;
+    let full_circle = covers_full_circle(&angles);
+    let mut settings = Settings::for_sweeps(&g, bins.len(), full_circle);
+    settings.parameter = Some(
+        r.parameter
+            .map_or("default (S21, or S11 for 1-port files)".to_string(), |p| {
+                p.to_string()
+            }),
+    );
     let mut warnings = scan.warnings.clone();
-    let requested = r.frequencies_hz.clone().unwrap_or_default();
-    let indices = replay::snap_frequencies(&grid, &requested, &mut warnings, true);
-    let need_auto = r.center_ns.is_none() || r.span_ns.is_none();
-    let (auto_c, auto_s, mut rule) = if need_auto {
-        let sweeps: Vec<&[Complex32]> = scan.sweeps.iter().map(|s| &s.values[..]).collect();
-        let i = strongest(&sweeps);
-        let (c, s, rule) = gate_from_peak(&grid, r.band_window, sweeps[i])?;
-        let at = scan.sweeps.get(i).map_or(0.0, |s| s.angle_deg);
-        (c, s, format!("{rule} (sweep at {at}°)"))
-    } else {
-        (0.0, 0.0, String::new())
-    };
-    let center_s = r.center_ns.map_or(auto_c, |(c, o)| {
-        rule.push_str(&format!(
-            "; centre set by {}",
-            o.by("gate-center-ns", "gate_center_ns")
-        ));
-        c * 1e-9
-    });
-    let span_s = r.span_ns.map_or(auto_s, |(c, o)| {
-        rule.push_str(&format!(
-            "; span set by {}",
-            o.by("gate-span-ns", "gate_span_ns")
-        ));
-        c * 1e-9
-    });
-    let gate = GateConfig {
-        grid,
-        band_window: r.band_window,
-        center_s,
-        span_s,
-        shape: r.gate_shape,
-        renormalize: true,
-    };
-    let fft_size = replay::fft_size_for(grid.points())?;
-    let (bins, impulse) = match fft_size {
-        1024 => gate_sweeps::<1024>(&gate, &scan.sweeps, &indices)?,
-        2048 => gate_sweeps::<2048>(&gate, &scan.sweeps, &indices)?,
-        _ => gate_sweeps::<4096>(&gate, &scan.sweeps, &indices)?,
-    };
-    let lo = scan
-        .sweeps
-        .iter()
-        .map(|s| s.angle_deg)
-        .fold(f64::INFINITY, f64::min);
-    let hi = scan
-        .sweeps
-        .iter()
-        .map(|s| s.angle_deg)
-        .fold(f64::NEG_INFINITY, f64::max);
-    let mut sorted: Vec<f64> = scan.sweeps.iter().map(|s| s.angle_deg).collect();
-    sorted.sort_by(f64::total_cmp);
-    let step = sorted
-        .windows(2)
-        .map(|w| w[1] - w[0])
-        .fold(f64::INFINITY, f64::min);
-    let full_circle = sorted.len() > 1 && hi - lo + step >= 360.0 - 1e-6;
-    let src = gate_source(r, "strongest impulse-response peak");
-    let frequencies_hz: Vec<f64> = indices.iter().map(|&i| grid.frequency_hz(i)).collect();
-    let mut settings = json!({
-        "input": "manifest",
-        "grid": {
-            "start_hz": grid.start_hz(),
-            "step_hz": grid.step_hz(),
-            "points": grid.points(),
-            "alias_free_ns": grid.alias_free_s() * 1e9,
-        },
-        "fft_size": fft_size,
-        "pattern_frequencies_hz": frequencies_hz,
-        "pattern_grid_indices": indices,
-        "bins": { "count": bins.len(), "one_per_manifest_angle": true, "full_circle": full_circle },
-        "mode": "step-and-stop",
-        "gate": {
-            "center_ns": center_s * 1e9,
-            "span_ns": span_s * 1e9,
-            "band_window": describe_window(&gate.band_window),
-            "shape": describe_window(&gate.shape),
-            "renormalized": true,
-            "rule": rule.trim_start_matches("; "),
-        },
-        "gate_source": src,
-        "parameter": r.parameter.map_or("default (S21, or S11 for 1-port files)".to_string(), |p| p.to_string()),
-        "truth": "none",
-    });
-    if let Some(f) = &r.frequencies_hz {
-        insert(&mut settings, "pattern_frequencies_requested_hz", json!(f));
-    }
+    warnings.extend(g.remarks.iter().cloned());
     let report = ReportInput {
         title: format!("manifest {}", m.name()),
         source: path.display().to_string(),
-        frequencies_hz,
+        frequencies_hz: g.frequencies_hz.clone(),
         full_circle,
         bins,
-        settings,
-        counters: json!({ "files": scan.sweeps.len(), "sweeps_binned": scan.sweeps.len() }),
+        settings: settings.to_json(),
+        counters: serde_json::json!({ "files": scan.sweeps.len(), "sweeps_binned": scan.sweeps.len() }),
         warnings,
         impulse,
         gain: None,
     };
     Ok(Processed {
         report,
-        gate,
-        gate_source: src,
+        gate: g.gate,
+        gate_source: g.gate_source,
     })
 }
 
-type Gated = (Vec<ReportBin>, Option<ImpulseView>);
-
-fn gate_sweeps<const M: usize>(
-    cfg: &GateConfig,
-    sweeps: &[crate::formats::manifest::AngleSweep],
+/// One bin per sweep, gated on the FFT path, and the impulse view of the sweep nearest 0°.
+fn gate_each(
+    gate: &GateConfig,
+    sweeps: &[AngleSweep],
     indices: &[usize],
-) -> anyhow::Result<Gated>
-where
-    [Complex32; M]: Fft,
-{
-    let gate = Box::new(Gate::<M>::new(cfg).map_err(|e| anyhow::anyhow!("gate: {e}"))?);
-    let zero = Complex32::new(0.0, 0.0);
-    let mut raw: Box<[Complex32; M]> = Box::new([zero; M]);
-    let mut out: Box<[Complex32; M]> = Box::new([zero; M]);
-    let mut bins = Vec::with_capacity(sweeps.len());
-    for s in sweeps {
-        raw.fill(zero);
-        for (b, v) in raw.iter_mut().zip(&s.values) {
-            *b = *v;
-        }
-        let echo_db = gate.apply(&raw, &mut out);
-        let values = indices
-            .iter()
-            .map(|&i| ReportValue {
-                raw: c64(raw.get(i).copied().unwrap_or_default()),
-                gated: c64(out.get(i).copied().unwrap_or_default()),
-                truth: None,
-            })
-            .collect();
-        bins.push(ReportBin {
+) -> anyhow::Result<(Vec<ReportBin>, Option<ImpulseView>)> {
+    let values: Vec<&[Complex32]> = sweeps.iter().map(|s| &s.values[..]).collect();
+    let near = sweeps
+        .iter()
+        .enumerate()
+        .min_by(|(_, a), (_, b)| {
+            wrap_deg(a.angle_deg)
+                .abs()
+                .total_cmp(&wrap_deg(b.angle_deg).abs())
+        })
+        .map(|(i, s)| (i, s.angle_deg));
+    let g = gate_sweeps(gate, &values, near)?;
+    let bins = sweeps
+        .iter()
+        .zip(g.spectra.iter().zip(&g.echo_db))
+        .map(|(s, (gated, echo_db))| ReportBin {
             angle_deg: s.angle_deg,
             mean_deg: s.angle_deg,
             sweeps: 1,
             flags: 0,
-            echo_db: Some(f64::from(echo_db)),
-            values,
-        });
-    }
-    // Impulse response of the sweep nearest 0°.
-    let near = sweeps.iter().min_by(|a, b| {
-        wrap180(a.angle_deg)
-            .abs()
-            .total_cmp(&wrap180(b.angle_deg).abs())
-    });
-    let impulse = near.map(|s| {
-        raw.fill(zero);
-        for (b, v) in raw.iter_mut().zip(&s.values) {
-            *b = *v;
-        }
-        gate.impulse_response(&raw, &mut out);
-        let grid = &cfg.grid;
-        ImpulseView {
-            angle_deg: s.angle_deg,
-            sweeps: 1,
-            time_ns: (0..M).map(|m| grid.time_s(M, m) * 1e9).collect(),
-            magnitude: out.iter().map(|z| f64::from(z.norm())).collect(),
-            gate: gate.gate_window().iter().map(|&x| f64::from(x)).collect(),
-            gate_start_ns: (cfg.center_s - 0.5 * cfg.span_s) * 1e9,
-            gate_stop_ns: (cfg.center_s + 0.5 * cfg.span_s) * 1e9,
-        }
-    });
-    Ok((bins, impulse))
+            echo_db: Some(f64::from(*echo_db)),
+            values: indices
+                .iter()
+                .map(|&i| ReportValue {
+                    raw: c64(s.values.get(i).copied().unwrap_or_default()),
+                    gated: c64(gated.get(i).copied().unwrap_or_default()),
+                    truth: None,
+                })
+                .collect(),
+        })
+        .collect();
+    Ok((bins, g.impulse))
 }
 
 /// Processes the resolved input and writes the report folder.
@@ -752,16 +417,12 @@ fn gain_reference(
     table: &Path,
     reference: &Path,
 ) -> anyhow::Result<report::GainReference> {
-    let gains =
-        crate::formats::gain_table::GainTable::load(table).map_err(|e| anyhow::anyhow!("{e}"))?;
-    let ts = crate::formats::touchstone::Touchstone::read(reference)
-        .map_err(|e| anyhow::anyhow!("{e}"))?;
+    let gains = GainTable::load(table)?;
+    let ts = Touchstone::read(reference)?;
     let parameter = r
         .parameter
-        .unwrap_or_else(|| crate::formats::touchstone::Parameter::default_for(ts.ports()));
-    let sweep = ts
-        .to_sweep(parameter, r.spacing)
-        .map_err(|e| anyhow::anyhow!("{e}"))?;
+        .unwrap_or_else(|| Parameter::default_for(ts.ports()));
+    let sweep = ts.to_sweep(parameter, r.spacing)?;
     let g = p.gate.grid;
     let same = sweep.grid.points() == g.points()
         && (sweep.grid.start_hz() - g.start_hz()).abs() <= 1e-6 * g.step_hz()
@@ -784,22 +445,18 @@ fn gain_reference(
         .iter()
         .map(|f| g.nearest_index(*f).unwrap_or(0))
         .collect();
-    let one = [crate::formats::manifest::AngleSweep {
+    let one = [AngleSweep {
         angle_deg: 0.0,
         values: sweep.values,
         file: reference.to_path_buf(),
     }];
-    let (bins, _) = match replay::fft_size_for(g.points())? {
-        1024 => gate_sweeps::<1024>(&p.gate, &one, &indices)?,
-        2048 => gate_sweeps::<2048>(&p.gate, &one, &indices)?,
-        _ => gate_sweeps::<4096>(&p.gate, &one, &indices)?,
-    };
+    let (bins, _) = gate_each(&p.gate, &one, &indices)?;
     let values = &bins.first().context("gating the reference")?.values;
     let mut per_frequency = Vec::new();
     for (f, v) in p.report.frequencies_hz.iter().zip(values) {
         let g_ref = gains
             .gain_dbi(*f)
-            .map_err(|e| anyhow::anyhow!("{}: at {f} Hz: {e}", table.display()))?;
+            .with_context(|| format!("{}: at {f} Hz", table.display()))?;
         per_frequency.push((g_ref, crate::units::db(v.gated)));
     }
     Ok(report::GainReference {
@@ -809,10 +466,10 @@ fn gain_reference(
     })
 }
 
-/// Runs the command.
-pub fn run(args: Args) -> anyhow::Result<()> {
-    let r = resolve(&args)?;
-    // The scan engine is large: run on a thread with room for it, as replay does.
+/// Runs the command: resolves the options, processes (on a thread with room for the
+/// engine) and says what was written.
+pub fn run(opts: &Options) -> anyhow::Result<()> {
+    let r = resolve(opts)?;
     let r2 = r.clone();
     let p = std::thread::Builder::new()
         .name("process".into())
@@ -825,7 +482,7 @@ pub fn run(args: Args) -> anyhow::Result<()> {
         eprintln!("warning: {w}");
     }
     eprintln!(
-        "{} bins; gate centre {:.3} ns, span {:.3} ns ({}); report written to {}",
+        "{} bins; gate center {:.3} ns, span {:.3} ns ({}); report written to {}",
         p.report.bins.len(),
         p.gate.center_s * 1e9,
         p.gate.span_s * 1e9,

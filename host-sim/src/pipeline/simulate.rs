@@ -8,9 +8,11 @@
 //! records ending at byte `offset`, which survive the process being killed.
 //!
 //! The recording holds, in order: the header (scenario, grid, sweep format), the
-//! free-space truth at every bin centre (step angle in step-and-stop) and each pattern frequency, then the
-//! positioner samples and sweeps interleaved by time (a sweep is written at its end
-//! time, after every sample stamped up to then), and an end record.
+//! free-space truth at each pattern frequency and bin center that a recording of the
+//! scenario is set up with ([`crate::pipeline::setup::truth_points`]: the bin centers of a
+//! continuous scan, the step angles of a step-and-stop one), then the positioner samples
+//! and sweeps interleaved by time (a sweep is written at its end time, after every sample
+//! stamped up to then), and an end record.
 
 use std::path::{Path, PathBuf};
 
@@ -21,21 +23,18 @@ use crate::formats::recording::{GridInfo, Header, Record, SyncPolicy, Writer, SW
 use crate::model::room;
 use crate::model::scenario::Scenario;
 use crate::model::simulator::Simulator;
+use crate::pipeline::setup;
 
 /// Options of `sweepgate simulate`.
-#[derive(clap::Args, Debug)]
-pub struct Args {
+#[derive(Debug, Clone)]
+pub struct Options {
     /// Scenario file (TOML).
-    #[arg(long)]
     pub scenario: PathBuf,
     /// Recording to write.
-    #[arg(long)]
     pub out: PathBuf,
     /// Seed of the noise and jitter (default: the scenario's `simulation.seed`).
-    #[arg(long)]
     pub seed: Option<u64>,
     /// Print `written <offset> <records>` on standard output after each flushed record.
-    #[arg(long)]
     pub progress_lines: bool,
 }
 
@@ -53,7 +52,7 @@ pub struct Summary {
 }
 
 /// Runs the command.
-pub fn run(args: Args) -> anyhow::Result<()> {
+pub fn run(args: &Options) -> anyhow::Result<()> {
     let text = std::fs::read_to_string(&args.scenario)
         .with_context(|| format!("reading scenario {}", args.scenario.display()))?;
     let scenario = Scenario::from_toml(&text)
@@ -132,8 +131,6 @@ fn simulate_into<W: std::io::Write>(
 ) -> anyhow::Result<(W, Summary)> {
     scenario.validate()?;
     let grid = scenario.grid()?;
-    let mut sim = Simulator::new(scenario, seed);
-    let freqs = scenario.pattern_frequencies_hz();
     let header = Header {
         software: format!("sweepgate {}", env!("CARGO_PKG_VERSION")),
         source: "simulate".into(),
@@ -146,66 +143,13 @@ fn simulate_into<W: std::io::Write>(
             points: grid.points(),
         },
         sweep_format: SWEEP_FORMAT.into(),
-        pattern_frequencies_hz: freqs.clone(),
+        pattern_frequencies_hz: scenario.pattern_frequencies_hz(),
         bin_width_deg: Some(scenario.bin_width_deg()),
         counts_per_turn: Some(scenario.positioner.counts_per_turn),
     };
     w.write(&Record::Header(Box::new(header)))?;
-
-    let angles = scenario.bin_centres_deg();
-    for (a, row) in angles.iter().zip(room::truth(scenario, &freqs, &angles)) {
-        let values = freqs
-            .iter()
-            .zip(row)
-            .map(|(f, v)| (*f, Complex32::new(v.re as f32, v.im as f32)))
-            .collect();
-        w.write(&Record::Truth {
-            angle_deg: *a,
-            values,
-        })?;
-    }
-
-    let samples = sim.samples();
-    let n_sweeps = sim.timeline().sweep_starts_s().len();
-    let bar = if progress {
-        let b = indicatif::ProgressBar::new(n_sweeps as u64);
-        b.set_style(
-            indicatif::ProgressStyle::with_template(
-                "simulating {bar:40} {pos}/{len} sweeps, {eta} left",
-            )
-            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
-        );
-        b
-    } else {
-        indicatif::ProgressBar::hidden()
-    };
-    let mut next_sample = 0;
-    for i in 0..n_sweeps {
-        let Some(sw) = sim.sweep(i) else { break };
-        while let Some(s) = samples.get(next_sample).filter(|s| s.t_us <= sw.end_us) {
-            w.write(&Record::Position {
-                t_us: s.t_us,
-                counts: s.counts,
-                angle_deg: s.angle_deg,
-            })?;
-            next_sample += 1;
-        }
-        w.write(&Record::Sweep {
-            index: sw.index,
-            start_us: sw.start_us,
-            end_us: sw.end_us,
-            s21: sw.s21,
-        })?;
-        bar.inc(1);
-    }
-    for s in samples.get(next_sample..).unwrap_or(&[]) {
-        w.write(&Record::Position {
-            t_us: s.t_us,
-            counts: s.counts,
-            angle_deg: s.angle_deg,
-        })?;
-    }
-    bar.finish_and_clear();
+    write_truth(scenario, &mut w)?;
+    write_scan(scenario, seed, &mut w, progress)?;
     let (sweeps, positions, truths) = w.counts();
     let (out, bytes) = w.finish()?;
     Ok((
@@ -217,4 +161,75 @@ fn simulate_into<W: std::io::Write>(
             bytes,
         },
     ))
+}
+
+/// The free-space truth at the bins and pattern frequencies the set-up gives a recording of
+/// this scenario ([`setup::truth_points`]).
+fn write_truth<W: std::io::Write>(scenario: &Scenario, w: &mut Writer<W>) -> anyhow::Result<()> {
+    let (freqs, angles) = setup::truth_points(scenario)?;
+    for (a, row) in angles.iter().zip(room::truth(scenario, &freqs, &angles)) {
+        let values = freqs
+            .iter()
+            .zip(row)
+            .map(|(f, v)| (*f, Complex32::new(v.re as f32, v.im as f32)))
+            .collect();
+        w.write(&Record::Truth {
+            angle_deg: *a,
+            values,
+        })?;
+    }
+    Ok(())
+}
+
+/// Positioner samples and sweeps interleaved by time (a sweep after every sample stamped up
+/// to its end), with a progress bar when asked.
+fn write_scan<W: std::io::Write>(
+    scenario: &Scenario,
+    seed: u64,
+    w: &mut Writer<W>,
+    progress: bool,
+) -> anyhow::Result<()> {
+    let mut sim = Simulator::new(scenario, seed);
+    let samples = sim.samples();
+    let n_sweeps = sim.timeline().sweep_starts_s().len();
+    let bar = progress_bar(progress, n_sweeps as u64);
+    let mut next_sample = 0;
+    let position = |s: &crate::model::simulator::Sample| Record::Position {
+        t_us: s.t_us,
+        counts: s.counts,
+        angle_deg: s.angle_deg,
+    };
+    for i in 0..n_sweeps {
+        let Some(sw) = sim.sweep(i) else { break };
+        while let Some(s) = samples.get(next_sample).filter(|s| s.t_us <= sw.end_us) {
+            w.write(&position(s))?;
+            next_sample += 1;
+        }
+        w.write(&Record::Sweep {
+            index: sw.index,
+            start_us: sw.start_us,
+            end_us: sw.end_us,
+            s21: sw.s21,
+        })?;
+        bar.inc(1);
+    }
+    for s in samples.get(next_sample..).unwrap_or(&[]) {
+        w.write(&position(s))?;
+    }
+    bar.finish_and_clear();
+    Ok(())
+}
+
+fn progress_bar(shown: bool, sweeps: u64) -> indicatif::ProgressBar {
+    if !shown {
+        return indicatif::ProgressBar::hidden();
+    }
+    let b = indicatif::ProgressBar::new(sweeps);
+    b.set_style(
+        indicatif::ProgressStyle::with_template(
+            "simulating {bar:40} {pos}/{len} sweeps, {eta} left",
+        )
+        .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+    );
+    b
 }

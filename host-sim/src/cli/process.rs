@@ -1,0 +1,58 @@
+//! `sweepgate process`: its arguments and the call (see [`crate::pipeline::process`]).
+
+use std::path::PathBuf;
+
+use crate::cli::gate::GateArgs;
+use crate::pipeline::process::{self, Options};
+
+/// Options of `sweepgate process`.
+#[derive(clap::Args, Debug, Clone, Default)]
+pub struct Args {
+    /// Manifest or recording (kind detected from the content).
+    #[arg(conflicts_with_all = ["manifest", "recording"])]
+    pub input: Option<PathBuf>,
+    /// Manifest CSV (`angle_deg,file`) of per-angle Touchstone files.
+    #[arg(long, conflicts_with = "recording")]
+    pub manifest: Option<PathBuf>,
+    /// Recording written by `simulate` or `acquire`.
+    #[arg(long)]
+    pub recording: Option<PathBuf>,
+    /// Gate and pattern options.
+    #[command(flatten)]
+    pub gate: GateArgs,
+    /// Touchstone parameter of the pattern signal (default: S21, or S11 for 1-port files).
+    #[arg(long)]
+    pub parameter: Option<String>,
+    /// Resample Touchstone files whose frequencies are not uniformly spaced.
+    #[arg(long)]
+    pub resample: bool,
+    /// Report folder (default: `<input stem>-report/` next to the input).
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+    /// TOML settings file with the same settings (command-line options override it).
+    #[arg(long)]
+    pub settings: Option<PathBuf>,
+    /// Gain by substitution: the reference antenna's gain table (CSV `frequency_hz,gain_dbi`).
+    #[arg(long, requires = "reference")]
+    pub gain_table: Option<PathBuf>,
+    /// Gain by substitution: a Touchstone file of the reference antenna measured at
+    /// boresight in the same set-up; it is gated like the scan.
+    #[arg(long, requires = "gain_table")]
+    pub reference: Option<PathBuf>,
+}
+
+/// Runs the command.
+pub fn run(a: Args) -> anyhow::Result<()> {
+    process::run(&Options {
+        input: a.input,
+        manifest: a.manifest,
+        recording: a.recording,
+        gate: a.gate.into(),
+        parameter: a.parameter,
+        resample: a.resample,
+        out: a.out,
+        settings: a.settings,
+        gain_table: a.gain_table,
+        reference: a.reference,
+    })
+}

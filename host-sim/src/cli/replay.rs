@@ -1,0 +1,59 @@
+//! `sweepgate replay`: its arguments and the call (see [`crate::pipeline::replay`]).
+
+use std::path::PathBuf;
+
+use crate::cli::gate::GateArgs;
+use crate::pipeline::replay::{self, Options};
+
+/// Options of `sweepgate replay`.
+#[derive(clap::Args, Debug, Clone)]
+pub struct Args {
+    /// Recording to replay.
+    pub rec: PathBuf,
+    /// Pace: record time divided by this (2 = twice as fast as recorded).
+    #[arg(long, default_value_t = 1.0, conflicts_with = "as_fast_as_possible")]
+    pub speed: f64,
+    /// Do not wait between records.
+    #[arg(long)]
+    pub as_fast_as_possible: bool,
+    /// Report folder (default: `<recording stem>-report/` next to the recording).
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+    /// No full-screen preview: a progress line on stderr and a summary.
+    #[arg(long)]
+    pub no_preview: bool,
+    /// Gate and pattern options.
+    #[command(flatten)]
+    pub gate: GateArgs,
+    /// Also serve the preview byte stream on 127.0.0.1:PORT.
+    #[arg(long)]
+    pub serve: Option<u16>,
+    /// Also write the records as they are replayed to this recording (crash-safe, with the
+    /// same flush and sync policy as `simulate`): a clean copy of what was recovered.
+    #[arg(long)]
+    pub record: Option<PathBuf>,
+    /// With `--record`: print `written <offset> <records>` after each record reaches the file.
+    #[arg(long, requires = "record")]
+    pub progress_lines: bool,
+}
+
+/// Runs the command.
+pub fn run(a: Args) -> anyhow::Result<()> {
+    let (o, dir) = replay::replay_file(&Options {
+        rec: a.rec,
+        speed: a.speed,
+        as_fast_as_possible: a.as_fast_as_possible,
+        out: a.out,
+        no_preview: a.no_preview,
+        gate: a.gate.into(),
+        serve: a.serve,
+        record: a.record,
+        progress_lines: a.progress_lines,
+    })?;
+    eprintln!(
+        "{} bins closed; report written to {}",
+        o.counters.bins_closed,
+        dir.display()
+    );
+    Ok(())
+}

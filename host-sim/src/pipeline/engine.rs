@@ -1,0 +1,489 @@
+//! The scan engine on the host, at any of its FFT sizes.
+//!
+//! - [`FftSize`] and [`FftJob`]: the one dispatch from a run-time FFT size to the core's
+//!   const-generic code. Every host caller of a `Gate<M>` or `Scan<M, F, B>` goes through
+//!   [`FftSize::run`].
+//! - [`Engine`]: the core's [`Scan`] built from a [`Setup`], fed in the order a board sees
+//!   its inputs: angle samples at once, and each sweep held until the positioner has
+//!   reported at or past the sweep's end, so that the sweep's angle is interpolated rather
+//!   than extrapolated. `replay`, `process` and the live engine of `acquire` all feed the
+//!   same records through it, so they close the same bins with the same values. It keeps
+//!   the closed bins for the report, counts warnings by their wording
+//!   ([`warning_text`]), and sums the raw sweeps of the bin at 0° for the impulse view.
+//! - [`impulse_view`]: the impulse response of a sweep with the gate drawn on it, for the
+//!   report's plot.
+
+use std::collections::{BTreeMap, VecDeque};
+
+use anyhow::Context;
+use num_complex::Complex64;
+use sweepgate::bins::BinLayout;
+use sweepgate::fft::Fft;
+use sweepgate::gate::{Gate, GateConfig};
+use sweepgate::scan::{BinResult, Event, Events, Scan, ScanCounters, Warning};
+use sweepgate::wire::preview::StatusRecord;
+use sweepgate::Complex32;
+
+use crate::limits::{FFT_SIZES, MAX_BINS, MAX_FREQUENCIES};
+use crate::output::report::{ImpulseView, ReportBin, ReportValue};
+use crate::pipeline::setup::Setup;
+
+/// An FFT size the host engine is built for ([`FFT_SIZES`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+pub enum FftSize {
+    /// 1024 points.
+    N1024,
+    /// 2048 points.
+    N2048,
+    /// 4096 points.
+    N4096,
+}
+
+/// Work that needs the FFT size as a constant: [`FftSize::run`] calls [`FftJob::run`] with
+/// it.
+pub trait FftJob {
+    /// What the work gives.
+    type Output;
+    /// Does the work at FFT size `M`.
+    fn run<const M: usize>(self) -> Self::Output
+    where
+        [Complex32; M]: Fft;
+}
+
+impl FftSize {
+    /// Every size, smallest first.
+    pub const ALL: [FftSize; 3] = [FftSize::N1024, FftSize::N2048, FftSize::N4096];
+
+    /// The smallest size that holds `points` samples.
+    pub fn for_points(points: usize) -> anyhow::Result<Self> {
+        Self::ALL
+            .into_iter()
+            .find(|s| points <= s.points())
+            .with_context(|| {
+                format!(
+                    "{points} points per sweep: more than the largest FFT ({})",
+                    FFT_SIZES[FFT_SIZES.len() - 1]
+                )
+            })
+    }
+
+    /// Points of the transform.
+    pub fn points(self) -> usize {
+        match self {
+            FftSize::N1024 => FFT_SIZES[0],
+            FftSize::N2048 => FFT_SIZES[1],
+            FftSize::N4096 => FFT_SIZES[2],
+        }
+    }
+
+    /// Runs `job` at this size.
+    pub fn run<J: FftJob>(self, job: J) -> J::Output {
+        match self {
+            FftSize::N1024 => job.run::<{ FFT_SIZES[0] }>(),
+            FftSize::N2048 => job.run::<{ FFT_SIZES[1] }>(),
+            FftSize::N4096 => job.run::<{ FFT_SIZES[2] }>(),
+        }
+    }
+}
+
+/// Widens a single-precision value.
+pub fn c64(z: Complex32) -> Complex64 {
+    Complex64::new(f64::from(z.re), f64::from(z.im))
+}
+
+/// A closed bin as a report bin (truth not yet known).
+pub fn report_bin<const F: usize>(r: &BinResult<F>, frequencies: usize) -> ReportBin {
+    let values = (0..frequencies.min(F))
+        .map(|j| ReportValue {
+            raw: c64(r.raw[j]),
+            gated: c64(r.gated[j]),
+            truth: None,
+        })
+        .collect();
+    ReportBin {
+        angle_deg: f64::from(r.nominal_deg),
+        mean_deg: f64::from(r.mean_deg),
+        sweeps: r.sweeps,
+        flags: r.flags.0,
+        echo_db: r.echo_db.map(f64::from),
+        values,
+    }
+}
+
+/// An engine warning in words, as every command prints and writes it.
+pub fn warning_text(w: &Warning) -> String {
+    match w {
+        Warning::SweepRejected(r) => format!("sweep refused: {r}"),
+        Warning::AngleRejected(r) => format!("angle sample refused: {r}"),
+        Warning::TakenWhileMoving => "sweep taken while moving".into(),
+        Warning::Extrapolated => "sweep angle extrapolated".into(),
+        Warning::TrackerResynced => "tracker resynchronised".into(),
+        Warning::Stalled => "positioner stalled".into(),
+    }
+}
+
+/// The impulse response of `sweep` (zero-padded to M) through the gate's band window, with
+/// the gate window and its edges, for the report's plot.
+pub fn impulse_view<const M: usize>(
+    gate: &Gate<M>,
+    sweep: &[Complex32],
+    angle_deg: f64,
+    sweeps: u32,
+) -> ImpulseView
+where
+    [Complex32; M]: Fft,
+{
+    let zero = Complex32::new(0.0, 0.0);
+    let mut raw: Box<[Complex32; M]> = Box::new([zero; M]);
+    for (b, v) in raw.iter_mut().zip(sweep) {
+        *b = *v;
+    }
+    let mut ir: Box<[Complex32; M]> = Box::new([zero; M]);
+    gate.impulse_response(&raw, &mut ir);
+    let cfg = gate.config();
+    ImpulseView {
+        angle_deg,
+        sweeps,
+        time_ns: (0..M).map(|m| cfg.grid.time_s(M, m) * 1e9).collect(),
+        magnitude: ir.iter().map(|z| f64::from(z.norm())).collect(),
+        gate: gate.gate_window().iter().map(|&x| f64::from(x)).collect(),
+        gate_start_ns: (cfg.center_s - 0.5 * cfg.span_s) * 1e9,
+        gate_stop_ns: (cfg.center_s + 0.5 * cfg.span_s) * 1e9,
+    }
+}
+
+/// Sweeps gated one by one on the FFT path (window, inverse FFT, time gate, FFT,
+/// renormalization), as the engine gates a bin holding one sweep.
+#[derive(Debug, Clone)]
+pub struct GatedSweeps {
+    /// Each sweep's gated spectrum at its K grid points.
+    pub spectra: Vec<Vec<Complex32>>,
+    /// Each sweep's echo level (energy outside the gate), dB.
+    pub echo_db: Vec<f32>,
+    /// The impulse view of the sweep asked for.
+    pub impulse: Option<ImpulseView>,
+}
+
+/// Gates `sweeps` with `cfg` at the FFT size of its grid; with `impulse_of` = (index,
+/// angle), also the impulse view of that sweep.
+pub fn gate_sweeps(
+    cfg: &GateConfig,
+    sweeps: &[&[Complex32]],
+    impulse_of: Option<(usize, f64)>,
+) -> anyhow::Result<GatedSweeps> {
+    FftSize::for_points(cfg.grid.points())?.run(GateEach {
+        cfg,
+        sweeps,
+        impulse_of,
+    })
+}
+
+struct GateEach<'a> {
+    cfg: &'a GateConfig,
+    sweeps: &'a [&'a [Complex32]],
+    impulse_of: Option<(usize, f64)>,
+}
+
+impl FftJob for GateEach<'_> {
+    type Output = anyhow::Result<GatedSweeps>;
+    fn run<const M: usize>(self) -> Self::Output
+    where
+        [Complex32; M]: Fft,
+    {
+        let gate = Box::new(Gate::<M>::new(self.cfg).context("gate")?);
+        let zero = Complex32::new(0.0, 0.0);
+        let mut raw: Box<[Complex32; M]> = Box::new([zero; M]);
+        let mut out: Box<[Complex32; M]> = Box::new([zero; M]);
+        let k = self.cfg.grid.points().min(M);
+        let mut g = GatedSweeps {
+            spectra: Vec::with_capacity(self.sweeps.len()),
+            echo_db: Vec::with_capacity(self.sweeps.len()),
+            impulse: None,
+        };
+        for s in self.sweeps {
+            raw.fill(zero);
+            for (b, v) in raw.iter_mut().zip(s.iter()) {
+                *b = *v;
+            }
+            g.echo_db.push(gate.apply(&raw, &mut out));
+            g.spectra.push(out[..k].to_vec());
+        }
+        if let Some((i, angle_deg)) = self.impulse_of {
+            if let Some(s) = self.sweeps.get(i) {
+                g.impulse = Some(impulse_view(&gate, s, angle_deg, 1));
+            }
+        }
+        Ok(g)
+    }
+}
+
+/// The engine the host runs.
+type HostScan<const M: usize> = Scan<M, MAX_FREQUENCIES, MAX_BINS>;
+
+/// The scan engine with its FFT size out of the type.
+trait AnyScan {
+    fn push_angle(&mut self, t_us: u64, angle_deg: f32) -> Events<MAX_FREQUENCIES>;
+    fn push_sweep(
+        &mut self,
+        start_us: u64,
+        end_us: u64,
+        s21: &[Complex32],
+    ) -> Events<MAX_FREQUENCIES>;
+    fn finish(&mut self) -> Events<MAX_FREQUENCIES>;
+    fn status(&self) -> StatusRecord;
+    fn counters(&self) -> ScanCounters;
+    fn angle_at(&self, t_us: u64) -> Option<f32>;
+    fn impulse(&self, sweep: &[Complex32], angle_deg: f64, sweeps: u32) -> ImpulseView;
+}
+
+impl<const M: usize> AnyScan for HostScan<M>
+where
+    [Complex32; M]: Fft,
+{
+    fn push_angle(&mut self, t_us: u64, angle_deg: f32) -> Events<MAX_FREQUENCIES> {
+        Scan::push_angle(self, t_us, angle_deg)
+    }
+    fn push_sweep(
+        &mut self,
+        start_us: u64,
+        end_us: u64,
+        s21: &[Complex32],
+    ) -> Events<MAX_FREQUENCIES> {
+        Scan::push_sweep(self, start_us, end_us, s21)
+    }
+    fn finish(&mut self) -> Events<MAX_FREQUENCIES> {
+        Scan::finish(self)
+    }
+    fn status(&self) -> StatusRecord {
+        Scan::status(self)
+    }
+    fn counters(&self) -> ScanCounters {
+        Scan::counters(self)
+    }
+    fn angle_at(&self, t_us: u64) -> Option<f32> {
+        self.tracker().angle_at(t_us).ok().map(|a| a.angle_deg)
+    }
+    fn impulse(&self, sweep: &[Complex32], angle_deg: f64, sweeps: u32) -> ImpulseView {
+        impulse_view(self.gate(), sweep, angle_deg, sweeps)
+    }
+}
+
+/// Builds the engine of a set-up at its FFT size.
+struct Build<'a>(&'a Setup);
+
+impl FftJob for Build<'_> {
+    type Output = anyhow::Result<Box<dyn AnyScan>>;
+    fn run<const M: usize>(self) -> Self::Output
+    where
+        [Complex32; M]: Fft,
+    {
+        let s = self.0;
+        let first = s.indices.first().copied().unwrap_or(0);
+        let mut idx = [first; MAX_FREQUENCIES];
+        for (slot, &i) in idx.iter_mut().zip(&s.indices) {
+            *slot = i;
+        }
+        let scan = HostScan::<M>::new(&s.gate, idx, s.scan_config()).context("scan engine")?;
+        Ok(Box::new(scan))
+    }
+}
+
+/// A sweep waiting for the positioner to pass its end.
+struct Waiting {
+    start_us: u64,
+    end_us: u64,
+    s21: Vec<Complex32>,
+}
+
+/// The raw sweeps of the bin at 0°, summed until that bin closes.
+struct Boresight {
+    bin: Option<u16>,
+    sum: Vec<Complex32>,
+    sweeps: u32,
+    done: bool,
+}
+
+/// The core's scan engine at the set-up's FFT size, fed as a board feeds it (see the module
+/// notes), keeping the closed bins and the warnings.
+pub struct Engine {
+    scan: Box<dyn AnyScan>,
+    layout: BinLayout,
+    frequencies: usize,
+    points: usize,
+    waiting: VecDeque<Waiting>,
+    bins: BTreeMap<u16, ReportBin>,
+    warnings: BTreeMap<String, u32>,
+    boresight: Boresight,
+}
+
+impl Engine {
+    /// Builds the engine of `setup` (gate, pattern frequencies, bins, scan mode).
+    pub fn new(setup: &Setup) -> anyhow::Result<Self> {
+        let scan = setup.fft_size.run(Build(setup))?;
+        let points = setup.grid.points();
+        Ok(Self {
+            scan,
+            layout: setup.layout,
+            frequencies: setup.indices.len().min(MAX_FREQUENCIES),
+            points,
+            waiting: VecDeque::new(),
+            bins: BTreeMap::new(),
+            warnings: BTreeMap::new(),
+            boresight: Boresight {
+                bin: setup.layout.index_of(0.0),
+                sum: vec![Complex32::new(0.0, 0.0); points],
+                sweeps: 0,
+                done: false,
+            },
+        })
+    }
+
+    /// An angle sample: pushed at once, then every waiting sweep that ended by `t_us`.
+    /// Returns the engine's events in order.
+    pub fn angle(&mut self, t_us: u64, angle_deg: f64) -> Vec<Event<MAX_FREQUENCIES>> {
+        let mut out = Vec::new();
+        let ev = self.scan.push_angle(t_us, angle_deg as f32);
+        self.take(ev, &mut out);
+        while self.waiting.front().is_some_and(|w| w.end_us <= t_us) {
+            if let Some(w) = self.waiting.pop_front() {
+                self.push_now(&w, &mut out);
+            }
+        }
+        out
+    }
+
+    /// A sweep: held until an angle sample at or after its end arrives (or the end).
+    pub fn sweep(&mut self, start_us: u64, end_us: u64, s21: &[Complex32]) {
+        self.waiting.push_back(Waiting {
+            start_us,
+            end_us,
+            s21: s21.to_vec(),
+        });
+    }
+
+    /// Ends the scan: the waiting sweeps go in first (unless `drop_waiting`, for a scan
+    /// stopped by the user), then the open bin closes.
+    pub fn finish(&mut self, drop_waiting: bool) -> Vec<Event<MAX_FREQUENCIES>> {
+        let mut out = Vec::new();
+        if drop_waiting {
+            self.waiting.clear();
+        }
+        while let Some(w) = self.waiting.pop_front() {
+            self.push_now(&w, &mut out);
+        }
+        let ev = self.scan.finish();
+        self.take(ev, &mut out);
+        out
+    }
+
+    /// The engine's status record.
+    pub fn status(&self) -> StatusRecord {
+        self.scan.status()
+    }
+
+    /// The engine's counters.
+    pub fn counters(&self) -> ScanCounters {
+        self.scan.counters()
+    }
+
+    /// The closed bins by index (a revisited bin holds its latest result).
+    pub fn bins(&self) -> &BTreeMap<u16, ReportBin> {
+        &self.bins
+    }
+
+    /// Warnings so far, counted by their wording.
+    pub fn warnings(&self) -> &BTreeMap<String, u32> {
+        &self.warnings
+    }
+
+    /// The impulse response of the average raw sweep of the bin at 0°, if any sweep went
+    /// into it.
+    pub fn impulse(&self) -> Option<ImpulseView> {
+        let b = &self.boresight;
+        let bin = b.bin?;
+        if b.sweeps == 0 {
+            return None;
+        }
+        let inv = 1.0 / b.sweeps as f32;
+        let mean: Vec<Complex32> = b.sum.iter().map(|s| *s * inv).collect();
+        let angle_deg = f64::from(self.layout.nominal_deg(bin));
+        Some(self.scan.impulse(&mean, angle_deg, b.sweeps))
+    }
+
+    fn push_now(&mut self, w: &Waiting, out: &mut Vec<Event<MAX_FREQUENCIES>>) {
+        let before = self.scan.counters().sweeps_binned;
+        let ev = self.scan.push_sweep(w.start_us, w.end_us, &w.s21);
+        if self.scan.counters().sweeps_binned > before {
+            self.add_to_boresight(w);
+        }
+        self.take(ev, out);
+    }
+
+    fn add_to_boresight(&mut self, w: &Waiting) {
+        let b = &mut self.boresight;
+        if b.done || b.bin.is_none() || w.s21.len() != self.points {
+            return;
+        }
+        let mid = w.start_us + (w.end_us - w.start_us) / 2;
+        let Some(a) = self.scan.angle_at(mid) else {
+            return;
+        };
+        if self.layout.index_of(a) == b.bin {
+            for (s, v) in b.sum.iter_mut().zip(&w.s21) {
+                *s += *v;
+            }
+            b.sweeps += 1;
+        }
+    }
+
+    fn take(&mut self, ev: Events<MAX_FREQUENCIES>, out: &mut Vec<Event<MAX_FREQUENCIES>>) {
+        for e in ev {
+            match &e {
+                Event::BinClosed(r) => {
+                    self.bins.insert(r.index, report_bin(r, self.frequencies));
+                    let b = &mut self.boresight;
+                    if b.sweeps > 0 && b.bin == Some(r.index) {
+                        b.done = true;
+                    }
+                }
+                Event::Warning(w) => *self.warnings.entry(warning_text(w)).or_insert(0) += 1,
+                Event::Finished(_) => {}
+            }
+            out.push(e);
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn sizes_are_the_smallest_that_hold_the_sweep() {
+        assert_eq!(FftSize::for_points(201).unwrap(), FftSize::N1024);
+        assert_eq!(FftSize::for_points(1024).unwrap(), FftSize::N1024);
+        assert_eq!(FftSize::for_points(1025).unwrap(), FftSize::N2048);
+        assert_eq!(FftSize::for_points(4096).unwrap(), FftSize::N4096);
+        let e = FftSize::for_points(4097).unwrap_err();
+        assert!(format!("{e:#}").contains("largest FFT (4096)"), "{e:#}");
+        let points: Vec<usize> = FftSize::ALL.iter().map(|s| s.points()).collect();
+        assert_eq!(points, FFT_SIZES);
+    }
+
+    #[test]
+    fn the_dispatch_runs_at_the_size_asked() {
+        struct Size;
+        impl FftJob for Size {
+            type Output = usize;
+            fn run<const M: usize>(self) -> usize
+            where
+                [Complex32; M]: Fft,
+            {
+                M
+            }
+        }
+        for s in FftSize::ALL {
+            assert_eq!(s.run(Size), s.points());
+        }
+    }
+}
