@@ -35,11 +35,12 @@
 //!
 //! # Memory
 //!
-//! `size_of::<Scan<1024, 8, 361>>()` (history H = 64) is **34 440 bytes** (33.6 KiB) on
-//! x86-64 (printed and asserted ≤ 64 KiB by `tests/scan_memory.rs`; the Cortex-M4F build
-//! is within a few bytes of it): the gate 24 KiB, the open-bin sum 8 KiB (gated in place
-//! when the bin closes, so no second buffer), the history 768 bytes, one byte per bin, and
-//! small state. No heap.
+//! `size_of::<Scan<1024, 8, 361>>()` (history H = 64) is **34 448 bytes** (33.6 KiB) on
+//! x86-64 (printed and asserted ≤ 64 KiB by `tests/scan_memory.rs`; 34 440 on the
+//! Cortex-M4F): the gate 24 KiB, the open-bin sum 8 KiB (gated in place when the bin
+//! closes, so no second buffer), the history 768 bytes, one byte per bin, and small state.
+//! No heap. A board keeps it in static RAM, built in place ([`Scan::unconfigured`],
+//! [`Scan::configure`]), usually inside the board loop [`crate::pump::Pump`].
 //!
 //! # Safety
 //!
