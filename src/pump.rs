@@ -276,6 +276,7 @@ where
         out: &mut W,
         meter: &mut impl Meter,
     ) -> Result<u32, PumpError<W::Error>> {
+        self.configured()?;
         let mut sweeps = 0;
         let mut rest = bytes;
         while !rest.is_empty() {
@@ -672,6 +673,10 @@ mod tests {
         );
         assert_eq!(
             pump.feed(b"#0", 0, 1, &mut out),
+            Err(PumpError::NotConfigured)
+        );
+        assert_eq!(
+            pump.feed(b"", 0, 1, &mut out),
             Err(PumpError::NotConfigured)
         );
         assert_eq!(pump.finish(&mut out), Err(PumpError::NotConfigured));

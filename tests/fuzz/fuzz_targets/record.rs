@@ -1,12 +1,14 @@
-//! Fuzz the recording reader (`sweepgate_host::record::recover`). Checks that nothing
-//! panics, that recovered records lie in order inside the input and do not overlap, that
-//! every non-header record framed again gives exactly the bytes it was read from, that the
-//! skipped stretches and the stop offset lie inside the input, and that the output is
+//! Fuzz the recording reader (`sweepgate_host::formats::recording::recover`). Checks that
+//! nothing panics, that recovered records lie in order inside the input and do not overlap,
+//! that every non-header record framed again gives exactly the bytes it was read from, that
+//! the skipped stretches and the stop offset lie inside the input, and that the output is
 //! bounded by the input (at most one record per 13 bytes).
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use sweepgate_host::record::{recover, Record, Stop, FILE_HEADER_LEN, FRAME_OVERHEAD, MAGIC};
+use sweepgate_host::formats::recording::{
+    recover, Record, Stop, FILE_HEADER_LEN, FRAME_OVERHEAD, MAGIC,
+};
 
 fuzz_target!(|data: &[u8]| {
     // Half the inputs get a valid file header so that the reader gets past it.
