@@ -73,6 +73,15 @@ pub struct BinLayout {
 }
 
 impl BinLayout {
+    /// The layout of an engine not yet configured: no bins (never returned by the
+    /// constructors; every angle is outside it).
+    pub(crate) const UNSET: BinLayout = BinLayout {
+        start_deg: 0.0,
+        step_deg: 0.0,
+        count: 0,
+        full_circle: false,
+    };
+
     /// A full circle of `360 / step_deg` bins, the first centred on `start_deg`.
     pub fn full_circle(start_deg: f32, step_deg: f32) -> Result<Self, LayoutError> {
         if !start_deg.is_finite() || !step_deg.is_finite() {
@@ -150,7 +159,7 @@ impl BinLayout {
 
     /// The bin holding `angle_deg` (any turn), or `None` outside a sector.
     pub fn index_of(&self, angle_deg: f32) -> Option<u16> {
-        if !angle_deg.is_finite() {
+        if !angle_deg.is_finite() || self.count == 0 {
             return None;
         }
         let half = 0.5 * self.step_deg;
@@ -294,21 +303,47 @@ impl<const M: usize, const B: usize> Bins<M, B> {
         policy: RevisitPolicy,
         min_sweeps: u32,
     ) -> Result<Self, LayoutError> {
+        let mut bins = Self::unconfigured();
+        bins.configure(layout, policy, min_sweeps)?;
+        Ok(bins)
+    }
+
+    /// An accumulator with no layout yet (no bins), for an engine not yet configured.
+    /// `const`, so that the engine can be a `static`.
+    pub(crate) const fn unconfigured() -> Self {
+        Self {
+            layout: BinLayout::UNSET,
+            policy: RevisitPolicy::Replace,
+            min_sweeps: 0,
+            visits: [0; B],
+            open: None,
+            first_direction: Direction::Still,
+            sum: [ZERO; M],
+        }
+    }
+
+    /// Starts over with `layout` in this accumulator's own storage (no second `M`-point
+    /// sum on the stack): no bin open, none visited. On an error nothing changes.
+    pub(crate) fn configure(
+        &mut self,
+        layout: BinLayout,
+        policy: RevisitPolicy,
+        min_sweeps: u32,
+    ) -> Result<(), LayoutError> {
         if usize::from(layout.count()) > B {
             return Err(LayoutError::TooManyBins {
                 needed: u32::from(layout.count()),
                 capacity: B.min(u32::MAX as usize) as u32,
             });
         }
-        Ok(Self {
-            layout,
-            policy,
-            min_sweeps,
-            visits: [0; B],
-            open: None,
-            first_direction: Direction::Still,
-            sum: [ZERO; M],
-        })
+        self.layout = layout;
+        self.policy = policy;
+        self.min_sweeps = min_sweeps;
+        self.visits.fill(0);
+        self.open = None;
+        self.first_direction = Direction::Still;
+        self.sum.fill(ZERO);
+        Ok(())
     }
 
     /// The layout.

@@ -88,6 +88,16 @@ pub struct GateConfig {
 }
 
 impl GateConfig {
+    /// The configuration of a gate not yet configured (see [`Gate::unconfigured`]).
+    const UNSET: GateConfig = GateConfig {
+        grid: Grid::UNSET,
+        band_window: WindowKind::Rectangular,
+        center_s: 0.0,
+        span_s: 0.0,
+        shape: WindowKind::Rectangular,
+        renormalize: false,
+    };
+
     /// Checks everything that does not depend on the FFT size.
     fn check(&self) -> Result<(), GateError> {
         if !self.center_s.is_finite() || !self.span_s.is_finite() {
@@ -156,28 +166,59 @@ where
     /// Validates `cfg` for FFT size `M` and precomputes the windows, the gate kernel and the
     /// renormalization.
     pub fn new(cfg: &GateConfig) -> Result<Self, GateError> {
-        let mut g = Self::blank(cfg);
-        g.build()?;
+        let mut g = Self::unconfigured();
+        g.configure(cfg)?;
         Ok(g)
     }
 
-    /// All-zero storage for `cfg`, not yet usable: [`Gate::build`] fills it. Split from
-    /// `new` so that a larger value holding a gate (the scan engine) can build it in its
-    /// own storage instead of moving a finished 24 KiB gate around a small board's stack.
-    #[inline(always)]
-    pub(crate) fn blank(cfg: &GateConfig) -> Self {
+    /// A gate with no configuration yet: every table zero, K = 0, so applying it gives
+    /// zeros. [`Gate::configure`] makes it usable. Being `const`, it can initialise a
+    /// `static`, so that a small board builds its gate in place instead of moving a finished
+    /// 24 KiB gate (M = 1024) around its stack.
+    ///
+    /// ```
+    /// use sweepgate::gate::{Gate, GateConfig};
+    /// use sweepgate::grid::Grid;
+    /// use sweepgate::window::WindowKind;
+    ///
+    /// let mut gate = Gate::<1024>::unconfigured();
+    /// assert_eq!(gate.points(), 0);
+    /// let cfg = GateConfig {
+    ///     grid: Grid::from_start_stop(8e9, 12e9, 801).unwrap(),
+    ///     band_window: WindowKind::Hann,
+    ///     center_s: 20e-9,
+    ///     span_s: 4e-9,
+    ///     shape: WindowKind::Tukey { alpha: 0.5 },
+    ///     renormalize: true,
+    /// };
+    /// gate.configure(&cfg).unwrap();
+    /// assert_eq!(gate.points(), 801);
+    /// ```
+    pub const fn unconfigured() -> Self {
         Self {
-            cfg: *cfg,
+            cfg: GateConfig::UNSET,
             points: 0,
             band: [0.0; M],
             gate: [0.0; M],
             kernel: [ZERO; M],
-            inv_renorm: [Complex32::new(1.0, 0.0); M],
+            inv_renorm: [ZERO; M],
         }
     }
 
+    /// Validates `cfg` for FFT size `M` and computes the windows, the gate kernel and the
+    /// renormalization in this gate's own storage, replacing any earlier configuration. On
+    /// an error the gate is left unconfigured (K = 0: applying it gives zeros).
+    pub fn configure(&mut self, cfg: &GateConfig) -> Result<(), GateError> {
+        self.cfg = *cfg;
+        let built = self.build();
+        if built.is_err() {
+            self.points = 0;
+        }
+        built
+    }
+
     /// Validates the stored configuration and computes everything from it, in place.
-    pub(crate) fn build(&mut self) -> Result<(), GateError> {
+    fn build(&mut self) -> Result<(), GateError> {
         let cfg = self.cfg;
         cfg.check()?;
         let points = cfg.grid.points();
@@ -193,7 +234,9 @@ where
         }
         self.points = points;
         let g = self;
+        // Every table is written whole: the gate may have held another configuration.
         cfg.band_window.fill(&mut g.band[..points]);
+        g.band[points..].fill(0.0);
 
         // Time gate, placed circularly: Δ is the time from the centre, wrapped into
         // [−T/2, T/2) with T = 1/Δf; the shape spans Δ ∈ [−span/2, +span/2].
@@ -214,7 +257,9 @@ where
         g.kernel.forward();
         g.kernel[1..].reverse();
 
-        if cfg.renormalize {
+        if !cfg.renormalize {
+            g.inv_renorm.fill(Complex32::new(1.0, 0.0));
+        } else {
             // Ideal impulse at the gate centre through the same chain, computed in place in
             // the renormalization table (no M-sized temporaries: this runs on small boards).
             // The start-frequency phase is a constant factor and cancels in the ratio.

@@ -30,6 +30,14 @@ pub struct Grid {
 }
 
 impl Grid {
+    /// The grid of a gate or engine not yet configured: no points, step 0. It never comes
+    /// out of [`Grid::new`] and is never used to compute anything.
+    pub(crate) const UNSET: Grid = Grid {
+        start_hz: 0.0,
+        step_hz: 0.0,
+        points: 0,
+    };
+
     /// A grid from its first frequency, step and point count.
     pub fn new(start_hz: f64, step_hz: f64, points: usize) -> Result<Self, GridError> {
         if !start_hz.is_finite() || !step_hz.is_finite() {

@@ -14,6 +14,7 @@ pub mod gate;
 pub mod grid;
 pub mod metrics;
 pub mod plan;
+pub mod pump;
 pub mod scan;
 pub mod track;
 pub mod window;

@@ -13,10 +13,15 @@
 //! it exceeds the settle tolerance, otherwise [`Direction::Still`].
 //!
 //! Every input is counted. For sweeps, `binned + rejected() == pushed` always; the reasons
-//! are the [`SweepReject`] variants, checked in this order: scan finished, wrong point count,
-//! non-finite value, end before start, no angle yet, outside the angle history, outside the
-//! layout, taken while moving (step-and-stop with `reject_moving`), bin already closed
-//! (keep-first). For angle samples, `accepted + rejected() == pushed` likewise.
+//! are the [`SweepReject`] variants, checked in this order: engine not configured, scan
+//! finished, wrong point count, non-finite value, end before start, no angle yet, outside
+//! the angle history, outside the layout, taken while moving (step-and-stop with
+//! `reject_moving`), bin already closed (keep-first). For angle samples,
+//! `accepted + rejected() == pushed` likewise.
+//!
+//! The engine can be built in place: [`Scan::unconfigured`] is `const` (a board keeps the
+//! engine in a `static`) and [`Scan::configure`] validates the settings and builds the gate
+//! and bins in the engine's own storage; [`Scan::new`] does both for the host.
 //!
 //! # Gating cost
 //!
@@ -30,11 +35,12 @@
 //!
 //! # Memory
 //!
-//! `size_of::<Scan<1024, 8, 361>>()` (history H = 64) is **34 440 bytes** (33.6 KiB) on
-//! x86-64 (printed and asserted ≤ 64 KiB by `tests/scan_memory.rs`; the Cortex-M4F build
-//! is within a few bytes of it): the gate 24 KiB, the open-bin sum 8 KiB (gated in place
-//! when the bin closes, so no second buffer), the history 768 bytes, one byte per bin, and
-//! small state. No heap.
+//! `size_of::<Scan<1024, 8, 361>>()` (history H = 64) is **34 448 bytes** (33.6 KiB) on
+//! x86-64 (printed and asserted ≤ 64 KiB by `tests/scan_memory.rs`; 34 440 on the
+//! Cortex-M4F): the gate 24 KiB, the open-bin sum 8 KiB (gated in place when the bin
+//! closes, so no second buffer), the history 768 bytes, one byte per bin, and small state.
+//! No heap. A board keeps it in static RAM, built in place ([`Scan::unconfigured`],
+//! [`Scan::configure`]), usually inside the board loop [`crate::pump::Pump`].
 //!
 //! # Safety
 //!
@@ -255,7 +261,7 @@ pub struct ScanCounters {
     /// Sweeps added to a bin.
     pub sweeps_binned: u32,
     /// Sweeps refused, by reason in [`SweepReject::ALL`] order.
-    pub sweeps_rejected_by: [u32; 9],
+    pub sweeps_rejected_by: [u32; SweepReject::ALL.len()],
     /// Binned sweeps taken while moving (step-and-stop).
     pub sweeps_moving: u32,
     /// Binned sweeps whose angle was extrapolated.
@@ -266,6 +272,8 @@ pub struct ScanCounters {
     pub angles_accepted: u32,
     /// Angle samples refused because the scan had finished.
     pub angles_after_finish: u32,
+    /// Angle samples refused because the engine was not configured yet.
+    pub angles_unconfigured: u32,
     /// The tracker's own counters (its rejections by reason).
     pub track: TrackCounters,
     /// Bins closed.
@@ -273,6 +281,21 @@ pub struct ScanCounters {
 }
 
 impl ScanCounters {
+    /// All counters zero (`Default`, usable in a `const`).
+    pub const ZERO: ScanCounters = ScanCounters {
+        sweeps_pushed: 0,
+        sweeps_binned: 0,
+        sweeps_rejected_by: [0; SweepReject::ALL.len()],
+        sweeps_moving: 0,
+        sweeps_extrapolated: 0,
+        angles_pushed: 0,
+        angles_accepted: 0,
+        angles_after_finish: 0,
+        angles_unconfigured: 0,
+        track: TrackCounters::ZERO,
+        bins_closed: 0,
+    };
+
     /// Sweeps refused, all reasons.
     pub fn sweeps_rejected(&self) -> u32 {
         self.sweeps_rejected_by
@@ -294,6 +317,7 @@ impl ScanCounters {
         self.track
             .rejected()
             .saturating_add(self.angles_after_finish)
+            .saturating_add(self.angles_unconfigured)
     }
 }
 
@@ -310,6 +334,7 @@ where
     counters: ScanCounters,
     finished: bool,
     stall_warned: bool,
+    configured: bool,
 }
 
 fn push_event<const F: usize>(ev: &mut Events<F>, e: Event<F>) {
@@ -322,46 +347,104 @@ where
     [Complex32; M]: Fft,
 {
     /// Builds the gate for `gate_cfg`, its kernels for the grid indices `pattern_indices`,
-    /// the tracker and the bins.
+    /// the tracker and the bins: [`Scan::unconfigured`] then [`Scan::configure`].
     pub fn new(
         gate_cfg: &GateConfig,
         pattern_indices: [usize; F],
         cfg: ScanConfig,
     ) -> Result<Self, ScanConfigError> {
+        let mut scan = Self::unconfigured();
+        scan.configure(gate_cfg, pattern_indices, cfg)?;
+        Ok(scan)
+    }
+
+    /// An engine with no configuration yet: it refuses every sweep and angle sample (and
+    /// counts them, reason `NotConfigured`) until [`Scan::configure`] succeeds. Being
+    /// `const`, it can initialise a `static`, so that a small board holds its engine once,
+    /// outside the stack, and builds it in place:
+    ///
+    /// ```
+    /// use sweepgate::{gate::GateConfig, grid::Grid, window::WindowKind, Complex32};
+    /// use sweepgate::bins::BinLayout;
+    /// use sweepgate::error::SweepReject;
+    /// use sweepgate::scan::{Event, Scan, ScanConfig, Warning};
+    ///
+    /// // `const`: it can initialise a static (on a board, e.g.
+    /// // `cortex_m::singleton!(: Scan<1024, 8, 361> = Scan::unconfigured())`).
+    /// const _: Scan<256, 2, 360> = Scan::unconfigured();
+    /// let mut scan: Scan<256, 2, 360> = Scan::unconfigured();
+    /// let sweep = [Complex32::new(1.0, 0.0); 201];
+    /// let ev = scan.push_sweep(0, 10, &sweep);
+    /// assert_eq!(ev[0], Event::Warning(Warning::SweepRejected(SweepReject::NotConfigured)));
+    ///
+    /// let grid = Grid::from_start_stop(2e9, 18e9, 201).unwrap();
+    /// let gate = GateConfig { grid, band_window: WindowKind::Hann, center_s: 10e-9,
+    ///     span_s: 4e-9, shape: WindowKind::Tukey { alpha: 0.5 }, renormalize: true };
+    /// let cfg = ScanConfig::new(BinLayout::full_circle(0.0, 1.0).unwrap());
+    /// scan.configure(&gate, [0, 100], cfg).unwrap();
+    /// assert!(scan.is_configured());
+    /// assert_eq!(scan.counters().sweeps_pushed, 0); // a new scan starts from zero
+    /// ```
+    pub const fn unconfigured() -> Self {
+        Self {
+            cfg: ScanConfig {
+                track: TrackConfig::UNSET,
+                encoder: None,
+                layout: BinLayout::UNSET,
+                mode: ScanMode::Continuous,
+                revisit: RevisitPolicy::Replace,
+                echo: EchoMode::Never,
+                min_sweeps: 0,
+                leave_close_us: None,
+            },
+            gate: Gate::unconfigured(),
+            kernels: Kernels::unset(),
+            tracker: Tracker::unconfigured(),
+            bins: Bins::unconfigured(),
+            counters: ScanCounters::ZERO,
+            finished: false,
+            stall_warned: false,
+            configured: false,
+        }
+    }
+
+    /// Validates the settings and builds the gate, its kernels for the grid indices
+    /// `pattern_indices`, the tracker and the bins in this engine's own storage, so that no
+    /// second copy of the engine (34 KiB for `Scan<1024, 8, 361>`) is ever made. A new scan
+    /// starts: counters zero, no bin open, none visited. On an error the engine is left
+    /// unconfigured and refuses input until a configuration succeeds.
+    pub fn configure(
+        &mut self,
+        gate_cfg: &GateConfig,
+        pattern_indices: [usize; F],
+        cfg: ScanConfig,
+    ) -> Result<(), ScanConfigError> {
+        self.configured = false;
         if B == 0 || B > usize::from(u16::MAX) {
             return Err(ScanConfigError::BinCapacity);
         }
         if cfg.min_sweeps == 0 {
             return Err(ScanConfigError::MinSweeps);
         }
-        let tracker = match cfg.encoder {
+        self.tracker = match cfg.encoder {
             Some(enc) => Tracker::with_encoder(cfg.track, enc)?,
             None => Tracker::new(cfg.track)?,
         };
-        let bins = Bins::new(cfg.layout, cfg.revisit, cfg.min_sweeps)?;
-        // The engine is built where it is returned, and the gate inside it, so that no
-        // second copy of its 42 KiB ever sits on a small board's stack.
-        let mut out = Ok(Self {
-            cfg,
-            gate: Gate::blank(gate_cfg),
-            kernels: Kernels::unset(),
-            tracker,
-            bins,
-            counters: ScanCounters::default(),
-            finished: false,
-            stall_warned: false,
-        });
-        if let Ok(s) = &mut out {
-            let built = s
-                .gate
-                .build()
-                .and_then(|()| s.gate.kernels(pattern_indices));
-            match built {
-                Ok(k) => s.kernels = k,
-                Err(e) => out = Err(e.into()),
-            }
-        }
-        out
+        self.bins
+            .configure(cfg.layout, cfg.revisit, cfg.min_sweeps)?;
+        self.gate.configure(gate_cfg)?;
+        self.kernels = self.gate.kernels(pattern_indices)?;
+        self.cfg = cfg;
+        self.counters = ScanCounters::ZERO;
+        self.finished = false;
+        self.stall_warned = false;
+        self.configured = true;
+        Ok(())
+    }
+
+    /// True once [`Scan::configure`] (or [`Scan::new`]) has succeeded.
+    pub fn is_configured(&self) -> bool {
+        self.configured
     }
 
     /// The configuration.
@@ -448,6 +531,14 @@ where
     ) -> Events<F> {
         let mut ev = Events::new();
         self.counters.angles_pushed = self.counters.angles_pushed.saturating_add(1);
+        if !self.configured {
+            self.counters.angles_unconfigured = self.counters.angles_unconfigured.saturating_add(1);
+            push_event(
+                &mut ev,
+                Event::Warning(Warning::AngleRejected(SampleReject::NotConfigured)),
+            );
+            return ev;
+        }
         if self.finished {
             self.counters.angles_after_finish = self.counters.angles_after_finish.saturating_add(1);
             push_event(
@@ -537,6 +628,7 @@ where
         self.push_sweep(start_us, end_us, pts)
     }
 
+    /// Checks a sweep, finds its angle and bin, and adds it to the bins.
     fn place_sweep(
         &mut self,
         start_us: u64,
@@ -544,6 +636,38 @@ where
         points: &[Complex32],
         ev: &mut Events<F>,
     ) -> Result<(), SweepReject> {
+        self.check_sweep(start_us, end_us, points)?;
+        let (index, sweep) = self.locate_sweep(start_us, end_us, ev)?;
+        let (gate, kernels, echo) = (&self.gate, &self.kernels, self.cfg.echo);
+        let (res, closed) = self.bins.add(index, &sweep, points, |cb, sum, inv| {
+            gate_bin(gate, kernels, echo, cb, sum, inv)
+        });
+        if let Some(r) = closed {
+            self.counters.bins_closed = self.counters.bins_closed.saturating_add(1);
+            push_event(ev, Event::BinClosed(r));
+        }
+        res?;
+        if sweep.moving {
+            self.counters.sweeps_moving = self.counters.sweeps_moving.saturating_add(1);
+            push_event(ev, Event::Warning(Warning::TakenWhileMoving));
+        }
+        if sweep.extrapolated {
+            self.counters.sweeps_extrapolated = self.counters.sweeps_extrapolated.saturating_add(1);
+            push_event(ev, Event::Warning(Warning::Extrapolated));
+        }
+        Ok(())
+    }
+
+    /// The checks that need no angle, in the order of the module docs.
+    fn check_sweep(
+        &self,
+        start_us: u64,
+        end_us: u64,
+        points: &[Complex32],
+    ) -> Result<(), SweepReject> {
+        if !self.configured {
+            return Err(SweepReject::NotConfigured);
+        }
         if self.finished {
             return Err(SweepReject::Finished);
         }
@@ -562,6 +686,17 @@ where
         if self.tracker.is_empty() {
             return Err(SweepReject::NoAngle);
         }
+        Ok(())
+    }
+
+    /// The sweep's bin and its place in angle: mid-time angle, smear, direction, whether
+    /// it was taken while moving. Leaving the layout closes the open bin (into `ev`).
+    fn locate_sweep(
+        &mut self,
+        start_us: u64,
+        end_us: u64,
+        ev: &mut Events<F>,
+    ) -> Result<(u16, SweepAngle), SweepReject> {
         let mid_us = start_us + (end_us - start_us) / 2;
         let a0 = self.tracker.angle_at(start_us);
         let a1 = self.tracker.angle_at(end_us);
@@ -587,48 +722,24 @@ where
         };
         let moving = match self.cfg.mode {
             ScanMode::Continuous => false,
-            ScanMode::StepAndStop { .. } => {
+            ScanMode::StepAndStop { reject_moving } => {
                 let from = start_us.saturating_sub(u64::from(self.cfg.track.settle_time_us));
-                self.tracker.still_between(from, end_us) != Some(true)
+                let moving = self.tracker.still_between(from, end_us) != Some(true);
+                if moving && reject_moving {
+                    return Err(SweepReject::WhileMoving);
+                }
+                moving
             }
         };
-        if moving
-            && matches!(
-                self.cfg.mode,
-                ScanMode::StepAndStop {
-                    reject_moving: true
-                }
-            )
-        {
-            return Err(SweepReject::WhileMoving);
-        }
-        let extrapolated = a0.extrapolated || a1.extrapolated || am.extrapolated;
         let sweep = SweepAngle {
             mid_deg: am.angle_deg,
             smear_deg: libm::fabsf(travel),
             direction,
             moving,
-            extrapolated,
+            extrapolated: a0.extrapolated || a1.extrapolated || am.extrapolated,
             end_us,
         };
-        let (gate, kernels, echo) = (&self.gate, &self.kernels, self.cfg.echo);
-        let (res, closed) = self.bins.add(index, &sweep, points, |cb, sum, inv| {
-            gate_bin(gate, kernels, echo, cb, sum, inv)
-        });
-        if let Some(r) = closed {
-            self.counters.bins_closed = self.counters.bins_closed.saturating_add(1);
-            push_event(ev, Event::BinClosed(r));
-        }
-        res?;
-        if moving {
-            self.counters.sweeps_moving = self.counters.sweeps_moving.saturating_add(1);
-            push_event(ev, Event::Warning(Warning::TakenWhileMoving));
-        }
-        if extrapolated {
-            self.counters.sweeps_extrapolated = self.counters.sweeps_extrapolated.saturating_add(1);
-            push_event(ev, Event::Warning(Warning::Extrapolated));
-        }
-        Ok(())
+        Ok((index, sweep))
     }
 
     /// Ends the scan: closes the open bin and reports the final counters. Later inputs are

@@ -79,6 +79,19 @@ impl Default for TrackConfig {
 }
 
 impl TrackConfig {
+    /// The settings of a tracker not yet configured (all zero; never validated or used).
+    pub(crate) const UNSET: TrackConfig = TrackConfig {
+        max_speed_deg_s: 0.0,
+        jitter_deg: 0.0,
+        extrapolate_us: 0,
+        speed_window_us: 0,
+        still_speed_deg_s: 0.0,
+        settle_tolerance_deg: 0.0,
+        settle_time_us: 0,
+        stall_time_us: 0,
+        resync_after: 0,
+    };
+
     fn validate(&self) -> Result<(), TrackConfigError> {
         if !(self.max_speed_deg_s.is_finite() && self.max_speed_deg_s > 0.0) {
             return Err(TrackConfigError::MaxSpeed);
@@ -177,6 +190,18 @@ pub struct TrackCounters {
 }
 
 impl TrackCounters {
+    /// All counters zero (`Default`, usable in a `const`).
+    pub const ZERO: TrackCounters = TrackCounters {
+        pushed: 0,
+        accepted: 0,
+        non_finite: 0,
+        non_monotonic: 0,
+        jump: 0,
+        count_out_of_range: 0,
+        wrong_source: 0,
+        resyncs: 0,
+    };
+
     /// Sum of all rejection counters.
     pub fn rejected(&self) -> u32 {
         self.non_finite
@@ -273,6 +298,16 @@ impl<const N: usize> Tracker<N> {
         cfg.validate()?;
         Ok(Self {
             cfg,
+            ..Self::unconfigured()
+        })
+    }
+
+    /// An empty tracker with placeholder settings, for an engine not yet configured (the
+    /// engine refuses samples before it reaches the tracker). `const`, so that the engine
+    /// can be a `static`.
+    pub(crate) const fn unconfigured() -> Self {
+        Self {
+            cfg: TrackConfig::UNSET,
             encoder: None,
             times_us: [0; N],
             angles_deg: [0.0; N],
@@ -283,8 +318,8 @@ impl<const N: usize> Tracker<N> {
             still_anchor_deg: 0.0,
             still_since_us: 0,
             jumps_in_row: 0,
-            counters: TrackCounters::default(),
-        })
+            counters: TrackCounters::ZERO,
+        }
     }
 
     /// A tracker fed with raw encoder counts ([`push_counts`](Self::push_counts)).
@@ -416,8 +451,11 @@ impl<const N: usize> Tracker<N> {
                     SampleReject::NonMonotonic => &mut c.non_monotonic,
                     SampleReject::Jump => &mut c.jump,
                     SampleReject::CountOutOfRange => &mut c.count_out_of_range,
-                    // `Finished` is the engine's; a tracker never returns it.
-                    SampleReject::WrongSource | SampleReject::Finished => &mut c.wrong_source,
+                    // `Finished` and `NotConfigured` are the engine's; a tracker never
+                    // returns them.
+                    SampleReject::WrongSource
+                    | SampleReject::Finished
+                    | SampleReject::NotConfigured => &mut c.wrong_source,
                 };
                 *slot = slot.saturating_add(1);
             }

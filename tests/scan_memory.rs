@@ -13,3 +13,20 @@ fn scan_1024_8_361_fits_64_kib() {
     // docs no longer describes the engine.
     assert!(n >= 32 * 1024, "{n}");
 }
+
+/// The board keeps its whole loop in one `static`: this line stops compiling if the engine or
+/// the pump can no longer be built in a `const` context.
+static BOARD_LOOP: sweepgate::pump::Pump<1024, 8, 361> = sweepgate::pump::Pump::unconfigured();
+
+#[test]
+fn board_loop_is_the_engine_and_one_sweep_buffer() {
+    let pump = core::mem::size_of::<sweepgate::pump::Pump<1024, 8, 361>>();
+    let scan = core::mem::size_of::<Scan<1024, 8, 361>>();
+    println!("size_of::<Pump<1024, 8, 361>>() = {pump} bytes");
+    // The engine, the M-point sweep buffer the decoder fills (1024 × 8 bytes) and the
+    // decoder's small state; anything more would be a second buffer (project requirement:
+    // the board's static RAM is the engine plus one sweep).
+    assert!(pump >= scan + 1024 * 8, "{pump}");
+    assert!(pump <= scan + 1024 * 8 + 512, "{pump}");
+    assert!(!BOARD_LOOP.is_configured());
+}

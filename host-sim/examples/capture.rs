@@ -6,9 +6,9 @@
 //! ```
 //!
 //! `make` turns a recording into the byte stream a board receives, with the gate the planner
-//! recommends for the recording's scenario. `compare` replays the capture through the host's
-//! decoder and scan engine and compares the preview records with PREVIEW (written by the
-//! firmware): the same bins, values within 1e-5 relative.
+//! recommends for the recording's scenario. `compare` replays the capture through the core's
+//! board loop (`sweepgate::pump`, as the firmware does) and compares the preview records with
+//! PREVIEW (written by the firmware): the same bins, values within 1e-5 relative.
 
 use anyhow::{bail, Context};
 use sweepgate::scan::EchoMode;
@@ -59,7 +59,7 @@ fn run() -> anyhow::Result<()> {
         }
         ["compare", cap, preview] => {
             let bytes = std::fs::read(cap).with_context(|| format!("reading {cap}"))?;
-            let host = capture::replay(&bytes)?;
+            let host = capture::replay(&bytes).with_context(|| format!("{cap}"))?;
             let board = std::fs::read(preview).with_context(|| format!("reading {preview}"))?;
             let c = capture::compare(&board, &host.preview, 1e-5);
             println!(

@@ -4,10 +4,12 @@
 
 mod gate;
 mod plan;
+mod pump;
 mod scan;
 mod wire;
 
 pub use self::gate::*;
 pub use self::plan::*;
+pub use self::pump::*;
 pub use self::scan::*;
 pub use self::wire::*;

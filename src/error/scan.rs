@@ -52,6 +52,8 @@ pub enum SampleReject {
     WrongSource,
     /// The scan has finished; no more input is taken (scan engine only).
     Finished,
+    /// The engine has not been configured yet (scan engine only).
+    NotConfigured,
 }
 
 impl fmt::Display for SampleReject {
@@ -63,6 +65,7 @@ impl fmt::Display for SampleReject {
             Self::CountOutOfRange => "encoder count does not fit the counter width",
             Self::WrongSource => "sample kind does not match the tracker's source",
             Self::Finished => "the scan has finished",
+            Self::NotConfigured => "the scan engine is not configured yet",
         })
     }
 }
@@ -224,11 +227,13 @@ pub enum SweepReject {
     AlreadyBinned,
     /// The scan has finished.
     Finished,
+    /// The engine has not been configured yet.
+    NotConfigured,
 }
 
 impl SweepReject {
     /// Every reason, in counter order.
-    pub const ALL: [SweepReject; 9] = [
+    pub const ALL: [SweepReject; 10] = [
         Self::NoAngle,
         Self::OutsideHistory,
         Self::BadTimes,
@@ -238,6 +243,7 @@ impl SweepReject {
         Self::WhileMoving,
         Self::AlreadyBinned,
         Self::Finished,
+        Self::NotConfigured,
     ];
 }
 
@@ -253,6 +259,7 @@ impl fmt::Display for SweepReject {
             Self::WhileMoving => "sweep taken while the positioner moved",
             Self::AlreadyBinned => "bin already closed and the first pass is kept",
             Self::Finished => "the scan has finished",
+            Self::NotConfigured => "the scan engine is not configured yet",
         })
     }
 }

@@ -11,7 +11,7 @@ set -euo pipefail
 secs="${1:-30}"
 here="$(cd "$(dirname "$0")" && pwd)"
 cd "$here/../.."
-targets="${FUZZ_TARGETS:-block ascii scan preview capture record touchstone}"
+targets="${FUZZ_TARGETS:-block ascii scan pump preview capture record touchstone}"
 cargo +nightly fuzz build --fuzz-dir tests/fuzz
 for t in $targets; do
   log="$(mktemp)"

@@ -1,12 +1,16 @@
 //! sweepgate on an emulated Cortex-M4F (QEMU `netduinoplus2`, STM32F405, 128 KiB RAM).
 //!
-//! Two parts. First the gate alone, at M = 256, 1024 and 2048. Then the board's real loop:
-//! a link capture (`capture.bin` in QEMU's working directory, made by
-//! `cargo run -p sweepgate-host --example capture -- make …`) is read over semihosting and
-//! streamed, 64 bytes at a time, into the core's IEEE 488.2 block decoder and the scan
-//! engine `Scan<1024, 8, 361>`; every closed bin goes out as a preview frame to
-//! `preview.bin`, which the host compares with its own engine's output. The capture is then
-//! streamed a second time with the other echo setting, to count both gating paths.
+//! Two parts. First the gate alone, at M = 256, 1024 and 2048. Then the board's real loop,
+//! the core's `sweepgate::pump::Pump<1024, 8, 361>` (IEEE 488.2 block decoder, scan engine
+//! `Scan<1024, 8, 361>`, preview frames): a link capture (`capture.bin` in QEMU's working
+//! directory, made by `cargo run -p sweepgate-host --example capture -- make …`) is read over
+//! semihosting and replayed through it (`Pump::replay`, 64 bytes of each sweep's answer at a
+//! time); every closed bin goes out as a preview frame to `preview.bin`, which the host
+//! compares with the same loop's output on the host. The capture is then replayed a second
+//! time with the other echo setting, to count both gating paths.
+//!
+//! The pump lives in a `static` (`cortex_m::singleton!`), built in place by
+//! `Pump::configure`: the stack never holds a copy of the engine.
 //!
 //! Instruction counts: with QEMU's
 //! `-icount shift=0` every instruction advances virtual time by 1 ns, and SysTick runs at the
@@ -24,10 +28,10 @@ use cortex_m::peripheral::{syst::SystClkSource, SYST};
 use cortex_m_rt::entry;
 use cortex_m_semihosting::{debug, hprintln};
 use panic_semihosting as _;
-use sweepgate::scan::{EchoMode, Event, Scan, ScanConfig};
-use sweepgate::wire::block::{BlockConfig, BlockDecoder, Event as BlockEvent};
-use sweepgate::wire::capture::{CaptureHeader, Entry, HEADER_LEN};
-use sweepgate::wire::preview::{encode_frame, Record};
+use sweepgate::error::{CaptureError, PumpError, ReplayError};
+use sweepgate::pump::{Meter, Pump, Step};
+use sweepgate::scan::EchoMode;
+#[cfg(feature = "gate-figures")]
 use sweepgate::Complex32;
 #[cfg(feature = "gate-figures")]
 use sweepgate::{
@@ -37,6 +41,7 @@ use sweepgate::{
     window::WindowKind,
 };
 
+#[cfg(feature = "gate-figures")]
 const ZERO: Complex32 = Complex32::new(0.0, 0.0);
 
 /// SysTick as an instruction counter.
@@ -144,10 +149,29 @@ enum Failure {
     Mismatch { m: usize, f: usize },
     NoCapture,
     CaptureEnds,
-    Capture(sweepgate::error::CaptureError),
+    Capture(CaptureError),
     Scan(sweepgate::error::ScanConfigError),
+    NotConfigured,
     Output,
     Frame,
+    Taken,
+}
+
+impl From<ReplayError<core::convert::Infallible, embedded_io::ErrorKind>> for Failure {
+    fn from(e: ReplayError<core::convert::Infallible, embedded_io::ErrorKind>) -> Self {
+        match e {
+            ReplayError::Read(never) => match never {},
+            ReplayError::Capture {
+                error: CaptureError::Truncated,
+                ..
+            } => Failure::CaptureEnds,
+            ReplayError::Capture { error, .. } => Failure::Capture(error),
+            ReplayError::Config(e) => Failure::Scan(e),
+            ReplayError::Pump(PumpError::NotConfigured) => Failure::NotConfigured,
+            ReplayError::Pump(PumpError::Emit(_)) => Failure::Frame,
+            ReplayError::Pump(PumpError::Write(_)) => Failure::Output,
+        }
+    }
 }
 
 impl Failure {
@@ -160,8 +184,10 @@ impl Failure {
             Failure::CaptureEnds => "capture.bin ends inside an entry",
             Failure::Capture(_) => "capture.bin is not a valid link capture",
             Failure::Scan(_) => "the scan settings were refused",
+            Failure::NotConfigured => "the board loop was not configured",
             Failure::Output => "preview.bin could not be written",
             Failure::Frame => "a preview record did not fit its frame",
+            Failure::Taken => "the board loop's storage was already taken",
         }
     }
 }
@@ -219,24 +245,23 @@ impl HostReader {
             len: 0,
         })
     }
+}
 
-    /// Fills `out` completely, or fails at the end of the file.
-    fn exact(&mut self, out: &mut [u8]) -> Result<(), Failure> {
-        let mut done = 0;
-        while done < out.len() {
-            if self.at == self.len {
-                self.len = host::read(self.fd, &mut self.buf);
-                self.at = 0;
-                if self.len == 0 {
-                    return Err(Failure::CaptureEnds);
-                }
-            }
-            let n = (self.len - self.at).min(out.len() - done);
-            out[done..done + n].copy_from_slice(&self.buf[self.at..self.at + n]);
-            self.at += n;
-            done += n;
+impl embedded_io::ErrorType for HostReader {
+    type Error = core::convert::Infallible;
+}
+
+impl embedded_io::Read for HostReader {
+    /// Up to `out.len()` bytes; 0 at the end of the file.
+    fn read(&mut self, out: &mut [u8]) -> Result<usize, Self::Error> {
+        if self.at == self.len {
+            self.len = host::read(self.fd, &mut self.buf);
+            self.at = 0;
         }
-        Ok(())
+        let n = (self.len - self.at).min(out.len());
+        out[..n].copy_from_slice(&self.buf[self.at..self.at + n]);
+        self.at += n;
+        Ok(n)
     }
 }
 
@@ -246,121 +271,105 @@ impl Drop for HostReader {
     }
 }
 
-/// The board's engine.
-type BoardScan = Scan<1024, 8, 361>;
+/// Preview frames to a host file, or nowhere (`fd` `None`: the frames of the second pass
+/// are built, counted and dropped).
+struct HostWriter {
+    fd: Option<usize>,
+}
+
+impl embedded_io::ErrorType for HostWriter {
+    type Error = embedded_io::ErrorKind;
+}
+
+impl embedded_io::Write for HostWriter {
+    fn write(&mut self, buf: &[u8]) -> Result<usize, Self::Error> {
+        match self.fd {
+            Some(fd) if !host::write(fd, buf) => Err(embedded_io::ErrorKind::Other),
+            _ => Ok(buf.len()),
+        }
+    }
+
+    fn flush(&mut self) -> Result<(), Self::Error> {
+        Ok(())
+    }
+}
+
+/// The board's loop: decoder, engine `Scan<1024, 8, 361>`, preview frames.
+type BoardPump = Pump<1024, 8, 361>;
 
 /// What one pass over the capture measured.
 #[derive(Default)]
 struct Pass {
-    sweeps: u32,
     decode: u64,
     adds: u32,
     add_instr: u64,
     closes: u32,
     close_instr: u64,
-    frames: u32,
 }
 
-/// Streams the capture through the decoder and scan engine; writes preview frames to `out`
-/// when given.
-#[inline(never)]
-fn stream(
-    c: &Counter,
-    echo: Option<EchoMode>,
-    out: Option<usize>,
-) -> Result<(Pass, EchoMode), Failure> {
-    let mut r = HostReader::open(b"capture.bin\0").ok_or(Failure::NoCapture)?;
-    let mut head = [0u8; HEADER_LEN];
-    r.exact(&mut head)?;
-    let h = CaptureHeader::parse(&head).map_err(Failure::Capture)?;
-    let mut cfg = ScanConfig::new(h.layout);
-    cfg.echo = echo.unwrap_or(h.echo);
-    // Used in place inside the Result: moving a 42 KiB engine out of it would cost a second
-    // copy on the stack.
-    let mut built = BoardScan::new(&h.gate, h.pattern_indices::<8>(), cfg);
-    let scan = match &mut built {
-        Ok(s) => s,
-        Err(e) => return Err(Failure::Scan(*e)),
-    };
-    let mut decoder = BlockDecoder::new(BlockConfig::for_grid(&h.gate.grid, h.format, h.order));
-    let mut sweep = [ZERO; 1024];
-    let mut frame = [0u8; 512];
-    let mut pass = Pass::default();
-    let mut send = |events: sweepgate::scan::Events<8>, pass: &mut Pass| -> Result<(), Failure> {
-        for e in events {
-            if let (Event::BinClosed(b), Some(fd)) = (e, out) {
-                let n = encode_frame(&Record::Bin(b.to_record()), pass.frames as u16, &mut frame)
-                    .map_err(|_| Failure::Frame)?;
-                pass.frames += 1;
-                if !host::write(fd, &frame[..n]) {
-                    return Err(Failure::Output);
-                }
+/// Counts the instructions of each step of the loop.
+struct Timing<'a> {
+    c: &'a Counter,
+    t0: u32,
+    pass: Pass,
+}
+
+impl Meter for Timing<'_> {
+    #[inline(always)]
+    fn start(&mut self) {
+        self.t0 = self.c.now();
+    }
+
+    #[inline(always)]
+    fn stop(&mut self, step: Step) {
+        let n = self.c.instructions(self.t0, self.c.now()) as u64;
+        let p = &mut self.pass;
+        match step {
+            Step::Decode => p.decode += n,
+            Step::Sweep { closed: false } => {
+                p.adds += 1;
+                p.add_instr += n;
             }
-        }
-        Ok(())
-    };
-    loop {
-        let mut kind = [0u8; 1];
-        r.exact(&mut kind)?;
-        let mut body = [0u8; 20];
-        let len = Entry::head_len(kind[0]).map_err(Failure::Capture)?;
-        r.exact(&mut body[..len])?;
-        match Entry::parse(kind[0], &body[..len]).map_err(Failure::Capture)? {
-            Entry::End => break,
-            Entry::Angle { t_us, angle_deg } => send(scan.push_angle(t_us, angle_deg), &mut pass)?,
-            Entry::Sweep {
-                start_us,
-                end_us,
-                len,
-            } => {
-                let mut left = len as usize;
-                let mut chunk = [0u8; 64];
-                while left > 0 {
-                    let n = left.min(chunk.len());
-                    r.exact(&mut chunk[..n])?;
-                    left -= n;
-                    let mut rest = &chunk[..n];
-                    while !rest.is_empty() {
-                        let t0 = c.now();
-                        let fed = decoder.feed(rest, &mut sweep);
-                        pass.decode += c.instructions(t0, c.now()) as u64;
-                        rest = &rest[fed.consumed..];
-                        if let Some(BlockEvent::Sweep { points }) = fed.event {
-                            pass.sweeps += 1;
-                            let closed_before = scan.counters().bins_closed;
-                            let t0 = c.now();
-                            let ev = scan.push_sweep(start_us, end_us, &sweep[..points]);
-                            let n = c.instructions(t0, c.now()) as u64;
-                            if scan.counters().bins_closed > closed_before {
-                                pass.closes += 1;
-                                pass.close_instr += n;
-                            } else {
-                                pass.adds += 1;
-                                pass.add_instr += n;
-                            }
-                            send(ev, &mut pass)?;
-                        }
-                    }
-                }
+            Step::Sweep { closed: true } => {
+                p.closes += 1;
+                p.close_instr += n;
             }
         }
     }
-    send(scan.finish(), &mut pass)?;
-    let k = scan.counters();
+}
+
+/// Replays the capture through the board loop, with `echo` instead of the capture's echo
+/// mode when given; writes preview frames to `out` when given.
+#[inline(never)]
+fn stream(
+    pump: &mut BoardPump,
+    c: &Counter,
+    echo: Option<EchoMode>,
+    out: Option<usize>,
+) -> Result<Pass, Failure> {
+    let mut r = HostReader::open(b"capture.bin\0").ok_or(Failure::NoCapture)?;
+    let mut w = HostWriter { fd: out };
+    let mut timing = Timing {
+        c,
+        t0: 0,
+        pass: Pass::default(),
+    };
+    pump.replay(&mut r, &mut w, echo, &mut timing)?;
+    let k = pump.scan().counters();
     hprintln!(
         "capture ({}): {} sweeps decoded ({} blocks rejected), {} binned, {} rejected, {} bins closed, {} preview frames",
-        match cfg.echo {
+        match pump.scan().config().echo {
             EchoMode::Never => "kernel path",
             EchoMode::EveryBin => "FFT path with echo level",
         },
-        pass.sweeps,
-        decoder.counters().rejected(),
+        pump.counters().sweeps_decoded,
+        pump.decoder().map_or(0, |d| d.counters().rejected()),
         k.sweeps_binned,
         k.sweeps_rejected(),
         k.bins_closed,
-        pass.frames
+        pump.counters().frames_sent
     );
-    Ok((pass, cfg.echo))
+    Ok(timing.pass)
 }
 
 fn per(total: u64, n: u32) -> u64 {
@@ -372,24 +381,28 @@ fn per(total: u64, n: u32) -> u64 {
 }
 
 fn capture_case(c: &Counter) -> Result<(), Failure> {
+    // The one board loop, in static storage: configured in place by each replay.
+    let pump: &'static mut BoardPump =
+        cortex_m::singleton!(: BoardPump = BoardPump::unconfigured()).ok_or(Failure::Taken)?;
     // First pass with the capture's own settings, writing the preview frames; second pass
-    // with the other echo setting, counted only, so both gating paths are measured.
+    // with the other echo setting, frames dropped, so both gating paths are measured.
     let out = host::open(b"preview.bin\0", host::WRITE).ok_or(Failure::NoCapture)?;
-    let first = stream(c, None, Some(out));
+    let first = stream(pump, c, None, Some(out));
     host::close(out);
-    let (first, first_echo) = first?;
+    let first = first?;
+    let first_echo = pump.scan().config().echo;
     let other = match first_echo {
         EchoMode::Never => EchoMode::EveryBin,
         EchoMode::EveryBin => EchoMode::Never,
     };
-    let (second, _) = stream(c, Some(other), None)?;
+    let second = stream(pump, c, Some(other), None)?;
     let (kernel, fft) = match first_echo {
         EchoMode::Never => (first, second),
         EchoMode::EveryBin => (second, first),
     };
     hprintln!(
         "board loop: decode {} instructions per sweep; add a sweep to the open bin {}",
-        per(kernel.decode, kernel.sweeps),
+        per(kernel.decode, kernel.adds + kernel.closes),
         per(kernel.add_instr, kernel.adds)
     );
     hprintln!(
@@ -462,13 +475,11 @@ where
         renormalize: true,
     };
     let t0 = c.now();
-    // Used inside the Result: moving the gate out would put a second copy on the stack.
-    let built = Gate::<M>::new(&cfg);
-    let gate = match &built {
-        Ok(g) => g,
-        Err(e) => return Err(Failure::Gate(*e)),
-    };
+    // Built in place: one copy of the gate on the stack (48 KiB at M = 2048).
+    let mut gate = Gate::<M>::unconfigured();
+    gate.configure(&cfg).map_err(Failure::Gate)?;
     let setup = c.instructions(t0, c.now());
+    let gate = &gate;
     let mut raw = [ZERO; M];
     two_path(&grid, &mut raw);
     let mut out = [ZERO; M];
@@ -531,9 +542,10 @@ fn run(c: &Counter) -> Result<(), Failure> {
     }
     capture_case(c)?;
     hprintln!(
-        "memory: peak stack of the board loop (Scan<1024, 8, 361>, {} bytes, on the stack) {} bytes",
-        core::mem::size_of::<BoardScan>(),
-        stack::peak()
+        "memory: peak stack of the board loop {} bytes (Pump<1024, 8, 361> {} bytes and its engine Scan<1024, 8, 361> {} bytes in static RAM)",
+        stack::peak(),
+        core::mem::size_of::<BoardPump>(),
+        core::mem::size_of::<sweepgate::scan::Scan<1024, 8, 361>>()
     );
     Ok(())
 }

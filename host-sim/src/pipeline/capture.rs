@@ -1,35 +1,32 @@
 //! Link captures on the host: turn a recording into the byte stream a board receives
-//! ([`sweepgate::wire::capture`]), replay a capture through the same decoder and scan engine
-//! the board runs, and compare two preview streams.
+//! ([`sweepgate::wire::capture`]), replay a capture through the core's board loop
+//! ([`sweepgate::pump`]) as the board runs it, and compare two preview streams.
 //!
 //! The firmware in `examples/firmware-m4` replays the same capture on an emulated
-//! Cortex-M4F; comparing its preview records with [`replay`]'s shows that the board computes
-//! what the host computes.
+//! Cortex-M4F with the same [`Pump::replay`]; comparing its preview records with
+//! [`replay`]'s shows that the board computes what the host computes.
 
 use crate::formats::recording::{Header, Record};
 use anyhow::{bail, Context};
 use sweepgate::bins::BinLayout;
+use sweepgate::fft::{Fft, FftSize};
 use sweepgate::gate::GateConfig;
 use sweepgate::grid::Grid;
-use sweepgate::scan::{EchoMode, Event, Scan, ScanConfig, ScanCounters};
-use sweepgate::wire::block::{
-    emit, BlockConfig, BlockDecoder, ByteOrder, Event as BlockEvent, Format,
-};
+use sweepgate::pump::Pump;
+use sweepgate::scan::{EchoMode, ScanCounters};
+use sweepgate::wire::block::{emit, ByteOrder, Format};
 use sweepgate::wire::capture::{CaptureHeader, Entry, HEADER_LEN, MAX_ENTRY_LEN, MAX_PATTERN};
-use sweepgate::wire::preview::{encode_frame, Decoder, Record as Preview};
+use sweepgate::wire::preview::{Decoder, Record as Preview};
 use sweepgate::Complex32;
 
-/// FFT size of the board build.
-pub const M: usize = 1024;
+/// FFT size of the board build (`examples/firmware-m4`); the host replays a capture with
+/// the smallest of its FFT sizes that holds the capture's points ([`FftSize::for_points`]),
+/// which is this one for every capture the board can take (K ≤ 1024).
+pub const BOARD_M: usize = 1024;
 /// Pattern frequencies of the board build.
 pub const F: usize = 8;
 /// Bins of the board build.
 pub const B: usize = 361;
-/// Bytes the board feeds its block decoder at a time (one DMA half-buffer, say).
-pub const CHUNK: usize = 64;
-
-/// The board's scan engine.
-pub type BoardScan = Scan<M, F, B>;
 
 /// Capture settings from a recording's header and a gate.
 pub fn header_for(
@@ -38,11 +35,11 @@ pub fn header_for(
     span_s: f64,
     echo: EchoMode,
 ) -> anyhow::Result<CaptureHeader> {
-    let grid = Grid::new(h.grid.start_hz, h.grid.step_hz, h.grid.points)
-        .map_err(|e| anyhow::anyhow!("recording grid: {e}"))?;
+    let grid =
+        Grid::new(h.grid.start_hz, h.grid.step_hz, h.grid.points).context("recording grid")?;
     let step = h.bin_width_deg.unwrap_or(1.0) as f32;
     let layout = BinLayout::full_circle(-180.0, step)
-        .map_err(|e| anyhow::anyhow!("bin layout for {step}° bins: {e}"))?;
+        .with_context(|| format!("bin layout for {step}° bins"))?;
     let mut pattern = [0u16; MAX_PATTERN];
     let freqs = &h.pattern_frequencies_hz;
     if freqs.is_empty() || freqs.len() > MAX_PATTERN {
@@ -79,8 +76,9 @@ pub fn header_for(
 /// Writes the capture of `records` (positions and sweeps in their order) with `header`.
 /// Sweeps become IEEE 488.2 blocks exactly as an instrument would send them.
 pub fn write(records: &[Record], header: &CaptureHeader) -> anyhow::Result<Vec<u8>> {
-    let mut out = vec![0u8; HEADER_LEN];
-    header.emit((&mut out[..]).try_into().expect("header length"));
+    let mut head_bytes = [0u8; HEADER_LEN];
+    header.emit(&mut head_bytes);
+    let mut out = head_bytes.to_vec();
     let mut head = [0u8; MAX_ENTRY_LEN];
     let mut block = Vec::new();
     for r in records {
@@ -103,7 +101,7 @@ pub fn write(records: &[Record], header: &CaptureHeader) -> anyhow::Result<Vec<u
             } => {
                 block.resize(s21.len() * header.format.sample_bytes() + 16, 0);
                 let len = emit(header.format, header.order, s21, &mut block)
-                    .map_err(|e| anyhow::anyhow!("encoding a sweep: {e}"))?;
+                    .context("encoding a sweep")?;
                 let n = Entry::Sweep {
                     start_us: *start_us,
                     end_us: *end_us,
@@ -131,90 +129,48 @@ pub struct Replayed {
     pub decoded: u32,
     /// Blocks the decoder rejected.
     pub rejected_blocks: u32,
+    /// The FFT size the capture was gated with.
+    pub fft_size: usize,
 }
 
-/// Replays a capture through the block decoder (fed [`CHUNK`] bytes at a time) and the
-/// board's scan engine, and encodes every closed bin as a preview frame — the board's
-/// loop, on the host.
+/// Replays a capture through the core's board loop ([`Pump::replay`]: the block decoder
+/// fed [`sweepgate::pump::REPLAY_CHUNK`] bytes at a time, the scan engine, a preview frame
+/// per closed bin) with `F` pattern frequencies and `B` bins as on the board, and the
+/// smallest FFT size that holds the capture's points.
 pub fn replay(capture: &[u8]) -> anyhow::Result<Replayed> {
     let head: &[u8; HEADER_LEN] = capture
         .get(..HEADER_LEN)
         .and_then(|h| h.try_into().ok())
         .context("capture shorter than its header")?;
-    let h = CaptureHeader::parse(head).map_err(|e| anyhow::anyhow!("capture header: {e}"))?;
-    let mut cfg = ScanConfig::new(h.layout);
-    cfg.echo = h.echo;
-    let mut scan = Box::new(
-        BoardScan::new(&h.gate, h.pattern_indices::<F>(), cfg)
-            .map_err(|e| anyhow::anyhow!("scan set-up: {e}"))?,
-    );
-    let mut decoder = BlockDecoder::new(BlockConfig::for_grid(&h.gate.grid, h.format, h.order));
-    let mut sweep = vec![Complex32::new(0.0, 0.0); M];
+    let points = CaptureHeader::parse(head)
+        .context("capture header")?
+        .gate
+        .grid
+        .points();
+    let size = FftSize::for_points(points).with_context(|| {
+        format!(
+            "{points} points per sweep: more than the largest FFT ({})",
+            FftSize::largest()
+        )
+    })?;
+    sweepgate::with_fft_size!(size, M => replay_with::<M>(capture))
+}
+
+fn replay_with<const M: usize>(capture: &[u8]) -> anyhow::Result<Replayed>
+where
+    [Complex32; M]: Fft,
+{
+    let mut pump: Box<Pump<M, F, B>> = Box::new(Pump::unconfigured());
     let mut preview = Vec::new();
-    let mut frame = [0u8; 512];
-    let mut seq = 0u16;
-    let mut decoded = 0;
-    let mut emit_events = |events: sweepgate::scan::Events<F>, preview: &mut Vec<u8>| {
-        for e in events {
-            if let Event::BinClosed(r) = e {
-                let n = encode_frame(&Preview::Bin(r.to_record()), seq, &mut frame)
-                    .expect("a bin record fits 512 bytes");
-                seq = seq.wrapping_add(1);
-                preview.extend_from_slice(&frame[..n]);
-            }
-        }
-    };
-    let mut at = HEADER_LEN;
-    loop {
-        let kind = *capture
-            .get(at)
-            .context("capture ends without its end entry")?;
-        let len = Entry::head_len(kind).map_err(|e| anyhow::anyhow!("at byte {at}: {e}"))?;
-        let body = capture
-            .get(at + 1..at + 1 + len)
-            .with_context(|| format!("capture ends inside the entry at byte {at}"))?;
-        let entry = Entry::parse(kind, body).map_err(|e| anyhow::anyhow!("at byte {at}: {e}"))?;
-        at += 1 + len;
-        match entry {
-            Entry::End => break,
-            Entry::Angle { t_us, angle_deg } => {
-                emit_events(scan.push_angle(t_us, angle_deg), &mut preview);
-            }
-            Entry::Sweep {
-                start_us,
-                end_us,
-                len,
-            } => {
-                let bytes = capture
-                    .get(at..at + len as usize)
-                    .with_context(|| format!("capture ends inside the sweep at byte {at}"))?;
-                at += len as usize;
-                let mut rest = bytes;
-                while !rest.is_empty() {
-                    let n = rest.len().min(CHUNK);
-                    let mut chunk = &rest[..n];
-                    while !chunk.is_empty() {
-                        let fed = decoder.feed(chunk, &mut sweep);
-                        chunk = &chunk[fed.consumed..];
-                        if let Some(BlockEvent::Sweep { points }) = fed.event {
-                            decoded += 1;
-                            emit_events(
-                                scan.push_sweep(start_us, end_us, &sweep[..points]),
-                                &mut preview,
-                            );
-                        }
-                    }
-                    rest = &rest[n..];
-                }
-            }
-        }
-    }
-    emit_events(scan.finish(), &mut preview);
+    let mut reader = capture;
+    pump.replay(&mut reader, &mut preview, None, &mut ())
+        .context("replaying the capture")?;
     Ok(Replayed {
         preview,
-        counters: scan.counters(),
-        decoded,
-        rejected_blocks: decoder.counters().rejected(),
+        counters: pump.scan().counters(),
+        decoded: pump.counters().sweeps_decoded,
+        rejected_blocks: pump.decoder().map_or(0, |d| d.counters().rejected()),
+        fft_size: M,
     })
 }
 
