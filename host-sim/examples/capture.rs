@@ -5,8 +5,8 @@
 //! cargo run --release -p sweepgate-host --example capture -- compare CAPTURE PREVIEW
 //! ```
 //!
-//! `make` turns a recording into the byte stream a board receives, with the gate the planner
-//! recommends for the recording's scenario. `compare` replays the capture through the core's
+//! `make` turns a recording into the byte stream a board receives, with the set-up `replay` and
+//! `process` use for the recording (gate, pattern frequencies, bins). `compare` replays the capture through the core's
 //! board loop (`sweepgate::pump`, as the firmware does) and compares the preview records with
 //! PREVIEW (written by the firmware): the same bins, values within 1e-5 relative.
 
@@ -14,7 +14,8 @@ use anyhow::{bail, Context};
 use sweepgate::scan::EchoMode;
 use sweepgate_host::formats::recording::recover_file;
 use sweepgate_host::pipeline::capture;
-use sweepgate_host::pipeline::plan::{parse_plan_source, plan_report, Overrides};
+use sweepgate_host::pipeline::options::Choices;
+use sweepgate_host::pipeline::setup;
 
 fn main() {
     if let Err(e) = run() {
@@ -36,21 +37,16 @@ fn run() -> anyhow::Result<()> {
             let header = recovered
                 .header()
                 .with_context(|| format!("{rec}: no header record"))?;
-            let toml = header
-                .scenario_toml
-                .as_deref()
-                .with_context(|| format!("{rec}: the recording carries no scenario to plan from"))?;
-            let source = parse_plan_source(toml, rec)?;
-            let plan = plan_report(&source, rec, &Overrides::default())?;
-            let gate = plan
-                .gate
-                .with_context(|| format!("{rec}: the planner recommends no gate for this room"))?;
-            let h = capture::header_for(header, gate.center_s, gate.span_s, echo)?;
+            // The one set-up with every default, as `replay` and `process` build it.
+            let setup = setup::for_recording(header, &Choices::default(), &[])
+                .with_context(|| format!("{rec}: set-up"))?;
+            let gate = setup.gate;
+            let h = capture::header_for(&setup, echo)?;
             let records: Vec<_> = recovered.records.into_iter().map(|(_, r)| r).collect();
             let bytes = capture::write(&records, &h)?;
             std::fs::write(out, &bytes).with_context(|| format!("writing {out}"))?;
             println!(
-                "capture: {} bytes to {out} (gate centre {:.3} ns, span {:.3} ns)",
+                "capture: {} bytes to {out} (gate center {:.3} ns, span {:.3} ns)",
                 bytes.len(),
                 gate.center_s * 1e9,
                 gate.span_s * 1e9

@@ -133,9 +133,10 @@ use crate::limits::MAX_FREQUENCIES;
 use crate::model::scenario::Scenario;
 use crate::model::simulator::{Sample, Simulator};
 use crate::output::report::ReportBin;
-use crate::pipeline::engine::{c64, warning_text, Engine};
+use crate::pipeline::engine::{warning_text, Engine};
 use crate::pipeline::options::{describe_window, Choices, GateOptions};
 use crate::pipeline::setup::{self, Setup};
+use crate::pipeline::transform::c64;
 use crate::units::db;
 
 /// The default profile, for `sweepgate instrument`.

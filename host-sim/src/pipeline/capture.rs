@@ -6,12 +6,10 @@
 //! Cortex-M4F with the same [`Pump::replay`]; comparing its preview records with
 //! [`replay`]'s shows that the board computes what the host computes.
 
-use crate::formats::recording::{Header, Record};
+use crate::formats::recording::Record;
+use crate::pipeline::setup::Setup;
 use anyhow::{bail, Context};
-use sweepgate::bins::BinLayout;
 use sweepgate::fft::{Fft, FftSize};
-use sweepgate::gate::GateConfig;
-use sweepgate::grid::Grid;
 use sweepgate::pump::Pump;
 use sweepgate::scan::{EchoMode, ScanCounters};
 use sweepgate::wire::block::{emit, ByteOrder, Format};
@@ -28,45 +26,29 @@ pub const F: usize = 8;
 /// Bins of the board build.
 pub const B: usize = 361;
 
-/// Capture settings from a recording's header and a gate.
-pub fn header_for(
-    h: &Header,
-    center_s: f64,
-    span_s: f64,
-    echo: EchoMode,
-) -> anyhow::Result<CaptureHeader> {
-    let grid =
-        Grid::new(h.grid.start_hz, h.grid.step_hz, h.grid.points).context("recording grid")?;
-    let step = h.bin_width_deg.unwrap_or(1.0) as f32;
-    let layout = BinLayout::full_circle(-180.0, step)
-        .with_context(|| format!("bin layout for {step}° bins"))?;
-    let mut pattern = [0u16; MAX_PATTERN];
-    let freqs = &h.pattern_frequencies_hz;
-    if freqs.is_empty() || freqs.len() > MAX_PATTERN {
+/// Capture settings from the one set-up of the recording ([`crate::pipeline::setup`]): the
+/// same gate, pattern frequencies and bin layout as `replay` and `process` use, so the board
+/// gates a capture exactly as the host gates its recording.
+pub fn header_for(setup: &Setup, echo: EchoMode) -> anyhow::Result<CaptureHeader> {
+    let n = setup.indices.len();
+    if n == 0 || n > MAX_PATTERN {
+        bail!("a capture needs 1 to {MAX_PATTERN} pattern frequencies, the set-up has {n}");
+    }
+    if usize::from(setup.layout.count()) > B {
         bail!(
-            "a capture needs 1 to {MAX_PATTERN} pattern frequencies, the recording names {}",
-            freqs.len()
+            "the board holds {B} bins; the set-up's layout has {}",
+            setup.layout.count()
         );
     }
-    for (p, &f) in pattern.iter_mut().zip(freqs) {
-        *p = grid
-            .nearest_index(f)
-            .with_context(|| format!("pattern frequency {f} Hz is outside the sweep"))?
-            as u16;
+    let mut pattern = [0u16; MAX_PATTERN];
+    for (p, &i) in pattern.iter_mut().zip(&setup.indices) {
+        *p = u16::try_from(i).context("pattern frequency index")?;
     }
     Ok(CaptureHeader {
-        gate: GateConfig {
-            grid,
-            // The same windows as `plan` (which chose the gate) and `replay`.
-            band_window: crate::pipeline::options::default_band_window(),
-            center_s,
-            span_s,
-            shape: crate::pipeline::replay::GATE_SHAPE,
-            renormalize: true,
-        },
-        layout,
+        gate: setup.gate,
+        layout: setup.layout,
         pattern,
-        pattern_count: freqs.len() as u8,
+        pattern_count: n as u8,
         format: Format::Real32,
         order: ByteOrder::Normal,
         echo,

@@ -25,9 +25,10 @@ use sweepgate::Complex32;
 
 use crate::model::scenario::Scenario;
 use crate::output::report;
-use crate::pipeline::engine::{gate_sweeps, FftSize};
+use crate::pipeline::engine::gate_sweeps;
 use crate::pipeline::options::{describe_window, Choices, GateOptions, Origin};
 use crate::pipeline::setup::{self, AutoGate, Automatic};
+use crate::pipeline::transform::FftSize;
 use crate::pipeline::{replay, simulate};
 
 /// Options of `sweepgate demo`.

@@ -1,8 +1,5 @@
 //! The scan engine on the host, at any of its FFT sizes.
 //!
-//! - [`FftSize`] and [`FftJob`]: the one dispatch from a run-time FFT size to the core's
-//!   const-generic code. Every host caller of a `Gate<M>` or `Scan<M, F, B>` goes through
-//!   [`FftSize::run`].
 //! - [`Engine`]: the core's [`Scan`] built from a [`Setup`], fed in the order a board sees
 //!   its inputs: angle samples at once, and each sweep held until the positioner has
 //!   reported at or past the sweep's end, so that the sweep's angle is interpolated rather
@@ -10,13 +7,10 @@
 //!   same records through it, so they close the same bins with the same values. It keeps
 //!   the closed bins for the report, counts warnings by their wording
 //!   ([`warning_text`]), and sums the raw sweeps of the bin at 0° for the impulse view.
-//! - [`impulse_view`]: the impulse response of a sweep with the gate drawn on it, for the
-//!   report's plot.
 
 use std::collections::{BTreeMap, VecDeque};
 
 use anyhow::Context;
-use num_complex::Complex64;
 use sweepgate::bins::BinLayout;
 use sweepgate::fft::Fft;
 use sweepgate::gate::{Gate, GateConfig};
@@ -24,72 +18,10 @@ use sweepgate::scan::{BinResult, Event, Events, Scan, ScanCounters, Warning};
 use sweepgate::wire::preview::StatusRecord;
 use sweepgate::Complex32;
 
-use crate::limits::{FFT_SIZES, MAX_BINS, MAX_FREQUENCIES};
+use crate::limits::{MAX_BINS, MAX_FREQUENCIES};
 use crate::output::report::{ImpulseView, ReportBin, ReportValue};
 use crate::pipeline::setup::Setup;
-
-/// An FFT size the host engine is built for ([`FFT_SIZES`]).
-#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
-pub enum FftSize {
-    /// 1024 points.
-    N1024,
-    /// 2048 points.
-    N2048,
-    /// 4096 points.
-    N4096,
-}
-
-/// Work that needs the FFT size as a constant: [`FftSize::run`] calls [`FftJob::run`] with
-/// it.
-pub trait FftJob {
-    /// What the work gives.
-    type Output;
-    /// Does the work at FFT size `M`.
-    fn run<const M: usize>(self) -> Self::Output
-    where
-        [Complex32; M]: Fft;
-}
-
-impl FftSize {
-    /// Every size, smallest first.
-    pub const ALL: [FftSize; 3] = [FftSize::N1024, FftSize::N2048, FftSize::N4096];
-
-    /// The smallest size that holds `points` samples.
-    pub fn for_points(points: usize) -> anyhow::Result<Self> {
-        Self::ALL
-            .into_iter()
-            .find(|s| points <= s.points())
-            .with_context(|| {
-                format!(
-                    "{points} points per sweep: more than the largest FFT ({})",
-                    FFT_SIZES[FFT_SIZES.len() - 1]
-                )
-            })
-    }
-
-    /// Points of the transform.
-    pub fn points(self) -> usize {
-        match self {
-            FftSize::N1024 => FFT_SIZES[0],
-            FftSize::N2048 => FFT_SIZES[1],
-            FftSize::N4096 => FFT_SIZES[2],
-        }
-    }
-
-    /// Runs `job` at this size.
-    pub fn run<J: FftJob>(self, job: J) -> J::Output {
-        match self {
-            FftSize::N1024 => job.run::<{ FFT_SIZES[0] }>(),
-            FftSize::N2048 => job.run::<{ FFT_SIZES[1] }>(),
-            FftSize::N4096 => job.run::<{ FFT_SIZES[2] }>(),
-        }
-    }
-}
-
-/// Widens a single-precision value.
-pub fn c64(z: Complex32) -> Complex64 {
-    Complex64::new(f64::from(z.re), f64::from(z.im))
-}
+use crate::pipeline::transform::{self, c64, impulse_view, FftJob};
 
 /// A closed bin as a report bin (truth not yet known).
 pub fn report_bin<const F: usize>(r: &BinResult<F>, frequencies: usize) -> ReportBin {
@@ -122,36 +54,6 @@ pub fn warning_text(w: &Warning) -> String {
     }
 }
 
-/// The impulse response of `sweep` (zero-padded to M) through the gate's band window, with
-/// the gate window and its edges, for the report's plot.
-pub fn impulse_view<const M: usize>(
-    gate: &Gate<M>,
-    sweep: &[Complex32],
-    angle_deg: f64,
-    sweeps: u32,
-) -> ImpulseView
-where
-    [Complex32; M]: Fft,
-{
-    let zero = Complex32::new(0.0, 0.0);
-    let mut raw: Box<[Complex32; M]> = Box::new([zero; M]);
-    for (b, v) in raw.iter_mut().zip(sweep) {
-        *b = *v;
-    }
-    let mut ir: Box<[Complex32; M]> = Box::new([zero; M]);
-    gate.impulse_response(&raw, &mut ir);
-    let cfg = gate.config();
-    ImpulseView {
-        angle_deg,
-        sweeps,
-        time_ns: (0..M).map(|m| cfg.grid.time_s(M, m) * 1e9).collect(),
-        magnitude: ir.iter().map(|z| f64::from(z.norm())).collect(),
-        gate: gate.gate_window().iter().map(|&x| f64::from(x)).collect(),
-        gate_start_ns: (cfg.center_s - 0.5 * cfg.span_s) * 1e9,
-        gate_stop_ns: (cfg.center_s + 0.5 * cfg.span_s) * 1e9,
-    }
-}
-
 /// Sweeps gated one by one on the FFT path (window, inverse FFT, time gate, FFT,
 /// renormalization), as the engine gates a bin holding one sweep.
 #[derive(Debug, Clone)]
@@ -171,11 +73,14 @@ pub fn gate_sweeps(
     sweeps: &[&[Complex32]],
     impulse_of: Option<(usize, f64)>,
 ) -> anyhow::Result<GatedSweeps> {
-    FftSize::for_points(cfg.grid.points())?.run(GateEach {
-        cfg,
-        sweeps,
-        impulse_of,
-    })
+    transform::run(
+        transform::fft_size(cfg.grid.points())?,
+        GateEach {
+            cfg,
+            sweeps,
+            impulse_of,
+        },
+    )
 }
 
 struct GateEach<'a> {
@@ -319,7 +224,7 @@ pub struct Engine {
 impl Engine {
     /// Builds the engine of `setup` (gate, pattern frequencies, bins, scan mode).
     pub fn new(setup: &Setup) -> anyhow::Result<Self> {
-        let scan = setup.fft_size.run(Build(setup))?;
+        let scan = transform::run(setup.fft_size, Build(setup))?;
         let points = setup.grid.points();
         Ok(Self {
             scan,
@@ -450,40 +355,6 @@ impl Engine {
                 Event::Finished(_) => {}
             }
             out.push(e);
-        }
-    }
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn sizes_are_the_smallest_that_hold_the_sweep() {
-        assert_eq!(FftSize::for_points(201).unwrap(), FftSize::N1024);
-        assert_eq!(FftSize::for_points(1024).unwrap(), FftSize::N1024);
-        assert_eq!(FftSize::for_points(1025).unwrap(), FftSize::N2048);
-        assert_eq!(FftSize::for_points(4096).unwrap(), FftSize::N4096);
-        let e = FftSize::for_points(4097).unwrap_err();
-        assert!(format!("{e:#}").contains("largest FFT (4096)"), "{e:#}");
-        let points: Vec<usize> = FftSize::ALL.iter().map(|s| s.points()).collect();
-        assert_eq!(points, FFT_SIZES);
-    }
-
-    #[test]
-    fn the_dispatch_runs_at_the_size_asked() {
-        struct Size;
-        impl FftJob for Size {
-            type Output = usize;
-            fn run<const M: usize>(self) -> usize
-            where
-                [Complex32; M]: Fft,
-            {
-                M
-            }
-        }
-        for s in FftSize::ALL {
-            assert_eq!(s.run(Size), s.points());
         }
     }
 }

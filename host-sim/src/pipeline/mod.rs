@@ -13,3 +13,4 @@ pub mod setup;
 pub mod simulate;
 pub mod stream;
 pub mod summary;
+pub mod transform;

@@ -51,11 +51,12 @@ use crate::formats::manifest::{AngleSweep, Manifest};
 use crate::formats::recording as record;
 use crate::formats::touchstone::{Parameter, Spacing, Touchstone};
 use crate::output::report::{self, ImpulseView, ReportBin, ReportInput, ReportValue};
-use crate::pipeline::engine::{c64, gate_sweeps};
+use crate::pipeline::engine::gate_sweeps;
 use crate::pipeline::options::{default_report_dir, window_option, Choices, GateOptions, Origin};
 use crate::pipeline::setup::{self, Automatic};
 use crate::pipeline::stream::{self, Discard, Pacing};
 use crate::pipeline::summary::Settings;
+use crate::pipeline::transform::c64;
 
 /// Options of `sweepgate process`, as given (`cli/process.rs` spells them).
 #[derive(Debug, Clone, Default)]

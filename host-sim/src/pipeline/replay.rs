@@ -30,10 +30,6 @@ use crate::pipeline::options::{default_report_dir, GateOptions};
 use crate::pipeline::setup::{self, Setup};
 use crate::pipeline::stream::{self, Outcome, Pacing, Sink};
 
-/// The default gate shape under its earlier name, for callers not yet moved to
-/// [`crate::pipeline::options::DEFAULT_GATE_SHAPE`].
-pub use crate::pipeline::options::DEFAULT_GATE_SHAPE as GATE_SHAPE;
-
 /// Options of `sweepgate replay`.
 #[derive(Debug, Clone)]
 pub struct Options {

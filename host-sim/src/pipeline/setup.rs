@@ -47,11 +47,11 @@ use sweepgate::Complex32;
 use crate::formats::recording::{Header, SWEEP_FORMAT};
 use crate::limits::MAX_FREQUENCIES;
 use crate::model::scenario::{Mode, Scenario};
-use crate::pipeline::engine::{FftJob, FftSize};
 use crate::pipeline::options::{
     default_band_window, parse_window, Choices, Origin, DEFAULT_GATE_SHAPE,
 };
 use crate::pipeline::plan::{aut_size_m, room_geometry, Overrides};
+use crate::pipeline::transform::{self, impulse_view, FftJob, FftSize};
 
 /// An automatic gate: center and span, s, the rule in words and its name.
 #[derive(Debug, Clone, PartialEq)]
@@ -207,7 +207,7 @@ pub fn gating(
             shape: gate_shape(choices),
             renormalize: true,
         },
-        fft_size: FftSize::for_points(grid.points())?,
+        fft_size: transform::fft_size(grid.points())?,
         gate_rule: rule,
         gate_source: source,
         remarks,
@@ -543,12 +543,16 @@ pub fn peak_gate(
     let Some(&(i, sweep)) = usable.get(strongest(&only)) else {
         bail!("no gate: there is no scenario to plan one from and no sweep to find one in; give --gate-center-ns and --gate-span-ns");
     };
-    let peak_m = FftSize::for_points(grid.points())?.run(PeakSample {
-        grid,
-        band_window,
-        sweep,
-    })?;
-    let m = FftSize::for_points(grid.points())?.points();
+    let size = transform::fft_size(grid.points())?;
+    let peak_m = transform::run(
+        size,
+        PeakSample {
+            grid,
+            band_window,
+            sweep,
+        },
+    )?;
+    let m = size.points();
     let center_s = grid.time_s(m, peak_m);
     let mainlobe_s = band_window.mainlobe_width() / (grid.points() as f64 * grid.step_hz());
     let span_s = (4.0 * mainlobe_s)
@@ -593,7 +597,7 @@ impl FftJob for PeakSample<'_> {
             renormalize: false,
         };
         let gate = Box::new(Gate::<M>::new(&provisional).context("provisional gate")?);
-        let view = crate::pipeline::engine::impulse_view(&gate, self.sweep, 0.0, 1);
+        let view = impulse_view(&gate, self.sweep, 0.0, 1);
         let mut peak = (0usize, -1.0f64);
         for (m, h) in view.magnitude.iter().enumerate() {
             if *h > peak.1 {

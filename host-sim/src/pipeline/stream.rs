@@ -24,9 +24,10 @@ use sweepgate::Complex32;
 use crate::formats::recording::{self as record, Header, Record, Recovered, Writer};
 use crate::limits::{MAX_FRAME_BYTES, MAX_FREQUENCIES};
 use crate::output::report::{ReportBin, ReportInput};
-use crate::pipeline::engine::{c64, Engine};
+use crate::pipeline::engine::Engine;
 use crate::pipeline::setup::Setup;
 use crate::pipeline::summary::{Counters, Settings};
+use crate::pipeline::transform::c64;
 
 /// Scan time between status records, µs.
 pub const STATUS_INTERVAL_US: u64 = 250_000;
