@@ -35,8 +35,9 @@
 //! use sweepgate::wire::preview::{Decoder, Record};
 //!
 //! let grid = Grid::from_start_stop(2e9, 18e9, 201).unwrap();
-//! let gate = GateConfig { grid, band_window: WindowKind::Hann, center_s: 10e-9,
-//!     span_s: 4e-9, shape: WindowKind::Tukey { alpha: 0.5 }, renormalize: true };
+//! let gate = GateConfig { grid, band_window: WindowKind::Kaiser { beta: 6.0 },
+//!     center_s: 10e-9, span_s: 4e-9, shape: WindowKind::Tukey { alpha: 0.5 },
+//!     renormalize: true };
 //! let cfg = PumpConfig {
 //!     gate,
 //!     pattern_indices: [100],

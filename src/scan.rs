@@ -378,8 +378,9 @@ where
     /// assert_eq!(ev[0], Event::Warning(Warning::SweepRejected(SweepReject::NotConfigured)));
     ///
     /// let grid = Grid::from_start_stop(2e9, 18e9, 201).unwrap();
-    /// let gate = GateConfig { grid, band_window: WindowKind::Hann, center_s: 10e-9,
-    ///     span_s: 4e-9, shape: WindowKind::Tukey { alpha: 0.5 }, renormalize: true };
+    /// let gate = GateConfig { grid, band_window: WindowKind::Kaiser { beta: 6.0 },
+    ///     center_s: 10e-9, span_s: 4e-9, shape: WindowKind::Tukey { alpha: 0.5 },
+    ///     renormalize: true };
     /// let cfg = ScanConfig::new(BinLayout::full_circle(0.0, 1.0).unwrap());
     /// scan.configure(&gate, [0, 100], cfg).unwrap();
     /// assert!(scan.is_configured());
