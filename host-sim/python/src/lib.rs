@@ -19,7 +19,7 @@ use pyo3::exceptions::PyValueError;
 use pyo3::prelude::*;
 
 pyo3::create_exception!(
-    _native,
+    sweepgate,
     SweepgateError,
     PyValueError,
     "An error from sweepgate: bad settings, bad input data or a file that cannot be read. \
