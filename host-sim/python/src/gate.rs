@@ -144,8 +144,9 @@ fn build(cfg: &GateConfig, fft_size: usize) -> anyhow::Result<Box<dyn AnyGate>> 
     }
 }
 
-/// The uniform grid through a list of frequencies, refused when a point lies farther from it
-/// than the Touchstone reader allows ([`UNIFORM_TOLERANCE_OF_STEP`] of a step).
+/// The uniform grid through the first and last of a list of frequencies, refused (naming
+/// the farthest point) when a point lies farther from it than the Touchstone reader allows
+/// ([`UNIFORM_TOLERANCE_OF_STEP`] of a step).
 pub fn grid_from_frequencies(f: &[f64]) -> anyhow::Result<Grid> {
     if let Some((i, v)) = f.iter().enumerate().find(|(_, v)| !v.is_finite()) {
         bail!("frequencies_hz: point {i} is not finite ({v})");
@@ -160,14 +161,19 @@ pub fn grid_from_frequencies(f: &[f64]) -> anyhow::Result<Grid> {
     let grid = Grid::from_start_stop(first, last, f.len())
         .map_err(|e| anyhow!("frequencies_hz: not a usable grid: {e}"))?;
     let tolerance_hz = UNIFORM_TOLERANCE_OF_STEP * grid.step_hz();
+    let (mut worst, mut worst_off) = (0usize, 0.0f64);
     for (i, &v) in f.iter().enumerate() {
         let off = (v - grid.frequency_hz(i)).abs();
-        if off > tolerance_hz {
-            bail!(
-                "frequencies_hz: not evenly spaced: point {i} ({v} Hz) is {off} Hz off the even grid of step {} Hz (tolerance {tolerance_hz} Hz)",
-                grid.step_hz()
-            );
+        if off > worst_off {
+            (worst, worst_off) = (i, off);
         }
+    }
+    if worst_off > tolerance_hz {
+        bail!(
+            "frequencies_hz: not evenly spaced: point {worst} ({} Hz) is {worst_off} Hz off the even grid of step {} Hz (tolerance {tolerance_hz} Hz)",
+            f[worst],
+            grid.step_hz()
+        );
     }
     Ok(grid)
 }
