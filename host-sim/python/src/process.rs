@@ -35,13 +35,38 @@ fn run(mut r: Resolved, write: bool) -> anyhow::Result<Processed> {
         return host::process(&r);
     }
     if r.gain.is_some() {
-        let tmp = tempfile::tempdir().context("making a temporary report folder")?;
-        r.out = tmp.path().to_path_buf();
+        let tmp = TempFolder::new()?;
+        r.out = tmp.0.clone();
         return host::process(&r);
     }
     match &r.input {
         Input::Manifest(m) => host::process_manifest(&r, m),
         Input::Recording(rec) => host::process_recording(&r, rec),
+    }
+}
+
+/// A folder under the system's temporary folder, removed with everything in it on drop.
+struct TempFolder(PathBuf);
+
+impl TempFolder {
+    fn new() -> anyhow::Result<Self> {
+        let nanos = std::time::SystemTime::now()
+            .duration_since(std::time::UNIX_EPOCH)
+            .map_or(0, |d| d.subsec_nanos());
+        let dir = std::env::temp_dir().join(format!(
+            "sweepgate-python-report-{}-{nanos}",
+            std::process::id()
+        ));
+        std::fs::create_dir(&dir)
+            .with_context(|| format!("making a temporary report folder {}", dir.display()))?;
+        Ok(Self(dir))
+    }
+}
+
+impl Drop for TempFolder {
+    fn drop(&mut self) {
+        // Best effort: a folder left behind in the temporary folder harms nothing.
+        let _ = std::fs::remove_dir_all(&self.0);
     }
 }
 

@@ -5,7 +5,9 @@ written here."""
 import json
 import math
 import struct
+import tempfile
 import zlib
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -151,9 +153,14 @@ def test_gain_by_substitution_equals_the_command(sweepgate_bin, manifest, tmp_pa
     run_cli(sweepgate_bin, "process", "--manifest", path, "--out", tmp_path / "cli",
             "--gate-center-ns", "14", "--gate-span-ns", "4", "--gain-table", table,
             "--reference", reference)
+    def temporary_reports():
+        return set(Path(tempfile.gettempdir()).glob("sweepgate-python-report-*"))
+
+    before = temporary_reports()
     result = sweepgate.process(manifest=path, gate_center_ns=14, gate_span_ns=4,
                                gain_table=table, reference=reference)
     assert result.gain_dbi is not None and result.out is None
+    assert temporary_reports() == before  # the report it needed was removed again
     compare_with_pattern_csv(result, tmp_path / "cli" / "pattern.csv", "gain by substitution")
     # At boresight the AUT is the reference: its gain is the table's, 16 dBi at 10 GHz.
     b = int(np.flatnonzero(result.angle_deg == 0.0)[0])
