@@ -318,9 +318,8 @@ def plan_text(
     )
 
 
-def _db(z: Optional[np.ndarray]) -> Optional[np.ndarray]:
-    if z is None:
-        return None
+def _db(z: np.ndarray) -> np.ndarray:
+    """20·log10|z| with the report's floor of −300 dB."""
     with np.errstate(divide="ignore"):
         return np.maximum(20.0 * np.log10(np.abs(z)), -300.0)
 
@@ -370,7 +369,7 @@ class ProcessResult:
     @property
     def truth_db(self) -> Optional[np.ndarray]:
         """20·log10|truth|, or ``None``."""
-        return _db(self.truth)
+        return None if self.truth is None else _db(self.truth)
 
 
 def _opt_path(p: Optional[PathLike]) -> Optional[str]:

@@ -1,23 +1,36 @@
 """Type stubs of the compiled module ``sweepgate._native`` (src/*.rs)."""
 
 from os import PathLike
-from typing import Any, List, Optional, Tuple, Union
+from typing import Any, List, Optional, Tuple, Union, final
 
 import numpy as np
 import numpy.typing as npt
 
 _Path = Union[str, PathLike[str]]
 
+__all__ = [
+    "SweepgateError",
+    "Gate",
+    "parse_window_spelling",
+    "default_windows",
+    "FFT_SIZES",
+    "plan",
+    "process",
+    "peak_gate",
+    "read_recording",
+]
+
 FFT_SIZES: List[int]
 
 class SweepgateError(ValueError):
     """An error from sweepgate, with the message the command line prints."""
 
+@final
 class Gate:
     """A time gate validated once by the core, applied to N × K arrays of sweeps."""
 
-    def __init__(
-        self,
+    def __new__(
+        cls,
         frequencies_hz: npt.NDArray[np.float64],
         *,
         center_s: float,
@@ -26,7 +39,7 @@ class Gate:
         shape: Optional[str] = None,
         renormalize: bool = True,
         fft_size: Optional[int] = None,
-    ) -> None: ...
+    ) -> "Gate": ...
     def apply(
         self, sweeps: npt.NDArray[np.complex64], *, threads: Optional[int] = None
     ) -> Tuple[npt.NDArray[np.complex64], npt.NDArray[np.float32]]:

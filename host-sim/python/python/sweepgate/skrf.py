@@ -25,7 +25,7 @@ from typing import Any, Dict, List, Optional, Sequence, Tuple
 import numpy as np
 
 try:
-    import skrf as _skrf  # noqa: F401  (only its presence is needed here)
+    import skrf as _skrf  # type: ignore[import-untyped]  # noqa: F401  (only its presence matters)
 except ImportError as e:  # pragma: no cover - depends on the environment
     raise ImportError(
         "sweepgate.skrf needs scikit-rf: pip install scikit-rf"
