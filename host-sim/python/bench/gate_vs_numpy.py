@@ -10,7 +10,7 @@ FFT, edge renormalization) on all 360 rows in one call per step, with the window
 renormalization computed once outside the timed part, as a batch script would keep them.
 It runs in complex128 (numpy's default) and in complex64 (numpy 2 transforms single
 precision natively); sweepgate runs in single precision, on one thread and on every core.
-Each figure is the best of the repeats.
+Each figure is the best of the repeats, the variants taking turns.
 """
 
 import argparse
@@ -61,12 +61,16 @@ def numpy_gate(x, band, gate, inv_r, dtype):
     return y * inv_r
 
 
-def best_of(repeats, fn):
-    best, out = float("inf"), None
+def best_of(repeats, variants):
+    """Best time and last result of each variant, the variants taking turns in every round so
+    that a change in the machine's load falls on all of them alike."""
+    best = {name: float("inf") for name in variants}
+    out = {}
     for _ in range(repeats):
-        t0 = time.perf_counter()
-        out = fn()
-        best = min(best, time.perf_counter() - t0)
+        for name, fn in variants.items():
+            t0 = time.perf_counter()
+            out[name] = fn()
+            best[name] = min(best[name], time.perf_counter() - t0)
     return best, out
 
 
@@ -99,11 +103,16 @@ def main():
     for dt, (b, gt, ir) in prepared.items():
         numpy_gate(x64 if dt == "complex64" else x, b, gt, ir, dt)
 
-    t_ours1, y1 = best_of(args.repeats, lambda: ours(1))
-    t_ours, y = best_of(args.repeats, lambda: ours(None))
-    t_apply, (ya, _) = best_of(args.repeats, lambda: g.apply(x64, threads=1))
-    t_np128, ref = best_of(args.repeats, lambda: numpy_gate(x, *prepared["complex128"], "complex128"))
-    t_np64, ref64 = best_of(args.repeats, lambda: numpy_gate(x64, *prepared["complex64"], "complex64"))
+    t, out = best_of(args.repeats, {
+        "ours1": lambda: ours(1),
+        "ours": lambda: ours(None),
+        "apply": lambda: g.apply(x64, threads=1)[0],
+        "np128": lambda: numpy_gate(x, *prepared["complex128"], "complex128"),
+        "np64": lambda: numpy_gate(x64, *prepared["complex64"], "complex64"),
+    })
+    t_ours1, t_ours, t_apply, t_np128, t_np64 = (
+        t[k] for k in ["ours1", "ours", "apply", "np128", "np64"])
+    y1, y, ya, ref, ref64 = (out[k] for k in ["ours1", "ours", "apply", "np128", "np64"])
 
     # Agreement, measured before the renormalization's division (which magnifies single
     # precision rounding where the band window is small): max|a-b|*|r| / max|b*r|.
