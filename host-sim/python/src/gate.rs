@@ -91,15 +91,24 @@ where
         // refuses here would give 0, never a wrong value.
         let kernels: Vec<Option<Kernels<M, 1>>> =
             indices.iter().map(|&i| self.0.kernels([i]).ok()).collect();
+        // One frequency: the band window on the fly; more: window once, then the dot
+        // products (the core's advice, src/gate.rs).
+        let prewindow = kernels.len() > 1;
         let mut buf = Box::new([ZERO; M]);
         let mut one = [ZERO; 1];
         for (row, o) in rows.chunks(k).zip(out.chunks_mut(indices.len().max(1))) {
             self.load(row, &mut buf);
-            self.0.window(&mut buf, 1.0);
+            if prewindow {
+                self.0.window(&mut buf, 1.0);
+            }
             for (v, kern) in o.iter_mut().zip(&kernels) {
                 *v = match kern {
-                    Some(kern) => {
+                    Some(kern) if prewindow => {
                         self.0.apply_kernels_windowed(kern, &buf, &mut one);
+                        one[0]
+                    }
+                    Some(kern) => {
+                        self.0.apply_kernels(kern, &buf, &mut one);
                         one[0]
                     }
                     None => ZERO,
