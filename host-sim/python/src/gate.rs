@@ -16,8 +16,9 @@ use sweepgate::grid::Grid;
 use sweepgate::window::WindowKind;
 use sweepgate::Complex32;
 use sweepgate_host::formats::touchstone::UNIFORM_TOLERANCE_OF_STEP;
+use sweepgate_host::pipeline::options::DEFAULT_GATE_SHAPE as GATE_SHAPE;
 use sweepgate_host::pipeline::options::{default_band_window, format_window, parse_window};
-use sweepgate_host::pipeline::replay::{fft_size_for, GATE_SHAPE};
+use sweepgate_host::pipeline::transform::fft_size as fft_size_for;
 
 use crate::to_py_err;
 
@@ -312,7 +313,7 @@ impl PyGate {
             };
             let m = match fft_size {
                 Some(m) => m,
-                None => fft_size_for(grid.points())?,
+                None => fft_size_for(grid.points())?.points(),
             };
             build(&cfg, m)
         };

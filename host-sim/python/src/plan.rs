@@ -6,9 +6,10 @@ use std::path::PathBuf;
 
 use anyhow::{anyhow, Context};
 use pyo3::prelude::*;
+use sweepgate_host::output::plan_text::render_text;
 use sweepgate_host::pipeline::options::parse_window;
 use sweepgate_host::pipeline::plan::{
-    load_plan_source, parse_plan_source, plan_report, render_text, Overrides, PlanReport,
+    load_plan_source, parse_plan_source, plan_report, Overrides, PlanReport,
 };
 
 use crate::{json_to_py, to_py_err};

@@ -16,10 +16,11 @@ use pyo3::prelude::*;
 use pyo3::types::PyDict;
 use sweepgate::Complex32;
 use sweepgate_host::output::report::{self, ReportBin, ReportInput};
-use sweepgate_host::pipeline::options::{default_band_window, format_window, parse_window};
-use sweepgate_host::pipeline::process::{
-    self as host, gate_from_peak, strongest, Args, Input, Processed, Resolved,
+use sweepgate_host::pipeline::options::{
+    default_band_window, format_window, parse_window, GateOptions,
 };
+use sweepgate_host::pipeline::process::{self as host, Input, Options, Processed, Resolved};
+use sweepgate_host::pipeline::setup::peak_gate as host_peak_gate;
 
 use crate::{json_to_py, to_py_err};
 
@@ -107,21 +108,23 @@ fn process<'py>(
         )));
     }
     let write = out.is_some();
-    let args = Args {
+    let args = Options {
         input,
         manifest,
         recording,
-        gate_center_ns,
-        gate_span_ns,
-        // The command line's text form; Rust prints each f64 so that it parses back equal.
-        frequencies_hz: frequencies_hz.map(|v| {
-            v.iter()
-                .map(|f| format!("{f:?}"))
-                .collect::<Vec<_>>()
-                .join(",")
-        }),
-        band_window,
-        gate_shape,
+        gate: GateOptions {
+            gate_center_ns,
+            gate_span_ns,
+            // The command line's text form; Rust prints each f64 so that it parses back equal.
+            frequencies_hz: frequencies_hz.map(|v| {
+                v.iter()
+                    .map(|f| format!("{f:?}"))
+                    .collect::<Vec<_>>()
+                    .join(",")
+            }),
+            band_window,
+            gate_shape,
+        },
         parameter,
         resample,
         out,
@@ -208,7 +211,7 @@ fn gain_dbi(rep: &ReportInput, bins: &[&ReportBin]) -> Option<Array2<f64>> {
     let mut out = Vec::with_capacity(bins.len() * f);
     for b in bins {
         for (fi, v) in b.values.iter().enumerate().take(f) {
-            out.push(report::db(v.gated) + g.offset_db(fi).unwrap_or(f64::NAN));
+            out.push(sweepgate_host::units::db(v.gated) + g.offset_db(fi).unwrap_or(f64::NAN));
         }
     }
     Array2::from_shape_vec((bins.len(), f), out).ok()
@@ -253,9 +256,9 @@ fn peak_gate(
         if refs.is_empty() {
             anyhow::bail!("sweeps: no sweeps to find a gate in");
         }
-        let i = strongest(&refs);
-        let (c, s, rule) = gate_from_peak(&grid, w, refs[i])?;
-        Ok((c, s, rule, i))
+        let i = sweepgate_host::pipeline::setup::strongest(&refs);
+        let g = host_peak_gate(&grid, w, &refs, None)?;
+        Ok((g.center_s, g.span_s, g.rule, i))
     })
     .map_err(to_py_err)
 }
