@@ -44,6 +44,7 @@ fn resolved(input: Input, out: &Path) -> Resolved {
         spacing: Spacing::RequireUniform,
         out: out.to_path_buf(),
         gain: None,
+        exports: Default::default(),
     }
 }
 
@@ -256,7 +257,7 @@ fn the_command_writes_pattern_csv_at_grid_frequencies() {
     let mut lines = csv.lines();
     assert_eq!(
         lines.next().unwrap(),
-        "angle_deg,frequency_hz,raw_db,gated_db,gated_phase_deg,echo_db,sweeps,flags"
+        "angle_deg,frequency_hz,raw_db,gated_db,gated_phase_deg,raw_phase_deg,echo_db,sweeps,flags"
     );
     let rows: Vec<Vec<&str>> = lines.map(|l| l.split(',').collect()).collect();
     assert_eq!(rows.len(), 7 * 2);
@@ -265,10 +266,10 @@ fn the_command_writes_pattern_csv_at_grid_frequencies() {
     freqs.dedup();
     assert_eq!(freqs, vec![6e9, 10e9]);
     for r in &rows {
-        assert_eq!(r.len(), 8);
+        assert_eq!(r.len(), 9);
         let g: f64 = r[3].parse().unwrap();
         assert!(g.is_finite() && g < 0.0, "gated level {g}");
-        assert_eq!(r[6], "1");
+        assert_eq!(r[7], "1");
     }
     let summary = std::fs::read_to_string(out.join("summary.json")).unwrap();
     assert!(

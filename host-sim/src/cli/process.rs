@@ -3,6 +3,7 @@
 use std::path::PathBuf;
 
 use crate::cli::gate::GateArgs;
+use crate::output::export::Exports;
 use crate::pipeline::process::{self, Options};
 
 /// Options of `sweepgate process`.
@@ -39,6 +40,14 @@ pub struct Args {
     /// boresight in the same set-up; it is gated like the scan.
     #[arg(long, requires = "gain_table")]
     pub reference: Option<PathBuf>,
+    /// Also write the gated S21 of every bin over the whole band as Touchstone files, with
+    /// a manifest (`DIR/manifest.csv`) that `process` reads back.
+    #[arg(long, value_name = "DIR")]
+    pub export_touchstone: Option<PathBuf>,
+    /// Also write raw and gated S21 of every bin over the whole band as a NumPy `.npz`
+    /// archive (arrays `s21` of angles × frequencies × traces, `angle_deg`, `frequency_hz`, …).
+    #[arg(long, value_name = "FILE.npz")]
+    pub export_arrays: Option<PathBuf>,
 }
 
 /// Runs the command.
@@ -54,5 +63,9 @@ pub fn run(a: Args) -> anyhow::Result<()> {
         settings: a.settings,
         gain_table: a.gain_table,
         reference: a.reference,
+        exports: Exports {
+            touchstone_dir: a.export_touchstone,
+            arrays: a.export_arrays,
+        },
     })
 }

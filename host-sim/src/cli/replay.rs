@@ -3,6 +3,7 @@
 use std::path::PathBuf;
 
 use crate::cli::gate::GateArgs;
+use crate::output::export::Exports;
 use crate::pipeline::replay::{self, Options};
 
 /// Options of `sweepgate replay`.
@@ -35,6 +36,14 @@ pub struct Args {
     /// With `--record`: print `written <offset> <records>` after each record reaches the file.
     #[arg(long, requires = "record")]
     pub progress_lines: bool,
+    /// Also write the gated S21 of every bin over the whole band as Touchstone files, with
+    /// a manifest (`DIR/manifest.csv`) that `process` reads back.
+    #[arg(long, value_name = "DIR")]
+    pub export_touchstone: Option<PathBuf>,
+    /// Also write raw and gated S21 of every bin over the whole band as a NumPy `.npz`
+    /// archive (arrays `s21` of angles × frequencies × traces, `angle_deg`, `frequency_hz`, …).
+    #[arg(long, value_name = "FILE.npz")]
+    pub export_arrays: Option<PathBuf>,
 }
 
 /// Runs the command.
@@ -49,6 +58,10 @@ pub fn run(a: Args) -> anyhow::Result<()> {
         serve: a.serve,
         record: a.record,
         progress_lines: a.progress_lines,
+        exports: Exports {
+            touchstone_dir: a.export_touchstone,
+            arrays: a.export_arrays,
+        },
     })?;
     eprintln!(
         "{} bins closed; report written to {}",

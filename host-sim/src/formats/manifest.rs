@@ -47,6 +47,21 @@ use crate::formats::touchstone::{
 /// The header line a manifest starts with.
 pub const HEADER: &str = "angle_deg,file";
 
+/// Manifest text for `(angle, file)` rows: the header, then one row per sweep, each angle in
+/// the shortest form that reads back to the same `f64`, names with a comma or a quote in
+/// double quotes (a quote doubled).
+pub fn manifest_text(rows: &[(f64, String)]) -> String {
+    let mut s = format!("{HEADER}\n");
+    for (angle_deg, file) in rows {
+        if file.contains([',', '"']) {
+            s.push_str(&format!("{angle_deg},\"{}\"\n", file.replace('"', "\"\"")));
+        } else {
+            s.push_str(&format!("{angle_deg},{file}\n"));
+        }
+    }
+    s
+}
+
 /// One row of a manifest.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ManifestRow {
@@ -575,5 +590,26 @@ mod tests {
         assert!(e.to_string().contains("not uniformly spaced"));
         let scan = man.load(None, Spacing::Resample).unwrap();
         assert_eq!(scan.warnings.len(), 1);
+    }
+
+    #[test]
+    fn written_manifests_read_back_with_the_same_angles_and_files() {
+        let d = Dir::new("text");
+        let names = ["a.s2p", "b, second.s2p", "c \"q\".s2p"];
+        for n in names {
+            std::fs::write(d.0.join(n), "x").unwrap();
+        }
+        let angles = [-0.1, 1.0 / 3.0, 359.75];
+        let rows: Vec<(f64, String)> = angles
+            .iter()
+            .zip(names)
+            .map(|(a, n)| (*a, n.to_string()))
+            .collect();
+        let text = manifest_text(&rows);
+        let m = Manifest::parse_str(&text, "m.csv", &d.0).unwrap();
+        for ((a, n), r) in angles.iter().zip(names).zip(m.rows()) {
+            assert_eq!(r.angle_deg, *a);
+            assert_eq!(r.file, d.0.join(n));
+        }
     }
 }

@@ -7,6 +7,10 @@
 //!   same records through it, so they close the same bins with the same values. It keeps
 //!   the closed bins for the report, counts warnings by their wording
 //!   ([`warning_text`]), and sums the raw sweeps of the bin at 0° for the impulse view.
+//!   Asked to ([`Engine::keep_bands`]), it also keeps every bin's whole band for the
+//!   exports: the bin's sweeps summed as the core sums them, gated with the engine's own
+//!   gate as the core gates a closed bin, so the values at the pattern frequencies are the
+//!   bin's values bit for bit.
 
 use std::collections::{BTreeMap, VecDeque};
 
@@ -19,6 +23,7 @@ use sweepgate::wire::preview::StatusRecord;
 use sweepgate::Complex32;
 
 use crate::limits::{MAX_BINS, MAX_FREQUENCIES};
+use crate::output::export::{BandRow, Bands};
 use crate::output::report::{ImpulseView, ReportBin, ReportValue};
 use crate::pipeline::setup::Setup;
 use crate::pipeline::transform::{self, c64, impulse_view, FftJob};
@@ -139,6 +144,7 @@ trait AnyScan {
     fn counters(&self) -> ScanCounters;
     fn angle_at(&self, t_us: u64) -> Option<f32>;
     fn impulse(&self, sweep: &[Complex32], angle_deg: f64, sweeps: u32) -> ImpulseView;
+    fn gate_band(&self, sum: &[Complex32], inv_count: f32) -> Vec<Complex32>;
 }
 
 impl<const M: usize> AnyScan for HostScan<M>
@@ -170,6 +176,15 @@ where
     }
     fn impulse(&self, sweep: &[Complex32], angle_deg: f64, sweeps: u32) -> ImpulseView {
         impulse_view(self.gate(), sweep, angle_deg, sweeps)
+    }
+    fn gate_band(&self, sum: &[Complex32], inv_count: f32) -> Vec<Complex32> {
+        // As the core gates a closed bin with its echo level: the M-point sum, in place.
+        let mut buf: Box<[Complex32; M]> = Box::new([Complex32::new(0.0, 0.0); M]);
+        for (b, v) in buf.iter_mut().zip(sum) {
+            *b = *v;
+        }
+        self.gate().apply_in_place(&mut buf, inv_count);
+        buf[..sum.len().min(M)].to_vec()
     }
 }
 
@@ -208,6 +223,13 @@ struct Boresight {
     done: bool,
 }
 
+/// The whole band of every bin, kept for the exports: the open bin's sum of sweeps and the
+/// closed bins' rows (a revisited bin holds its latest result, as the report does).
+struct BandKeeper {
+    open: Option<(u16, Vec<Complex32>, u32)>,
+    closed: BTreeMap<u16, BandRow>,
+}
+
 /// The core's scan engine at the set-up's FFT size, fed as a board feeds it (see the module
 /// notes), keeping the closed bins and the warnings.
 pub struct Engine {
@@ -219,6 +241,8 @@ pub struct Engine {
     bins: BTreeMap<u16, ReportBin>,
     warnings: BTreeMap<String, u32>,
     boresight: Boresight,
+    grid: sweepgate::grid::Grid,
+    bands: Option<BandKeeper>,
 }
 
 impl Engine {
@@ -240,6 +264,26 @@ impl Engine {
                 sweeps: 0,
                 done: false,
             },
+            grid: setup.grid,
+            bands: None,
+        })
+    }
+
+    /// Keeps every bin's whole band from now on, for [`Engine::bands`].
+    pub fn keep_bands(&mut self) {
+        self.bands.get_or_insert(BandKeeper {
+            open: None,
+            closed: BTreeMap::new(),
+        });
+    }
+
+    /// Every closed bin's whole band (raw average and gated), if [`Engine::keep_bands`]
+    /// was called.
+    pub fn bands(&self) -> Option<Bands> {
+        let k = self.bands.as_ref()?;
+        Some(Bands {
+            grid: self.grid,
+            rows: k.closed.values().cloned().collect(),
         })
     }
 
@@ -318,10 +362,59 @@ impl Engine {
     fn push_now(&mut self, w: &Waiting, out: &mut Vec<Event<MAX_FREQUENCIES>>) {
         let before = self.scan.counters().sweeps_binned;
         let ev = self.scan.push_sweep(w.start_us, w.end_us, &w.s21);
-        if self.scan.counters().sweeps_binned > before {
+        let binned = self.scan.counters().sweeps_binned > before;
+        if binned {
             self.add_to_boresight(w);
         }
         self.take(ev, out);
+        if binned {
+            self.add_to_band(w);
+        }
+    }
+
+    /// Adds a binned sweep to the open bin's band sum, in the bin the core chose (the
+    /// angle at the sweep's middle); after the events, so a bin the sweep closed is done.
+    fn add_to_band(&mut self, w: &Waiting) {
+        let Some(k) = self.bands.as_mut() else {
+            return;
+        };
+        let mid = w.start_us + (w.end_us - w.start_us) / 2;
+        let Some(index) = self
+            .scan
+            .angle_at(mid)
+            .and_then(|a| self.layout.index_of(a))
+        else {
+            return;
+        };
+        match &mut k.open {
+            Some((i, sum, n)) if *i == index => {
+                for (s, v) in sum.iter_mut().zip(&w.s21) {
+                    *s += *v;
+                }
+                *n += 1;
+            }
+            open => *open = Some((index, w.s21.clone(), 1)),
+        }
+    }
+
+    /// A closed bin's whole band from its kept sum, when the sum holds the bin's sweeps.
+    fn close_band(&mut self, r: &BinResult<MAX_FREQUENCIES>) {
+        let Some(k) = self.bands.as_mut() else {
+            return;
+        };
+        let Some((index, sum, n)) = k.open.take() else {
+            return;
+        };
+        if index != r.index || n != r.sweeps {
+            return;
+        }
+        let inv = 1.0 / n.max(1) as f32;
+        let row = BandRow {
+            angle_deg: f64::from(r.nominal_deg),
+            raw: sum.iter().map(|s| *s * inv).collect(),
+            gated: self.scan.gate_band(&sum, inv),
+        };
+        k.closed.insert(r.index, row);
     }
 
     fn add_to_boresight(&mut self, w: &Waiting) {
@@ -346,6 +439,7 @@ impl Engine {
             match &e {
                 Event::BinClosed(r) => {
                     self.bins.insert(r.index, report_bin(r, self.frequencies));
+                    self.close_band(r);
                     let b = &mut self.boresight;
                     if b.sweeps > 0 && b.bin == Some(r.index) {
                         b.done = true;

@@ -50,6 +50,7 @@ use crate::formats::gain_table::GainTable;
 use crate::formats::manifest::{AngleSweep, Manifest};
 use crate::formats::recording as record;
 use crate::formats::touchstone::{Parameter, Spacing, Touchstone};
+use crate::output::export::{self, BandRow, Bands, Exports};
 use crate::output::report::{self, ImpulseView, ReportBin, ReportInput, ReportValue};
 use crate::pipeline::engine::gate_sweeps;
 use crate::pipeline::options::{default_report_dir, window_option, Choices, GateOptions, Origin};
@@ -81,6 +82,8 @@ pub struct Options {
     pub gain_table: Option<PathBuf>,
     /// Gain by substitution: a Touchstone file of the reference antenna at boresight.
     pub reference: Option<PathBuf>,
+    /// Full-band exports beside the report (see [`crate::output::export`]).
+    pub exports: Exports,
 }
 
 /// The keys a settings file may hold.
@@ -182,6 +185,8 @@ pub struct Resolved {
     pub out: PathBuf,
     /// Gain by substitution: the reference's gain table and its measurement.
     pub gain: Option<(PathBuf, PathBuf)>,
+    /// Full-band exports beside the report.
+    pub exports: Exports,
 }
 
 /// A manifest when the file's first line starts with `angle_deg`, else a recording.
@@ -267,6 +272,7 @@ pub fn resolve(opts: &Options) -> anyhow::Result<Resolved> {
         spacing,
         out,
         gain: opts.gain_table.clone().zip(opts.reference.clone()),
+        exports: opts.exports.clone(),
     })
 }
 
@@ -280,6 +286,9 @@ pub struct Processed {
     /// `"command line"`, `"settings file"`, `"planner"` or `"strongest impulse-response peak"`
     /// (two joined when center and span came from different places).
     pub gate_source: String,
+    /// Every bin's whole band: always for a manifest, for a recording when exports are
+    /// asked for.
+    pub bands: Option<Bands>,
 }
 
 /// Processes a recording: streamed through the engine as `replay` does.
@@ -290,11 +299,19 @@ pub fn process_recording(r: &Resolved, path: &Path) -> anyhow::Result<Processed>
         .context("the recording has no intact header record")?;
     let setup = setup::for_recording(h, &r.choices, &stream::sweeps_of(&rec))?;
     let quit = AtomicBool::new(false);
-    let o = stream::stream(&rec, setup, &mut Discard, &Pacing::default(), &quit)?;
+    let o = stream::stream_keeping_bands(
+        &rec,
+        setup,
+        &mut Discard,
+        &Pacing::default(),
+        &quit,
+        r.exports.any(),
+    )?;
     Ok(Processed {
         report: o.report,
         gate: o.setup.gate,
         gate_source: o.setup.gate_source,
+        bands: o.bands,
     })
 }
 
@@ -327,7 +344,20 @@ pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> 
     };
     let bw = setup::band_window(&r.choices, None)?;
     let g = setup::gating(scan.grid, &r.choices, bw, &[], auto)?;
-    let (bins, impulse) = gate_each(&g.gate, &scan.sweeps, &g.indices)?;
+    let (bins, impulse, gated) = gate_each(&g.gate, &scan.sweeps, &g.indices)?;
+    let bands = Bands {
+        grid: scan.grid,
+        rows: scan
+            .sweeps
+            .iter()
+            .zip(gated)
+            .map(|(s, gated)| BandRow {
+                angle_deg: s.angle_deg,
+                raw: s.values.clone(),
+                gated,
+            })
+            .collect(),
+    };
     let full_circle = covers_full_circle(&angles);
     let mut settings = Settings::for_sweeps(&g, bins.len(), full_circle);
     settings.parameter = Some(
@@ -354,15 +384,16 @@ pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> 
         report,
         gate: g.gate,
         gate_source: g.gate_source,
+        bands: Some(bands),
     })
 }
 
-/// One bin per sweep, gated on the FFT path, and the impulse view of the sweep nearest 0°.
-fn gate_each(
-    gate: &GateConfig,
-    sweeps: &[AngleSweep],
-    indices: &[usize],
-) -> anyhow::Result<(Vec<ReportBin>, Option<ImpulseView>)> {
+/// Bins, the impulse view and each sweep's gated spectrum.
+type Gated = (Vec<ReportBin>, Option<ImpulseView>, Vec<Vec<Complex32>>);
+
+/// One bin per sweep, gated on the FFT path, the impulse view of the sweep nearest 0°, and
+/// each sweep's gated spectrum.
+fn gate_each(gate: &GateConfig, sweeps: &[AngleSweep], indices: &[usize]) -> anyhow::Result<Gated> {
     let values: Vec<&[Complex32]> = sweeps.iter().map(|s| &s.values[..]).collect();
     let near = sweeps
         .iter()
@@ -393,7 +424,7 @@ fn gate_each(
                 .collect(),
         })
         .collect();
-    Ok((bins, g.impulse))
+    Ok((bins, g.impulse, g.spectra))
 }
 
 /// Processes the resolved input and writes the report folder.
@@ -407,6 +438,7 @@ pub fn process(r: &Resolved) -> anyhow::Result<Processed> {
     }
     report::write_report(&p.report, &r.out)
         .with_context(|| format!("writing the report to {}", r.out.display()))?;
+    export::write_exports(&p.report, p.bands.as_ref(), &r.exports)?;
     Ok(p)
 }
 
@@ -451,7 +483,7 @@ fn gain_reference(
         values: sweep.values,
         file: reference.to_path_buf(),
     }];
-    let (bins, _) = gate_each(&p.gate, &one, &indices)?;
+    let (bins, _, _) = gate_each(&p.gate, &one, &indices)?;
     let values = &bins.first().context("gating the reference")?.values;
     let mut per_frequency = Vec::new();
     for (f, v) in p.report.frequencies_hz.iter().zip(values) {
@@ -490,5 +522,14 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
         p.gate_source,
         r.out.display()
     );
+    if let Some(d) = &r.exports.touchstone_dir {
+        eprintln!(
+            "Touchstone export written to {}",
+            d.join("manifest.csv").display()
+        );
+    }
+    if let Some(f) = &r.exports.arrays {
+        eprintln!("array export written to {}", f.display());
+    }
     Ok(())
 }

@@ -24,6 +24,7 @@ use std::time::Duration;
 use anyhow::{bail, Context};
 
 use crate::formats::recording::{self as record, Recovered};
+use crate::output::export::{self, Exports};
 use crate::output::report;
 use crate::output::screen::{self as preview, Feed, Screen};
 use crate::pipeline::options::{default_report_dir, GateOptions};
@@ -51,6 +52,8 @@ pub struct Options {
     pub record: Option<PathBuf>,
     /// With `record`: print `written <offset> <records>` after each record reaches the file.
     pub progress_lines: bool,
+    /// Full-band exports beside the report (see [`crate::output::export`]).
+    pub exports: Exports,
 }
 
 impl Options {
@@ -66,6 +69,7 @@ impl Options {
             serve: None,
             record: None,
             progress_lines: false,
+            exports: Exports::default(),
         }
     }
 
@@ -151,7 +155,8 @@ pub fn replay_file(opts: &Options) -> anyhow::Result<(Outcome, PathBuf)> {
         pace,
         record_to: opts.record.clone().map(|p| (p, opts.progress_lines)),
     };
-    let worker = spawn_worker(rec, s, pacing, sink, Arc::clone(&quit))?;
+    let keep_bands = opts.exports.any();
+    let worker = spawn_worker(rec, s, pacing, sink, Arc::clone(&quit), keep_bands)?;
     let live = !opts.no_preview && preview::have_terminal();
     show(&rx, &mut screen, live, &quit)?;
     let outcome = worker
@@ -165,6 +170,7 @@ pub fn replay_file(opts: &Options) -> anyhow::Result<(Outcome, PathBuf)> {
     }
     report::write_report(&outcome.report, &out_dir)
         .with_context(|| format!("writing the report to {}", out_dir.display()))?;
+    export::write_exports(&outcome.report, outcome.bands.as_ref(), &opts.exports)?;
     Ok((outcome, out_dir))
 }
 
@@ -224,12 +230,14 @@ fn spawn_worker(
     pacing: Pacing,
     mut sink: ChannelSink,
     quit: Arc<AtomicBool>,
+    keep_bands: bool,
 ) -> anyhow::Result<JoinHandle<anyhow::Result<Outcome>>> {
     std::thread::Builder::new()
         .name("replay".into())
         .stack_size(16 << 20)
         .spawn(move || {
-            let r = stream::stream(&rec, setup, &mut sink, &pacing, &quit);
+            let r =
+                stream::stream_keeping_bands(&rec, setup, &mut sink, &pacing, &quit, keep_bands);
             let _ = sink.tx.send(Feed::End);
             r
         })

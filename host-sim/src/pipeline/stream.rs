@@ -23,6 +23,7 @@ use sweepgate::Complex32;
 
 use crate::formats::recording::{self as record, Header, Record, Recovered, Writer};
 use crate::limits::{MAX_FRAME_BYTES, MAX_FREQUENCIES};
+use crate::output::export::Bands;
 use crate::output::report::{ReportBin, ReportInput};
 use crate::pipeline::engine::Engine;
 use crate::pipeline::setup::Setup;
@@ -76,6 +77,8 @@ pub struct Outcome {
     pub preview_bytes: u64,
     /// Stopped early by the user.
     pub interrupted: bool,
+    /// Every bin's whole band, when asked for (see [`stream_keeping_bands`]).
+    pub bands: Option<Bands>,
 }
 
 /// Preview frames on their way to the sink.
@@ -162,10 +165,26 @@ pub fn stream(
     pacing: &Pacing,
     quit: &AtomicBool,
 ) -> anyhow::Result<Outcome> {
+    stream_keeping_bands(rec, setup, sink, pacing, quit, false)
+}
+
+/// [`stream`], also keeping every bin's whole band in [`Outcome::bands`] when `keep_bands`
+/// (for the exports; see [`Engine::keep_bands`]).
+pub fn stream_keeping_bands(
+    rec: &Recovered,
+    setup: Setup,
+    sink: &mut dyn Sink,
+    pacing: &Pacing,
+    quit: &AtomicBool,
+    keep_bands: bool,
+) -> anyhow::Result<Outcome> {
     let h = rec
         .header()
         .context("the recording has no intact header record")?;
     let mut engine = Engine::new(&setup)?;
+    if keep_bands {
+        engine.keep_bands();
+    }
     let mut copy = open_copy(rec, &pacing.record_to)?;
     let mut frames = Frames {
         sink,
@@ -294,6 +313,7 @@ fn outcome(
         warnings,
         preview_bytes,
         interrupted,
+        bands: engine.bands(),
     }
 }
 

@@ -47,6 +47,7 @@ mod parser;
 mod sweep;
 #[cfg(test)]
 mod tests;
+mod write;
 
 use std::fmt;
 use std::path::Path;
@@ -56,6 +57,7 @@ use num_complex::Complex64;
 
 pub use error::{ParseParameterError, TouchstoneError, TouchstoneErrorKind};
 pub use sweep::{GateSweep, Spacing};
+pub use write::s21_two_port_text;
 
 /// Most ports a file may declare (bounds the size of one record).
 pub const MAX_PORTS: usize = 64;

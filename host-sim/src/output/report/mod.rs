@@ -7,9 +7,11 @@
 //! # Files
 //!
 //! - `pattern.csv`: a header row, then one row per bin and pattern frequency, bins in angle
-//!   order: `angle_deg,frequency_hz,raw_db,gated_db,gated_phase_deg,echo_db,sweeps,flags`
-//!   and `truth_db` when the truth is known. `raw_db` and `gated_db` are 20·log10|S21| (not
-//!   normalized), `gated_phase_deg` the gated value's argument, `echo_db` the bin's echo
+//!   order: `angle_deg,frequency_hz,raw_db,gated_db,gated_phase_deg,raw_phase_deg,echo_db,
+//!   sweeps,flags` and `truth_db` when the truth is known. `raw_db` and `gated_db` are
+//!   20·log10|S21| (not normalized) to 6 decimals, `gated_phase_deg` and `raw_phase_deg` the
+//!   gated and raw values' arguments (−180…180) to 5 decimals (both together within 2e-7 of
+//!   the value, relative), `echo_db` the bin's echo
 //!   level (empty when not computed), `flags` the bin flags as words joined by `|`
 //!   (`smeared`, `revisited`, `reversed`, `sparse`, `moving`, `extrapolated`, `combine`;
 //!   empty when none). `angle_deg` is the bin centre.
@@ -305,8 +307,9 @@ pub fn pattern_csv(input: &ReportInput) -> String {
         .iter()
         .all(|b| b.values.iter().all(|v| v.truth.is_some()))
         && !input.bins.is_empty();
-    let mut s =
-        String::from("angle_deg,frequency_hz,raw_db,gated_db,gated_phase_deg,echo_db,sweeps,flags");
+    let mut s = String::from(
+        "angle_deg,frequency_hz,raw_db,gated_db,gated_phase_deg,raw_phase_deg,echo_db,sweeps,flags",
+    );
     if has_truth {
         s.push_str(",truth_db");
     }
@@ -318,18 +321,19 @@ pub fn pattern_csv(input: &ReportInput) -> String {
         for (v, f) in b.values.iter().zip(&input.frequencies_hz) {
             let _ = write!(
                 s,
-                "{:.3},{:.0},{:.4},{:.4},{:.3},{},{},{}",
+                "{:.3},{:.0},{:.6},{:.6},{:.5},{:.5},{},{},{}",
                 b.angle_deg,
                 f,
                 db(v.raw),
                 db(v.gated),
                 v.gated.arg().to_degrees(),
+                v.raw.arg().to_degrees(),
                 b.echo_db.map_or(String::new(), |e| format!("{e:.2}")),
                 b.sweeps,
                 flag_words(b.flags)
             );
             if has_truth {
-                let _ = write!(s, ",{:.4}", v.truth.map_or(f64::NAN, db));
+                let _ = write!(s, ",{:.6}", v.truth.map_or(f64::NAN, db));
             }
             if let Some(g) = &input.gain {
                 let fi = input
@@ -339,7 +343,7 @@ pub fn pattern_csv(input: &ReportInput) -> String {
                     .unwrap_or(0);
                 let _ = write!(
                     s,
-                    ",{:.4}",
+                    ",{:.6}",
                     db(v.gated) + g.offset_db(fi).unwrap_or(f64::NAN)
                 );
             }
