@@ -131,6 +131,7 @@ fn process<'py>(
         settings,
         gain_table,
         reference,
+        exports: Default::default(),
     };
     let (p, r) = py
         .detach(|| -> anyhow::Result<(Processed, Resolved)> {
