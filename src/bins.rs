@@ -213,6 +213,11 @@ impl BinFlags {
     pub const EXTRAPOLATED: u16 = 1 << 5;
     /// Revisit under [`RevisitPolicy::Combine`]: average with the earlier results.
     pub const COMBINE: u16 = 1 << 6;
+    /// The gate check ([`crate::gate::GateCheck`]) found a second peak inside the gate.
+    pub const ECHO_IN_GATE: u16 = 1 << 7;
+    /// The gate check found the strongest response outside the gate: the gate misses the
+    /// direct path, or an echo is stronger than it.
+    pub const DIRECT_OUTSIDE_GATE: u16 = 1 << 8;
 
     /// True if all bits of `bit` are set.
     pub fn has(&self, bit: u16) -> bool {

@@ -37,6 +37,31 @@ use core::f64::consts::PI;
 /// at all), in dB.
 pub const ECHO_FLOOR_DB: f32 = -200.0;
 
+/// A second peak inside the gate at least this high relative to the direct peak (dB), and
+/// more than half the band window's main lobe away from it, is an echo inside the gate
+/// (common practice, no source: well above any band window's sidelobes used here, −31 dB
+/// and lower, and below any echo that moves the gated level by more than ±0.9 dB).
+pub const ECHO_IN_GATE_THRESHOLD_DB: f32 = -20.0;
+
+/// What one impulse response says about the gate: where the direct path is, how strong the
+/// strongest echo outside the gate is, and whether a second peak sits inside the gate.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct GateCheck {
+    /// Sample of the strongest response inside the gate (taken as the direct path).
+    pub direct_index: u16,
+    /// Strongest local maximum outside the gate over the direct peak, in dB (power); may be
+    /// above 0 dB when an echo is stronger than the direct path; [`ECHO_FLOOR_DB`] when
+    /// nothing lies outside.
+    pub echo_to_direct_db: f32,
+    /// Energy outside the gate over the total energy, in dB (at most 0 dB).
+    pub energy_outside_db: f32,
+    /// The strongest sample of the whole response lies inside the gate.
+    pub direct_in_gate: bool,
+    /// A second peak inside the gate above [`ECHO_IN_GATE_THRESHOLD_DB`].
+    pub echo_in_gate: bool,
+}
+
 /// Smallest magnitude of the renormalization reference r\[k\] accepted (−80 dB).
 pub const RENORM_FLOOR: f32 = 1e-4;
 
@@ -337,6 +362,55 @@ where
         echo_db(outside, total)
     }
 
+    /// Checks an impulse response from [`Gate::impulse_response`] against this gate (see
+    /// [`GateCheck`]). Two passes over M samples; no allocation.
+    pub fn check(&self, impulse_response: &[Complex32; M]) -> GateCheck {
+        let h = impulse_response;
+        let (mut outside, mut total) = (0.0f32, 0.0f32);
+        let (mut in_i, mut in_e, mut all_e) = (0usize, -1.0f32, 0.0f32);
+        let mut out_peak = 0.0f32;
+        for (m, (v, &g)) in h.iter().zip(self.gate.iter()).enumerate() {
+            let e = v.norm_sqr();
+            total += e;
+            all_e = all_e.max(e);
+            if g == 0.0 {
+                outside += e;
+                if self.is_local_max(h, m) {
+                    out_peak = out_peak.max(e);
+                }
+            } else if e > in_e {
+                (in_i, in_e) = (m, e);
+            }
+        }
+        // Half the band window's null-to-null main lobe, in samples: w·M/(K − 1) / 2.
+        let k1 = self.points.saturating_sub(1).max(1) as f64;
+        let half_lobe = (0.5 * self.cfg.band_window.mainlobe_width() * M as f64 / k1) as usize;
+        let floor = in_e * libm::powf(10.0, 0.1 * ECHO_IN_GATE_THRESHOLD_DB);
+        let mut echo_in_gate = false;
+        for (m, &g) in self.gate.iter().enumerate() {
+            let d = m.abs_diff(in_i);
+            let d = d.min(M - d);
+            if g != 0.0 && d > half_lobe && self.is_local_max(h, m) {
+                echo_in_gate |= h[m].norm_sqr() >= floor && in_e > 0.0;
+            }
+        }
+        GateCheck {
+            direct_index: in_i.min(usize::from(u16::MAX)) as u16,
+            echo_to_direct_db: echo_db(out_peak, in_e.max(0.0)),
+            energy_outside_db: echo_db(outside, total),
+            direct_in_gate: in_e > 0.0 && in_e >= all_e,
+            echo_in_gate,
+        }
+    }
+
+    /// Whether sample `m` of `h` is at least as strong as both circular neighbours and
+    /// stronger than one of them.
+    fn is_local_max(&self, h: &[Complex32; M], m: usize) -> bool {
+        let e = |i: usize| h.get(i % M).map_or(0.0, |v| v.norm_sqr());
+        let (prev, here, next) = (e(m + M - 1), e(m), e(m + 1));
+        here >= prev && here >= next && (here > prev || here > next)
+    }
+
     /// FFT path: gates `raw[..K]` (entries K.. are ignored), writes the gated spectrum to
     /// `out[..K]` (renormalized if configured; `out[K..]` is zeroed) and returns the echo
     /// level in dB.
@@ -353,6 +427,16 @@ where
         self.window(buf, scale);
         buf.inverse();
         self.gate_forward_renormalize(buf)
+    }
+
+    /// [`Gate::apply_in_place`] that also checks the impulse response ([`Gate::check`])
+    /// before gating it; the check's `energy_outside_db` is what `apply_in_place` returns.
+    pub fn apply_in_place_checked(&self, buf: &mut [Complex32; M], scale: f32) -> GateCheck {
+        self.window(buf, scale);
+        buf.inverse();
+        let check = self.check(buf);
+        self.gate_forward_renormalize(buf);
+        check
     }
 
     /// Steps 3–5 on an impulse response: echo level and time gate in one pass, forward FFT,
@@ -527,11 +611,13 @@ fn run_chain<const M: usize>(
     gate_and_return(gate, buf);
 }
 
-fn echo_db(outside: f32, total: f32) -> f32 {
-    if !(outside > 0.0 && total > 0.0) {
+/// 10·log10(part/whole), [`ECHO_FLOOR_DB`] when either is zero. `part` may exceed `whole`
+/// (an echo stronger than the direct path); the result is then above 0 dB.
+fn echo_db(part: f32, whole: f32) -> f32 {
+    if !(part > 0.0 && whole > 0.0) {
         return ECHO_FLOOR_DB;
     }
-    (10.0 * libm::log10f(outside / total)).max(ECHO_FLOOR_DB)
+    (10.0 * libm::log10f(part / whole)).max(ECHO_FLOOR_DB)
 }
 
 /// e^(j2π·turns): the whole turns are dropped in f64, the rest (|phase| ≤ π) is evaluated in

@@ -22,6 +22,10 @@
 //! - squint: the centre of the −3 dB beam, as an angle from mechanical boresight 0° in
 //!   (−180°, 180°].
 //!
+//! Every angle figure (peak, crossings, nulls, lobes, squint) is wrapped to (−180°, 180°];
+//! a beam across the ±180° seam has `upper_deg < lower_deg` and its width in
+//! [`Beam::width_deg`].
+//!
 //! ```
 //! use sweepgate::metrics::{pattern_metrics, Coverage};
 //! // A cos² power pattern sampled every degree over −90°…90°: HPBW 2·acos(0.5^(1/2)) = 90°.
@@ -59,22 +63,34 @@ pub enum Coverage {
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Beam {
-    /// Crossing on the side of lower angles.
+    /// Crossing on the side of lower angles (walking from the peak towards lower angles),
+    /// wrapped to (−180°, 180°].
     pub lower_deg: f64,
-    /// Crossing on the side of higher angles (may exceed the cut's last angle by 360° on a
-    /// full circle, so that `upper_deg − lower_deg` is the width).
+    /// Crossing on the side of higher angles, wrapped to (−180°, 180°]. A beam across the
+    /// ±180° seam has `upper_deg < lower_deg`; use [`Beam::width_deg`] for its width.
     pub upper_deg: f64,
+    /// Angle walked from the lower to the upper crossing (the beamwidth), ≥ 0.
+    pub span_deg: f64,
 }
 
 impl Beam {
-    /// Beamwidth between the two crossings.
-    pub fn width_deg(&self) -> f64 {
-        self.upper_deg - self.lower_deg
+    /// Builds a beam from its two crossings on a continuous (unwrapped) angle axis.
+    fn from_crossings(lower_deg: f64, upper_deg: f64) -> Self {
+        Self {
+            lower_deg: wrap_deg(lower_deg),
+            upper_deg: wrap_deg(upper_deg),
+            span_deg: upper_deg - lower_deg,
+        }
     }
 
-    /// Centre between the two crossings (not wrapped).
+    /// Beamwidth between the two crossings.
+    pub fn width_deg(&self) -> f64 {
+        self.span_deg
+    }
+
+    /// Centre between the two crossings, wrapped to (−180°, 180°].
     pub fn centre_deg(&self) -> f64 {
-        0.5 * (self.upper_deg + self.lower_deg)
+        wrap_deg(self.lower_deg + 0.5 * self.span_deg)
     }
 }
 
@@ -321,17 +337,17 @@ impl Cut<'_> {
     /// The beam between the crossings `drop_db` below `peak_db` on each side of `peak`.
     fn beam(&self, peak: isize, peak_db: f64, drop_db: f64) -> Option<Beam> {
         let t = peak_db - drop_db;
-        Some(Beam {
-            lower_deg: self.crossing(peak, -1, t)?,
-            upper_deg: self.crossing(peak, 1, t)?,
-        })
+        Some(Beam::from_crossings(
+            self.crossing(peak, -1, t)?,
+            self.crossing(peak, 1, t)?,
+        ))
     }
 
     /// The lobe at virtual position `pos`, its level relative to `peak_db`.
     fn lobe(&self, pos: isize, peak_db: f64) -> Option<Lobe> {
         let (angle_deg, l) = self.refine(pos)?;
         Some(Lobe {
-            angle_deg,
+            angle_deg: wrap_deg(angle_deg),
             level_db: l - peak_db,
         })
     }
@@ -398,18 +414,18 @@ pub fn pattern_metrics(
     };
     Ok(PatternMetrics {
         peak_db,
-        peak_angle_deg,
+        peak_angle_deg: wrap_deg(peak_angle_deg),
         beam_3db,
         beam_10db: cut.beam(peak, peak_db, 10.0),
-        first_null_lower_deg: null_lo.and_then(|p| cut.at(p)).map(|(a, _)| a),
-        first_null_upper_deg: null_hi.and_then(|p| cut.at(p)).map(|(a, _)| a),
+        first_null_lower_deg: null_lo.and_then(|p| cut.at(p)).map(|(a, _)| wrap_deg(a)),
+        first_null_upper_deg: null_hi.and_then(|p| cut.at(p)).map(|(a, _)| wrap_deg(a)),
         first_sidelobe_lower: sidelobe(null_lo, -1),
         first_sidelobe_upper: sidelobe(null_hi, 1),
         highest_sidelobe: cut
             .highest_outside(null_lo, null_hi)
             .and_then(|pos| cut.lobe(pos, peak_db)),
         front_to_back_db: cut.front_to_back(peak_angle_deg, peak_db),
-        squint_deg: beam_3db.map(|b| wrap_deg(b.centre_deg())),
+        squint_deg: beam_3db.map(|b| b.centre_deg()),
     })
 }
 
@@ -561,6 +577,57 @@ mod tests {
             pattern_metrics(&[0.0, 180.0, 360.0], &[0.0; 3], Coverage::FullCircle),
             Err(MetricsError::SpanExceedsCircle)
         );
+    }
+
+    #[test]
+    fn every_angle_figure_is_wrapped_near_the_back() {
+        // A triangle lobe (1 dB/°) centred on 180° of a −179…180° cut, with a sidelobe bump
+        // 20° on each side: the peak refines to 180°, the −3.01 dB crossings sit 3.01° from
+        // it on each side (linear in dB, exact), the first nulls at ±160°… all in (−180, 180].
+        let angles: [f64; 360] = core::array::from_fn(|i| i as f64 - 179.0);
+        let levels: [f64; 360] = core::array::from_fn(|i| {
+            let off = 180.0 - libm::fabs(i as f64 - 179.0); // distance from 180°
+            if off < 15.0 {
+                -off
+            } else if off < 25.0 {
+                -20.0 + (5.0 - libm::fabs(off - 20.0)).max(0.0)
+            } else {
+                -40.0
+            }
+        });
+        let m = pattern_metrics(&angles, &levels, Coverage::FullCircle).unwrap();
+        let in_range = |a: f64| a > -180.0 && a <= 180.0;
+        assert!(in_range(m.peak_angle_deg), "{m:?}");
+        assert!((libm::fabs(m.peak_angle_deg) - 180.0).abs() < 1e-9, "{m:?}");
+        let b = m.beam_3db.unwrap();
+        assert!(in_range(b.lower_deg) && in_range(b.upper_deg), "{b:?}");
+        assert!(
+            (b.lower_deg - (180.0 - HALF_POWER_DB)).abs() < 1e-9,
+            "{b:?}"
+        );
+        assert!(
+            (b.upper_deg - (-180.0 + HALF_POWER_DB)).abs() < 1e-9,
+            "{b:?}"
+        );
+        assert!((b.width_deg() - 2.0 * HALF_POWER_DB).abs() < 1e-9, "{b:?}");
+        assert!((libm::fabs(m.squint_deg.unwrap()) - 180.0).abs() < 1e-9);
+        for a in [m.first_null_lower_deg, m.first_null_upper_deg]
+            .into_iter()
+            .flatten()
+        {
+            assert!(in_range(a), "{m:?}");
+        }
+        for l in [
+            m.first_sidelobe_lower,
+            m.first_sidelobe_upper,
+            m.highest_sidelobe,
+        ]
+        .into_iter()
+        .flatten()
+        {
+            assert!(in_range(l.angle_deg), "{m:?}");
+        }
+        assert!(m.highest_sidelobe.is_some(), "{m:?}");
     }
 
     #[test]

@@ -776,6 +776,7 @@ where
     // The raw values first: gating overwrites the sum.
     let raw = idx.map(|i| at(sum, i) * inv_count);
     let mut gated = [Complex32::new(0.0, 0.0); F];
+    let mut flags = cb.flags;
     let echo_db = match echo {
         EchoMode::Never => {
             gate.window(sum, inv_count);
@@ -783,9 +784,15 @@ where
             None
         }
         EchoMode::EveryBin => {
-            let echo_db = gate.apply_in_place(sum, inv_count);
+            let check = gate.apply_in_place_checked(sum, inv_count);
             gated = idx.map(|i| at(sum, i));
-            Some(echo_db)
+            if check.echo_in_gate {
+                flags.0 |= BinFlags::ECHO_IN_GATE;
+            }
+            if !check.direct_in_gate {
+                flags.0 |= BinFlags::DIRECT_OUTSIDE_GATE;
+            }
+            Some(check.energy_outside_db)
         }
     };
     BinResult {
@@ -794,7 +801,7 @@ where
         mean_deg: cb.mean_deg,
         sweeps: cb.sweeps,
         max_smear_deg: cb.max_smear_deg,
-        flags: cb.flags,
+        flags,
         indices: idx.map(|i| i.min(usize::from(u16::MAX)) as u16),
         raw,
         gated,
@@ -875,6 +882,48 @@ mod tests {
         assert_eq!((st.angles_pushed, st.angles_rejected), (3, 0));
         assert_eq!(st.time_us, 1_000_000);
         assert_eq!(st.open_bin, None);
+    }
+
+    #[test]
+    fn the_fft_path_flags_an_echo_inside_the_gate() {
+        // Direct path at 5 ns, echo of half its amplitude at 5.5 ns: inside the 4…6 ns gate
+        // and beyond the direct path's half main lobe (Kaiser β = 6 over 16 GHz: 4.31/B =
+        // 0.27 ns null to null). A lone direct path is not flagged. (Fourier shift theorem:
+        // each term is an impulse at its delay.)
+        let grid = gate_cfg().grid;
+        let run = |echo_a: f64| {
+            let sweep: [Complex32; 101] = core::array::from_fn(|n| {
+                let f = grid.frequency_hz(n);
+                let z = |a: f64, t: f64| {
+                    let ph = -2.0 * core::f64::consts::PI * f * t;
+                    Complex32::new((a * libm::cos(ph)) as f32, (a * libm::sin(ph)) as f32)
+                };
+                z(1.0, 5e-9) + z(echo_a, 5.5e-9)
+            });
+            let mut cfg = ScanConfig::new(BinLayout::sector(0.0, 1.0, 1.0).unwrap());
+            cfg.echo = EchoMode::EveryBin;
+            cfg.leave_close_us = None;
+            let mut s: Scan<128, 2, 4> = Scan::new(&gate_cfg(), [10, 60], cfg).unwrap();
+            let mut flags = None;
+            let mut take = |ev: Events<2>| {
+                for e in ev {
+                    if let Event::BinClosed(r) = e {
+                        flags = Some(r.flags);
+                    }
+                }
+            };
+            take(s.push_angle(0, 0.0));
+            take(s.push_angle(100_000, 0.0));
+            take(s.push_sweep(40_000, 60_000, &sweep));
+            take(s.finish());
+            flags.unwrap()
+        };
+        let f = run(0.5);
+        assert!(f.has(BinFlags::ECHO_IN_GATE), "{f:?}");
+        assert!(!f.has(BinFlags::DIRECT_OUTSIDE_GATE), "{f:?}");
+        let f = run(0.0);
+        assert!(!f.has(BinFlags::ECHO_IN_GATE), "{f:?}");
+        assert!(!f.has(BinFlags::DIRECT_OUTSIDE_GATE), "{f:?}");
     }
 
     #[test]

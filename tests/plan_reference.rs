@@ -71,6 +71,53 @@ fn far_field_distance_examples() {
 }
 
 #[test]
+fn far_field_checks_every_condition_at_both_band_edges() {
+    // Balanis, Antenna Theory, 4th ed., §2.2.4: R ≥ 2D²/λ, R ≫ D, R ≫ λ; "≫" read as a
+    // factor 10 (common practice, no source). D = 0.1 m at R = 1 m, 300…400 MHz:
+    // 2D²/λ = 0.02…0.027 m and 10·D = 1 m are met, but λ = 0.999 m at 300 MHz needs
+    // 10·λ = 9.99 m: not far field, although 2D²/λ alone says it is.
+    let grid = Grid::from_start_stop(300e6, 400e6, 101).unwrap();
+    let inp = input(grid, 1.0, 1.5, &[]);
+    let p = plan(&inp).unwrap();
+    let lam_lo = C / 300e6;
+    assert!((p.far_field_low.wavelength_m - lam_lo).abs() < 1e-12);
+    assert!((p.far_field_low.wavelengths_m - 10.0 * lam_lo).abs() < 1e-9);
+    assert!((p.far_field_high.rayleigh_m - 2.0 * 0.01 / (C / 400e6)).abs() < 1e-12);
+    assert!((p.far_field_high.size_m - 1.0).abs() < 1e-12);
+    assert!(p.range_m >= p.far_field_m, "2D²/λ alone is met");
+    assert!(!p.far_field_low.met && !p.far_field_high.met);
+    assert!(!p.meets_far_field);
+    assert!(p.findings.iter().any(|f| matches!(
+        f,
+        Finding::TooFewWavelengths { needed_m, frequency_hz, .. }
+            if (*needed_m - 10.0 * lam_lo).abs() < 1e-9 && *frequency_hz == 300e6
+    )));
+    assert!(!p.findings.iter().any(|f| matches!(
+        f,
+        Finding::BelowFarField { .. } | Finding::NotFarFromAntenna { .. }
+    )));
+
+    // R ≫ D missed: D = 0.5 m, R = 4 m, 100…101 MHz (λ ≈ 2.97 m): 2D²/λ ≈ 0.17 m met,
+    // 10·D = 5 m missed (10·λ = 29.98 m is missed too).
+    let grid = Grid::from_start_stop(100e6, 101e6, 11).unwrap();
+    let mut inp = input(grid, 4.0, 1.5, &[]);
+    inp.aut_size_m = 0.5;
+    let p = plan(&inp).unwrap();
+    assert!(p.findings.iter().any(|f| matches!(
+        f,
+        Finding::NotFarFromAntenna { needed_m, .. } if (*needed_m - 5.0).abs() < 1e-12
+    )));
+
+    // Met at 8…10 GHz, D = 0.2 m, R = 5 m: 2.67 m, 2 m, 0.37 m all below 5 m.
+    let grid = Grid::from_start_stop(8e9, 10e9, 201).unwrap();
+    let mut inp = input(grid, 5.0, 1.5, &[]);
+    inp.aut_size_m = 0.2;
+    let p = plan(&inp).unwrap();
+    assert!(p.far_field_low.met && p.far_field_high.met && p.meets_far_field);
+    assert!((p.far_field_high.needed_m() - 2.0 * 0.04 / (C / 10e9)).abs() < 1e-12);
+}
+
+#[test]
 fn echo_delays_match_image_method_closed_forms() {
     // Image method, AUT and probe at equal height h, range R (common practice, no source):
     // floor z = 0: (√(R² + (2h)²) − R)/c; side wall at y = w: (√(R² + (2w)²) − R)/c;

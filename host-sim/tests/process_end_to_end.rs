@@ -426,3 +426,44 @@ fn gain_by_substitution_gives_the_aut_gain_in_dbi() {
     let err = String::from_utf8_lossy(&st.stderr);
     assert!(err.contains("bad.s1p") && err.contains("differ"), "{err}");
 }
+
+#[test]
+fn two_files_at_one_angle_are_averaged_and_reported_not_dropped() {
+    // −6° and 354° are one angle once the manifest spans a full turn: both files go into
+    // one bin (here the same sweep twice, so the average is that sweep) and a warning and
+    // the counters say so.
+    let s = short_bay();
+    let (bytes, _) = simulate_to(&s, None, 3, Vec::new(), false).unwrap();
+    let rec = recover(&bytes);
+    let dir = tempfile::tempdir().unwrap();
+    let m = write_manifest(&rec, dir.path(), -6.0, 2.0);
+    let mut text = std::fs::read_to_string(&m).unwrap();
+    text.push_str("354,sweeps/stop000.s2p\n");
+    std::fs::write(&m, text).unwrap();
+    let r = resolved(Input::Manifest(m), &dir.path().join("report"));
+    let p = process::process(&r).unwrap();
+    assert_eq!(p.report.bins.len(), 7);
+    let b = p
+        .report
+        .bins
+        .iter()
+        .find(|b| (b.angle_deg + 6.0).abs() < 1e-9)
+        .unwrap();
+    assert_eq!(b.sweeps, 2);
+    let w: Vec<&String> = p
+        .report
+        .warnings
+        .iter()
+        .filter(|w| w.contains("fall into one bin"))
+        .collect();
+    assert_eq!(w.len(), 1, "{:?}", p.report.warnings);
+    assert!(w[0].contains("(354°)") && w[0].contains("(-6°)"), "{w:?}");
+    let summary: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(dir.path().join("report/summary.json")).unwrap(),
+    )
+    .unwrap();
+    assert_eq!(summary["counters"]["files"], 8);
+    assert_eq!(summary["counters"]["bins_combining_files"], 1);
+    assert_eq!(summary["settings"]["bins"]["width_deg"], 2.0);
+    assert_eq!(summary["settings"]["bins"]["one_per_manifest_angle"], false);
+}

@@ -56,6 +56,24 @@ pub enum Finding {
         /// 2D²/λ at the top frequency.
         far_field_m: f64,
     },
+    /// The range is not much larger than the antenna (R ≥ 10·D,
+    /// [`FAR_FIELD_MUCH_GREATER`](super::FAR_FIELD_MUCH_GREATER)).
+    NotFarFromAntenna {
+        /// AUT-to-probe distance.
+        range_m: f64,
+        /// 10·D.
+        needed_m: f64,
+    },
+    /// The range is not many wavelengths at the lowest frequency (R ≥ 10·λ,
+    /// [`FAR_FIELD_MUCH_GREATER`](super::FAR_FIELD_MUCH_GREATER)).
+    TooFewWavelengths {
+        /// AUT-to-probe distance.
+        range_m: f64,
+        /// 10·λ at the lowest frequency.
+        needed_m: f64,
+        /// The lowest frequency.
+        frequency_hz: f64,
+    },
     /// No plane or scatterer was given, so there is no echo to gate out.
     NoEchoes,
     /// The first echo arrives inside the main lobes of the direct path: with this band
@@ -123,6 +141,21 @@ impl fmt::Display for Finding {
                 f,
                 "The range of {range_m:.3} m is shorter than the far-field distance 2D²/λ of \
                  {far_field_m:.3} m at the top frequency, so the pattern is measured in the near field."
+            ),
+            Self::NotFarFromAntenna { range_m, needed_m } => write!(
+                f,
+                "The range of {range_m:.3} m is not much larger than the antenna: the far field \
+                 needs R ≫ D, taken as 10·D = {needed_m:.3} m."
+            ),
+            Self::TooFewWavelengths {
+                range_m,
+                needed_m,
+                frequency_hz,
+            } => write!(
+                f,
+                "The range of {range_m:.3} m is not many wavelengths at {:.3} MHz: the far \
+                 field needs R ≫ λ, taken as 10·λ = {needed_m:.3} m.",
+                frequency_hz / 1e6
             ),
             Self::NoEchoes => f.write_str(
                 "No reflecting plane or scatterer was given, so there is no echo to gate out.",

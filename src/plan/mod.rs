@@ -53,6 +53,53 @@ pub const MAX_FINDINGS: usize = MAX_ECHOES + 12;
 /// only if their fractional bandwidth is given as the true, large value.
 pub const RING_DOWN_FACTOR: f64 = 1.465_871_197_758_855_7; // ln(100)/π
 
+/// The factor read into "≫" in the far-field conditions R ≫ D and R ≫ λ: R ≥ 10·D and
+/// R ≥ 10·λ. The three conditions (R ≥ 2D²/λ, R ≫ D, R ≫ λ) are those of C. A. Balanis,
+/// *Antenna Theory*, 4th ed., §2.2.4 (and IEEE Std 149 for 2D²/λ); the factor 10 for "≫" is
+/// common practice, no source.
+pub const FAR_FIELD_MUCH_GREATER: f64 = 10.0;
+
+/// The far-field conditions at one frequency.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct FarFieldCheck {
+    /// The frequency checked.
+    pub frequency_hz: f64,
+    /// Its wavelength.
+    pub wavelength_m: f64,
+    /// 2D²/λ (phase error ≤ π/8 across the aperture).
+    pub rayleigh_m: f64,
+    /// [`FAR_FIELD_MUCH_GREATER`]·D (R ≫ D: amplitude and angle errors of the near terms).
+    pub size_m: f64,
+    /// [`FAR_FIELD_MUCH_GREATER`]·λ (R ≫ λ: reactive near field gone).
+    pub wavelengths_m: f64,
+    /// Whether the range meets all three.
+    pub met: bool,
+}
+
+impl FarFieldCheck {
+    /// The three conditions for an antenna of largest dimension `aut_size_m` at `range_m`.
+    pub fn at(frequency_hz: f64, aut_size_m: f64, range_m: f64) -> Self {
+        let wavelength_m = SPEED_OF_LIGHT_M_S / frequency_hz;
+        let rayleigh_m = 2.0 * aut_size_m * aut_size_m / wavelength_m;
+        let size_m = FAR_FIELD_MUCH_GREATER * aut_size_m;
+        let wavelengths_m = FAR_FIELD_MUCH_GREATER * wavelength_m;
+        Self {
+            frequency_hz,
+            wavelength_m,
+            rayleigh_m,
+            size_m,
+            wavelengths_m,
+            met: range_m >= rayleigh_m && range_m >= size_m && range_m >= wavelengths_m,
+        }
+    }
+
+    /// The largest of the three distances: the range this frequency needs.
+    pub fn needed_m(&self) -> f64 {
+        self.rayleigh_m.max(self.size_m).max(self.wavelengths_m)
+    }
+}
+
 /// One echo path with its delays.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -169,8 +216,13 @@ pub struct Plan {
     pub far_field_m: f64,
     /// AUT-to-probe distance.
     pub range_m: f64,
-    /// Whether the range is at least the far-field distance.
+    /// Whether the range meets every far-field condition ([`FarFieldCheck`]) at both the
+    /// lowest and the highest frequency.
     pub meets_far_field: bool,
+    /// The far-field conditions at the lowest frequency (where R ≫ λ is hardest).
+    pub far_field_low: FarFieldCheck,
+    /// The far-field conditions at the highest frequency (where R ≥ 2D²/λ is hardest).
+    pub far_field_high: FarFieldCheck,
     /// Direct-path delay from the VNA's time zero (cable delay included).
     pub direct_delay_s: f64,
     /// Every single-bounce and scatterer echo, in input order (planes, then scatterers).
@@ -286,7 +338,8 @@ fn validate(input: &PlanInput<'_>) -> Result<(), PlanError> {
 /// speed and ring-down, with a finding for every problem. See [`PlanInput`] for an example.
 ///
 /// Criteria (stated so they can be checked by hand):
-/// - far field: range ≥ 2D²/λ at the top frequency;
+/// - far field: range ≥ 2D²/λ, range ≥ 10·D and range ≥ 10·λ, each at the lowest and the
+///   highest frequency ([`FarFieldCheck`], [`FAR_FIELD_MUCH_GREATER`]);
 /// - separable: the first echo's excess delay is at least the band window's null-to-null
 ///   main lobe w = mainlobe_width()/B, so the gate (centred on the direct path, closing w/2
 ///   before the first echo) still holds the direct path's whole main lobe; the gate span is
@@ -301,8 +354,11 @@ pub fn plan(input: &PlanInput<'_>) -> Result<Plan, PlanError> {
     let c = SPEED_OF_LIGHT_M_S;
     let grid = &input.grid;
     let mut findings = steps::Findings::new();
-    let (top_wavelength_m, far_field_m, range_m, meets_far_field) =
-        steps::far_field(input, &mut findings)?;
+    let (far_field_low, far_field_high) = steps::far_field(input, &mut findings)?;
+    let range_m = input.aut.distance_m(&input.probe);
+    let top_wavelength_m = far_field_high.wavelength_m;
+    let far_field_m = far_field_high.rayleigh_m;
+    let meets_far_field = far_field_low.met && far_field_high.met;
 
     let direct_delay_s = input.cable_delay_s + range_m / c;
     let echoes = steps::echoes(input, range_m)?;
@@ -336,6 +392,8 @@ pub fn plan(input: &PlanInput<'_>) -> Result<Plan, PlanError> {
         far_field_m,
         range_m,
         meets_far_field,
+        far_field_low,
+        far_field_high,
         direct_delay_s,
         echoes,
         first_echo,

@@ -7,8 +7,8 @@ use core::f64::consts::PI;
 use heapless::Vec;
 
 use super::{
-    double_bounces, Echo, Finding, GateAdvice, PathSource, PlanInput, MAX_ECHOES, MAX_FINDINGS,
-    RING_DOWN_FACTOR, SPEED_OF_LIGHT_M_S,
+    double_bounces, Echo, FarFieldCheck, Finding, GateAdvice, PathSource, PlanInput, MAX_ECHOES,
+    MAX_FINDINGS, RING_DOWN_FACTOR, SPEED_OF_LIGHT_M_S,
 };
 use crate::error::PlanError;
 use crate::window::MAX_KAISER_BETA;
@@ -31,26 +31,46 @@ fn kaiser_beta_for_mainlobe(width: f64) -> Option<f32> {
     Some((beta as f32).min(MAX_KAISER_BETA))
 }
 
-/// Far-field figures: (top wavelength, 2D²/λ, range, whether the range meets it).
+/// Far-field conditions at the lowest and the highest frequency, with a finding for each
+/// condition the range misses (2D²/λ checked at the top, where it is largest; 10·λ at the
+/// bottom; 10·D once).
 pub(super) fn far_field(
     input: &PlanInput<'_>,
     findings: &mut Findings,
-) -> Result<(f64, f64, f64, bool), PlanError> {
-    let top_wavelength_m = SPEED_OF_LIGHT_M_S / input.grid.stop_hz();
+) -> Result<(FarFieldCheck, FarFieldCheck), PlanError> {
     let d = input.aut_size_m;
-    let far_field_m = 2.0 * d * d / top_wavelength_m;
     let range_m = input.aut.distance_m(&input.probe);
-    let meets_far_field = range_m >= far_field_m;
-    if !meets_far_field {
+    let low = FarFieldCheck::at(input.grid.start_hz(), d, range_m);
+    let high = FarFieldCheck::at(input.grid.stop_hz(), d, range_m);
+    if range_m < high.rayleigh_m {
         push(
             findings,
             Finding::BelowFarField {
                 range_m,
-                far_field_m,
+                far_field_m: high.rayleigh_m,
             },
         )?;
     }
-    Ok((top_wavelength_m, far_field_m, range_m, meets_far_field))
+    if range_m < high.size_m {
+        push(
+            findings,
+            Finding::NotFarFromAntenna {
+                range_m,
+                needed_m: high.size_m,
+            },
+        )?;
+    }
+    if range_m < low.wavelengths_m {
+        push(
+            findings,
+            Finding::TooFewWavelengths {
+                range_m,
+                needed_m: low.wavelengths_m,
+                frequency_hz: low.frequency_hz,
+            },
+        )?;
+    }
+    Ok((low, high))
 }
 
 /// Every single-bounce echo (planes in input order), then every scatterer echo.

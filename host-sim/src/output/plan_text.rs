@@ -7,7 +7,9 @@
 //! `aut_fractional_bandwidth`, `band_window`, `band_window_mainlobe_bins`, `aut_position_m`,
 //! `probe_position_m`, `bin_step_deg`, `sweep_duration_s`, `cable_delay_s`, `rotation_deg_s`,
 //! `longest_path_m`), `far_field` (`top_wavelength_m`, `far_field_m`, `range_m`,
-//! `meets_far_field`), `paths` (`direct_path_m`, `direct_delay_s`, `echoes`: `source`,
+//! `meets_far_field`, `conditions`: `frequency_hz`, `wavelength_m`,
+//! `two_d_squared_over_lambda_m`, `ten_d_m`, `ten_lambda_m`, `met` at the lowest and highest
+//! frequency), `paths` (`direct_path_m`, `direct_delay_s`, `echoes`: `source`,
 //! `name`, `path_m`, `delay_s`, `excess_delay_s`, `reflection`, `relative_level_db`,
 //! `bounce_point_m`, `first`), `time_axis` (`bandwidth_hz`, `resolution_s`, `mainlobe_s`,
 //! `alias_free_s`, `alias_free_m`, `longest_path_m`, `longest_delay_s`, `longest_source`,
@@ -110,8 +112,42 @@ pub struct FarFieldReport {
     pub far_field_m: f64,
     /// AUT-to-probe distance.
     pub range_m: f64,
-    /// Whether the range meets the far field.
+    /// Whether the range meets every far-field condition at both band edges.
     pub meets_far_field: bool,
+    /// The conditions at the lowest and the highest frequency.
+    pub conditions: Vec<FarFieldConditions>,
+}
+
+/// The far-field conditions at one frequency: R ≥ 2D²/λ, R ≥ 10·D, R ≥ 10·λ (Balanis,
+/// Antenna Theory, §2.2.4; the factor 10 for "≫" is common practice, no source).
+#[derive(Debug, Clone, Serialize)]
+pub struct FarFieldConditions {
+    /// The frequency.
+    pub frequency_hz: f64,
+    /// Its wavelength.
+    pub wavelength_m: f64,
+    /// 2D²/λ.
+    pub two_d_squared_over_lambda_m: f64,
+    /// 10·D.
+    pub ten_d_m: f64,
+    /// 10·λ.
+    pub ten_lambda_m: f64,
+    /// Whether the range meets all three.
+    pub met: bool,
+}
+
+impl FarFieldConditions {
+    /// From the core's check.
+    pub fn of(c: &sweepgate::plan::FarFieldCheck) -> Self {
+        Self {
+            frequency_hz: c.frequency_hz,
+            wavelength_m: c.wavelength_m,
+            two_d_squared_over_lambda_m: c.rayleigh_m,
+            ten_d_m: c.size_m,
+            ten_lambda_m: c.wavelengths_m,
+            met: c.met,
+        }
+    }
 }
 
 /// One echo.
@@ -206,7 +242,8 @@ pub struct RotationReport {
 /// One finding.
 #[derive(Debug, Clone, Serialize)]
 pub struct FindingReport {
-    /// Short name: `below_far_field`, `no_echoes`, `not_separable`, `aliased`,
+    /// Short name: `below_far_field`, `not_far_from_antenna`, `too_few_wavelengths`,
+    /// `no_echoes`, `not_separable`, `aliased`,
     /// `step_too_coarse`, `gate_beyond_alias_free`, `gate_shorter_than_ring_down`,
     /// `rotation_too_fast`.
     pub kind: &'static str,
@@ -312,12 +349,24 @@ fn far_field(w: &mut String, r: &PlanReport) -> std::fmt::Result {
     writeln!(w, "\nFar field")?;
     writeln!(
         w,
-        "  range {:.3} m, 2D²/λ at the top frequency {:.3} m (λ = {:.4} m): {}",
+        "  range {:.3} m, 2D²/λ at the top frequency {:.3} m (λ = {:.4} m); all conditions: {}",
         f.range_m,
         f.far_field_m,
         f.top_wavelength_m,
         if f.meets_far_field { "met" } else { "NOT met" }
-    )
+    )?;
+    for c in &f.conditions {
+        writeln!(
+            w,
+            "  at {:.3} MHz: 2D²/λ {:.3} m, 10·D {:.3} m, 10·λ {:.3} m: {}",
+            c.frequency_hz / 1e6,
+            c.two_d_squared_over_lambda_m,
+            c.ten_d_m,
+            c.ten_lambda_m,
+            if c.met { "met" } else { "NOT met" }
+        )?;
+    }
+    Ok(())
 }
 
 fn paths(w: &mut String, r: &PlanReport) -> std::fmt::Result {

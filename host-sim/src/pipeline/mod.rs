@@ -5,6 +5,7 @@
 pub mod capture;
 pub mod demo;
 pub mod engine;
+pub mod manifest_bins;
 pub mod options;
 pub mod plan;
 pub mod process;

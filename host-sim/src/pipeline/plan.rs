@@ -49,8 +49,8 @@ use crate::pipeline::options::{default_band_window, format_window, parse_window}
 // The report's fields live with the table that prints them (`output/plan_text.rs`); they
 // are re-exported here unchanged so that the plan's pieces keep one path.
 pub use crate::output::plan_text::{
-    EchoReport, FarFieldReport, FileKind, FindingReport, GateReport, InputsReport, PathsReport,
-    PlanReport, RotationReport, SizeSource, TimeAxisReport,
+    EchoReport, FarFieldConditions, FarFieldReport, FileKind, FindingReport, GateReport,
+    InputsReport, PathsReport, PlanReport, RotationReport, SizeSource, TimeAxisReport,
 };
 
 /// The cautions every plan carries, one sentence each.
@@ -240,6 +240,8 @@ pub fn aut_size_m(s: &Scenario, overrides: &Overrides) -> (f64, SizeSource) {
 fn finding_kind(f: &Finding) -> &'static str {
     match f {
         Finding::BelowFarField { .. } => "below_far_field",
+        Finding::NotFarFromAntenna { .. } => "not_far_from_antenna",
+        Finding::TooFewWavelengths { .. } => "too_few_wavelengths",
         Finding::NoEchoes => "no_echoes",
         Finding::NotSeparable { .. } => "not_separable",
         Finding::Aliased { .. } => "aliased",
@@ -361,6 +363,10 @@ pub fn plan_report(
             far_field_m: p.far_field_m,
             range_m: p.range_m,
             meets_far_field: p.meets_far_field,
+            conditions: [p.far_field_low, p.far_field_high]
+                .iter()
+                .map(FarFieldConditions::of)
+                .collect(),
         },
         paths: PathsReport {
             direct_path_m: p.range_m,

@@ -4,7 +4,9 @@
 //! # Inputs
 //!
 //! - `--manifest FILE`: a step-and-stop scan saved as one Touchstone file per angle (see
-//!   [`crate::formats::manifest`]). Each file is one sweep; each manifest angle is one bin,
+//!   [`crate::formats::manifest`]). Each file is one sweep; the bins are
+//!   [`crate::pipeline::manifest_bins`]'s (the manifest's own angle step unless a bin width
+//!   is given; files sharing a bin, such as 350° and −10°, are averaged and reported), each
 //!   gated with the core [`Gate`] on its FFT path (echo level and gated values), which is
 //!   what the scan engine computes for a bin holding one sweep.
 //! - `--recording REC`: a recording (see [`crate::formats::recording`]), streamed through
@@ -53,6 +55,7 @@ use crate::formats::touchstone::{Parameter, Spacing, Touchstone};
 use crate::output::export::{self, BandRow, Bands, Exports};
 use crate::output::report::{self, ImpulseView, ReportBin, ReportInput, ReportValue};
 use crate::pipeline::engine::gate_sweeps;
+use crate::pipeline::manifest_bins;
 use crate::pipeline::options::{default_report_dir, window_option, Choices, GateOptions, Origin};
 use crate::pipeline::setup::{self, Automatic};
 use crate::pipeline::stream::{self, Discard, Pacing};
@@ -329,25 +332,31 @@ fn covers_full_circle(angles_deg: &[f64]) -> bool {
     sorted.len() > 1 && hi - lo + step >= 360.0 - 1e-6
 }
 
-/// Processes a manifest: one bin per angle, each file's sweep gated on the FFT path.
+/// Processes a manifest: its angles binned ([`manifest_bins`]: the manifest's own step
+/// unless a bin width is given; files sharing a bin averaged and reported), each bin's sweep
+/// gated on the FFT path.
 pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> {
     let m = Manifest::read(path)?;
     let scan = m.load(r.parameter, r.spacing)?;
     if scan.sweeps.is_empty() {
         bail!("{}: no sweeps", path.display());
     }
-    let sweeps: Vec<&[Complex32]> = scan.sweeps.iter().map(|s| &s.values[..]).collect();
-    let angles: Vec<f64> = scan.sweeps.iter().map(|s| s.angle_deg).collect();
+    let file_angles: Vec<f64> = scan.sweeps.iter().map(|s| s.angle_deg).collect();
+    let full_circle = covers_full_circle(&file_angles);
+    let binned = manifest_bins::bin_sweeps(&scan.sweeps, r.choices.bin_width_deg, full_circle)
+        .with_context(|| format!("{}: binning the manifest's angles", path.display()))?;
+    let sweeps: Vec<&[Complex32]> = binned.sweeps.iter().map(|s| &s.values[..]).collect();
+    let angles: Vec<f64> = binned.sweeps.iter().map(|s| s.angle_deg).collect();
     let auto = Automatic::Peak {
         sweeps: &sweeps,
         angles_deg: Some(&angles),
     };
     let bw = setup::band_window(&r.choices, None)?;
     let g = setup::gating(scan.grid, &r.choices, bw, &[], auto)?;
-    let (bins, impulse, gated) = gate_each(&g.gate, &scan.sweeps, &g.indices)?;
+    let (bins, impulse, gated) = gate_each(&g.gate, &binned.sweeps, &binned.counts, &g.indices)?;
     let bands = Bands {
         grid: scan.grid,
-        rows: scan
+        rows: binned
             .sweeps
             .iter()
             .zip(gated)
@@ -358,8 +367,9 @@ pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> 
             })
             .collect(),
     };
-    let full_circle = covers_full_circle(&angles);
     let mut settings = Settings::for_sweeps(&g, bins.len(), full_circle);
+    settings.bins.width_deg = Some(binned.width_deg as f32);
+    settings.bins.one_per_manifest_angle = binned.combined.is_empty();
     settings.parameter = Some(
         r.parameter
             .map_or("default (S21, or S11 for 1-port files)".to_string(), |p| {
@@ -367,6 +377,7 @@ pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> 
             }),
     );
     let mut warnings = scan.warnings.clone();
+    warnings.extend(binned.combined.iter().cloned());
     warnings.extend(g.remarks.iter().cloned());
     let report = ReportInput {
         title: format!("manifest {}", m.name()),
@@ -375,7 +386,12 @@ pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> 
         full_circle,
         bins,
         settings: settings.to_json(),
-        counters: serde_json::json!({ "files": scan.sweeps.len(), "sweeps_binned": scan.sweeps.len() }),
+        counters: serde_json::json!({
+            "files": scan.sweeps.len(),
+            "sweeps_binned": scan.sweeps.len(),
+            "bins": binned.sweeps.len(),
+            "bins_combining_files": binned.combined.len(),
+        }),
         warnings,
         impulse,
         gain: None,
@@ -388,12 +404,17 @@ pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> 
     })
 }
 
-/// Bins, the impulse view and each sweep's gated spectrum.
+/// Bins, the impulse view and each bin's gated spectrum.
 type Gated = (Vec<ReportBin>, Option<ImpulseView>, Vec<Vec<Complex32>>);
 
-/// One bin per sweep, gated on the FFT path, the impulse view of the sweep nearest 0°, and
-/// each sweep's gated spectrum.
-fn gate_each(gate: &GateConfig, sweeps: &[AngleSweep], indices: &[usize]) -> anyhow::Result<Gated> {
+/// One bin per binned sweep (`counts` files each), gated on the FFT path, the impulse view
+/// of the sweep nearest 0°, and each bin's gated spectrum.
+fn gate_each(
+    gate: &GateConfig,
+    sweeps: &[AngleSweep],
+    counts: &[usize],
+    indices: &[usize],
+) -> anyhow::Result<Gated> {
     let values: Vec<&[Complex32]> = sweeps.iter().map(|s| &s.values[..]).collect();
     let near = sweeps
         .iter()
@@ -407,11 +428,12 @@ fn gate_each(gate: &GateConfig, sweeps: &[AngleSweep], indices: &[usize]) -> any
     let g = gate_sweeps(gate, &values, near)?;
     let bins = sweeps
         .iter()
+        .zip(counts)
         .zip(g.spectra.iter().zip(&g.echo_db))
-        .map(|(s, (gated, echo_db))| ReportBin {
+        .map(|((s, &count), (gated, echo_db))| ReportBin {
             angle_deg: s.angle_deg,
             mean_deg: s.angle_deg,
-            sweeps: 1,
+            sweeps: count as u32,
             flags: 0,
             echo_db: Some(f64::from(*echo_db)),
             values: indices
@@ -483,7 +505,7 @@ fn gain_reference(
         values: sweep.values,
         file: reference.to_path_buf(),
     }];
-    let (bins, _, _) = gate_each(&p.gate, &one, &indices)?;
+    let (bins, _, _) = gate_each(&p.gate, &one, &[1], &indices)?;
     let values = &bins.first().context("gating the reference")?.values;
     let mut per_frequency = Vec::new();
     for (f, v) in p.report.frequencies_hz.iter().zip(values) {

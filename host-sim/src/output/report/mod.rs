@@ -139,6 +139,8 @@ pub fn flag_words(bits: u16) -> String {
         (BinFlags::MOVING, "moving"),
         (BinFlags::EXTRAPOLATED, "extrapolated"),
         (BinFlags::COMBINE, "combine"),
+        (BinFlags::ECHO_IN_GATE, "echo_in_gate"),
+        (BinFlags::DIRECT_OUTSIDE_GATE, "direct_outside_gate"),
     ];
     names
         .iter()
