@@ -55,7 +55,7 @@ fn run() -> anyhow::Result<()> {
         }
         ["compare", cap, preview] => {
             let bytes = std::fs::read(cap).with_context(|| format!("reading {cap}"))?;
-            let host = capture::replay(&bytes).with_context(|| format!("{cap}"))?;
+            let host = capture::replay(&bytes).with_context(|| cap.to_string())?;
             let board = std::fs::read(preview).with_context(|| format!("reading {preview}"))?;
             let c = capture::compare(&board, &host.preview, 1e-5);
             println!(

@@ -6,6 +6,7 @@ pub mod capture;
 pub mod demo;
 pub mod engine;
 pub mod options;
+pub mod outputs;
 pub mod plan;
 pub mod process;
 pub mod replay;
