@@ -31,6 +31,10 @@ use crate::pipeline::outputs;
 use crate::pipeline::setup::{self, Setup};
 use crate::pipeline::stream::{self, Outcome, Pacing, Sink};
 
+/// Range of `--speed`: from a thousandth of the recorded pace (a 1 s scan takes 17 min)
+/// to a million times it (beyond which the waits are below the timer's resolution).
+pub const SPEED_RANGE: (f64, f64) = (1e-3, 1e6);
+
 /// Options of `sweepgate replay`.
 #[derive(Debug, Clone)]
 pub struct Options {
@@ -75,8 +79,14 @@ impl Options {
         if self.as_fast_as_possible {
             return Ok(None);
         }
-        if !(self.speed.is_finite() && self.speed > 0.0) {
-            bail!("--speed must be a positive number");
+        if !(SPEED_RANGE.0..=SPEED_RANGE.1).contains(&self.speed) {
+            bail!(
+                "--speed {} is outside {} to {} (record time divided by it; use \
+                 --as-fast-as-possible for no waiting)",
+                self.speed,
+                SPEED_RANGE.0,
+                SPEED_RANGE.1
+            );
         }
         Ok(Some(1.0 / self.speed))
     }
