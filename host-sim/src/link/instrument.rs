@@ -14,6 +14,14 @@
 //! instrument state, as with a real instrument. `--once` stops after the first client
 //! disconnects.
 //!
+//! One client cannot take it down: at most `--max-clients` are served at once (more are
+//! closed as they connect); a client silent, or not reading its answers, for
+//! `--idle-timeout-s` is dropped, as is one connected for `--session-limit-s`; lines and
+//! answers are bounded ([`MAX_LINE_BYTES`], [`MAX_ANSWER_BYTES`]); the shared state is
+//! locked for one command at a time, never across a socket read or write; an error accepting
+//! a client is reported and the server goes on. A `--bind` address other than loopback is
+//! announced with a warning, and `--dump` (which writes files) is refused there.
+//!
 //! Its sweeps come from a room scenario (`--scenario`, see [`crate::model::scenario`]) or, when
 //! none is given, from the built-in default, the `demo-lab` scenario compiled in. Each
 //! `INITiate` takes the next sweep of the simulated scan ([`Simulator::sweep`]); after the
