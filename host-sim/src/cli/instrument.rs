@@ -3,7 +3,9 @@
 
 use std::path::PathBuf;
 
-use crate::link::instrument::{run_server, ServerOptions};
+use std::time::Duration;
+
+use crate::link::instrument::{run_server, ServerLimits, ServerOptions};
 
 /// Options of `sweepgate instrument`.
 #[derive(clap::Args, Debug)]
@@ -11,7 +13,8 @@ pub struct Args {
     /// TCP port (5025 is the registered SCPI raw-socket port; 0 picks a free one).
     #[arg(long, default_value_t = 5025)]
     pub port: u16,
-    /// Address to listen on.
+    /// Address to listen on. Anything but a loopback address is announced with a warning
+    /// and refuses `--dump`.
     #[arg(long, default_value = "127.0.0.1")]
     pub bind: String,
     /// Scenario whose scan the sweeps come from (default: the built-in demo lab).
@@ -26,6 +29,16 @@ pub struct Args {
     /// Stop after the first client disconnects.
     #[arg(long)]
     pub once: bool,
+    /// Clients served at once (1 to 4096); more are closed as they connect.
+    #[arg(long, default_value_t = 256, value_parser = clap::value_parser!(u16).range(1..=4096))]
+    pub max_clients: u16,
+    /// Seconds a client may stay silent (or not read its answers) before it is dropped
+    /// (1 to 86400).
+    #[arg(long, default_value_t = 60, value_parser = clap::value_parser!(u32).range(1..=86400))]
+    pub idle_timeout_s: u32,
+    /// Seconds a client may stay connected at most (1 to 604800).
+    #[arg(long, default_value_t = 3600, value_parser = clap::value_parser!(u32).range(1..=604_800))]
+    pub session_limit_s: u32,
 }
 
 /// Runs the command.
@@ -37,5 +50,10 @@ pub fn run(args: Args) -> anyhow::Result<()> {
         seed: args.seed,
         dump: args.dump,
         once: args.once,
+        limits: ServerLimits {
+            max_clients: usize::from(args.max_clients),
+            idle: Duration::from_secs(u64::from(args.idle_timeout_s)),
+            total: Duration::from_secs(u64::from(args.session_limit_s)),
+        },
     })
 }

@@ -11,7 +11,7 @@ use crate::pipeline::replay::{self, Options};
 pub struct Args {
     /// Recording to replay.
     pub rec: PathBuf,
-    /// Pace: record time divided by this (2 = twice as fast as recorded).
+    /// Pace: record time divided by this (2 = twice as fast as recorded), 0.001 to 1e6.
     #[arg(long, default_value_t = 1.0, conflicts_with = "as_fast_as_possible")]
     pub speed: f64,
     /// Do not wait between records.
@@ -48,6 +48,7 @@ pub struct Args {
 
 /// Runs the command.
 pub fn run(a: Args) -> anyhow::Result<()> {
+    let a_rec = a.rec.clone();
     let (o, dir) = replay::replay_file(&Options {
         rec: a.rec,
         speed: a.speed,
@@ -68,5 +69,13 @@ pub fn run(a: Args) -> anyhow::Result<()> {
         o.counters.bins_closed,
         dir.display()
     );
+    if o.counters.bins_closed == 0 {
+        anyhow::bail!(
+            "no bin was closed: every sweep of {} was refused or none fell in a bin \
+             (see summary.json in {} for the reasons)",
+            a_rec.display(),
+            dir.display()
+        );
+    }
     Ok(())
 }

@@ -3,7 +3,8 @@
 //!
 //! ```text
 //! sweepgate instrument [--port 5025] [--bind 127.0.0.1] [--scenario FILE] [--seed N]
-//!                      [--dump DIR] [--once]
+//!                      [--dump DIR] [--once] [--max-clients N] [--idle-timeout-s S]
+//!                      [--session-limit-s S]
 //! ```
 //!
 //! It listens on `--bind`:`--port` (default 127.0.0.1:5025, 5025 being the registered
@@ -12,6 +13,14 @@
 //! port. Several clients may connect at once (one thread each); they share one
 //! instrument state, as with a real instrument. `--once` stops after the first client
 //! disconnects.
+//!
+//! One client cannot take it down: at most `--max-clients` are served at once (more are
+//! closed as they connect); a client silent, or not reading its answers, for
+//! `--idle-timeout-s` is dropped, as is one connected for `--session-limit-s`; lines and
+//! answers are bounded ([`MAX_LINE_BYTES`], [`MAX_ANSWER_BYTES`]); the shared state is
+//! locked for one command at a time, never across a socket read or write; an error accepting
+//! a client is reported and the server goes on. A `--bind` address other than loopback is
+//! announced with a warning, and `--dump` (which writes files) is refused there.
 //!
 //! Its sweeps come from a room scenario (`--scenario`, see [`crate::model::scenario`]) or, when
 //! none is given, from the built-in default, the `demo-lab` scenario compiled in. Each
@@ -58,14 +67,18 @@
 //! type error, -108 parameter not allowed, -109 missing parameter, -113 undefined header,
 //! -131 invalid suffix, -221 settings conflict (start not below stop), -222 data out of
 //! range, -224 illegal parameter value, -230 data corrupt or stale (data query before any
-//! INITiate), -350 queue overflow. The queue holds 10 entries; when it is full the newest
+//! INITiate), -223 too much data (a line whose answers would pass
+//! [`MAX_ANSWER_BYTES`]), -350 queue overflow, -363 input buffer overrun (a line longer
+//! than [`MAX_LINE_BYTES`]). The queue holds 10 entries; when it is full the newest
 //! is replaced by -350.
 
 use std::collections::VecDeque;
-use std::io::{BufRead, BufReader, Read, Write};
+use std::io::{BufRead, BufReader, Write};
 use std::net::{TcpListener, TcpStream};
 use std::path::PathBuf;
+use std::sync::atomic::{AtomicUsize, Ordering};
 use std::sync::{Arc, Mutex};
+use std::time::{Duration, Instant};
 
 use anyhow::Context;
 use num_complex::Complex32;
@@ -79,8 +92,12 @@ use crate::model::simulator::Simulator;
 pub const IDN: &str = concat!("sweepgate,simulated-vna,0,", env!("CARGO_PKG_VERSION"));
 /// Entries the error queue holds.
 pub const ERROR_QUEUE_LEN: usize = 10;
-/// Longest program message line read, bytes; longer lines are dropped with -102.
+/// Longest program message line read, bytes; a longer line is skipped (read and thrown
+/// away, never stored) and queues -363 "Input buffer overrun".
 pub const MAX_LINE_BYTES: usize = 64 * 1024;
+/// Largest response message, bytes (the largest single answer, 10001 points in ASCii
+/// with 17 digits, is under 0.5 MB); a query that would pass it queues -223.
+pub const MAX_ANSWER_BYTES: usize = 4 << 20;
 /// Frequency limits of the simulated instrument, Hz.
 pub const FREQ_RANGE_HZ: (f64, f64) = (10e6, 50e9);
 /// Point count limits.
@@ -126,7 +143,9 @@ scpi_errors! {
     OUT_OF_RANGE = -222, "Data out of range";
     ILLEGAL_VALUE = -224, "Illegal parameter value";
     STALE = -230, "Data corrupt or stale";
+    TOO_MUCH_DATA = -223, "Too much data";
     QUEUE_OVERFLOW = -350, "Queue overflow";
+    INPUT_OVERRUN = -363, "Input buffer overrun";
 }
 
 impl std::fmt::Display for ScpiError {
@@ -218,6 +237,58 @@ fn matches(tokens: &[String], pattern: &[Node]) -> bool {
 enum Answer {
     Text(String),
     Bytes(Vec<u8>),
+}
+
+impl Answer {
+    fn len(&self) -> usize {
+        match self {
+            Answer::Text(t) => t.len(),
+            Answer::Bytes(b) => b.len(),
+        }
+    }
+}
+
+/// The response message of one program message line, bounded by [`MAX_ANSWER_BYTES`].
+#[derive(Default)]
+pub struct Response {
+    bytes: Vec<u8>,
+    any: bool,
+}
+
+impl Response {
+    fn push(&mut self, a: Answer) -> Result<(), ScpiError> {
+        if self.bytes.len() + a.len() + 2 > MAX_ANSWER_BYTES {
+            return Err(ScpiError::TOO_MUCH_DATA);
+        }
+        if self.any {
+            self.bytes.push(b';');
+        }
+        match a {
+            Answer::Text(t) => self.bytes.extend_from_slice(t.as_bytes()),
+            Answer::Bytes(b) => self.bytes.extend_from_slice(&b),
+        }
+        self.any = true;
+        Ok(())
+    }
+
+    /// The response message with its newline, or `None` when no query answered.
+    pub fn finish(mut self) -> Option<Vec<u8>> {
+        if !self.any {
+            return None;
+        }
+        self.bytes.push(b'\n');
+        Some(self.bytes)
+    }
+}
+
+/// The non-empty program message units of a line (a trailing `\r` dropped); a syntax
+/// error when the line is not UTF-8.
+pub fn program_units(line: &[u8]) -> Result<Vec<&str>, ScpiError> {
+    let text = std::str::from_utf8(line).map_err(|_| ScpiError::SYNTAX)?;
+    Ok(split_units(text.trim_end_matches('\r'))
+        .map(str::trim)
+        .filter(|u| !u.is_empty())
+        .collect())
 }
 
 impl Instrument {
@@ -339,40 +410,39 @@ impl Instrument {
     }
 
     /// Handles one program message line (without its newline); returns the response
-    /// message (with its newline) when it held queries.
+    /// message (with its newline) when it held queries. A response that would pass
+    /// [`MAX_ANSWER_BYTES`] is not built: the query that would overflow it queues -223.
     pub fn handle_line(&mut self, line: &[u8]) -> Option<Vec<u8>> {
-        let Ok(text) = std::str::from_utf8(line) else {
-            self.push_error(ScpiError::SYNTAX);
-            return None;
-        };
-        let text = text.trim_end_matches('\r');
-        let mut answers = Vec::new();
-        for unit in split_units(text) {
-            let unit = unit.trim();
-            if unit.is_empty() {
-                continue;
+        let mut response = Response::default();
+        match program_units(line) {
+            Ok(units) => {
+                for unit in units {
+                    self.handle_into(unit, &mut response);
+                }
             }
-            match self.handle_unit(unit) {
-                Ok(Some(a)) => answers.push(a),
-                Ok(None) => {}
-                Err(e) => self.push_error(e),
-            }
+            Err(e) => self.push_error(e),
         }
-        if answers.is_empty() {
-            return None;
-        }
-        let mut out = Vec::new();
-        for (i, a) in answers.into_iter().enumerate() {
-            if i > 0 {
-                out.push(b';');
+        response.finish()
+    }
+
+    /// Handles one program message unit (one `;`-separated command), adding its answer
+    /// to `response` or its error to the queue. The server takes the shared lock for one
+    /// unit at a time, so one long line cannot hold the instrument for the others.
+    pub fn handle_into(&mut self, unit: &str, response: &mut Response) {
+        match self.handle_unit(unit) {
+            Ok(Some(a)) => {
+                if let Err(e) = response.push(a) {
+                    self.push_error(e);
+                }
             }
-            match a {
-                Answer::Text(t) => out.extend_from_slice(t.as_bytes()),
-                Answer::Bytes(b) => out.extend_from_slice(&b),
-            }
+            Ok(None) => {}
+            Err(e) => self.push_error(e),
         }
-        out.push(b'\n');
-        Some(out)
+    }
+
+    /// Queues an error found outside any command (a line too long for the input buffer).
+    pub fn queue_error(&mut self, e: ScpiError) {
+        self.push_error(e);
     }
 
     fn handle_unit(&mut self, unit: &str) -> Result<Option<Answer>, ScpiError> {
@@ -724,65 +794,189 @@ fn encode(format: DataFormat, order: ByteOrder, values: &[Complex32]) -> Answer 
     }
 }
 
-/// Serves one client until it disconnects.
-pub fn serve_client(stream: TcpStream, inst: &Mutex<Instrument>) -> std::io::Result<()> {
+/// Limits that keep one client from taking the server down.
+#[derive(Debug, Clone, Copy)]
+pub struct ServerLimits {
+    /// Clients served at once; a client beyond it is closed at once.
+    pub max_clients: usize,
+    /// A client that sends nothing (or reads nothing) this long is dropped.
+    pub idle: Duration,
+    /// A client connected this long is dropped, however busy.
+    pub total: Duration,
+}
+
+impl Default for ServerLimits {
+    fn default() -> Self {
+        Self {
+            max_clients: 256,
+            idle: Duration::from_secs(60),
+            total: Duration::from_secs(3600),
+        }
+    }
+}
+
+/// How one line read ended.
+enum LineRead {
+    /// A whole line, without its newline, in the buffer.
+    Line,
+    /// A line longer than [`MAX_LINE_BYTES`], read to its newline and thrown away.
+    TooLong,
+    /// The client closed (mid-line or between lines).
+    Closed,
+}
+
+/// Reads one line of at most [`MAX_LINE_BYTES`] into `line`; a longer one is read to its
+/// newline in chunks and thrown away, so memory stays bounded whatever the client sends.
+fn read_line(r: &mut impl BufRead, line: &mut Vec<u8>) -> std::io::Result<LineRead> {
+    line.clear();
+    let mut too_long = false;
+    loop {
+        let chunk = r.fill_buf()?;
+        if chunk.is_empty() {
+            return Ok(LineRead::Closed);
+        }
+        let (take, done) = match chunk.iter().position(|&b| b == b'\n') {
+            Some(i) => (i, true),
+            None => (chunk.len(), false),
+        };
+        if !too_long && line.len() + take <= MAX_LINE_BYTES {
+            line.extend_from_slice(&chunk[..take]);
+        } else {
+            too_long = true;
+            line.clear();
+        }
+        r.consume(take + usize::from(done));
+        if done {
+            return Ok(if too_long {
+                LineRead::TooLong
+            } else {
+                LineRead::Line
+            });
+        }
+    }
+}
+
+/// Serves one client until it disconnects, goes idle past `limits.idle`, or has been
+/// connected `limits.total`. The shared lock is taken for one command at a time and never
+/// held across a socket read or write.
+pub fn serve_client(
+    stream: TcpStream,
+    inst: &Mutex<Instrument>,
+    limits: &ServerLimits,
+) -> std::io::Result<()> {
+    let deadline = Instant::now() + limits.total;
+    stream.set_write_timeout(Some(limits.idle))?;
     let mut out = stream.try_clone()?;
     let mut reader = BufReader::new(stream);
     let mut line = Vec::new();
     loop {
-        line.clear();
-        let n = (&mut reader)
-            .take(MAX_LINE_BYTES as u64)
-            .read_until(b'\n', &mut line)?;
-        if n == 0 {
-            return Ok(());
+        let left = deadline.saturating_duration_since(Instant::now());
+        if left.is_zero() {
+            return Err(std::io::Error::new(
+                std::io::ErrorKind::TimedOut,
+                "connected for the longest time a client is served",
+            ));
         }
-        let Some(body) = line.strip_suffix(b"\n") else {
-            if n < MAX_LINE_BYTES {
-                return Ok(()); // closed mid-line
+        let wait = left.min(limits.idle).max(Duration::from_millis(1));
+        reader.get_ref().set_read_timeout(Some(wait))?;
+        let response = match read_line(&mut reader, &mut line)? {
+            LineRead::Closed => return Ok(()),
+            LineRead::TooLong => {
+                if let Ok(mut i) = inst.lock() {
+                    i.queue_error(ScpiError::INPUT_OVERRUN);
+                }
+                continue;
             }
-            // Too long: skip to the end of the line and report it.
-            let mut rest = Vec::new();
-            reader.read_until(b'\n', &mut rest)?;
-            if let Ok(mut i) = inst.lock() {
-                i.push_error(ScpiError::SYNTAX);
-            }
-            continue;
+            LineRead::Line => answer_line(&line, inst),
         };
-        let answer = match inst.lock() {
-            Ok(mut i) => i.handle_line(body),
-            Err(_) => return Ok(()),
-        };
-        if let Some(a) = answer {
+        if let Some(a) = response {
             out.write_all(&a)?;
             out.flush()?;
         }
     }
 }
 
-/// Accepts clients on `listener` (one thread each); with `once`, returns after the
-/// first client disconnects.
-pub fn serve(listener: TcpListener, inst: Instrument, once: bool) -> anyhow::Result<()> {
+/// Runs one line against the shared instrument, one unit per lock.
+fn answer_line(line: &[u8], inst: &Mutex<Instrument>) -> Option<Vec<u8>> {
+    let mut response = Response::default();
+    match program_units(line) {
+        Ok(units) => {
+            for unit in units {
+                let Ok(mut i) = inst.lock() else {
+                    return None;
+                };
+                i.handle_into(unit, &mut response);
+            }
+        }
+        Err(e) => {
+            if let Ok(mut i) = inst.lock() {
+                i.queue_error(e);
+            }
+        }
+    }
+    response.finish()
+}
+
+/// Counts a served client; the count drops when the guard does.
+struct Slot(Arc<AtomicUsize>);
+
+impl Drop for Slot {
+    fn drop(&mut self) {
+        self.0.fetch_sub(1, Ordering::SeqCst);
+    }
+}
+
+/// Accepts clients on `listener` (one thread each, at most `limits.max_clients` at once);
+/// with `once`, returns after the first client disconnects. An error accepting one client
+/// (no descriptors left, a reset connection) is reported and the server goes on.
+pub fn serve(
+    listener: TcpListener,
+    inst: Instrument,
+    once: bool,
+    limits: ServerLimits,
+) -> anyhow::Result<()> {
     let inst = Arc::new(Mutex::new(inst));
+    let active = Arc::new(AtomicUsize::new(0));
     for stream in listener.incoming() {
-        let stream = stream.context("accepting a client")?;
+        let stream = match stream {
+            Ok(s) => s,
+            Err(e) => {
+                eprintln!("warning: accepting a client: {e}");
+                std::thread::sleep(Duration::from_millis(50));
+                continue;
+            }
+        };
         let peer = stream
             .peer_addr()
             .map(|a| a.to_string())
             .unwrap_or_default();
+        if active.fetch_add(1, Ordering::SeqCst) >= limits.max_clients {
+            active.fetch_sub(1, Ordering::SeqCst);
+            eprintln!(
+                "client {peer} refused: {} clients already",
+                limits.max_clients
+            );
+            drop(stream);
+            continue;
+        }
+        let slot = Slot(Arc::clone(&active));
         eprintln!("client {peer} connected");
         if once {
-            serve_client(stream, &inst).ok();
+            serve_client(stream, &inst, &limits).ok();
             eprintln!("client {peer} disconnected");
             return Ok(());
         }
         let inst = Arc::clone(&inst);
-        std::thread::spawn(move || {
-            if let Err(e) = serve_client(stream, &inst) {
+        let spawned = std::thread::Builder::new().spawn(move || {
+            let _slot = slot;
+            if let Err(e) = serve_client(stream, &inst, &limits) {
                 eprintln!("client {peer}: {e}");
             }
             eprintln!("client {peer} disconnected");
         });
+        if let Err(e) = spawned {
+            eprintln!("warning: no thread for a client: {e}");
+        }
     }
     Ok(())
 }
@@ -803,11 +997,48 @@ pub struct ServerOptions {
     pub dump: Option<PathBuf>,
     /// Stop after the first client disconnects.
     pub once: bool,
+    /// Client count and deadlines.
+    pub limits: ServerLimits,
+}
+
+/// Whether `--bind` names only this machine (a loopback address or `localhost`).
+fn is_loopback(bind: &str) -> bool {
+    if bind.eq_ignore_ascii_case("localhost") {
+        return true;
+    }
+    let host = bind.trim_start_matches('[').trim_end_matches(']');
+    host.parse::<std::net::IpAddr>()
+        .is_ok_and(|ip| ip.is_loopback())
+}
+
+/// Refuses file-writing features on an address others can reach, and warns about it.
+fn check_bind(o: &ServerOptions) -> anyhow::Result<()> {
+    if is_loopback(&o.bind) {
+        return Ok(());
+    }
+    if let Some(d) = &o.dump {
+        anyhow::bail!(
+            "--dump {} writes files on request of any client; it is refused with --bind {} \
+             (not a loopback address): bind 127.0.0.1 to use it",
+            d.display(),
+            o.bind
+        );
+    }
+    eprintln!(
+        "warning: --bind {} is not a loopback address: any machine that can reach it may \
+         drive this simulated instrument (there is no authentication)",
+        o.bind
+    );
+    Ok(())
 }
 
 /// Builds the instrument, listens, prints `listening on <address>` on standard output, and
 /// serves clients (see the module documentation).
 pub fn run_server(o: &ServerOptions) -> anyhow::Result<()> {
+    check_bind(o)?;
+    if o.limits.max_clients == 0 || o.limits.idle.is_zero() || o.limits.total.is_zero() {
+        anyhow::bail!("--max-clients, --idle-timeout-s and --session-limit-s must be above 0");
+    }
     let scenario = match &o.scenario {
         Some(path) => Scenario::load(path)?,
         None => Scenario::from_toml(DEMO_SCENARIO)?,
@@ -828,7 +1059,7 @@ pub fn run_server(o: &ServerOptions) -> anyhow::Result<()> {
         inst.scenario.sweep.points,
         inst.scenario.name
     );
-    serve(listener, inst, o.once)
+    serve(listener, inst, o.once, o.limits)
 }
 
 #[cfg(test)]

@@ -6,8 +6,8 @@
 
 use std::io::Read;
 use std::path::Path;
-use std::sync::atomic::AtomicBool;
-use std::sync::mpsc;
+use std::sync::atomic::{AtomicBool, AtomicU64, Ordering};
+use std::sync::{mpsc, Arc};
 use std::time::Duration;
 
 use anyhow::Context;
@@ -25,8 +25,18 @@ pub struct Options {
     pub bins: Option<u16>,
 }
 
+/// Feed messages in flight between the reader thread and the screen: the reader waits
+/// when the screen is behind, so memory stays bounded whatever the source sends.
+const FEED_DEPTH: usize = 64;
+
 fn open(from: &str) -> anyhow::Result<Box<dyn Read + Send>> {
-    if Path::new(from).exists() {
+    let path = Path::new(from);
+    if path.is_dir() {
+        anyhow::bail!(
+            "{from} is a directory: give a preview stream file, a serial device or HOST:PORT"
+        );
+    }
+    if path.exists() {
         let f = std::fs::File::open(from).with_context(|| format!("opening {from}"))?;
         return Ok(Box::new(f));
     }
@@ -34,16 +44,20 @@ fn open(from: &str) -> anyhow::Result<Box<dyn Read + Send>> {
     Ok(Box::new(s))
 }
 
-/// Reads the stream to its end (or until `q`), returning the final screen.
+/// Reads the stream to its end (or until `q`), returning the final screen; an error when
+/// the source is a directory or the stream held no preview record at all.
 pub fn view(args: &Options) -> anyhow::Result<Screen> {
     let mut src = open(&args.from)?;
-    let (tx, rx) = mpsc::channel();
+    let (tx, rx) = mpsc::sync_channel(FEED_DEPTH);
+    let read = Arc::new(AtomicU64::new(0));
+    let counted = Arc::clone(&read);
     std::thread::spawn(move || {
         let mut buf = [0u8; 4096];
         loop {
             match src.read(&mut buf) {
                 Ok(0) | Err(_) => break,
                 Ok(n) => {
+                    counted.fetch_add(n as u64, Ordering::Relaxed);
                     if tx.send(Feed::Bytes(buf[..n].to_vec())).is_err() {
                         break;
                     }
@@ -60,6 +74,13 @@ pub fn view(args: &Options) -> anyhow::Result<Screen> {
             .context("terminal preview")?;
     } else {
         preview::run_plain(&rx, &mut screen, args.bins.is_some());
+    }
+    if screen.bins.is_empty() && screen.status.is_none() {
+        anyhow::bail!(
+            "no preview record in the {} bytes read from {}",
+            read.load(Ordering::Relaxed),
+            args.from
+        );
     }
     Ok(screen)
 }

@@ -28,8 +28,13 @@ use crate::output::export::{self, Exports};
 use crate::output::report;
 use crate::output::screen::{self as preview, Feed, Screen};
 use crate::pipeline::options::{default_report_dir, GateOptions};
+use crate::pipeline::outputs;
 use crate::pipeline::setup::{self, Setup};
 use crate::pipeline::stream::{self, Outcome, Pacing, Sink};
+
+/// Range of `--speed`: from a thousandth of the recorded pace (a 1 s scan takes 17 min)
+/// to a million times it (beyond which the waits are below the timer's resolution).
+pub const SPEED_RANGE: (f64, f64) = (1e-3, 1e6);
 
 /// Options of `sweepgate replay`.
 #[derive(Debug, Clone)]
@@ -78,8 +83,14 @@ impl Options {
         if self.as_fast_as_possible {
             return Ok(None);
         }
-        if !(self.speed.is_finite() && self.speed > 0.0) {
-            bail!("--speed must be a positive number");
+        if !(SPEED_RANGE.0..=SPEED_RANGE.1).contains(&self.speed) {
+            bail!(
+                "--speed {} is outside {} to {} (record time divided by it; use \
+                 --as-fast-as-possible for no waiting)",
+                self.speed,
+                SPEED_RANGE.0,
+                SPEED_RANGE.1
+            );
         }
         Ok(Some(1.0 / self.speed))
     }
@@ -123,6 +134,7 @@ impl Sink for ChannelSink {
         let _ = self.tx.send(Feed::Bytes(bytes.to_vec()));
         if let Some(c) = &self.clients {
             if let Ok(mut v) = c.lock() {
+                // Non-blocking: a full socket buffer is an error and drops the viewer.
                 v.retain_mut(|s| s.write_all(bytes).is_ok());
             }
         }
@@ -132,13 +144,17 @@ impl Sink for ChannelSink {
 /// Reads a recording, replays it with the preview (or a progress line), and writes the
 /// report. Returns the outcome and the report folder.
 pub fn replay_file(opts: &Options) -> anyhow::Result<(Outcome, PathBuf)> {
-    let rec = record::recover_file(&opts.rec)
-        .with_context(|| format!("reading {}", opts.rec.display()))?;
+    let pace = opts.pace()?;
+    if let Some(r) = &opts.record {
+        outputs::refuse_output_is_input("--record", r, &[&opts.rec])?;
+    }
     let out_dir = opts
         .out
         .clone()
         .unwrap_or_else(|| default_report_dir(&opts.rec));
-    let pace = opts.pace()?;
+    outputs::check_report_dir(&out_dir)?;
+    let rec = record::recover_file(&opts.rec)
+        .with_context(|| format!("reading {}", opts.rec.display()))?;
     let s = setup(&rec, opts)?;
     let mut screen = screen_for(&s, &rec);
     let clients = match opts.serve {
@@ -192,7 +208,12 @@ fn screen_for(s: &Setup, rec: &Recovered) -> Screen {
     screen
 }
 
-/// Listens on 127.0.0.1:`port` and collects the clients that connect.
+/// Viewers served at once by `--serve`; more are closed as they connect.
+pub const MAX_VIEWERS: usize = 32;
+
+/// Listens on 127.0.0.1:`port` and collects the clients that connect (at most
+/// [`MAX_VIEWERS`]). Each is written without blocking: a viewer whose socket buffer is
+/// full (it stopped reading) is dropped, so it never stalls the replay or other viewers.
 fn serve(port: u16) -> anyhow::Result<Clients> {
     let l = TcpListener::bind(("127.0.0.1", port))
         .with_context(|| format!("listening on 127.0.0.1:{port}"))?;
@@ -204,9 +225,19 @@ fn serve(port: u16) -> anyhow::Result<Clients> {
     let c: Clients = Arc::default();
     let c2 = Arc::clone(&c);
     std::thread::spawn(move || {
-        for s in l.incoming().flatten() {
+        for s in l.incoming() {
+            let Ok(s) = s else {
+                // No descriptor left or a reset connection: go on after a pause.
+                std::thread::sleep(Duration::from_millis(50));
+                continue;
+            };
+            if s.set_nonblocking(true).is_err() {
+                continue;
+            }
             if let Ok(mut v) = c2.lock() {
-                v.push(s);
+                if v.len() < MAX_VIEWERS {
+                    v.push(s);
+                }
             }
         }
     });

@@ -53,6 +53,7 @@ pub struct Summary {
 
 /// Runs the command.
 pub fn run(args: &Options) -> anyhow::Result<()> {
+    crate::pipeline::outputs::refuse_output_is_input("--out", &args.out, &[&args.scenario])?;
     let text = std::fs::read_to_string(&args.scenario)
         .with_context(|| format!("reading scenario {}", args.scenario.display()))?;
     let scenario = Scenario::from_toml(&text)

@@ -23,6 +23,22 @@ impl Drop for Running {
     }
 }
 
+impl Running {
+    /// The server's process id.
+    pub fn pid(&self) -> u32 {
+        self.child.id()
+    }
+
+    /// A figure of the server's `/proc/<pid>/status` in kB (`VmRSS`, `VmHWM`, `Threads`).
+    pub fn status_kb(&self, field: &str) -> u64 {
+        let text = std::fs::read_to_string(format!("/proc/{}/status", self.pid())).unwrap();
+        text.lines()
+            .find_map(|l| l.strip_prefix(field)?.strip_prefix(':'))
+            .and_then(|v| v.split_whitespace().next()?.parse().ok())
+            .unwrap_or_else(|| panic!("no {field} in /proc status"))
+    }
+}
+
 /// A fresh, empty temporary directory for one test.
 pub fn temp_dir(name: &str) -> PathBuf {
     let d = std::env::temp_dir().join(format!("sweepgate-{name}-{}", std::process::id()));
