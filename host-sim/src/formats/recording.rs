@@ -604,6 +604,102 @@ struct Checker<'a> {
     bytes: &'a [u8],
     spans: Option<CrcSpans>,
     direct_left: usize,
+    window: Window,
+}
+
+/// Record markers searched a window at a time once the index exists: every candidate
+/// starting in `from..to` was checked, `found` holds those whose frame checks (ascending).
+/// Candidates are checked in the order of their claimed ends (to 4 KiB, a counting sort),
+/// so that the index and the stored CRCs are read front to back instead of at random places
+/// up to 16 MiB apart.
+#[derive(Default)]
+struct Window {
+    from: usize,
+    to: usize,
+    found: Vec<usize>,
+    /// The window's candidates as found, [`Claim`]s.
+    claims: Vec<Claim>,
+    /// The same, grouped by end.
+    by_end: Vec<Claim>,
+    /// Claims per 4 KiB of end, then where each group starts in `by_end`.
+    counts: Vec<usize>,
+}
+
+/// A candidate: its start, where its CRC'd bytes end (its CRC sits there), and the CRC
+/// register after the bytes before them (taken while the window is scanned front to back).
+#[derive(Debug, Clone, Copy, Default)]
+struct Claim {
+    start: usize,
+    end: usize,
+    register: u32,
+}
+
+/// Starts of candidates per window (small in unit tests, so that their soups of markers
+/// cross many windows).
+#[cfg(not(test))]
+const WINDOW: usize = 1 << 20;
+#[cfg(test)]
+const WINDOW: usize = 4 << 10;
+
+impl Window {
+    /// Orders `claims` into `by_end` by their end's 4 KiB block.
+    fn group_by_end(&mut self, from: usize) {
+        let block = |c: &Claim| (c.end - from) >> 12;
+        let blocks = self.claims.iter().map(|c| block(c) + 1).max().unwrap_or(0);
+        self.counts.clear();
+        self.counts.resize(blocks + 1, 0);
+        for c in &self.claims {
+            self.counts[block(c) + 1] += 1;
+        }
+        for i in 1..self.counts.len() {
+            self.counts[i] += self.counts[i - 1];
+        }
+        self.by_end.clear();
+        self.by_end.resize(self.claims.len(), Claim::default());
+        for c in &self.claims {
+            let slot = &mut self.counts[block(c)];
+            self.by_end[*slot] = *c;
+            *slot += 1;
+        }
+    }
+
+    /// Finds and checks every candidate starting in `from..to`.
+    fn fill(&mut self, bytes: &[u8], spans: &CrcSpans, from: usize, to: usize) {
+        self.claims.clear();
+        self.found.clear();
+        let (mut at, mut pos, mut reg) = (from, from, spans.register(bytes, from));
+        while let Some(c) = find_sync(bytes, at).filter(|&c| c < to) {
+            if let Some(end) = claimed_end(bytes, c) {
+                reg = crc_span::feed(reg, &bytes[pos..c + 4]);
+                pos = c + 4;
+                self.claims.push(Claim {
+                    start: c,
+                    end,
+                    register: reg,
+                });
+            }
+            at = c + 1;
+        }
+        self.group_by_end(from);
+        for c in &self.by_end {
+            let t = &bytes[c.end..c.end + 4];
+            let sb = spans.register(bytes, c.end);
+            let crc = crc_span::crc_between(c.register, sb, c.end - (c.start + 4));
+            if crc == u32::from_le_bytes([t[0], t[1], t[2], t[3]]) {
+                self.found.push(c.start);
+            }
+        }
+        self.found.sort_unstable();
+        (self.from, self.to) = (from, to);
+    }
+}
+
+/// Where the CRC'd bytes of a frame claimed at `c` end, if its length is within
+/// [`MAX_PAYLOAD`] and the frame inside the file (its CRC then sits at that offset).
+fn claimed_end(bytes: &[u8], c: usize) -> Option<usize> {
+    let l = bytes.get(c + 4..c + 8)?;
+    let len = u32::from_le_bytes([l[0], l[1], l[2], l[3]]) as usize;
+    (len <= MAX_PAYLOAD && c + FRAME_OVERHEAD + len <= bytes.len()).then_some(c + 9 + len)
 }
 
 impl<'a> Checker<'a> {
@@ -612,6 +708,7 @@ impl<'a> Checker<'a> {
             bytes,
             spans: None,
             direct_left: bytes.len(),
+            window: Window::default(),
         }
     }
 
@@ -672,16 +769,41 @@ impl<'a> Checker<'a> {
         })
     }
 
-    /// The first offset at or after `from` where a frame checks out.
+    /// The first offset at or after `from` where a frame checks out: candidate by
+    /// candidate while frames are hashed directly, by windows once the index exists.
     fn next_frame(&mut self, from: usize) -> Option<usize> {
         let mut at = from;
-        while let Some(c) = find_sync(self.bytes, at) {
+        while self.spans.is_none() {
+            let c = find_sync(self.bytes, at)?;
             if self.frame(c).is_ok() {
                 return Some(c);
             }
             at = c + 1;
         }
-        None
+        self.next_frame_by_windows(at)
+    }
+
+    fn next_frame_by_windows(&mut self, mut from: usize) -> Option<usize> {
+        let Self {
+            bytes,
+            spans,
+            window: w,
+            ..
+        } = self;
+        let spans = spans.as_ref()?;
+        loop {
+            if (w.from..w.to).contains(&from) {
+                let i = w.found.partition_point(|&c| c < from);
+                if let Some(&c) = w.found.get(i) {
+                    return Some(c);
+                }
+                from = w.to;
+            }
+            if from >= bytes.len() {
+                return None;
+            }
+            w.fill(bytes, spans, from, (from + WINDOW).min(bytes.len()));
+        }
     }
 }
 
@@ -1232,5 +1354,198 @@ mod tests {
         assert_eq!(std::fs::metadata(&path).unwrap().len(), len);
         assert_eq!(recover_file(&path).unwrap().stop, Stop::Complete);
         std::fs::remove_dir_all(&dir).ok();
+    }
+
+    fn test_header() -> Header {
+        Header {
+            software: "unit test".into(),
+            source: "unit test".into(),
+            scenario: None,
+            scenario_toml: None,
+            seed: None,
+            grid: GridInfo {
+                start_hz: 1e9,
+                step_hz: 1e6,
+                points: 2,
+            },
+            sweep_format: SWEEP_FORMAT.into(),
+            pattern_frequencies_hz: vec![],
+            bin_width_deg: None,
+            counts_per_turn: None,
+        }
+    }
+
+    fn position(i: u64) -> Record {
+        Record::Position {
+            t_us: i,
+            counts: i as i64,
+            angle_deg: i as f64,
+        }
+    }
+
+    #[test]
+    fn the_writer_repeats_the_header_every_so_often_and_before_the_end() {
+        let mut w = Writer::new(Vec::new()).unwrap();
+        w.write(&Record::Header(Box::new(test_header()))).unwrap();
+        let n = 2 * HEADER_COPY_EVERY + 10;
+        for i in 0..n {
+            w.write(&position(i)).unwrap();
+        }
+        let (bytes, _) = w.finish().unwrap();
+        let r = recover(&bytes);
+        assert_eq!(r.stop, Stop::Complete);
+        let kinds: Vec<u8> = r.records.iter().map(|(_, x)| x.kind()).collect();
+        let copies: Vec<usize> = (0..kinds.len())
+            .filter(|&i| kinds[i] == kind::HEADER_COPY)
+            .collect();
+        // Header at 0; a copy after every HEADER_COPY_EVERY records following the header
+        // or the last copy, and one before the end record.
+        let every = HEADER_COPY_EVERY as usize;
+        assert_eq!(copies, [every + 1, 2 * every + 2, kinds.len() - 2]);
+        assert_eq!(kinds[0], kind::HEADER);
+        assert_eq!(*kinds.last().unwrap(), kind::END);
+        for &i in &copies {
+            assert_eq!(r.records[i].1, Record::HeaderCopy(Box::new(test_header())));
+        }
+        // The end record counts what the caller wrote.
+        assert_eq!(
+            r.records.last().unwrap().1,
+            Record::End {
+                sweeps: 0,
+                positions: n,
+                truths: 0
+            }
+        );
+        assert_eq!(r.header_origin(), Some(HeaderOrigin::Record(12)));
+    }
+
+    #[test]
+    fn without_a_header_the_writer_writes_no_copy() {
+        let mut w = Writer::new(Vec::new()).unwrap();
+        w.write(&position(1)).unwrap();
+        let (bytes, _) = w.finish().unwrap();
+        let r = recover(&bytes);
+        assert_eq!(r.records.len(), 2);
+        assert!(r.header().is_none());
+        assert_eq!(r.header_origin(), None);
+    }
+
+    #[test]
+    fn an_unusable_grid_is_refused_by_name() {
+        let (bytes, _) = Writer::new(Vec::new()).unwrap().finish().unwrap();
+        let bad = GridInfo {
+            start_hz: 1e9,
+            step_hz: 0.0,
+            points: 5,
+        };
+        let e = recover_with_grid(&bytes, bad).unwrap_err();
+        assert!(matches!(e, GridMismatch::Unusable(_)));
+        assert!(
+            e.to_string().starts_with("the grid given is not usable: "),
+            "{e}"
+        );
+        assert!(std::error::Error::source(&e).is_some());
+    }
+
+    /// The reader as specified, without the index: the first marker at or after a bad
+    /// spot whose frame checks by a direct CRC (quadratic in the worst case).
+    fn reference(bytes: &[u8]) -> Recovered {
+        let mut out = Recovered::empty();
+        match file_header(bytes) {
+            Ok(v) => out.version = v,
+            Err(stop) => {
+                out.stop = stop;
+                return out;
+            }
+        }
+        let checks = |c: usize| Checker::new(bytes).frame(c).is_ok();
+        let mut at = FILE_HEADER_LEN;
+        while at < bytes.len() {
+            match Checker::new(bytes).frame(at) {
+                Ok(f) => {
+                    match Record::decode(f.kind, f.payload) {
+                        Ok(rec) => out.records.push((at as u64, rec)),
+                        Err(fault) => out.damage.push(Damage {
+                            offset: at as u64,
+                            skipped: (f.end - at) as u64,
+                            fault,
+                        }),
+                    }
+                    at = f.end;
+                }
+                Err(fault) => match (at + 1..bytes.len()).find(|&c| checks(c)) {
+                    Some(next) => {
+                        out.damage.push(Damage {
+                            offset: at as u64,
+                            skipped: (next - at) as u64,
+                            fault,
+                        });
+                        at = next;
+                    }
+                    None => {
+                        out.stop_offset = at as u64;
+                        out.stop = Stop::Fault(fault);
+                        return out;
+                    }
+                },
+            }
+        }
+        out.stop_offset = at as u64;
+        out.stop = match out.records.last() {
+            Some((_, Record::End { .. })) => Stop::Complete,
+            _ => Stop::EndOfData,
+        };
+        out
+    }
+
+    #[test]
+    fn the_indexed_search_finds_what_the_plain_one_finds() {
+        // Soups of genuine records, markers with claimed lengths (short and long, most
+        // inside the file) and noise; two long claims at the start spend the direct-hash
+        // budget, so that the index and the windows do the rest.
+        let mut seed = 0x9E37_79B9_7F4A_7C15u64;
+        let mut next = move || {
+            // xorshift64 (Marsaglia 2003).
+            seed ^= seed << 13;
+            seed ^= seed >> 7;
+            seed ^= seed << 17;
+            seed
+        };
+        for round in 0..30 {
+            let mut b = Writer::new(Vec::new()).unwrap().finish().unwrap().0;
+            b.truncate(FILE_HEADER_LEN);
+            let size = 20_000 + (next() % 100_000) as usize;
+            for _ in 0..2 {
+                b.extend_from_slice(&SYNC);
+                b.extend_from_slice(&((size - 200) as u32).to_le_bytes());
+            }
+            while b.len() < size {
+                match next() % 6 {
+                    0 => b.extend_from_slice(&position(next() % 1000).frame()),
+                    1 => b.extend_from_slice(
+                        &Record::Unknown {
+                            kind: 99,
+                            payload: vec![7; (next() % 300) as usize],
+                        }
+                        .frame(),
+                    ),
+                    2 | 3 => {
+                        let room = (size - b.len()) as u64;
+                        b.extend_from_slice(&SYNC);
+                        b.extend_from_slice(&((next() % room) as u32).to_le_bytes());
+                    }
+                    _ => b.extend((0..next() % 40).map(|_| next() as u8)),
+                }
+            }
+            // The two long claims spend the budget: the rest goes by the index.
+            let mut c = Checker::new(&b);
+            assert!(c.frame(FILE_HEADER_LEN).is_err());
+            c.next_frame(FILE_HEADER_LEN + 1);
+            assert!(c.spans.is_some(), "round {round}");
+            let got = recover(&b);
+            let want = reference(&b);
+            assert_eq!(got, want, "round {round}");
+            assert!(got.records.len() > 10, "round {round}");
+        }
     }
 }
