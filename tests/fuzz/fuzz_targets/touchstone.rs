@@ -1,4 +1,4 @@
-//! Fuzz the Touchstone reader (`sweepgate_host::touchstone::Touchstone::parse_str`) with
+//! Fuzz the Touchstone reader (`sweepgate_host::formats::touchstone::Touchstone::parse_str`) with
 //! arbitrary text (invalid UTF-8 is read lossily, as a file would be refused). Checks that
 //! nothing panics, that a file that parses has as many matrices as frequencies, each of
 //! ports² values, that its frequencies increase, that the error message is one line, and
@@ -6,7 +6,7 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use sweepgate_host::touchstone::Touchstone;
+use sweepgate_host::formats::touchstone::Touchstone;
 
 fuzz_target!(|data: &[u8]| {
     let [name_byte, text @ ..] = data else { return };
