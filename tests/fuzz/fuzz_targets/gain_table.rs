@@ -20,8 +20,13 @@ fuzz_target!(|data: &[u8]| {
             assert!(f.windows(2).all(|w| w[0] < w[1]));
             assert!(g.iter().all(|x| x.is_finite()));
             for (fi, gi) in f.iter().zip(g) {
-                let got = t.gain_dbi(*fi).expect("a row's own frequency is inside the table");
-                assert!((got - gi).abs() <= 1e-9 * gi.abs().max(1.0), "{got} vs {gi} at {fi}");
+                let got = t
+                    .gain_dbi(*fi)
+                    .expect("a row's own frequency is inside the table");
+                assert!(
+                    (got - gi).abs() <= 1e-9 * gi.abs().max(1.0),
+                    "{got} vs {gi} at {fi}"
+                );
             }
         }
         Err(e) => {

@@ -16,7 +16,8 @@ use sweepgate_host::formats::manifest::Manifest;
 fn base() -> &'static PathBuf {
     static BASE: OnceLock<PathBuf> = OnceLock::new();
     BASE.get_or_init(|| {
-        let d = std::env::temp_dir().join(format!("sweepgate-fuzz-manifest-{}", std::process::id()));
+        let d =
+            std::env::temp_dir().join(format!("sweepgate-fuzz-manifest-{}", std::process::id()));
         std::fs::create_dir_all(&d).expect("fuzz folder");
         for name in ["a.s2p", "b.s2p"] {
             std::fs::write(d.join(name), "# MHz S RI\n1 0 0 0.5 0 0 0 0 0\n").expect("file");

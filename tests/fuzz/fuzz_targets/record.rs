@@ -61,7 +61,12 @@ fuzz_target!(|data: &[u8]| {
     if !matches!(r.stop, Stop::BadFileHeader(_)) {
         assert_eq!(at, r.stop_offset, "pieces end where reading stopped");
     }
-    let header_at = |k: u8| r.records.iter().find(|(_, x)| x.kind() == k).map(|(o, _)| *o);
+    let header_at = |k: u8| {
+        r.records
+            .iter()
+            .find(|(_, x)| x.kind() == k)
+            .map(|(o, _)| *o)
+    };
     match r.header_origin() {
         Some(HeaderOrigin::Record(o)) => assert_eq!(Some(o), header_at(1)),
         Some(HeaderOrigin::Copy(o)) => assert!(header_at(1).is_none() && Some(o) == header_at(6)),

@@ -11,7 +11,8 @@ fuzz_target!(|data: &[u8]| {
     let text = String::from_utf8_lossy(data);
     match Scenario::from_toml(&text) {
         Ok(s) => {
-            s.validate().expect("a scenario that parsed validates again");
+            s.validate()
+                .expect("a scenario that parsed validates again");
             let grid = s.grid().expect("a valid scenario has a grid");
             assert_eq!(grid.points(), s.sweep.points);
             let again = toml::to_string(&s).expect("a scenario writes as TOML");
