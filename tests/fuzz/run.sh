@@ -11,8 +11,9 @@ set -euo pipefail
 secs="${1:-30}"
 here="$(cd "$(dirname "$0")" && pwd)"
 cd "$here/../.."
-targets="${FUZZ_TARGETS:-block ascii scan pump preview capture record touchstone}"
 cargo +nightly fuzz build --fuzz-dir tests/fuzz
+# Every target in Cargo.toml, unless FUZZ_TARGETS names some.
+targets="${FUZZ_TARGETS:-$(cargo +nightly fuzz list --fuzz-dir tests/fuzz)}"
 for t in $targets; do
   log="$(mktemp)"
   echo "fuzz $t: ${secs} s"

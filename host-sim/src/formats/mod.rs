@@ -1,7 +1,9 @@
 //! Files, parse and emit only: recordings, Touchstone, manifests, gain tables, IEEE 488.2
-//! block files, NumPy arrays; and writing a file so that it is whole or absent.
+//! block files, NumPy arrays; and the safe reading and writing of files (`files`).
 
 pub mod block;
+mod crc_span;
+pub mod files;
 pub mod gain_table;
 pub mod manifest;
 pub mod npy;
