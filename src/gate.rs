@@ -365,19 +365,19 @@ where
         raw: &[Complex32; M],
         out: &mut [Complex32; F],
     ) {
-        self.each_kernel(kernels, out, |k| self.kernel_dot_raw(k, raw));
+        *out = self.kernel_dots::<F, true>(kernels, raw);
     }
 
     /// The first step of the chain in place: `buf[n] *= scale·w[n]` for n < K, zero beyond.
     /// `scale` is free to fold in, say, the 1/count of an average of sweeps.
     pub fn window(&self, buf: &mut [Complex32; M], scale: f32) {
-        for (n, (v, &w)) in buf.iter_mut().zip(self.band.iter()).enumerate() {
-            *v = if n < self.points {
-                *v * (w * scale)
-            } else {
-                ZERO
-            };
+        let (head, tail) = buf.split_at_mut(self.points.min(M));
+        for (v, &w) in head.iter_mut().zip(self.band.iter()) {
+            let s = w * scale;
+            v.re *= s;
+            v.im *= s;
         }
+        tail.fill(ZERO);
     }
 
     /// Kernel path on a sweep already passed through [`Gate::window`] (with scale 1, the
@@ -388,63 +388,158 @@ where
         windowed: &[Complex32; M],
         out: &mut [Complex32; F],
     ) {
-        self.each_kernel(kernels, out, |k| self.kernel_dot(k, windowed));
+        *out = self.kernel_dots::<F, false>(kernels, windowed);
     }
 
-    fn each_kernel<const F: usize>(
+    /// The kernel path's F dot products in one pass over the sweep: gated value f is
+    /// Σ x[n]·R[(n − k_f) mod M] (R the reversed kernel, see [`Gate::build`]), times the
+    /// renormalization. `WINDOW`: x is the raw sweep and the band window is applied on the
+    /// fly; otherwise x is already windowed.
+    ///
+    /// Every x[n] (and w[n]) is loaded once for all F frequencies. The sweep is cut at the
+    /// grid indices k_f, so that in each piece every frequency walks a contiguous run of R
+    /// (it wraps from R[M − 1] to R[0] exactly at n = k_f). The inner loop is plain
+    /// multiply-accumulate, one product added or subtracted at a time, which the compiler
+    /// maps onto the FPU's multiply-accumulate instructions where the target has them.
+    #[inline(always)]
+    fn kernel_dots<const F: usize, const WINDOW: bool>(
         &self,
         kernels: &Kernels<M, F>,
-        out: &mut [Complex32; F],
-        dot: impl Fn(usize) -> Complex32,
-    ) {
-        for ((o, &idx), &inv) in out
-            .iter_mut()
-            .zip(kernels.indices.iter())
-            .zip(kernels.inv_renorm.iter())
-        {
-            let k = idx as usize;
-            *o = if k < self.points { dot(k) * inv } else { ZERO };
+        x: &[Complex32; M],
+    ) -> [Complex32; F] {
+        let k_points = self.points.min(M);
+        // An index not below this gate's K (kernels made for another gate) gives 0; it is
+        // computed as index 0 and dropped at the end.
+        let ks = kernels.indices.map(|i| {
+            let i = usize::from(i);
+            if i < k_points {
+                i
+            } else {
+                0
+            }
+        });
+        // The cuts in ascending order (insertion sort: F is small, and it keeps no sorting
+        // code of size in a small board's flash).
+        let mut cuts = ks;
+        for i in 1..F {
+            let mut j = i;
+            while j > 0 && cuts[j - 1] > cuts[j] {
+                cuts.swap(j - 1, j);
+                j -= 1;
+            }
+        }
+        let mut acc = [[0.0f32; 2]; F];
+        let mut from = 0;
+        for to in cuts.into_iter().chain(core::iter::once(k_points)) {
+            if to <= from {
+                continue;
+            }
+            let len = to - from;
+            // Where each frequency's run of R starts: n − k_f, wrapped into 0..M.
+            let runs = ks.map(|k| {
+                let start = (from + M - k) % M;
+                self.kernel.get(start..start + len).unwrap_or_default()
+            });
+            let xs = x.get(from..to).unwrap_or_default();
+            let ws = self.band.get(from..to).unwrap_or_default();
+            // Four frequencies at a time (their sums fill half the FPU's registers), then
+            // two, then one.
+            let mut f = 0;
+            while f + 4 <= F {
+                let r = [runs[f], runs[f + 1], runs[f + 2], runs[f + 3]];
+                let mut a = [acc[f], acc[f + 1], acc[f + 2], acc[f + 3]];
+                dots_run::<4, WINDOW>(xs, ws, &r, &mut a);
+                acc[f..f + 4].copy_from_slice(&a);
+                f += 4;
+            }
+            if f + 2 <= F {
+                let mut a = [acc[f], acc[f + 1]];
+                dots_run::<2, WINDOW>(xs, ws, &[runs[f], runs[f + 1]], &mut a);
+                acc[f..f + 2].copy_from_slice(&a);
+                f += 2;
+            }
+            if f < F {
+                let mut a = [acc[f]];
+                dots_run::<1, WINDOW>(xs, ws, &[runs[f]], &mut a);
+                acc[f] = a[0];
+            }
+            from = to;
+        }
+        let mut out = [ZERO; F];
+        for (f, o) in out.iter_mut().enumerate() {
+            let i = usize::from(kernels.indices[f]);
+            *o = if i < k_points {
+                Complex32::new(acc[f][0], acc[f][1]) * kernels.inv_renorm[f]
+            } else {
+                ZERO
+            };
+        }
+        out
+    }
+}
+
+/// Adds Σ x[n]·g_f[n] into `acc[f]` for every f over one run (`runs[f]` as long as `xs`;
+/// with `WINDOW`, x[n]·w[n] in place of x[n]). Each product is accumulated on its own
+/// (re += xr·gr, re −= xi·gi, im += xr·gi, im += xi·gr): one multiply-accumulate each.
+/// Kept out of line so that its loop gets the registers to itself.
+#[inline(never)]
+fn dots_run<const F: usize, const WINDOW: bool>(
+    xs: &[Complex32],
+    ws: &[f32],
+    runs: &[&[Complex32]; F],
+    acc: &mut [[f32; 2]; F],
+) {
+    let n = xs.len();
+    if runs.iter().any(|r| r.len() < n) || ws.len() < n {
+        return;
+    }
+    // Every run cut to exactly n (checked just above), so that no index below is checked
+    // again inside the loop.
+    let runs: [&[Complex32]; F] = core::array::from_fn(|f| &runs[f][..n]);
+    let ws = &ws[..n];
+    let mut a = *acc;
+    // Several frequencies: two points a step, one pointer update per run for both (one
+    // frequency: the compiler unrolls the plain loop further by itself). Everything is cut
+    // to an even length first, so that no index in the loop needs checking.
+    let even = if F == 1 { 0 } else { n - n % 2 };
+    let (xs2, runs2, ws2) = (
+        &xs[..even],
+        core::array::from_fn::<_, F, _>(|f| &runs[f][..even]),
+        &ws[..even],
+    );
+    for j in 0..even / 2 {
+        for i in [2 * j, 2 * j + 1] {
+            let (mut xr, mut xi) = (xs2[i].re, xs2[i].im);
+            if WINDOW {
+                xr *= ws2[i];
+                xi *= ws2[i];
+            }
+            for f in 0..F {
+                let g = runs2[f][i];
+                let [re, im] = &mut a[f];
+                *re += xr * g.re;
+                *re -= xi * g.im;
+                *im += xr * g.im;
+                *im += xi * g.re;
+            }
         }
     }
-
-    /// Σ x[n]·G[(k − n) mod M] over the K windowed samples, for k < K. With the kernel stored
-    /// reversed (R[j] = G[−j mod M]) the term is x[n]·R[(n − k) mod M], two forward runs:
-    /// n = 0..k meets R[M − k..M], n = k..K meets R[0..K − k].
-    fn kernel_dot(&self, k: usize, windowed: &[Complex32]) -> Complex32 {
-        let (head, tail) = windowed[..self.points].split_at(k);
-        dot(head, &self.kernel[M - k..]) + dot(tail, &self.kernel[..self.points - k])
+    for i in even..n {
+        let (mut xr, mut xi) = (xs[i].re, xs[i].im);
+        if WINDOW {
+            xr *= ws[i];
+            xi *= ws[i];
+        }
+        for f in 0..F {
+            let g = runs[f][i];
+            let [re, im] = &mut a[f];
+            *re += xr * g.re;
+            *re -= xi * g.im;
+            *im += xr * g.im;
+            *im += xi * g.re;
+        }
     }
-
-    /// As [`Gate::kernel_dot`], applying the band window on the fly.
-    fn kernel_dot_raw(&self, k: usize, raw: &[Complex32]) -> Complex32 {
-        let (head, tail) = raw[..self.points].split_at(k);
-        let (wh, wt) = self.band[..self.points].split_at(k);
-        dot_windowed(head, wh, &self.kernel[M - k..])
-            + dot_windowed(tail, wt, &self.kernel[..self.points - k])
-    }
-}
-
-/// Σ x[i]·g[i].
-#[inline(always)]
-fn dot(xs: &[Complex32], gs: &[Complex32]) -> Complex32 {
-    let (mut re, mut im) = (0.0f32, 0.0f32);
-    for (x, g) in xs.iter().zip(gs.iter()) {
-        re += x.re * g.re - x.im * g.im;
-        im += x.re * g.im + x.im * g.re;
-    }
-    Complex32::new(re, im)
-}
-
-/// Σ x[i]·w[i]·g[i].
-#[inline(always)]
-fn dot_windowed(xs: &[Complex32], ws: &[f32], gs: &[Complex32]) -> Complex32 {
-    let (mut re, mut im) = (0.0f32, 0.0f32);
-    for ((x, &w), g) in xs.iter().zip(ws.iter()).zip(gs.iter()) {
-        let (xr, xi) = (x.re * w, x.im * w);
-        re += xr * g.re - xi * g.im;
-        im += xr * g.im + xi * g.re;
-    }
-    Complex32::new(re, im)
+    *acc = a;
 }
 
 /// Steps 1–2 in place: band window over `buf[..points]`, zeros beyond, inverse FFT.
