@@ -99,28 +99,6 @@ fn real32_words<const BIG_ENDIAN: bool>(b: &[u8; 8]) -> (u32, u32) {
     }
 }
 
-/// The bits of two REAL,32 samples' four values.
-#[inline(always)]
-fn real32_pair<const BIG_ENDIAN: bool>(b: &[u8; 16]) -> (u32, u32, u32, u32) {
-    let w = |i: usize| [b[i], b[i + 1], b[i + 2], b[i + 3]];
-    let (w0, w1, w2, w3) = (w(0), w(4), w(8), w(12));
-    if BIG_ENDIAN {
-        (
-            u32::from_be_bytes(w0),
-            u32::from_be_bytes(w1),
-            u32::from_be_bytes(w2),
-            u32::from_be_bytes(w3),
-        )
-    } else {
-        (
-            u32::from_le_bytes(w0),
-            u32::from_le_bytes(w1),
-            u32::from_le_bytes(w2),
-            u32::from_le_bytes(w3),
-        )
-    }
-}
-
 /// Copies whole REAL,32 samples from `src` into `dst` (as many as `dst` holds; nothing if
 /// `src` is short) and returns all their words ORed together: see [`all_usable`].
 #[inline(never)]
@@ -129,22 +107,8 @@ fn real32_copy<const BIG_ENDIAN: bool>(src: &[u8], dst: &mut [Complex32]) -> u32
     let Some(src) = src.get(..8 * dst.len()) else {
         return 0;
     };
-    // Two samples a step, then an odd last one.
-    let mut pairs = src.chunks_exact(16);
-    let mut slots = dst.chunks_exact_mut(2);
-    for (o, b) in (&mut slots).zip(&mut pairs) {
-        let (a, b, c, d) = real32_pair::<BIG_ENDIAN>(&sixteen(b));
-        any |= a | b | c | d;
-        if let [o0, o1] = o {
-            *o0 = Complex32::new(f32::from_bits(a), f32::from_bits(b));
-            *o1 = Complex32::new(f32::from_bits(c), f32::from_bits(d));
-        }
-    }
-    if let (Some(o), Some(b)) = (
-        slots.into_remainder().first_mut(),
-        pairs.remainder().first_chunk::<8>(),
-    ) {
-        let (re, im) = real32_words::<BIG_ENDIAN>(b);
+    for (o, b) in dst.iter_mut().zip(src.chunks_exact(8)) {
+        let (re, im) = real32_words::<BIG_ENDIAN>(&eight(b));
         any |= re | im;
         *o = Complex32::new(f32::from_bits(re), f32::from_bits(im));
     }
@@ -163,12 +127,6 @@ fn all_usable(any: u32, dst: &[Complex32]) -> bool {
         || dst
             .iter()
             .all(|z| usable_bits32(z.re.to_bits()) && usable_bits32(z.im.to_bits()))
-}
-
-/// The 16 bytes of two samples from a slice of exactly 16.
-#[inline(always)]
-fn sixteen(b: &[u8]) -> [u8; 16] {
-    b.first_chunk::<16>().copied().unwrap_or_default()
 }
 
 /// The 8 bytes of a sample from a slice of exactly 8 (as `chunks_exact(8)` gives).
