@@ -29,9 +29,8 @@
 use crate::error::GateError;
 use crate::fft::Fft;
 use crate::grid::Grid;
-use crate::window::WindowKind;
+use crate::window::{cos_sin_turns, WindowKind};
 use crate::Complex32;
-use core::f64::consts::PI;
 
 /// Echo level reported when the impulse response holds no energy outside the gate (or none
 /// at all), in dB.
@@ -263,15 +262,7 @@ where
         cfg.band_window.fill(&mut g.band[..points]);
         g.band[points..].fill(0.0);
 
-        // Time gate, placed circularly: Δ is the time from the centre, wrapped into
-        // [−T/2, T/2) with T = 1/Δf; the shape spans Δ ∈ [−span/2, +span/2].
-        let period = cfg.grid.alias_free_s();
-        for (m, v) in g.gate.iter_mut().enumerate() {
-            let mut d = m as f64 * dt - cfg.center_s;
-            d -= period * libm::floor(d / period + 0.5);
-            let x = (d + cfg.span_s / 2.0) / cfg.span_s;
-            *v = cfg.shape.at(x) as f32;
-        }
+        fill_gate(&cfg, dt, &mut g.gate);
 
         // Frequency kernel G = FFT(g)/M, stored reversed, R[j] = G[(M − j) mod M], so that
         // the kernel path walks both its operands forwards.
@@ -288,7 +279,7 @@ where
             // Ideal impulse at the gate centre through the same chain, computed in place in
             // the renormalization table (no M-sized temporaries: this runs on small boards).
             // The start-frequency phase is a constant factor and cancels in the ratio.
-            let u = |n: usize| unit_phasor_turns(-(n as f64) * cfg.grid.step_hz() * cfg.center_s);
+            let u = impulse_phasors(&cfg);
             for (n, v) in g.inv_renorm.iter_mut().enumerate() {
                 *v = if n < points { u(n) } else { ZERO };
             }
@@ -300,7 +291,7 @@ where
                 }
                 // r = y/u, so 1/r = u/y.
                 let (y, uk) = (*v, u(k));
-                if (y * uk.conj()).norm() < RENORM_FLOOR {
+                if (y * uk.conj()).norm_sqr() < RENORM_FLOOR * RENORM_FLOOR {
                     return Err(GateError::RenormalizationIllConditioned { index: k as u32 });
                 }
                 *v = uk / y;
@@ -494,19 +485,19 @@ where
         raw: &[Complex32; M],
         out: &mut [Complex32; F],
     ) {
-        self.each_kernel(kernels, out, |k| self.kernel_dot_raw(k, raw));
+        *out = self.kernel_dots::<F, true>(kernels, raw);
     }
 
     /// The first step of the chain in place: `buf[n] *= scale·w[n]` for n < K, zero beyond.
     /// `scale` is free to fold in, say, the 1/count of an average of sweeps.
     pub fn window(&self, buf: &mut [Complex32; M], scale: f32) {
-        for (n, (v, &w)) in buf.iter_mut().zip(self.band.iter()).enumerate() {
-            *v = if n < self.points {
-                *v * (w * scale)
-            } else {
-                ZERO
-            };
+        let (head, tail) = buf.split_at_mut(self.points.min(M));
+        for (v, &w) in head.iter_mut().zip(self.band.iter()) {
+            let s = w * scale;
+            v.re *= s;
+            v.im *= s;
         }
+        tail.fill(ZERO);
     }
 
     /// Kernel path on a sweep already passed through [`Gate::window`] (with scale 1, the
@@ -517,63 +508,158 @@ where
         windowed: &[Complex32; M],
         out: &mut [Complex32; F],
     ) {
-        self.each_kernel(kernels, out, |k| self.kernel_dot(k, windowed));
+        *out = self.kernel_dots::<F, false>(kernels, windowed);
     }
 
-    fn each_kernel<const F: usize>(
+    /// The kernel path's F dot products in one pass over the sweep: gated value f is
+    /// Σ x[n]·R[(n − k_f) mod M] (R the reversed kernel, see [`Gate::build`]), times the
+    /// renormalization. `WINDOW`: x is the raw sweep and the band window is applied on the
+    /// fly; otherwise x is already windowed.
+    ///
+    /// Every x[n] (and w[n]) is loaded once for all F frequencies. The sweep is cut at the
+    /// grid indices k_f, so that in each piece every frequency walks a contiguous run of R
+    /// (it wraps from R[M − 1] to R[0] exactly at n = k_f). The inner loop is plain
+    /// multiply-accumulate, one product added or subtracted at a time, which the compiler
+    /// maps onto the FPU's multiply-accumulate instructions where the target has them.
+    #[inline(always)]
+    fn kernel_dots<const F: usize, const WINDOW: bool>(
         &self,
         kernels: &Kernels<M, F>,
-        out: &mut [Complex32; F],
-        dot: impl Fn(usize) -> Complex32,
-    ) {
-        for ((o, &idx), &inv) in out
-            .iter_mut()
-            .zip(kernels.indices.iter())
-            .zip(kernels.inv_renorm.iter())
-        {
-            let k = idx as usize;
-            *o = if k < self.points { dot(k) * inv } else { ZERO };
+        x: &[Complex32; M],
+    ) -> [Complex32; F] {
+        let k_points = self.points.min(M);
+        // An index not below this gate's K (kernels made for another gate) gives 0; it is
+        // computed as index 0 and dropped at the end.
+        let ks = kernels.indices.map(|i| {
+            let i = usize::from(i);
+            if i < k_points {
+                i
+            } else {
+                0
+            }
+        });
+        // The cuts in ascending order (insertion sort: F is small, and it keeps no sorting
+        // code of size in a small board's flash).
+        let mut cuts = ks;
+        for i in 1..F {
+            let mut j = i;
+            while j > 0 && cuts[j - 1] > cuts[j] {
+                cuts.swap(j - 1, j);
+                j -= 1;
+            }
+        }
+        let mut acc = [[0.0f32; 2]; F];
+        let mut from = 0;
+        for to in cuts.into_iter().chain(core::iter::once(k_points)) {
+            if to <= from {
+                continue;
+            }
+            let len = to - from;
+            // Where each frequency's run of R starts: n − k_f, wrapped into 0..M.
+            let runs = ks.map(|k| {
+                let start = (from + M - k) % M;
+                self.kernel.get(start..start + len).unwrap_or_default()
+            });
+            let xs = x.get(from..to).unwrap_or_default();
+            let ws = self.band.get(from..to).unwrap_or_default();
+            // Four frequencies at a time (their sums fill half the FPU's registers), then
+            // two, then one.
+            let mut f = 0;
+            while f + 4 <= F {
+                let r = [runs[f], runs[f + 1], runs[f + 2], runs[f + 3]];
+                let mut a = [acc[f], acc[f + 1], acc[f + 2], acc[f + 3]];
+                dots_run::<4, WINDOW>(xs, ws, &r, &mut a);
+                acc[f..f + 4].copy_from_slice(&a);
+                f += 4;
+            }
+            if f + 2 <= F {
+                let mut a = [acc[f], acc[f + 1]];
+                dots_run::<2, WINDOW>(xs, ws, &[runs[f], runs[f + 1]], &mut a);
+                acc[f..f + 2].copy_from_slice(&a);
+                f += 2;
+            }
+            if f < F {
+                let mut a = [acc[f]];
+                dots_run::<1, WINDOW>(xs, ws, &[runs[f]], &mut a);
+                acc[f] = a[0];
+            }
+            from = to;
+        }
+        let mut out = [ZERO; F];
+        for (f, o) in out.iter_mut().enumerate() {
+            let i = usize::from(kernels.indices[f]);
+            *o = if i < k_points {
+                Complex32::new(acc[f][0], acc[f][1]) * kernels.inv_renorm[f]
+            } else {
+                ZERO
+            };
+        }
+        out
+    }
+}
+
+/// Adds Σ x[n]·g_f[n] into `acc[f]` for every f over one run (`runs[f]` as long as `xs`;
+/// with `WINDOW`, x[n]·w[n] in place of x[n]). Each product is accumulated on its own
+/// (re += xr·gr, re −= xi·gi, im += xr·gi, im += xi·gr): one multiply-accumulate each.
+/// Kept out of line so that its loop gets the registers to itself.
+#[inline(never)]
+fn dots_run<const F: usize, const WINDOW: bool>(
+    xs: &[Complex32],
+    ws: &[f32],
+    runs: &[&[Complex32]; F],
+    acc: &mut [[f32; 2]; F],
+) {
+    let n = xs.len();
+    if runs.iter().any(|r| r.len() < n) || ws.len() < n {
+        return;
+    }
+    // Every run cut to exactly n (checked just above), so that no index below is checked
+    // again inside the loop.
+    let runs: [&[Complex32]; F] = core::array::from_fn(|f| &runs[f][..n]);
+    let ws = &ws[..n];
+    let mut a = *acc;
+    // Several frequencies: two points a step, one pointer update per run for both (one
+    // frequency: the compiler unrolls the plain loop further by itself). Everything is cut
+    // to an even length first, so that no index in the loop needs checking.
+    let even = if F == 1 { 0 } else { n - n % 2 };
+    let (xs2, runs2, ws2) = (
+        &xs[..even],
+        core::array::from_fn::<_, F, _>(|f| &runs[f][..even]),
+        &ws[..even],
+    );
+    for j in 0..even / 2 {
+        for i in [2 * j, 2 * j + 1] {
+            let (mut xr, mut xi) = (xs2[i].re, xs2[i].im);
+            if WINDOW {
+                xr *= ws2[i];
+                xi *= ws2[i];
+            }
+            for f in 0..F {
+                let g = runs2[f][i];
+                let [re, im] = &mut a[f];
+                *re += xr * g.re;
+                *re -= xi * g.im;
+                *im += xr * g.im;
+                *im += xi * g.re;
+            }
         }
     }
-
-    /// Σ x[n]·G[(k − n) mod M] over the K windowed samples, for k < K. With the kernel stored
-    /// reversed (R[j] = G[−j mod M]) the term is x[n]·R[(n − k) mod M], two forward runs:
-    /// n = 0..k meets R[M − k..M], n = k..K meets R[0..K − k].
-    fn kernel_dot(&self, k: usize, windowed: &[Complex32]) -> Complex32 {
-        let (head, tail) = windowed[..self.points].split_at(k);
-        dot(head, &self.kernel[M - k..]) + dot(tail, &self.kernel[..self.points - k])
+    for i in even..n {
+        let (mut xr, mut xi) = (xs[i].re, xs[i].im);
+        if WINDOW {
+            xr *= ws[i];
+            xi *= ws[i];
+        }
+        for f in 0..F {
+            let g = runs[f][i];
+            let [re, im] = &mut a[f];
+            *re += xr * g.re;
+            *re -= xi * g.im;
+            *im += xr * g.im;
+            *im += xi * g.re;
+        }
     }
-
-    /// As [`Gate::kernel_dot`], applying the band window on the fly.
-    fn kernel_dot_raw(&self, k: usize, raw: &[Complex32]) -> Complex32 {
-        let (head, tail) = raw[..self.points].split_at(k);
-        let (wh, wt) = self.band[..self.points].split_at(k);
-        dot_windowed(head, wh, &self.kernel[M - k..])
-            + dot_windowed(tail, wt, &self.kernel[..self.points - k])
-    }
-}
-
-/// Σ x[i]·g[i].
-#[inline(always)]
-fn dot(xs: &[Complex32], gs: &[Complex32]) -> Complex32 {
-    let (mut re, mut im) = (0.0f32, 0.0f32);
-    for (x, g) in xs.iter().zip(gs.iter()) {
-        re += x.re * g.re - x.im * g.im;
-        im += x.re * g.im + x.im * g.re;
-    }
-    Complex32::new(re, im)
-}
-
-/// Σ x[i]·w[i]·g[i].
-#[inline(always)]
-fn dot_windowed(xs: &[Complex32], ws: &[f32], gs: &[Complex32]) -> Complex32 {
-    let (mut re, mut im) = (0.0f32, 0.0f32);
-    for ((x, &w), g) in xs.iter().zip(ws.iter()).zip(gs.iter()) {
-        let (xr, xi) = (x.re * w, x.im * w);
-        re += xr * g.re - xi * g.im;
-        im += xr * g.im + xi * g.re;
-    }
-    Complex32::new(re, im)
+    *acc = a;
 }
 
 /// Steps 1–2 in place: band window over `buf[..points]`, zeros beyond, inverse FFT.
@@ -620,11 +706,65 @@ fn echo_db(part: f32, whole: f32) -> f32 {
     (10.0 * libm::log10f(part / whole)).max(ECHO_FLOOR_DB)
 }
 
-/// e^(j2π·turns): the whole turns are dropped in f64, the rest (|phase| ≤ π) is evaluated in
-/// f32, which is all the precision the stored value has.
-fn unit_phasor_turns(turns: f64) -> Complex32 {
-    let phase = (2.0 * PI * (turns - libm::round(turns))) as f32;
-    Complex32::new(libm::cosf(phase), libm::sinf(phase))
+/// Samples of the time gate closer than this (in units of the span) to one of its ends
+/// are placed by the f64 formula, so that a sample sitting on an end falls on the same
+/// side of it as in f64 (where the shape jumps, as Kaiser's and the rectangle's do, that
+/// decides between a value and 0). Everywhere else f32 places a sample to within about
+/// 1e-7 of the span.
+const GATE_END_MARGIN: f32 = 1e-5;
+
+/// The time gate, placed circularly: Δ is the time from the centre, wrapped into
+/// [−T/2, T/2) with T = 1/Δf = M·dt; the shape spans Δ ∈ [−span/2, +span/2].
+///
+/// Positions are worked out in samples: the centre c = t_c/dt splits into a whole number
+/// (exact) and a fraction (f32), so that Δ/dt = (m − ⌊c⌋, wrapped) − frac(c) is exact to
+/// f32 whatever M, and x = 1/2 + Δ/span, 1 − x = 1/2 − Δ/span follow in f32.
+fn fill_gate<const M: usize>(cfg: &GateConfig, dt: f64, gate: &mut [f32; M]) {
+    let shape = cfg.shape.shape();
+    let c = cfg.center_s / dt;
+    let whole = libm::floor(c);
+    let frac = (c - whole) as f32;
+    let whole = (whole as usize) % M;
+    let per_sample = (dt / cfg.span_s) as f32;
+    let period = cfg.grid.alias_free_s();
+    for (m, v) in gate.iter_mut().enumerate() {
+        // Wrapped in whole samples first (j − frac ≥ M/2 ⇔ j > M/2, or j = M/2 with no
+        // fraction), so that the f32 difference is between small numbers.
+        let j = (m + M - whole) % M;
+        let j = if j > M / 2 || (j == M / 2 && frac == 0.0) {
+            j as f32 - M as f32
+        } else {
+            j as f32
+        };
+        let d = j - frac;
+        let (x, rest) = (0.5 + d * per_sample, 0.5 - d * per_sample);
+        *v = if x < -GATE_END_MARGIN || rest < -GATE_END_MARGIN {
+            0.0
+        } else if x < GATE_END_MARGIN || rest < GATE_END_MARGIN {
+            // At an end: placed as in f64.
+            let mut d = m as f64 * dt - cfg.center_s;
+            d -= period * libm::floor(d / period + 0.5);
+            let x = (d + cfg.span_s / 2.0) / cfg.span_s;
+            shape.at(x as f32, (1.0 - x) as f32)
+        } else {
+            shape.at(x, rest)
+        };
+    }
+}
+
+/// u\[n\] = e^(−j2π·n·Δf·t_c), the response of an ideal impulse at the gate centre, for
+/// n = 0, 1, …: the turns per step q = Δf·t_c are held as a 64-bit fraction of a turn, so
+/// that n·q modulo whole turns is an exact integer product (to 2^−64 turns), and only the
+/// angle within a turn is turned into a phasor, in f32.
+fn impulse_phasors(cfg: &GateConfig) -> impl Fn(usize) -> Complex32 {
+    let q = cfg.grid.step_hz() * cfg.center_s;
+    // 2^64 · frac(q), rounded down (0 ≤ q < 1 for a valid centre; frac keeps it so).
+    let step = ((q - libm::floor(q)) * 18_446_744_073_709_551_616.0) as u64;
+    move |n: usize| {
+        let turns = (n as u64).wrapping_mul(step);
+        let (cos, sin) = cos_sin_turns((turns >> 32) as u32);
+        Complex32::new(cos, -sin)
+    }
 }
 
 #[cfg(test)]
@@ -653,6 +793,34 @@ mod tests {
         assert!(w[1] > 0.0 && w[1023] > 0.0);
         assert!((w[1] - w[1023]).abs() < 1e-6);
         assert_eq!(w[512], 0.0);
+    }
+
+    #[test]
+    fn phasors_match_f64() {
+        // Against libm's f64 sine and cosine (common practice, no source): the quadrant
+        // reduction is exact, the series and f32 rounding leave a few 1e-8.
+        let mut worst = 0.0f64;
+        for i in 0..=100_000u64 {
+            let t = (i.wrapping_mul(0x9E37_79B9_7F4A_7C15) >> 32) as u32;
+            let angle = 2.0 * core::f64::consts::PI * t as f64 / 4_294_967_296.0;
+            let (c, s) = cos_sin_turns(t);
+            worst = worst
+                .max((c as f64 - libm::cos(angle)).abs())
+                .max((s as f64 - libm::sin(angle)).abs());
+        }
+        assert!(worst < 2e-7, "{worst:e}");
+        // u[n] = e^(−j2π·n·Δf·t_c) far along a long sweep, against the f64 product.
+        let mut cfg = config();
+        cfg.grid = Grid::new(1e9, 1.234_567e6, 65_535).unwrap();
+        cfg.center_s = 123.456_789e-9;
+        let u = impulse_phasors(&cfg);
+        for n in [0usize, 1, 2, 1000, 40_000, 65_534] {
+            let turns = -(n as f64) * cfg.grid.step_hz() * cfg.center_s;
+            let angle = 2.0 * core::f64::consts::PI * (turns - libm::round(turns));
+            let z = u(n);
+            let e = (z.re as f64 - libm::cos(angle)).abs() + (z.im as f64 - libm::sin(angle)).abs();
+            assert!(e < 3e-7, "n {n}: {e:e}");
+        }
     }
 
     #[test]

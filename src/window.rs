@@ -2,8 +2,10 @@
 //!
 //! Each window is defined on a continuous position x ∈ [0, 1] across its length, so the
 //! same definition serves a band window of K samples (x = n/(K−1), the symmetric textbook
-//! form) and a time gate whose edges fall between samples. Coefficients are computed in
-//! `f64` at set-up; the hot path only ever sees the stored `f32` values.
+//! form) and a time gate whose edges fall between samples. [`WindowKind::at`] evaluates in
+//! `f64` (the reference); the stored coefficients come from the `f32` [`Shape`], which a
+//! board without double-precision hardware evaluates in a fraction of the time. The hot
+//! path only ever sees the stored `f32` values.
 
 use crate::error::WindowError;
 use core::f64::consts::PI;
@@ -93,15 +95,43 @@ impl WindowKind {
 
     /// Fills `out` with the symmetric window of length `out.len()`: `out[n] = at(n/(L−1))`.
     /// A length-1 window is `[1]`.
+    ///
+    /// Evaluated in f32 ([`WindowKind::shape`]), in step with the f64 [`WindowKind::at`] to
+    /// a few parts in a million (checked in `tests/gate_reference.rs`).
     pub fn fill(&self, out: &mut [f32]) {
         let len = out.len();
         if len == 1 {
             out[0] = 1.0;
             return;
         }
-        let last = (len.max(2) - 1) as f64;
+        let shape = self.shape();
+        let last = len.max(2) - 1;
+        let span = last as f32;
         for (n, v) in out.iter_mut().enumerate() {
-            *v = self.at(n as f64 / last) as f32;
+            // Both distances from the ends from integers, each rounded once.
+            *v = shape.at(n as f32 / span, (last - n) as f32 / span);
+        }
+    }
+
+    /// This window ready for evaluation in f32: the set-up of a gate on a board without
+    /// double-precision hardware. Kaiser's I0(β) is computed here, once.
+    ///
+    /// ```
+    /// use sweepgate::window::WindowKind;
+    /// let k = WindowKind::Kaiser { beta: 6.0 };
+    /// let s = k.shape();
+    /// assert_eq!(s.at(0.5, 0.5), 1.0);
+    /// assert!((f64::from(s.at(0.1, 0.9)) - k.at(0.1)).abs() < 1e-6);
+    /// assert_eq!(s.at(-0.01, 1.01), 0.0);
+    /// ```
+    pub fn shape(&self) -> Shape {
+        let i0_beta = match *self {
+            Self::Kaiser { beta } => bessel_i0_f32(beta),
+            _ => 1.0,
+        };
+        Shape {
+            kind: *self,
+            i0_beta,
         }
     }
 
@@ -156,6 +186,86 @@ impl WindowKind {
     }
 }
 
+/// A [`WindowKind`] ready for evaluation in f32 (see [`WindowKind::shape`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Shape {
+    kind: WindowKind,
+    /// I0(β) by [`bessel_i0_f32`] for a Kaiser window (the same sum as each value's
+    /// numerator, so the peak comes out as exactly 1), else 1.
+    i0_beta: f32,
+}
+
+impl Shape {
+    /// The window at position x ∈ [0, 1], given as `x` and `rest` = 1 − x, each as exact as
+    /// the caller can make it (a Kaiser window near its ends depends on the small one to
+    /// full relative precision). 0 outside [0, 1]. Assumes a validated parameter.
+    pub fn at(&self, x: f32, rest: f32) -> f32 {
+        if !(x >= 0.0 && rest >= 0.0) {
+            return 0.0;
+        }
+        // Cosines of whole multiples of 2πx are symmetric about x = 1/2: the nearer end
+        // keeps the argument small.
+        let edge = if x < rest { x } else { rest };
+        let c = |k: f32| cos_turns(k * edge);
+        match self.kind {
+            WindowKind::Rectangular => 1.0,
+            WindowKind::Kaiser { beta } => {
+                // β·√(1 − r²) with r = 2x − 1, and 1 − r² = 4·x·(1 − x).
+                bessel_i0_f32(beta * 2.0 * libm::sqrtf(x * rest)) / self.i0_beta
+            }
+            WindowKind::Tukey { alpha } => {
+                if alpha <= 0.0 {
+                    return 1.0;
+                }
+                if edge < alpha / 2.0 {
+                    0.5 * (1.0 - cos_turns(edge / alpha))
+                } else {
+                    1.0
+                }
+            }
+            WindowKind::Hann => 0.5 - 0.5 * c(1.0),
+            WindowKind::Hamming => 0.54 - 0.46 * c(1.0),
+            WindowKind::BlackmanHarris => {
+                0.35875 - 0.48829 * c(1.0) + 0.14128 * c(2.0) - 0.01168 * c(3.0)
+            }
+        }
+    }
+}
+
+/// (cos, sin) of 2π·t/2^32, t a fraction of a turn in 32 bits. The quadrant is taken off
+/// in integers (exactly), leaving |x| ≤ π/4, where the Taylor series to x^9 (sine) and
+/// x^10 (cosine) are within 2e-9 of the true values (the first terms left out, at π/4:
+/// x^11/11! = 1.8e-9, x^12/12! = 1.2e-10), so the f32 rounding of a few operations is all
+/// the error. (libm's f32 sine and cosine work in f64, which a Cortex-M4 emulates in
+/// software at hundreds of instructions a call.)
+pub(crate) fn cos_sin_turns(t: u32) -> (f32, f32) {
+    // Nearest quarter turn, and what is left of t beyond it: within ±1/8 turn.
+    let quadrant = t.wrapping_add(1 << 29) >> 30;
+    let left = t.wrapping_sub(quadrant << 30) as i32;
+    let x = left as f32 * (2.0 * core::f32::consts::PI / 4_294_967_296.0);
+    let x2 = x * x;
+    let s = x
+        * (1.0
+            + x2 * (-1.0 / 6.0
+                + x2 * (1.0 / 120.0 + x2 * (-1.0 / 5040.0 + x2 * (1.0 / 362_880.0)))));
+    let c = 1.0
+        + x2 * (-0.5
+            + x2 * (1.0 / 24.0
+                + x2 * (-1.0 / 720.0 + x2 * (1.0 / 40_320.0 + x2 * (-1.0 / 3_628_800.0)))));
+    match quadrant {
+        0 => (c, s),
+        1 => (-s, c),
+        2 => (-c, -s),
+        _ => (s, -c),
+    }
+}
+
+/// cos(2π·turns) for 0 ≤ turns < 2, by [`cos_sin_turns`].
+fn cos_turns(turns: f32) -> f32 {
+    let whole = if turns >= 1.0 { 1.0 } else { 0.0 };
+    cos_sin_turns(((turns - whole) * 4_294_967_296.0) as u32).0
+}
+
 /// Kaiser β for a target peak sidelobe level `a_db` (positive dB below the main lobe), in
 /// spectrum analysis: Kaiser & Schafer, IEEE Trans. ASSP 28(1):105–107, 1980:
 /// β = 0.12438·(A + 6.3) for A > 60; 0.76609·(A − 13.26)^0.4 + 0.09834·(A − 13.26) for
@@ -189,6 +299,27 @@ pub fn bessel_i0(x: f64) -> f64 {
         term *= r * r;
         sum += term;
         if term < sum * 1e-17 {
+            break;
+        }
+        k += 1.0;
+    }
+    sum
+}
+
+/// [`bessel_i0`] in f32: the same power series, summed until a term is below 1e-9 of the
+/// sum (below f32 resolution). Against the f64 series its relative error stays below 2e-6
+/// for |x| ≤ 50 (each term carries the rounding of the products before it; checked in
+/// `tests/gate_reference.rs`).
+pub fn bessel_i0_f32(x: f32) -> f32 {
+    let half = x / 2.0;
+    let mut term = 1.0f32;
+    let mut sum = 1.0f32;
+    let mut k = 1.0f32;
+    while k < 500.0 {
+        let r = half / k;
+        term *= r * r;
+        sum += term;
+        if term < sum * 1e-9 {
             break;
         }
         k += 1.0;

@@ -58,6 +58,137 @@ fn usable_f64(v: f64) -> bool {
     v.is_finite() && a != 9.9e37 && a != 9.91e37 && a <= f32::MAX as f64
 }
 
+const SCPI_INFINITY_BITS: u32 = SCPI_INFINITY.to_bits();
+const SCPI_NAN_BITS: u32 = SCPI_NAN.to_bits();
+/// Everything but the sign bit.
+const MAGNITUDE_BITS: u32 = 0x7FFF_FFFF;
+
+/// [`usable_f32`] on the bits of the value. With the sign cleared, IEEE 754 bit patterns are
+/// ordered as the magnitudes they stand for, so every unusable value (the SCPI codes,
+/// infinities, NaNs) has its magnitude bits at or above those of 9.9e37.
+#[inline(always)]
+fn usable_bits32(bits: u32) -> bool {
+    let a = bits & MAGNITUDE_BITS;
+    a < f32::INFINITY.to_bits() && a != SCPI_INFINITY_BITS && a != SCPI_NAN_BITS
+}
+
+/// [`usable_f64`] on the bits of the value (same ordering argument; NaNs lie above the
+/// largest f32 too).
+#[inline(always)]
+fn usable_bits64(bits: u64) -> bool {
+    let a = bits & 0x7FFF_FFFF_FFFF_FFFF;
+    a <= (f32::MAX as f64).to_bits() && a != 9.9e37f64.to_bits() && a != 9.91e37f64.to_bits()
+}
+
+/// One REAL,32 sample from its 8 bytes, if both values are usable.
+#[inline(always)]
+fn real32_sample<const BIG_ENDIAN: bool>(bytes: &[u8; 8]) -> Option<Complex32> {
+    let (re, im) = real32_words::<BIG_ENDIAN>(bytes);
+    (usable_bits32(re) && usable_bits32(im))
+        .then(|| Complex32::new(f32::from_bits(re), f32::from_bits(im)))
+}
+
+/// The bits of a REAL,32 sample's two values.
+#[inline(always)]
+fn real32_words<const BIG_ENDIAN: bool>(b: &[u8; 8]) -> (u32, u32) {
+    let (lo, hi) = ([b[0], b[1], b[2], b[3]], [b[4], b[5], b[6], b[7]]);
+    if BIG_ENDIAN {
+        (u32::from_be_bytes(lo), u32::from_be_bytes(hi))
+    } else {
+        (u32::from_le_bytes(lo), u32::from_le_bytes(hi))
+    }
+}
+
+/// Copies whole REAL,32 samples from `src` into `dst` (as many as `dst` holds; nothing if
+/// `src` is short) and returns all their words ORed together: see [`all_usable`].
+#[inline(never)]
+fn real32_copy<const BIG_ENDIAN: bool>(src: &[u8], dst: &mut [Complex32]) -> u32 {
+    let mut any = 0u32;
+    let Some(src) = src.get(..8 * dst.len()) else {
+        return 0;
+    };
+    for (o, b) in dst.iter_mut().zip(src.chunks_exact(8)) {
+        let (re, im) = real32_words::<BIG_ENDIAN>(&eight(b));
+        any |= re | im;
+        *o = Complex32::new(f32::from_bits(re), f32::from_bits(im));
+    }
+    any
+}
+
+/// Whether every value a [`real32_copy`] wrote to `dst` is usable, given the OR of their
+/// words. Every unusable value has its magnitude bits at or above those of the smallest
+/// SCPI code, and an OR is at least as large as each of its terms, so a small OR clears
+/// them all at once. A large one is not proof of anything (values on both sides of a
+/// power of two OR into a larger exponent: 0.5 | 2.0 has the bits of 2^127), so then each
+/// value is checked.
+#[inline(always)]
+fn all_usable(any: u32, dst: &[Complex32]) -> bool {
+    any & MAGNITUDE_BITS < SCPI_INFINITY_BITS
+        || dst
+            .iter()
+            .all(|z| usable_bits32(z.re.to_bits()) && usable_bits32(z.im.to_bits()))
+}
+
+/// The 8 bytes of a sample from a slice of exactly 8 (as `chunks_exact(8)` gives).
+#[inline(always)]
+fn eight(b: &[u8]) -> [u8; 8] {
+    b.first_chunk::<8>().copied().unwrap_or_default()
+}
+
+/// Decodes whole REAL,32 samples (8 bytes each) from `bytes` into `out`, in order; returns
+/// how many lead up to the first sample holding an unusable value (all of them if none
+/// does). Samples after an unusable one may be written too.
+#[inline(always)]
+fn real32_samples<const BIG_ENDIAN: bool>(bytes: &[u8], out: &mut [Complex32]) -> usize {
+    let n = out.len().min(bytes.len() / 8);
+    let Some(dst) = out.get_mut(..n) else {
+        return 0;
+    };
+    let any = real32_copy::<BIG_ENDIAN>(bytes, dst);
+    if all_usable(any, dst) {
+        return n;
+    }
+    // An unusable value somewhere: the first sample holding one.
+    bytes
+        .chunks_exact(8)
+        .take(n)
+        .position(|b| real32_sample::<BIG_ENDIAN>(&eight(b)).is_none())
+        .unwrap_or(n)
+}
+
+/// As [`real32_samples`] for REAL,64 (16 bytes a sample), narrowed to f32.
+#[inline(always)]
+fn real64_samples<const BIG_ENDIAN: bool>(bytes: &[u8], out: &mut [Complex32]) -> usize {
+    let mut done = 0;
+    for (o, b) in out.iter_mut().zip(bytes.chunks_exact(16)) {
+        let (lo, hi) = b.split_at(8);
+        let (lo, hi) = (eight(lo), eight(hi));
+        let (re, im) = if BIG_ENDIAN {
+            (u64::from_be_bytes(lo), u64::from_be_bytes(hi))
+        } else {
+            (u64::from_le_bytes(lo), u64::from_le_bytes(hi))
+        };
+        if !(usable_bits64(re) && usable_bits64(im)) {
+            break;
+        }
+        *o = Complex32::new(f64::from_bits(re) as f32, f64::from_bits(im) as f32);
+        done += 1;
+    }
+    done
+}
+
+/// Whole samples of `config`'s format and byte order from `bytes` into `out` (see
+/// [`real32_samples`]). One loop per format and order, each free of per-value decisions.
+#[inline(never)]
+fn decode_samples(config: &BlockConfig, bytes: &[u8], out: &mut [Complex32]) -> usize {
+    match (config.format, config.order) {
+        (Format::Real32, ByteOrder::Normal) => real32_samples::<true>(bytes, out),
+        (Format::Real32, ByteOrder::Swapped) => real32_samples::<false>(bytes, out),
+        (Format::Real64, ByteOrder::Normal) => real64_samples::<true>(bytes, out),
+        (Format::Real64, ByteOrder::Swapped) => real64_samples::<false>(bytes, out),
+    }
+}
+
 /// The SCPI `FORMat:DATA` of a block.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -252,6 +383,11 @@ enum Step {
     Again,
 }
 
+/// Room before the sample being assembled in [`BlockDecoder`]'s buffer: the REAL,32 fast
+/// path moves a chunk's last 8 bytes in as one word so that the few that start a sample
+/// land at its start, the others before it.
+const CARRY: usize = 8;
+
 /// Streaming, sans-IO decoder of IEEE 488.2 arbitrary blocks into a sweep buffer.
 ///
 /// The buffer passed to [`BlockDecoder::feed`] must be the same across the calls that
@@ -280,7 +416,8 @@ enum Step {
 pub struct BlockDecoder {
     config: BlockConfig,
     state: State,
-    sample: [u8; 16],
+    /// The sample being assembled: its first `fill` bytes at `sample[CARRY..]`.
+    sample: [u8; CARRY + 16],
     fill: u8,
     pending: u64,
     counters: BlockCounters,
@@ -292,7 +429,7 @@ impl BlockDecoder {
         Self {
             config,
             state: State::Idle,
-            sample: [0; 16],
+            sample: [0; CARRY + 16],
             fill: 0,
             pending: 0,
             counters: BlockCounters::default(),
@@ -344,8 +481,24 @@ impl BlockDecoder {
 
     /// Decode from `chunk` into `out`; stops early at the first event.
     pub fn feed(&mut self, chunk: &[u8], out: &mut [Complex32]) -> Feed<BlockError> {
+        self.feed_with(chunk, out, true)
+    }
+
+    /// [`BlockDecoder::feed`], with or without the fast path for the payload of a definite
+    /// block (`fast`); the byte-by-byte path alone is the reference the tests hold the fast
+    /// path to.
+    #[inline(always)]
+    fn feed_with(&mut self, chunk: &[u8], out: &mut [Complex32], fast: bool) -> Feed<BlockError> {
         let mut pos = 0usize;
-        while let Some(rest) = chunk.get(pos..) {
+        if fast {
+            if let Some((consumed, event)) = self.real32_run(chunk, out) {
+                if event.is_some() || consumed == chunk.len() {
+                    return Feed { consumed, event };
+                }
+                pos = consumed;
+            }
+        }
+        while let Some(rest) = chunk.get(pos..).filter(|r| !r.is_empty()) {
             if let State::Skip { left } = self.state {
                 // Bulk skip: constant work whatever the count.
                 let n = (left as usize).min(rest.len());
@@ -357,9 +510,17 @@ impl BlockDecoder {
                 }
                 continue;
             }
-            if let Some(n) = self.whole_samples(rest, out) {
-                pos += n;
-                continue;
+            if fast {
+                if let Some((n, event)) = self.definite_run(rest, out) {
+                    pos += n;
+                    if event.is_some() {
+                        return Feed {
+                            consumed: pos,
+                            event,
+                        };
+                    }
+                    continue;
+                }
             }
             let Some(&b) = rest.first() else { break };
             match self.step(b, out) {
@@ -385,44 +546,200 @@ impl BlockDecoder {
         }
     }
 
-    /// Fast path inside a definite block: decodes whole samples straight from `rest` while
-    /// more than one sample of the block remains. Returns the bytes taken, or `None` when
-    /// the byte-by-byte path must go on (mid-sample, the block's last sample, a bad value
-    /// or a full buffer: that sample is then decoded again byte by byte, so errors and
-    /// counters are exactly those of the byte path).
-    fn whole_samples(&mut self, rest: &[u8], out: &mut [Complex32]) -> Option<usize> {
-        let State::Definite {
-            mut left,
-            mut index,
-        } = self.state
-        else {
+    /// Fast path inside a definite block: takes as much of `rest` as it can without the
+    /// byte-by-byte state machine, with the byte path's effect on events, counters and the
+    /// samples of an accepted block. It completes a sample split across chunks, decodes
+    /// whole samples straight from the chunk (byte-order swap and copy), keeps the start of
+    /// a sample the chunk ends in, and accepts the block when its last sample arrives.
+    /// Returns the bytes taken and the accepting event, or `None` when the byte path must
+    /// go on: outside a definite payload, at a sample with an unusable value or with the
+    /// buffer full (the byte path then decodes that sample again and reports it; the buffer
+    /// of a rejected block may hold more of it than the byte path would have written).
+    fn definite_run(
+        &mut self,
+        rest: &[u8],
+        out: &mut [Complex32],
+    ) -> Option<(usize, Option<Event<BlockError>>)> {
+        let State::Definite { left, index } = self.state else {
             return None;
         };
-        let sb = self.config.format.sample_bytes();
-        if self.fill != 0 {
+        self.any_run(rest, out, left, index)
+    }
+
+    /// The REAL,32 fast path at the start of a chunk (see [`BlockDecoder::real32_run_as`]).
+    #[inline(always)]
+    fn real32_run(
+        &mut self,
+        chunk: &[u8],
+        out: &mut [Complex32],
+    ) -> Option<(usize, Option<Event<BlockError>>)> {
+        match (self.state, self.config.format, self.config.order) {
+            (State::Definite { left, index }, Format::Real32, ByteOrder::Normal) => {
+                self.real32_run_as::<true>(chunk, out, left, index)
+            }
+            (State::Definite { left, index }, Format::Real32, ByteOrder::Swapped) => {
+                self.real32_run_as::<false>(chunk, out, left, index)
+            }
+            _ => None,
+        }
+    }
+
+    /// [`BlockDecoder::definite_run`] for REAL,32 in the common case, a chunk at a time: at
+    /// least a sample's worth of the block in the chunk, room in the buffer and no unusable
+    /// value. Otherwise it returns `None` having changed nothing the decoder reads later
+    /// (the general path then takes the chunk). A sample split across chunks is put
+    /// together from whole words, not byte by byte.
+    #[inline(always)]
+    fn real32_run_as<const BIG_ENDIAN: bool>(
+        &mut self,
+        chunk: &[u8],
+        out: &mut [Complex32],
+        left: u32,
+        index: u32,
+    ) -> Option<(usize, Option<Event<BlockError>>)> {
+        // This block's bytes in the chunk.
+        let chunk = chunk.get(..chunk.len().min(left as usize))?;
+        let fill = usize::from(self.fill);
+        let len = chunk.len();
+        // Samples this chunk completes.
+        let samples = (fill + len) / 8;
+        if fill >= 8 {
             return None;
         }
-        let mut taken = 0;
-        for bytes in rest.chunks_exact(sb) {
-            if left as usize <= sb {
-                break;
-            }
-            self.sample[..sb].copy_from_slice(bytes);
-            let Ok(v) = self.decode_sample() else { break };
-            let Some(slot) = out.get_mut(index as usize) else {
-                break;
-            };
-            *slot = v;
-            index += 1;
-            left -= sb as u32;
-            taken += sb;
+        let (Some(head), Some(last), Some(dst)) = (
+            chunk.first_chunk::<8>(),
+            chunk.last_chunk::<8>(),
+            out.get_mut(index as usize..)
+                .and_then(|o| o.get_mut(..samples)),
+        ) else {
+            return None;
+        };
+        // The OR of all words, for one test of the whole chunk (see `all_usable`).
+        let mut any = 0u32;
+        let (body, dst) = if fill == 0 {
+            (chunk, dst)
+        } else {
+            // The carried bytes, then the chunk's first word behind them.
+            // (What lands beyond the sample is never read: later bytes are assembled over it.)
+            self.sample
+                .get_mut(CARRY + fill..CARRY + fill + 8)?
+                .copy_from_slice(head);
+            let (slot, dst) = dst.split_first_mut()?;
+            let joined = eight(self.sample.get(CARRY..CARRY + 8)?);
+            let (re, im) = real32_words::<BIG_ENDIAN>(&joined);
+            any |= re | im;
+            *slot = Complex32::new(f32::from_bits(re), f32::from_bits(im));
+            (chunk.get(8 - fill..)?, dst)
+        };
+        any |= real32_copy::<BIG_ENDIAN>(body, dst);
+        let written = out.get(index as usize..index as usize + samples)?;
+        if !all_usable(any, written) {
+            // An unusable value: the general path decodes the chunk again and reports it.
+            return None;
         }
+        // The chunk ends inside a sample: carry its first bytes. The chunk's last word goes
+        // in so that they land at the carry's start (the bytes before it are not read).
+        let t = body.len() % 8;
+        if let Some(dst) = self.sample.get_mut(CARRY + t - 8..CARRY + t) {
+            dst.copy_from_slice(last);
+        }
+        self.fill = t as u8;
+        self.run_end(len, left - len as u32, index + samples as u32)
+    }
+
+    /// [`BlockDecoder::definite_run`] for any format, the carried bytes copied one by one.
+    fn any_run(
+        &mut self,
+        rest: &[u8],
+        out: &mut [Complex32],
+        mut left: u32,
+        mut index: u32,
+    ) -> Option<(usize, Option<Event<BlockError>>)> {
+        let config = self.config;
+        let decode = |bytes: &[u8], out: &mut [Complex32]| decode_samples(&config, bytes, out);
+        let sb = config.format.sample_bytes();
+        let mut taken = 0usize;
+        let fill = usize::from(self.fill);
+        if fill != 0 {
+            // The chunk before ended inside a sample (never past the block: `left` counts
+            // the sample's missing bytes too).
+            let need = sb.checked_sub(fill)?;
+            if rest.len() < need {
+                let n = rest.len();
+                self.sample
+                    .get_mut(CARRY + fill..CARRY + fill + n)?
+                    .copy_from_slice(rest);
+                self.fill += n as u8;
+                self.pending += n as u64;
+                self.state = State::Definite {
+                    left: left - n as u32,
+                    index,
+                };
+                return (n > 0).then_some((n, None));
+            }
+            let mut sample = self.sample;
+            sample
+                .get_mut(CARRY + fill..CARRY + sb)?
+                .copy_from_slice(rest.get(..need)?);
+            let slot = out.get_mut(index as usize..index as usize + 1)?;
+            if decode(&sample[CARRY..CARRY + sb], slot) == 0 {
+                return None;
+            }
+            self.fill = 0;
+            index += 1;
+            left -= need as u32;
+            taken = need;
+        }
+        // Whole samples, the block's last one included.
+        let room = out.len().saturating_sub(index as usize);
+        let whole = ((rest.len() - taken) / sb)
+            .min(left as usize / sb)
+            .min(room);
+        let at = index as usize;
+        let done = match (
+            rest.get(taken..taken + whole * sb),
+            out.get_mut(at..at + whole),
+        ) {
+            (Some(bytes), Some(dst)) => decode(bytes, dst),
+            _ => 0,
+        };
+        index += done as u32;
+        left -= (done * sb) as u32;
+        taken += done * sb;
+        // A chunk ending inside a sample: keep its first bytes (they cannot complete it).
+        let tail = rest.len() - taken;
+        if done == whole && tail > 0 && tail < sb && (tail as u32) < left {
+            if let (Some(dst), Some(src)) =
+                (self.sample.get_mut(CARRY..CARRY + tail), rest.get(taken..))
+            {
+                dst.copy_from_slice(src);
+                self.fill = tail as u8;
+                left -= tail as u32;
+                taken += tail;
+            }
+        }
+        self.run_end(taken, left, index)
+    }
+
+    /// Records what a fast run took: the bytes are pending in the block, which is accepted
+    /// when its last byte has arrived.
+    #[inline(always)]
+    fn run_end(
+        &mut self,
+        taken: usize,
+        left: u32,
+        index: u32,
+    ) -> Option<(usize, Option<Event<BlockError>>)> {
         if taken == 0 {
             return None;
         }
         self.pending += taken as u64;
+        if left == 0 {
+            self.state = State::AfterBlock { accepted: true };
+            return Some((taken, Some(self.accept(index))));
+        }
         self.state = State::Definite { left, index };
-        Some(taken)
+        Some((taken, None))
     }
 
     fn enter_skip(&mut self, left: u32) {
@@ -504,7 +821,7 @@ impl BlockDecoder {
 
     /// Add a byte to the sample being assembled; returns the sample when complete.
     fn push_sample_byte(&mut self, b: u8) -> Option<Result<Complex32, ()>> {
-        if let Some(slot) = self.sample.get_mut(self.fill as usize) {
+        if let Some(slot) = self.sample.get_mut(CARRY + self.fill as usize) {
             *slot = b;
         }
         self.fill += 1;
@@ -517,7 +834,9 @@ impl BlockDecoder {
     }
 
     fn decode_sample(&self) -> Result<Complex32, ()> {
-        let [a0, a1, a2, a3, a4, a5, a6, a7, a8, a9, a10, a11, a12, a13, a14, a15] = self.sample;
+        let mut bytes = [0u8; 16];
+        bytes.copy_from_slice(&self.sample[CARRY..]);
+        let [a0, a1, a2, a3, a4, a5, a6, a7, a8, a9, a10, a11, a12, a13, a14, a15] = bytes;
         let normal = self.config.order == ByteOrder::Normal;
         match self.config.format {
             Format::Real32 => {
@@ -952,6 +1271,16 @@ mod tests {
 
     /// Feed `chunks` in order, then finish; collect events and the final counters.
     fn run(config: BlockConfig, cap: usize, chunks: &[&[u8]]) -> (Vec<Seen>, BlockCounters) {
+        run_with(config, cap, chunks, true)
+    }
+
+    /// As [`run`], through the byte-by-byte path alone (`fast` false).
+    fn run_with(
+        config: BlockConfig,
+        cap: usize,
+        chunks: &[&[u8]],
+        fast: bool,
+    ) -> (Vec<Seen>, BlockCounters) {
         let mut dec = BlockDecoder::new(config);
         let mut buf = std::vec![Z; cap];
         let mut seen = Vec::new();
@@ -959,7 +1288,7 @@ mod tests {
         for chunk in chunks {
             let mut rest: &[u8] = chunk;
             loop {
-                let fed = dec.feed(rest, &mut buf);
+                let fed = dec.feed_with(rest, &mut buf, fast);
                 total += fed.consumed as u64;
                 rest = &rest[fed.consumed..];
                 match fed.event {
@@ -1418,6 +1747,107 @@ mod tests {
         }
     }
 
+    /// A stream that visits every branch of the payload path: good blocks, a split sample
+    /// at every offset, unusable values (SCPI codes, NaN, infinity) in the first, a middle
+    /// and the last sample, wrong point counts, an indefinite block, garbage, and a block cut
+    /// short by the end of the stream.
+    fn mixed_stream(format: Format, order: ByteOrder) -> Vec<u8> {
+        let sweep = sample_sweep(5);
+        let mut stream = b"\r\n".to_vec();
+        stream.extend(block(format, order, &sweep));
+        for (at, bad) in [
+            (0usize, 9.9e37f32),
+            (2, f32::NAN),
+            (4, -9.91e37),
+            (4, f32::INFINITY),
+        ] {
+            let mut s = sweep.clone();
+            s[at].im = bad;
+            stream.extend(block(format, order, &s));
+        }
+        stream.extend(block(format, order, &sample_sweep(4)));
+        // Values on both sides of 2.0 (their words OR into the bits of a huge value).
+        let wide = [
+            c(0.5, 3.0),
+            c(-1e-20, 7e20),
+            c(1.5, -2.5),
+            c(0.0, 1e30),
+            c(2.0, 0.75),
+        ];
+        stream.extend(block(format, order, &wide));
+        stream.extend(b"xx");
+        stream.extend(block(format, order, &sweep));
+        stream.extend(indefinite(format, order, &sweep));
+        stream.extend(block(format, order, &sweep));
+        let cut = block(format, order, &sweep);
+        stream.extend(&cut[..cut.len() - 5]);
+        stream
+    }
+
+    #[test]
+    fn fast_path_equals_byte_path_at_every_split_and_chunk_size() {
+        // The fast path must be invisible: the same events, samples and counters as the
+        // byte-by-byte path (the reference here) for every way of cutting the stream.
+        for (format, order) in ALL {
+            let stream = mixed_stream(format, order);
+            let config = cfg(5, format, order);
+            let whole = run_with(config, 5, &[&stream], false);
+            // The f32 SCPI codes widened to f64 are not the f64 codes: ordinary values there.
+            let scpi_rejected = if format == Format::Real32 { 2 } else { 0 };
+            assert_eq!(whole.1.accepted, 7 - scpi_rejected, "{format:?} {order:?}");
+            assert_eq!(
+                whole.1.non_finite,
+                2 + scpi_rejected,
+                "{format:?} {order:?}"
+            );
+            assert_eq!(whole.1.point_count, 1);
+            assert_eq!(whole.1.truncated, 1);
+            assert_eq!(run(config, 5, &[&stream]), whole);
+            for i in 0..=stream.len() {
+                let (a, b) = stream.split_at(i);
+                assert_eq!(
+                    run(config, 5, &[a, b]),
+                    whole,
+                    "{format:?} {order:?} split {i}"
+                );
+            }
+            for size in (1..=40).chain([63, 64, 65, 4096]) {
+                let chunks: Vec<&[u8]> = stream.chunks(size).collect();
+                assert_eq!(
+                    run(config, 5, &chunks),
+                    whole,
+                    "{format:?} {order:?} {size}"
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn fast_path_with_a_short_buffer_reports_overflow_as_the_byte_path_does() {
+        // The buffer given with the payload may be shorter than the one the header was
+        // checked against; the sample that does not fit is the byte path's to report.
+        for (format, order) in ALL {
+            let bytes = block(format, order, &sample_sweep(5));
+            let config = cfg(5, format, order);
+            for i in 1..bytes.len() {
+                let (a, b) = bytes.split_at(i);
+                let mut slow = BlockDecoder::new(config);
+                let mut fast = BlockDecoder::new(config);
+                let (mut big, mut small) = ([Z; 5], [Z; 3]);
+                let (mut big2, mut small2) = ([Z; 5], [Z; 3]);
+                let s1 = slow.feed_with(a, &mut big, false);
+                let f1 = fast.feed(a, &mut big2);
+                assert_eq!(s1, f1, "split {i}");
+                let s2 = slow.feed_with(b, &mut small, false);
+                let f2 = fast.feed(b, &mut small2);
+                assert_eq!(s2, f2, "split {i}");
+                assert_eq!((big, small), (big2, small2), "split {i}");
+                assert_eq!(slow.counters(), fast.counters(), "split {i}");
+                assert_eq!(slow.bytes_pending(), fast.bytes_pending(), "split {i}");
+            }
+        }
+    }
+
     mod props {
         use super::*;
         use proptest::prelude::*;
@@ -1442,6 +1872,67 @@ mod tests {
                 chunks.push(&data[at..]);
                 let split = run(cfg(k, format, order), cap, &chunks);
                 prop_assert_eq!(&split, &run(cfg(k, format, order), cap, &[&data]));
+            }
+
+            /// The fast path against the byte path on arbitrary bytes at arbitrary cuts.
+            #[test]
+            fn fast_path_equals_byte_path(data in proptest::collection::vec(any::<u8>(), 0..600),
+                                          cuts in proptest::collection::vec(0usize..600, 0..6),
+                                          fmt64 in any::<bool>(), swapped in any::<bool>(),
+                                          k in 1usize..6, cap in 0usize..8) {
+                let format = if fmt64 { Format::Real64 } else { Format::Real32 };
+                let order = if swapped { ByteOrder::Swapped } else { ByteOrder::Normal };
+                let mut cuts: Vec<usize> = cuts.into_iter().map(|c| c.min(data.len())).collect();
+                cuts.sort_unstable();
+                let mut chunks = Vec::new();
+                let mut at = 0;
+                for c in cuts { chunks.push(&data[at..c]); at = c; }
+                chunks.push(&data[at..]);
+                let config = cfg(k, format, order);
+                prop_assert_eq!(run(config, cap, &chunks), run_with(config, cap, &chunks, false));
+            }
+
+            /// Well-formed blocks of arbitrary bit patterns (NaNs, infinities, SCPI codes,
+            /// subnormals and all), both byte orders and formats, cut anywhere: the fast path
+            /// gives the byte path's samples, rejections and counters.
+            #[test]
+            fn fast_path_equals_byte_path_on_arbitrary_values(
+                    words in proptest::collection::vec(any::<u32>(), 2..40),
+                    specials in proptest::collection::vec((0usize..40, 0usize..6), 0..3),
+                    cuts in proptest::collection::vec(0usize..800, 0..5),
+                    fmt64 in any::<bool>(), swapped in any::<bool>()) {
+                let format = if fmt64 { Format::Real64 } else { Format::Real32 };
+                let order = if swapped { ByteOrder::Swapped } else { ByteOrder::Normal };
+                // Mostly ordinary values, from 2^-31 to 2^32 (their words OR into the bits of
+                // huge values, so the fast path's second look is taken too), a few special
+                // ones placed on purpose.
+                let mut values: Vec<f32> = words
+                    .iter()
+                    .map(|&w| {
+                        let exponent = 0x60 + ((w >> 24) & 0x3F);
+                        f32::from_bits((w & 0x807F_FFFF) | (exponent << 23))
+                    })
+                    .collect();
+                let special = [f32::NAN, f32::INFINITY, 9.9e37, -9.91e37, 1e-40, f32::MAX];
+                for (at, which) in specials {
+                    if let Some(v) = values.get_mut(at) {
+                        *v = special[which];
+                    }
+                }
+                let sweep: Vec<Complex32> =
+                    values.chunks_exact(2).map(|p| c(p[0], p[1])).collect();
+                let mut stream = block(format, order, &sweep);
+                stream.extend(block(format, order, &sweep));
+                let mut cuts: Vec<usize> = cuts.into_iter().map(|c| c.min(stream.len())).collect();
+                cuts.sort_unstable();
+                let mut chunks = Vec::new();
+                let mut at = 0;
+                for c in cuts { chunks.push(&stream[at..c]); at = c; }
+                chunks.push(&stream[at..]);
+                let config = cfg(sweep.len(), format, order);
+                let slow = run_with(config, sweep.len(), &chunks, false);
+                prop_assert_eq!(&run(config, sweep.len(), &chunks), &slow);
+                prop_assert_eq!(slow.1.accepted + slow.1.non_finite, 2);
             }
 
             /// Valid blocks mixed with garbage: the valid blocks after a garbage run that

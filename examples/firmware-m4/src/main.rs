@@ -35,10 +35,13 @@ use sweepgate::scan::EchoMode;
 use sweepgate::Complex32;
 #[cfg(feature = "gate-figures")]
 use sweepgate::{
+    bins::{BinLayout, Bins, RevisitPolicy, SweepAngle},
     fft::Fft,
     gate::{Gate, GateConfig},
     grid::Grid,
+    track::Direction,
     window::WindowKind,
+    wire::block::{emit, ByteOrder, Format},
 };
 
 #[cfg(feature = "gate-figures")]
@@ -155,6 +158,8 @@ enum Failure {
     Output,
     Frame,
     Taken,
+    Decode,
+    ScanCounts,
 }
 
 impl From<ReplayError<core::convert::Infallible, embedded_io::ErrorKind>> for Failure {
@@ -188,6 +193,8 @@ impl Failure {
             Failure::Output => "preview.bin could not be written",
             Failure::Frame => "a preview record did not fit its frame",
             Failure::Taken => "the board loop's storage was already taken",
+            Failure::Decode => "the block decoder did not return the sweep it was given",
+            Failure::ScanCounts => "the scan measurement did not bin and close as planned",
         }
     }
 }
@@ -414,6 +421,17 @@ fn capture_case(c: &Counter) -> Result<(), Failure> {
 }
 
 #[cfg(feature = "gate-figures")]
+/// What one kernel-path measurement counted, instructions.
+struct KernelFigures {
+    /// [`Gate::apply_kernels`]: the band window applied on the fly.
+    on_the_fly: u32,
+    /// [`Gate::window`] over the sweep, as the scan engine does before its dot products.
+    window: u32,
+    /// [`Gate::apply_kernels_windowed`]: the F dot products alone.
+    dots: u32,
+}
+
+#[cfg(feature = "gate-figures")]
 /// Kernel path for F frequencies spread over the band, timed two ways and checked against
 /// the FFT path. `scratch` is overwritten (memory is tight at M = 2048).
 #[inline(never)]
@@ -422,15 +440,12 @@ fn kernel_case<const M: usize, const F: usize>(
     gate: &Gate<M>,
     raw: &[Complex32; M],
     scratch: &mut [Complex32; M],
-) -> Result<(u32, u32), Failure>
+) -> Result<KernelFigures, Failure>
 where
     [Complex32; M]: Fft,
 {
     let k = gate.points();
-    let mut idx = [0usize; F];
-    for (i, v) in idx.iter_mut().enumerate() {
-        *v = (i + 1) * k / (F + 1);
-    }
+    let idx = spread::<F>(k);
     gate.apply(raw, scratch);
     let reference = idx.map(|i| scratch[i]);
     let kernels = gate.kernels(idx).map_err(Failure::Gate)?;
@@ -440,12 +455,43 @@ where
     // As the scan engine does it: window the bin's sum in place (folding in 1/count), then
     // one dot product per frequency.
     scratch.copy_from_slice(raw);
-    let windowed = c.measure(|| {
-        gate.window(scratch, 1.0);
-        gate.apply_kernels_windowed(&kernels, scratch, &mut out);
-    });
+    let window = c.measure(|| gate.window(scratch, 1.0));
+    let dots = c.measure(|| gate.apply_kernels_windowed(&kernels, scratch, &mut out));
     check(&out, &reference, M, F)?;
-    Ok((on_the_fly, windowed))
+    Ok(KernelFigures {
+        on_the_fly,
+        window,
+        dots,
+    })
+}
+
+#[cfg(feature = "gate-figures")]
+/// F grid indices spread evenly over K points.
+fn spread<const F: usize>(k: usize) -> [usize; F] {
+    let mut idx = [0usize; F];
+    for (i, v) in idx.iter_mut().enumerate() {
+        *v = (i + 1) * k / (F + 1);
+    }
+    idx
+}
+
+#[cfg(feature = "gate-figures")]
+/// A ratio printed with one decimal, from integers (no float formatting in the image).
+struct Tenths(u64);
+
+#[cfg(feature = "gate-figures")]
+impl Tenths {
+    /// `total / count`, rounded to a tenth.
+    fn of(total: u64, count: u64) -> Self {
+        Tenths((total * 10 + count / 2) / count.max(1))
+    }
+}
+
+#[cfg(feature = "gate-figures")]
+impl core::fmt::Display for Tenths {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        write!(f, "{}.{}", self.0 / 10, self.0 % 10)
+    }
 }
 
 #[cfg(feature = "gate-figures")]
@@ -459,21 +505,28 @@ fn check(out: &[Complex32], reference: &[Complex32], m: usize, f: usize) -> Resu
 }
 
 #[cfg(feature = "gate-figures")]
-#[inline(never)]
-fn gate_case<const M: usize>(c: &Counter, points: usize) -> Result<(), Failure>
-where
-    [Complex32; M]: Fft,
-{
-    // 8–12 GHz: an X-band bench range of our own.
+/// The gate measured on the board: 8–12 GHz (an X-band bench range of our own), a Kaiser
+/// band window, a 2 ns Kaiser gate at 18 ns.
+fn bench_gate(points: usize) -> Result<GateConfig, Failure> {
     let grid = Grid::from_start_stop(8e9, 12e9, points).map_err(Failure::Grid)?;
-    let cfg = GateConfig {
+    Ok(GateConfig {
         grid,
         band_window: WindowKind::Kaiser { beta: 6.0 },
         center_s: 18e-9,
         span_s: 2e-9,
         shape: WindowKind::Kaiser { beta: 4.0 },
         renormalize: true,
-    };
+    })
+}
+
+#[cfg(feature = "gate-figures")]
+#[inline(never)]
+fn gate_case<const M: usize>(c: &Counter, points: usize) -> Result<[KernelFigures; 3], Failure>
+where
+    [Complex32; M]: Fft,
+{
+    let cfg = bench_gate(points)?;
+    let grid = cfg.grid;
     let t0 = c.now();
     // Built in place: one copy of the gate on the stack (48 KiB at M = 2048).
     let mut gate = Gate::<M>::unconfigured();
@@ -498,16 +551,265 @@ where
     );
     hprintln!(
         "  kernel path, window on the fly: F=1 {} F=4 {} F=8 {}",
-        f1.0,
-        f4.0,
-        f8.0
+        f1.on_the_fly,
+        f4.on_the_fly,
+        f8.on_the_fly
     );
     hprintln!(
         "  kernel path, window in place then dot products: F=1 {} F=4 {} F=8 {}",
-        f1.1,
-        f4.1,
-        f8.1
+        f1.window + f1.dots,
+        f4.window + f4.dots,
+        f8.window + f8.dots
     );
+    // Per complex multiply-accumulate: F·K of them per call.
+    let k = points as u64;
+    hprintln!(
+        "  per complex multiply-accumulate, window on the fly: F=1 {} F=4 {} F=8 {}",
+        Tenths::of(f1.on_the_fly as u64, k),
+        Tenths::of(f4.on_the_fly as u64, 4 * k),
+        Tenths::of(f8.on_the_fly as u64, 8 * k)
+    );
+    hprintln!(
+        "  per complex multiply-accumulate, dot products alone: F=1 {} F=4 {} F=8 {} (window in place: {} per point)",
+        Tenths::of(f1.dots as u64, k),
+        Tenths::of(f4.dots as u64, 4 * k),
+        Tenths::of(f8.dots as u64, 8 * k),
+        Tenths::of(f8.window as u64, k)
+    );
+    Ok([f1, f4, f8])
+}
+
+#[cfg(feature = "gate-figures")]
+/// Room for the largest block measured: `#5`, five digits, 1601 REAL,32 points, newline.
+const BLOCK_BYTES: usize = 16 + 8 * 1601;
+
+#[cfg(feature = "gate-figures")]
+/// One REAL,32 block of K points decoded from 64-byte chunks, as the board loop feeds it;
+/// returns the instructions inside the decoder's `feed` calls (each timed as the board loop
+/// times them) and those of the whole chunk loop around them. The decoded sweep must equal
+/// the one sent.
+#[inline(never)]
+fn decode_case<const M: usize>(
+    c: &Counter,
+    points: usize,
+    order: ByteOrder,
+) -> Result<(u32, u32), Failure>
+where
+    [Complex32; M]: Fft,
+{
+    let grid = Grid::from_start_stop(8e9, 12e9, points).map_err(Failure::Grid)?;
+    let mut sweep = [ZERO; M];
+    two_path(&grid, &mut sweep);
+    let mut bytes = [0u8; BLOCK_BYTES];
+    let n =
+        emit(Format::Real32, order, &sweep[..points], &mut bytes).map_err(|_| Failure::Decode)?;
+    let mut decoder = BlockDecoder::new(BlockConfig::for_grid(&grid, Format::Real32, order));
+    let mut out = [ZERO; M];
+    let mut sweeps = 0u32;
+    let mut in_feed = 0u32;
+    let whole = c.measure(|| {
+        for chunk in bytes[..n].chunks(64) {
+            let mut rest = chunk;
+            while !rest.is_empty() {
+                let t0 = c.now();
+                let fed = decoder.feed(rest, &mut out);
+                in_feed += c.instructions(t0, c.now());
+                rest = rest.get(fed.consumed..).unwrap_or_default();
+                if let Some(BlockEvent::Sweep { .. }) = fed.event {
+                    sweeps += 1;
+                }
+            }
+        }
+    });
+    if sweeps != 1 || out[..points] != sweep[..points] {
+        return Err(Failure::Decode);
+    }
+    Ok((in_feed, whole))
+}
+
+#[cfg(feature = "gate-figures")]
+#[inline(never)]
+fn decode_figures<const M: usize>(c: &Counter, points: usize) -> Result<u32, Failure>
+where
+    [Complex32; M]: Fft,
+{
+    let normal = decode_case::<M>(c, points, ByteOrder::Normal)?;
+    let swapped = decode_case::<M>(c, points, ByteOrder::Swapped)?;
+    let floats = 2 * points as u64;
+    hprintln!(
+        "decode REAL,32 K={} in 64-byte chunks, in feed: NORMal {} per sweep, {} per float | SWAPped {} per sweep, {} per float",
+        points,
+        normal.0,
+        Tenths::of(normal.0 as u64, floats),
+        swapped.0,
+        Tenths::of(swapped.0 as u64, floats)
+    );
+    hprintln!(
+        "  with the chunk loop around feed (and its timing): NORMal {} per float | SWAPped {} per float",
+        Tenths::of(normal.1 as u64, floats),
+        Tenths::of(swapped.1 as u64, floats)
+    );
+    Ok(normal.0)
+}
+
+#[cfg(feature = "gate-figures")]
+/// The scan engine `Scan<M, F, 8>` on a sector of 1° bins at 10°/s with one 20 ms sweep
+/// every 50 ms (two per bin), kernel path: returns the instructions of a sweep added to the
+/// open bin and of a sweep that also closes a bin (means over the run).
+#[inline(never)]
+fn scan_case<const M: usize, const F: usize>(
+    c: &Counter,
+    points: usize,
+) -> Result<(u32, u32), Failure>
+where
+    [Complex32; M]: Fft,
+{
+    let gate = bench_gate(points)?;
+    let layout = BinLayout::sector(0.0, 7.0, 1.0).map_err(|_| Failure::ScanCounts)?;
+    let mut sc = ScanConfig::new(layout);
+    sc.echo = EchoMode::Never;
+    // Bins close when a sweep lands in the next one, so every close is in a sweep's count.
+    sc.leave_close_us = None;
+    // Used in place inside the Result: moving the engine out would put a second copy on the
+    // stack.
+    let mut built = Scan::<M, F, 8>::new(&gate, spread::<F>(points), sc);
+    let scan = match &mut built {
+        Ok(s) => s,
+        Err(e) => return Err(Failure::Scan(*e)),
+    };
+    let mut sweep = [ZERO; M];
+    two_path(&gate.grid, &mut sweep);
+    let (mut adds, mut add_instr, mut closes, mut close_instr) = (0u64, 0u64, 0u64, 0u64);
+    for i in 0..=70u64 {
+        let t_us = i * 10_000;
+        let _ = scan.push_angle(t_us, -0.45 + i as f32 * 0.1);
+        if i % 5 == 4 {
+            let before = scan.counters().bins_closed;
+            let t0 = c.now();
+            let events = scan.push_sweep(t_us - 30_000, t_us - 10_000, &sweep[..points]);
+            let n = c.instructions(t0, c.now()) as u64;
+            drop(events);
+            if scan.counters().bins_closed > before {
+                closes += 1;
+                close_instr += n;
+            } else {
+                adds += 1;
+                add_instr += n;
+            }
+        }
+    }
+    let k = scan.counters();
+    if k.sweeps_binned != 14 || closes != 6 || adds != 8 {
+        return Err(Failure::ScanCounts);
+    }
+    Ok(((add_instr / adds) as u32, (close_instr / closes) as u32))
+}
+
+#[cfg(feature = "gate-figures")]
+/// The open-bin accumulator `Bins<M, 8>` alone, two sweeps per 1° bin: returns the
+/// instructions of adding a sweep to the open bin and the bookkeeping of closing one
+/// (a sweep that closes a bin, less an add; the gating the engine then does is measured by
+/// `kernel_case`).
+#[inline(never)]
+fn bins_case<const M: usize>(c: &Counter, points: usize) -> Result<(u32, u32), Failure>
+where
+    [Complex32; M]: Fft,
+{
+    let layout = BinLayout::sector(0.0, 7.0, 1.0).map_err(|_| Failure::ScanCounts)?;
+    let mut built = Bins::<M, 8>::new(layout, RevisitPolicy::Replace, 1);
+    let bins = match &mut built {
+        Ok(b) => b,
+        Err(_) => return Err(Failure::ScanCounts),
+    };
+    let grid = Grid::from_start_stop(8e9, 12e9, points).map_err(Failure::Grid)?;
+    let mut sweep = [ZERO; M];
+    two_path(&grid, &mut sweep);
+    let (mut adds, mut add_instr, mut closes, mut close_instr) = (0u64, 0u64, 0u64, 0u64);
+    for i in 0..14u16 {
+        let angle = SweepAngle {
+            mid_deg: -0.25 + 0.5 * i as f32,
+            smear_deg: 0.2,
+            direction: Direction::Forward,
+            moving: false,
+            extrapolated: false,
+            end_us: 50_000 * u64::from(i),
+        };
+        let t0 = c.now();
+        let (res, closed) = bins.add(i / 2, &angle, &sweep[..points], |_, _, _| ());
+        let n = c.instructions(t0, c.now()) as u64;
+        if res.is_err() {
+            return Err(Failure::ScanCounts);
+        }
+        match closed {
+            Some(()) => {
+                closes += 1;
+                close_instr += n;
+            }
+            None if i > 0 => {
+                adds += 1;
+                add_instr += n;
+            }
+            // The very first sweep opens the first bin: neither a plain add nor a close.
+            None => {}
+        }
+    }
+    if closes != 6 || adds != 7 {
+        return Err(Failure::ScanCounts);
+    }
+    let add = add_instr / adds;
+    Ok((
+        add as u32,
+        (close_instr / closes).saturating_sub(add) as u32,
+    ))
+}
+
+#[cfg(feature = "gate-figures")]
+/// Per-sweep and per-bin work at one K: decoding, adding to the open bin, closing it with
+/// the kernel path for F = 1, 4, 8 (window in place, dot products, bookkeeping). `kernels`
+/// are `kernel_case`'s figures at this K. With `ENGINE`, the scan engine itself is measured
+/// too (at M = 2048 it does not fit the part's RAM beside the measurement).
+#[inline(never)]
+fn sweep_figures<const M: usize, const ENGINE: bool>(
+    c: &Counter,
+    points: usize,
+    kernels: &[KernelFigures; 3],
+) -> Result<(), Failure>
+where
+    [Complex32; M]: Fft,
+{
+    let decode = decode_figures::<M>(c, points)?;
+    let (add, bookkeeping) = bins_case::<M>(c, points)?;
+    for (f, k) in [1, 4, 8].into_iter().zip(kernels.iter()) {
+        let close = k.window + k.dots + bookkeeping;
+        hprintln!(
+            "sweep M={} K={} F={}: per sweep decode {} + add {} = {} | per bin close {} (window {} + dot products {} + bookkeeping {})",
+            M,
+            points,
+            f,
+            decode,
+            add,
+            decode + add,
+            close,
+            k.window,
+            k.dots,
+            bookkeeping
+        );
+    }
+    if ENGINE {
+        let engine = [
+            scan_case::<M, 1>(c, points)?,
+            scan_case::<M, 4>(c, points)?,
+            scan_case::<M, 8>(c, points)?,
+        ];
+        for (f, (add, add_close)) in [1, 4, 8].into_iter().zip(engine) {
+            hprintln!(
+                "  the scan engine itself, F={}: add a sweep {} | add a sweep and close a bin {}",
+                f,
+                add,
+                add_close
+            );
+        }
+    }
     Ok(())
 }
 
@@ -531,9 +833,12 @@ fn run(c: &Counter) -> Result<(), Failure> {
         fft_case::<256>(c);
         fft_case::<1024>(c);
         fft_case::<2048>(c);
-        gate_case::<256>(c, 201)?;
-        gate_case::<1024>(c, 801)?;
-        gate_case::<2048>(c, 1601)?;
+        let k201 = gate_case::<256>(c, 201)?;
+        let k801 = gate_case::<1024>(c, 801)?;
+        let k1601 = gate_case::<2048>(c, 1601)?;
+        sweep_figures::<256, true>(c, 201, &k201)?;
+        sweep_figures::<1024, true>(c, 801, &k801)?;
+        sweep_figures::<2048, false>(c, 1601, &k1601)?;
         hprintln!(
             "memory: peak stack of the gate measurements {} bytes",
             stack::peak()
