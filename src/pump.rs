@@ -32,7 +32,7 @@
 //! use sweepgate::pump::{Pump, PumpConfig};
 //! use sweepgate::scan::ScanConfig;
 //! use sweepgate::wire::block::{emit, ByteOrder, Format};
-//! use sweepgate::wire::preview::{Decoder, Record};
+//! use sweepgate::wire::preview::{Decoder, PreviewRecord};
 //!
 //! let grid = Grid::from_start_stop(2e9, 18e9, 201).unwrap();
 //! let gate = GateConfig { grid, band_window: WindowKind::Kaiser { beta: 6.0 },
@@ -67,7 +67,7 @@
 //! assert_eq!(pump.counters().sweeps_decoded, 39);
 //!
 //! let mut bins = 0;
-//! Decoder::<1, 512>::new().feed(&preview, |_, r| bins += matches!(r, Record::Bin(_)) as u32);
+//! Decoder::<1, 512>::new().feed(&preview, |_, r| bins += matches!(r, PreviewRecord::Bin(_)) as u32);
 //! assert_eq!(bins, pump.counters().frames_sent);
 //! assert!(bins >= 19);
 //! ```
@@ -78,9 +78,9 @@ use crate::error::{CaptureError, PumpError, ReplayError, ScanConfigError};
 use crate::fft::Fft;
 use crate::gate::GateConfig;
 use crate::scan::{EchoMode, Event, Events, Scan, ScanConfig};
-use crate::wire::block::{BlockConfig, BlockDecoder, ByteOrder, Event as BlockEvent, Format};
+use crate::wire::block::{BlockConfig, BlockDecoder, ByteOrder, DecodeEvent as BlockEvent, Format};
 use crate::wire::capture::{CaptureHeader, Entry, HEADER_LEN, MAX_ENTRY_LEN};
-use crate::wire::preview::{write_frame, Record, WriteFrameError};
+use crate::wire::preview::{write_frame, PreviewRecord, WriteFrameError};
 use crate::Complex32;
 
 /// Bytes of a sweep's answer [`Pump::replay`] hands the decoder at a time (one DMA
@@ -322,7 +322,7 @@ where
     pub fn send_status<W: Write>(&mut self, out: &mut W) -> Result<(), PumpError<W::Error>> {
         self.configured()?;
         let status = self.scan.status();
-        self.write(&Record::Status(status), out)
+        self.write(&PreviewRecord::Status(status), out)
     }
 
     /// Replays a link capture read from `capture`: its header configures the pump (with
@@ -409,13 +409,17 @@ where
     ) -> Result<(), PumpError<W::Error>> {
         for e in events {
             if let Event::BinClosed(r) = e {
-                self.write(&Record::Bin(r.to_record()), out)?;
+                self.write(&PreviewRecord::Bin(r.to_record()), out)?;
             }
         }
         Ok(())
     }
 
-    fn write<W: Write>(&mut self, rec: &Record<F>, out: &mut W) -> Result<(), PumpError<W::Error>> {
+    fn write<W: Write>(
+        &mut self,
+        rec: &PreviewRecord<F>,
+        out: &mut W,
+    ) -> Result<(), PumpError<W::Error>> {
         write_frame(out, rec, self.seq).map_err(|e| match e {
             WriteFrameError::Emit(e) => PumpError::Emit(e),
             WriteFrameError::Io(e) => PumpError::Write(e),
@@ -581,7 +585,8 @@ mod tests {
             for e in ev {
                 if let Event::BinClosed(r) = e {
                     let mut frame = [0u8; MAX_FRAME];
-                    let n = encode_frame(&Record::Bin(r.to_record()), seq, &mut frame).unwrap();
+                    let n =
+                        encode_frame(&PreviewRecord::Bin(r.to_record()), seq, &mut frame).unwrap();
                     out.extend_from_slice(&frame[..n]);
                     seq += 1;
                     closed = true;

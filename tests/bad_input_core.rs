@@ -18,9 +18,11 @@ use sweepgate::scan::{Event, Scan, ScanConfig, Warning};
 use sweepgate::track::{CounterWidth, EncoderConfig, Sense, TrackConfig, Tracker};
 use sweepgate::window::WindowKind;
 use sweepgate::wire::ascii::{AsciiConfig, AsciiDecoder};
-use sweepgate::wire::block::{BlockConfig, BlockDecoder, ByteOrder, Event as WireEvent, Format};
+use sweepgate::wire::block::{
+    BlockConfig, BlockDecoder, ByteOrder, DecodeEvent as WireEvent, Format,
+};
 use sweepgate::wire::capture::{CaptureHeader, Entry, HEADER_LEN, MAX_PATTERN};
-use sweepgate::wire::preview::{crc32, encode_frame, Decoder, Record, MAX_FRAME};
+use sweepgate::wire::preview::{crc32, encode_frame, Decoder, PreviewRecord, MAX_FRAME};
 use sweepgate::Complex32;
 
 type Case = (&'static str, Box<dyn Fn() -> Result<(), String>>);
@@ -920,7 +922,7 @@ fn scan_table() -> Vec<Case> {
 
 fn status_frame(seq: u16) -> Vec<u8> {
     let s = scan();
-    let rec: Record<1> = Record::Status(s.status());
+    let rec: PreviewRecord<1> = PreviewRecord::Status(s.status());
     let mut buf = [0u8; MAX_FRAME];
     let n = encode_frame(&rec, seq, &mut buf).unwrap();
     buf[..n].to_vec()

@@ -5,7 +5,7 @@
 use proptest::prelude::*;
 use sweepgate::wire::preview::{
     cobs_decode_in_place, cobs_encode, crc32, encode_frame, write_frame, BinRecord, Decoder,
-    FreqValue, PositionerState, Record, StatusRecord, MAX_FRAME,
+    FreqValue, PositionerState, PreviewRecord, StatusRecord, MAX_FRAME,
 };
 use sweepgate::Complex32;
 
@@ -93,11 +93,11 @@ fn status_record(i: u32) -> StatusRecord {
     }
 }
 
-fn record(i: u32) -> Record<8> {
+fn record(i: u32) -> PreviewRecord<8> {
     if i % 3 == 2 {
-        Record::Status(status_record(i))
+        PreviewRecord::Status(status_record(i))
     } else {
-        Record::Bin(bin_record(i))
+        PreviewRecord::Bin(bin_record(i))
     }
 }
 
@@ -123,11 +123,13 @@ fn round_trip_and_writer() {
     let mut b = bin_record(5);
     b.echo_db = f32::NAN;
     let mut frame = [0u8; MAX_FRAME];
-    let n = encode_frame(&Record::Bin(b), 0, &mut frame).unwrap();
+    let n = encode_frame(&PreviewRecord::Bin(b), 0, &mut frame).unwrap();
     let mut dec = Dec::new();
     let mut got = None;
     dec.feed(&frame[..n], |_, r| got = Some(r));
-    let Some(Record::Bin(r)) = got else { panic!() };
+    let Some(PreviewRecord::Bin(r)) = got else {
+        panic!()
+    };
     assert!(r.echo_db.is_nan());
     // A receiver holding fewer frequencies refuses the record as a bad field, counted.
     let mut small: Decoder<2, MAX_FRAME> = Decoder::new();
@@ -154,7 +156,7 @@ impl Rng {
 fn damaged_stream_recovers_every_intact_record() {
     let mut rng = Rng(0x9E37_79B9_7F4A_7C15);
     let mut stream: Vec<u8> = Vec::new();
-    let mut intact: Vec<(u16, Record<8>)> = Vec::new();
+    let mut intact: Vec<(u16, PreviewRecord<8>)> = Vec::new();
     let mut expect_damaged = 0u32;
     // The receiver joins mid-frame: the tail of a frame runs into frame 0, one damaged count.
     stream.extend_from_slice(&[0x05, 0x11, 0x22]);
@@ -253,7 +255,7 @@ proptest! {
         for (index, v) in vals {
             values.push(FreqValue { index, raw: Complex32::new(v[0], v[1]), gated: Complex32::new(v[2], v[3]) }).unwrap();
         }
-        let rec: Record<8> = Record::Bin(BinRecord {
+        let rec: PreviewRecord<8> = PreviewRecord::Bin(BinRecord {
             bin, flags, sweeps, nominal_deg: angles[0], mean_deg: angles[1],
             max_smear_deg: angles[2], echo_db: angles[3], values,
         });

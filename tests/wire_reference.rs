@@ -3,7 +3,7 @@
 use sweepgate::error::BlockError;
 use sweepgate::grid::Grid;
 use sweepgate::wire::ascii::{AsciiConfig, AsciiDecoder};
-use sweepgate::wire::block::{emit, BlockConfig, BlockDecoder, ByteOrder, Event, Format};
+use sweepgate::wire::block::{emit, BlockConfig, BlockDecoder, ByteOrder, DecodeEvent, Format};
 use sweepgate::Complex32;
 
 fn sweep(n: usize) -> Vec<Complex32> {
@@ -31,7 +31,7 @@ fn definite_header_for_201_real32_points() {
     ));
     let mut buf = [Complex32::new(0.0, 0.0); 256];
     let fed = dec.feed(&bytes[..n], &mut buf);
-    assert_eq!(fed.event, Some(Event::Sweep { points: 201 }));
+    assert_eq!(fed.event, Some(DecodeEvent::Sweep { points: 201 }));
     assert_eq!(&buf[..201], &data[..]);
 }
 
@@ -59,7 +59,7 @@ fn hand_written_header_and_indefinite_form() {
     for _ in 0..2 {
         let mut buf = [Complex32::new(0.0, 0.0); 201];
         let fed = dec.feed(rest, &mut buf);
-        assert_eq!(fed.event, Some(Event::Sweep { points: 201 }));
+        assert_eq!(fed.event, Some(DecodeEvent::Sweep { points: 201 }));
         assert_eq!(&buf[..], &data[..]);
         rest = &rest[fed.consumed..];
     }
@@ -76,7 +76,7 @@ fn letter_after_hash_is_not_a_header() {
     let mut buf = [Complex32::new(0.0, 0.0); 1];
     assert_eq!(
         dec.feed(b"#A", &mut buf).event,
-        Some(Event::Rejected(BlockError::HeaderMalformed))
+        Some(DecodeEvent::Rejected(BlockError::HeaderMalformed))
     );
 }
 
@@ -92,7 +92,7 @@ fn real64_swapped_one_and_minus_two() {
     let mut buf = [Complex32::new(0.0, 0.0); 1];
     assert_eq!(
         dec.feed(&stream, &mut buf).event,
-        Some(Event::Sweep { points: 1 })
+        Some(DecodeEvent::Sweep { points: 1 })
     );
     assert_eq!(buf[0], Complex32::new(1.0, -2.0));
 }
@@ -104,6 +104,6 @@ fn ascii_scpi_nr3_numbers() {
     let mut dec = AsciiDecoder::new(AsciiConfig::new(2).unwrap());
     let mut buf = [Complex32::new(0.0, 0.0); 2];
     let fed = dec.feed(b"+1.000000000E+00,-2.5E-01,3,-4.0\n", &mut buf);
-    assert_eq!(fed.event, Some(Event::Sweep { points: 2 }));
+    assert_eq!(fed.event, Some(DecodeEvent::Sweep { points: 2 }));
     assert_eq!(buf, [Complex32::new(1.0, -0.25), Complex32::new(3.0, -4.0)]);
 }

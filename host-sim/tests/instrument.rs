@@ -6,14 +6,14 @@ mod instrument_support;
 
 use instrument_support::{dumped, start, Client};
 use sweepgate::wire::ascii::{AsciiConfig, AsciiDecoder};
-use sweepgate::wire::block::{BlockConfig, BlockDecoder, ByteOrder, Event, Format};
+use sweepgate::wire::block::{BlockConfig, BlockDecoder, ByteOrder, DecodeEvent, Format};
 use sweepgate::Complex32;
 
 fn decode(bytes: &[u8], points: usize, f: Format, o: ByteOrder) -> Vec<Complex32> {
     let mut d = BlockDecoder::new(BlockConfig::new(points, f, o).unwrap());
     let mut buf = vec![Complex32::new(0.0, 0.0); points];
     let fed = d.feed(bytes, &mut buf);
-    assert_eq!(fed.event, Some(Event::Sweep { points }));
+    assert_eq!(fed.event, Some(DecodeEvent::Sweep { points }));
     // emit's trailing newline is left for the next feed (it belongs to the block).
     assert!(bytes.len() - fed.consumed <= 1);
     buf
@@ -144,7 +144,7 @@ fn sweep_data_in_every_format_matches_what_the_simulator_wrote() {
     let mut d = AsciiDecoder::new(AsciiConfig::new(101).unwrap());
     let mut buf = vec![Complex32::new(0.0, 0.0); 101];
     let fed = d.feed(format!("{line}\n").as_bytes(), &mut buf);
-    assert_eq!(fed.event, Some(Event::Sweep { points: 101 }));
+    assert_eq!(fed.event, Some(DecodeEvent::Sweep { points: 101 }));
     assert_same(&buf, &re, &im);
     // ASCii,4: four significant digits.
     c.send("FORM ASC,4;TRAC:DATA?");

@@ -22,7 +22,7 @@ use std::sync::atomic::AtomicBool;
 use num_complex::Complex64;
 use sweepgate::window::WindowKind;
 use sweepgate_host::formats::recording::recover_file;
-use sweepgate_host::link::acquire::{acquire, Positioner, Profile, Request, SIMULATED_PROFILE};
+use sweepgate_host::link::acquire::{acquire, AngleSource, Profile, Request, SIMULATED_PROFILE};
 use sweepgate_host::model::scenario::{Mode, Scenario};
 use sweepgate_host::output::report::ReportBin;
 use sweepgate_host::pipeline::options::{
@@ -110,7 +110,7 @@ fn acquire_scan(
     let profile = Profile::from_toml(SIMULATED_PROFILE).unwrap();
     let req = Request {
         instrument: inst.addr.clone(),
-        positioner: Positioner::Sim(Box::new(s.clone()), s.simulation.seed),
+        positioner: AngleSource::Sim(Box::new(s.clone()), s.simulation.seed),
         max_sweeps: None,
         linger_s: 0.0,
         choices,

@@ -7,7 +7,7 @@ use ratatui::backend::TestBackend;
 use ratatui::Terminal;
 use sweepgate::grid::Grid;
 use sweepgate::wire::preview::{
-    encode_frame, BinRecord, FreqValue, PositionerState, Record, StatusRecord, MAX_FRAME,
+    encode_frame, BinRecord, FreqValue, PositionerState, PreviewRecord, StatusRecord, MAX_FRAME,
 };
 use sweepgate::Complex32;
 use sweepgate_host::model::scenario::Scenario;
@@ -27,13 +27,13 @@ fn text_of(term: &Terminal<TestBackend>) -> String {
     s
 }
 
-fn frame(rec: &Record<PREVIEW_F>, seq: u16) -> Vec<u8> {
+fn frame(rec: &PreviewRecord<PREVIEW_F>, seq: u16) -> Vec<u8> {
     let mut b = [0u8; MAX_FRAME];
     let n = encode_frame(rec, seq, &mut b).unwrap();
     b[..n].to_vec()
 }
 
-fn bin(i: u16, deg: f32, level: f32) -> Record<PREVIEW_F> {
+fn bin(i: u16, deg: f32, level: f32) -> PreviewRecord<PREVIEW_F> {
     let mut values = heapless::Vec::new();
     values
         .push(FreqValue {
@@ -42,7 +42,7 @@ fn bin(i: u16, deg: f32, level: f32) -> Record<PREVIEW_F> {
             gated: Complex32::new(level * 0.9, 0.0),
         })
         .unwrap();
-    Record::Bin(BinRecord {
+    PreviewRecord::Bin(BinRecord {
         bin: i,
         flags: 1,
         sweeps: 2,
@@ -64,7 +64,7 @@ fn screen_shows_title_axes_and_bins_filled() {
         bytes.extend(frame(&bin(i, a, 0.01), i));
     }
     let st = |t: u64, n: u32| {
-        Record::Status(StatusRecord {
+        PreviewRecord::Status(StatusRecord {
             time_us: t,
             angle_deg: 10.4,
             speed_deg_s: 10.0,
@@ -111,7 +111,7 @@ fn the_sweep_rate_is_the_scans_own() {
     // From the first status record to the latest, not between the last two (common
     // practice, no source: a rate over the whole scan is what "sweeps per second" says).
     let st = |t: u64, n: u32| {
-        Record::Status(StatusRecord {
+        PreviewRecord::Status(StatusRecord {
             time_us: t,
             angle_deg: 0.0,
             speed_deg_s: 10.0,

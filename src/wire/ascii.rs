@@ -13,7 +13,7 @@
 //! `INF`/`NAN` spellings and the SCPI codes ±9.9E37 and 9.91E37 are rejected as
 //! non-finite.
 
-use super::block::{usable_f32, Event, Feed, StreamDecoder};
+use super::block::{usable_f32, DecodeEvent, Feed, StreamDecoder};
 use crate::error::{AsciiError, WireConfigError};
 use crate::grid::Grid;
 use crate::Complex32;
@@ -99,17 +99,17 @@ impl AsciiCounters {
 /// Streaming, sans-IO decoder of comma-separated ASCII sweeps into a sweep buffer.
 ///
 /// As with [`crate::wire::block::BlockDecoder`], pass the same buffer for every chunk of
-/// a line; it holds a sweep only once [`Event::Sweep`] is reported.
+/// a line; it holds a sweep only once [`DecodeEvent::Sweep`] is reported.
 ///
 /// ```
 /// use sweepgate::Complex32;
 /// use sweepgate::wire::ascii::{AsciiConfig, AsciiDecoder};
-/// use sweepgate::wire::block::Event;
+/// use sweepgate::wire::block::DecodeEvent;
 /// let mut dec = AsciiDecoder::new(AsciiConfig::new(2).unwrap());
 /// let mut buf = [Complex32::new(0.0, 0.0); 2];
 /// assert_eq!(dec.feed(b"1.5E-1, -2,+3", &mut buf).event, None);
 /// let fed = dec.feed(b"e0,4.\r\n", &mut buf);
-/// assert_eq!(fed.event, Some(Event::Sweep { points: 2 }));
+/// assert_eq!(fed.event, Some(DecodeEvent::Sweep { points: 2 }));
 /// assert_eq!(buf, [Complex32::new(0.15, -2.0), Complex32::new(3.0, 4.0)]);
 /// ```
 #[derive(Debug, Clone)]
@@ -224,15 +224,15 @@ impl AsciiDecoder {
     }
 
     /// Reject the line; `at_end` when the newline has already been consumed.
-    fn reject(&mut self, e: AsciiError, at_end: bool) -> Event<AsciiError> {
+    fn reject(&mut self, e: AsciiError, at_end: bool) -> DecodeEvent<AsciiError> {
         self.count(e);
         self.skip_pending();
         self.new_line();
         self.discard = !at_end;
-        Event::Rejected(e)
+        DecodeEvent::Rejected(e)
     }
 
-    fn step(&mut self, b: u8, out: &mut [Complex32]) -> Option<Event<AsciiError>> {
+    fn step(&mut self, b: u8, out: &mut [Complex32]) -> Option<DecodeEvent<AsciiError>> {
         if self.discard {
             self.counters.bytes_skipped = self.counters.bytes_skipped.saturating_add(1);
             if b == b'\n' {
@@ -274,7 +274,7 @@ impl AsciiDecoder {
         }
     }
 
-    fn end_line(&mut self, out: &mut [Complex32]) -> Option<Event<AsciiError>> {
+    fn end_line(&mut self, out: &mut [Complex32]) -> Option<DecodeEvent<AsciiError>> {
         if !self.line_started && self.token_len == 0 {
             // A blank line: nothing to report, counted as skipped.
             self.skip_pending();
@@ -300,7 +300,7 @@ impl AsciiDecoder {
         self.counters.bytes_accepted = self.counters.bytes_accepted.saturating_add(self.pending);
         self.pending = 0;
         self.new_line();
-        Some(Event::Sweep {
+        Some(DecodeEvent::Sweep {
             points: expected as usize,
         })
     }
@@ -435,8 +435,10 @@ mod tests {
                 total += fed.consumed as u64;
                 rest = &rest[fed.consumed..];
                 match fed.event {
-                    Some(Event::Sweep { points }) => seen.push(Seen::Sweep(buf[..points].to_vec())),
-                    Some(Event::Rejected(e)) => seen.push(Seen::Rejected(e)),
+                    Some(DecodeEvent::Sweep { points }) => {
+                        seen.push(Seen::Sweep(buf[..points].to_vec()))
+                    }
+                    Some(DecodeEvent::Rejected(e)) => seen.push(Seen::Rejected(e)),
                     None => {
                         assert!(rest.is_empty());
                         break;

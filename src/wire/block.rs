@@ -284,7 +284,7 @@ impl BlockConfig {
 /// What a decoder reports: a complete sweep, or a rejected block or line.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub enum Event<E> {
+pub enum DecodeEvent<E> {
     /// A sweep is complete: the first `points` entries of the buffer hold it.
     Sweep {
         /// Points decoded (always the configured K).
@@ -302,7 +302,7 @@ pub struct Feed<E> {
     /// feed the rest after handling the event.
     pub consumed: usize,
     /// The event that stopped decoding, if any.
-    pub event: Option<Event<E>>,
+    pub event: Option<DecodeEvent<E>>,
 }
 
 /// A streaming decoder that fills a sweep buffer; implemented by [`BlockDecoder`] and
@@ -376,9 +376,9 @@ enum Step {
     /// Byte consumed, no event.
     Next,
     /// Byte consumed, event.
-    NextEvent(Event<BlockError>),
+    NextEvent(DecodeEvent<BlockError>),
     /// Byte not consumed (the new state handles it), event.
-    Event(Event<BlockError>),
+    DecodeEvent(DecodeEvent<BlockError>),
     /// Byte not consumed, new state handles it, no event.
     Again,
 }
@@ -392,11 +392,11 @@ const CARRY: usize = 8;
 ///
 /// The buffer passed to [`BlockDecoder::feed`] must be the same across the calls that
 /// make up one block; its length is the capacity. It holds a sweep only once
-/// [`Event::Sweep`] is reported (a rejected block may have overwritten part of it).
+/// [`DecodeEvent::Sweep`] is reported (a rejected block may have overwritten part of it).
 ///
 /// ```
 /// use sweepgate::Complex32;
-/// use sweepgate::wire::block::{emit, BlockConfig, BlockDecoder, ByteOrder, Event, Format};
+/// use sweepgate::wire::block::{emit, BlockConfig, BlockDecoder, ByteOrder, DecodeEvent, Format};
 /// let sweep = [Complex32::new(1.0, -0.5), Complex32::new(0.25, 2.0)];
 /// let mut bytes = [0u8; 32];
 /// let n = emit(Format::Real32, ByteOrder::Normal, &sweep, &mut bytes).unwrap();
@@ -408,7 +408,7 @@ const CARRY: usize = 8;
 /// // Fed in two pieces, as from a DMA half-buffer.
 /// assert_eq!(dec.feed(&bytes[..7], &mut buf).event, None);
 /// let fed = dec.feed(&bytes[7..n], &mut buf);
-/// assert_eq!(fed.event, Some(Event::Sweep { points: 2 }));
+/// assert_eq!(fed.event, Some(DecodeEvent::Sweep { points: 2 }));
 /// assert_eq!(&buf[..2], &sweep);
 /// assert_eq!(dec.counters().accepted, 1);
 /// ```
@@ -532,7 +532,7 @@ impl BlockDecoder {
                         event: Some(e),
                     }
                 }
-                Step::Event(e) => {
+                Step::DecodeEvent(e) => {
                     return Feed {
                         consumed: pos,
                         event: Some(e),
@@ -559,7 +559,7 @@ impl BlockDecoder {
         &mut self,
         rest: &[u8],
         out: &mut [Complex32],
-    ) -> Option<(usize, Option<Event<BlockError>>)> {
+    ) -> Option<(usize, Option<DecodeEvent<BlockError>>)> {
         let State::Definite { left, index } = self.state else {
             return None;
         };
@@ -572,7 +572,7 @@ impl BlockDecoder {
         &mut self,
         chunk: &[u8],
         out: &mut [Complex32],
-    ) -> Option<(usize, Option<Event<BlockError>>)> {
+    ) -> Option<(usize, Option<DecodeEvent<BlockError>>)> {
         match (self.state, self.config.format, self.config.order) {
             (State::Definite { left, index }, Format::Real32, ByteOrder::Normal) => {
                 self.real32_run_as::<true>(chunk, out, left, index)
@@ -596,7 +596,7 @@ impl BlockDecoder {
         out: &mut [Complex32],
         left: u32,
         index: u32,
-    ) -> Option<(usize, Option<Event<BlockError>>)> {
+    ) -> Option<(usize, Option<DecodeEvent<BlockError>>)> {
         // This block's bytes in the chunk.
         let chunk = chunk.get(..chunk.len().min(left as usize))?;
         let fill = usize::from(self.fill);
@@ -654,7 +654,7 @@ impl BlockDecoder {
         out: &mut [Complex32],
         mut left: u32,
         mut index: u32,
-    ) -> Option<(usize, Option<Event<BlockError>>)> {
+    ) -> Option<(usize, Option<DecodeEvent<BlockError>>)> {
         let config = self.config;
         let decode = |bytes: &[u8], out: &mut [Complex32]| decode_samples(&config, bytes, out);
         let sb = config.format.sample_bytes();
@@ -729,7 +729,7 @@ impl BlockDecoder {
         taken: usize,
         left: u32,
         index: u32,
-    ) -> Option<(usize, Option<Event<BlockError>>)> {
+    ) -> Option<(usize, Option<DecodeEvent<BlockError>>)> {
         if taken == 0 {
             return None;
         }
@@ -755,7 +755,7 @@ impl BlockDecoder {
         self.pending = 0;
     }
 
-    fn reject(&mut self, e: BlockError) -> Event<BlockError> {
+    fn reject(&mut self, e: BlockError) -> DecodeEvent<BlockError> {
         let c = &mut self.counters;
         let n = match e {
             BlockError::HeaderMalformed => &mut c.header_malformed,
@@ -767,14 +767,14 @@ impl BlockDecoder {
         };
         *n = n.saturating_add(1);
         self.skip_pending();
-        Event::Rejected(e)
+        DecodeEvent::Rejected(e)
     }
 
-    fn accept(&mut self, points: u32) -> Event<BlockError> {
+    fn accept(&mut self, points: u32) -> DecodeEvent<BlockError> {
         self.counters.accepted = self.counters.accepted.saturating_add(1);
         self.counters.bytes_accepted = self.counters.bytes_accepted.saturating_add(self.pending);
         self.pending = 0;
-        Event::Sweep {
+        DecodeEvent::Sweep {
             points: points as usize,
         }
     }
@@ -789,7 +789,7 @@ impl BlockDecoder {
     }
 
     /// A definite header is complete: start the payload (`None`) or reject it.
-    fn header_done(&mut self, len: u32, capacity: usize) -> Option<Event<BlockError>> {
+    fn header_done(&mut self, len: u32, capacity: usize) -> Option<DecodeEvent<BlockError>> {
         let sb = self.config.format.sample_bytes() as u32;
         let expected = self.config.points as u32;
         let err = if len % sb != 0 {
@@ -888,7 +888,7 @@ impl BlockDecoder {
                 }
                 _ => {
                     self.state = State::Resync;
-                    Step::Event(self.reject(BlockError::HeaderMalformed))
+                    Step::DecodeEvent(self.reject(BlockError::HeaderMalformed))
                 }
             },
             State::Resync => {
@@ -925,13 +925,13 @@ impl BlockDecoder {
                 }
                 _ => {
                     self.state = State::Resync;
-                    Step::Event(self.reject(BlockError::HeaderMalformed))
+                    Step::DecodeEvent(self.reject(BlockError::HeaderMalformed))
                 }
             },
             State::LenDigits { left, len } => {
                 if !b.is_ascii_digit() {
                     self.state = State::Resync;
-                    return Step::Event(self.reject(BlockError::HeaderMalformed));
+                    return Step::DecodeEvent(self.reject(BlockError::HeaderMalformed));
                 }
                 self.pending += 1;
                 // At most 9 digits: below 10^9, fits u32.
@@ -1030,7 +1030,7 @@ impl BlockDecoder {
                 if discard {
                     return Step::Again;
                 }
-                return Step::Event(self.reject(BlockError::Overflow {
+                return Step::DecodeEvent(self.reject(BlockError::Overflow {
                     capacity: cap_u32(out.len()),
                 }));
             }
@@ -1175,14 +1175,14 @@ pub fn emit_indefinite(
 ///
 /// ```
 /// use sweepgate::Complex32;
-/// use sweepgate::wire::block::{emit, BlockConfig, BlockDecoder, ByteOrder, Event, Format, LinkReader};
+/// use sweepgate::wire::block::{emit, BlockConfig, BlockDecoder, ByteOrder, DecodeEvent, Format, LinkReader};
 /// let sweep = [Complex32::new(0.5, 0.5); 3];
 /// let mut bytes = [0u8; 64];
 /// let n = emit(Format::Real64, ByteOrder::Swapped, &sweep, &mut bytes).unwrap();
 /// let cfg = BlockConfig::new(3, Format::Real64, ByteOrder::Swapped).unwrap();
 /// let mut link: LinkReader<&[u8], _, 16> = LinkReader::new(&bytes[..n], BlockDecoder::new(cfg));
 /// let mut buf = [Complex32::new(0.0, 0.0); 3];
-/// assert_eq!(link.next_event(&mut buf), Ok(Some(Event::Sweep { points: 3 })));
+/// assert_eq!(link.next_event(&mut buf), Ok(Some(DecodeEvent::Sweep { points: 3 })));
 /// assert_eq!(buf, sweep);
 /// assert_eq!(link.next_event(&mut buf), Ok(None)); // end of stream
 /// ```
@@ -1212,7 +1212,7 @@ impl<R: embedded_io::Read, D: StreamDecoder, const N: usize> LinkReader<R, D, N>
     pub fn next_event(
         &mut self,
         out: &mut [Complex32],
-    ) -> Result<Option<Event<D::Error>>, R::Error> {
+    ) -> Result<Option<DecodeEvent<D::Error>>, R::Error> {
         loop {
             if let Some(chunk) = self.buf.get(self.start..self.end) {
                 if !chunk.is_empty() {
@@ -1228,7 +1228,7 @@ impl<R: embedded_io::Read, D: StreamDecoder, const N: usize> LinkReader<R, D, N>
             if n == 0 {
                 self.start = 0;
                 self.end = 0;
-                return Ok(self.decoder.finish().map(Event::Rejected));
+                return Ok(self.decoder.finish().map(DecodeEvent::Rejected));
             }
             self.start = 0;
             self.end = n.min(N);
@@ -1292,8 +1292,10 @@ mod tests {
                 total += fed.consumed as u64;
                 rest = &rest[fed.consumed..];
                 match fed.event {
-                    Some(Event::Sweep { points }) => seen.push(Seen::Sweep(buf[..points].to_vec())),
-                    Some(Event::Rejected(e)) => seen.push(Seen::Rejected(e)),
+                    Some(DecodeEvent::Sweep { points }) => {
+                        seen.push(Seen::Sweep(buf[..points].to_vec()))
+                    }
+                    Some(DecodeEvent::Rejected(e)) => seen.push(Seen::Rejected(e)),
                     None => {
                         assert!(rest.is_empty(), "no event but bytes left");
                         break;
@@ -1701,22 +1703,22 @@ mod tests {
         let mut buf = [Z; 4];
         assert_eq!(
             link.next_event(&mut buf),
-            Ok(Some(Event::Sweep { points: 4 }))
+            Ok(Some(DecodeEvent::Sweep { points: 4 }))
         );
         assert_eq!(buf[..], sweep[..]);
         assert_eq!(
             link.next_event(&mut buf),
-            Ok(Some(Event::Rejected(BlockError::HeaderMalformed)))
+            Ok(Some(DecodeEvent::Rejected(BlockError::HeaderMalformed)))
         );
         buf = [Z; 4];
         assert_eq!(
             link.next_event(&mut buf),
-            Ok(Some(Event::Sweep { points: 4 }))
+            Ok(Some(DecodeEvent::Sweep { points: 4 }))
         );
         assert_eq!(buf[..], sweep[..]);
         assert_eq!(
             link.next_event(&mut buf),
-            Ok(Some(Event::Rejected(BlockError::Truncated)))
+            Ok(Some(DecodeEvent::Rejected(BlockError::Truncated)))
         );
         assert_eq!(link.next_event(&mut buf), Ok(None));
         assert_eq!(link.decoder().counters().accepted, 2);

@@ -15,7 +15,7 @@
 //! receiver that lost its place resynchronises at the next 0x00. `seq` counts frames sent
 //! (wrapping), so a receiver can tell how many it missed.
 //!
-//! # Record layouts (version 1)
+//! # PreviewRecord layouts (version 1)
 //!
 //! Kind 1, **bin** ([`BinRecord`]), body 25 + 18·n bytes:
 //!
@@ -53,8 +53,8 @@
 //! | 38 | 4 | u32 | angle samples rejected |
 //!
 //! ```
-//! use sweepgate::wire::preview::{encode_frame, Decoder, Record, StatusRecord, PositionerState, MAX_FRAME};
-//! let rec: Record<4> = Record::Status(StatusRecord {
+//! use sweepgate::wire::preview::{encode_frame, Decoder, PreviewRecord, StatusRecord, PositionerState, MAX_FRAME};
+//! let rec: PreviewRecord<4> = PreviewRecord::Status(StatusRecord {
 //!     time_us: 1_000, angle_deg: 12.5, speed_deg_s: 3.0, state: PositionerState::Moving,
 //!     open_bin: Some(12), bins_closed: 12, sweeps_pushed: 40, sweeps_binned: 39,
 //!     sweeps_rejected: 1, angles_pushed: 400, angles_rejected: 0,
@@ -71,7 +71,7 @@
 use crate::error::{EmitError, FrameError};
 use crate::Complex32;
 
-/// Record format version written and read here.
+/// PreviewRecord format version written and read here.
 pub const VERSION: u8 = 1;
 /// Kind byte of a [`BinRecord`].
 pub const KIND_BIN: u8 = 1;
@@ -304,7 +304,7 @@ pub struct StatusRecord {
 /// A preview record.
 #[derive(Debug, Clone, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub enum Record<const F: usize> {
+pub enum PreviewRecord<const F: usize> {
     /// A closed bin.
     Bin(BinRecord<F>),
     /// Scan status.
@@ -445,7 +445,7 @@ impl StatusRecord {
     }
 }
 
-impl<const F: usize> Record<F> {
+impl<const F: usize> PreviewRecord<F> {
     /// Kind byte.
     pub fn kind(&self) -> u8 {
         match self {
@@ -497,7 +497,7 @@ impl<const F: usize> Record<F> {
 /// Encodes `rec` as a complete frame (COBS and the 0x00 delimiter) into `out`, returning the
 /// frame length. [`MAX_FRAME`] bytes always suffice.
 pub fn encode_frame<const F: usize>(
-    rec: &Record<F>,
+    rec: &PreviewRecord<F>,
     seq: u16,
     out: &mut [u8],
 ) -> Result<usize, EmitError> {
@@ -521,7 +521,7 @@ pub enum WriteFrameError<E> {
 /// Encodes `rec` as a frame and writes it all to `w`.
 pub fn write_frame<const F: usize, W: embedded_io::Write>(
     w: &mut W,
-    rec: &Record<F>,
+    rec: &PreviewRecord<F>,
     seq: u16,
 ) -> Result<usize, WriteFrameError<W::Error>> {
     let mut frame = [0u8; MAX_FRAME];
@@ -641,7 +641,7 @@ impl<const F: usize, const N: usize> Decoder<F, N> {
     /// Takes one byte. At a frame delimiter returns the frame's outcome: the sequence number
     /// and record, or why it was dropped (already counted). `None` otherwise and for empty
     /// frames.
-    pub fn push_byte(&mut self, b: u8) -> Option<Result<(u16, Record<F>), FrameError>> {
+    pub fn push_byte(&mut self, b: u8) -> Option<Result<(u16, PreviewRecord<F>), FrameError>> {
         self.counters.bytes = self.counters.bytes.wrapping_add(1);
         if b != 0 {
             if self.overflow {
@@ -667,7 +667,7 @@ impl<const F: usize, const N: usize> Decoder<F, N> {
         }
         let r = match self.buf.get_mut(..len) {
             Some(frame) => cobs_decode_in_place(frame)
-                .and_then(|m| Record::parse_payload(frame.get(..m).unwrap_or(&[]))),
+                .and_then(|m| PreviewRecord::parse_payload(frame.get(..m).unwrap_or(&[]))),
             None => Err(FrameError::TooLong),
         };
         match &r {
@@ -690,7 +690,11 @@ impl<const F: usize, const N: usize> Decoder<F, N> {
     }
 
     /// Takes a chunk, calling `on_record(seq, record)` for each good record; returns how many.
-    pub fn feed(&mut self, chunk: &[u8], mut on_record: impl FnMut(u16, Record<F>)) -> usize {
+    pub fn feed(
+        &mut self,
+        chunk: &[u8],
+        mut on_record: impl FnMut(u16, PreviewRecord<F>),
+    ) -> usize {
         let mut n = 0;
         for &b in chunk {
             if let Some(Ok((seq, rec))) = self.push_byte(b) {
@@ -734,7 +738,7 @@ mod tests {
 
     #[test]
     fn small_buffers_are_refused() {
-        let rec: Record<1> = Record::Status(StatusRecord {
+        let rec: PreviewRecord<1> = PreviewRecord::Status(StatusRecord {
             time_us: 0,
             angle_deg: 0.0,
             speed_deg_s: 0.0,

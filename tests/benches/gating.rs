@@ -12,7 +12,7 @@ use sweepgate::gate::{Gate, GateConfig};
 use sweepgate::grid::Grid;
 use sweepgate::scan::{EchoMode, Scan, ScanConfig};
 use sweepgate::window::WindowKind;
-use sweepgate::wire::block::{emit, BlockConfig, BlockDecoder, ByteOrder, Event, Format};
+use sweepgate::wire::block::{emit, BlockConfig, BlockDecoder, ByteOrder, DecodeEvent, Format};
 use sweepgate::Complex32;
 
 const ZERO: Complex32 = Complex32::new(0.0, 0.0);
@@ -106,7 +106,7 @@ fn decoding(c: &mut Criterion) {
                     while !part.is_empty() {
                         let f = d.feed(part, &mut out);
                         part = &part[f.consumed..];
-                        if let Some(Event::Sweep { .. }) = f.event {
+                        if let Some(DecodeEvent::Sweep { .. }) = f.event {
                             sweeps += 1;
                         }
                     }

@@ -6,7 +6,7 @@ use std::path::Path;
 
 use anyhow::Context;
 use num_complex::Complex32;
-use sweepgate::wire::block::{BlockConfig, BlockDecoder, ByteOrder, Event, Format};
+use sweepgate::wire::block::{BlockConfig, BlockDecoder, ByteOrder, DecodeEvent, Format};
 
 /// Parses a format word (`real32`, `real64`).
 pub fn parse_format(s: &str) -> anyhow::Result<Format> {
@@ -36,8 +36,10 @@ pub fn decode_block(bytes: &[u8], cfg: BlockConfig) -> anyhow::Result<Vec<Comple
         let fed = dec.feed(rest, &mut buf);
         rest = rest.get(fed.consumed..).unwrap_or(&[]);
         match fed.event {
-            Some(Event::Sweep { .. }) => return Ok(buf),
-            Some(Event::Rejected(e)) => return Err(anyhow::Error::new(e).context("block rejected")),
+            Some(DecodeEvent::Sweep { .. }) => return Ok(buf),
+            Some(DecodeEvent::Rejected(e)) => {
+                return Err(anyhow::Error::new(e).context("block rejected"))
+            }
             None if rest.is_empty() => {
                 if let Some(e) = dec.finish() {
                     return Err(anyhow::Error::new(e).context("block rejected"));

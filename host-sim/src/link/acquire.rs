@@ -125,7 +125,7 @@ use serde::Deserialize;
 use sweepgate::grid::Grid;
 use sweepgate::scan::Event as ScanEvent;
 use sweepgate::wire::ascii::{AsciiConfig, AsciiDecoder};
-use sweepgate::wire::block::{BlockConfig, BlockDecoder, Event, StreamDecoder};
+use sweepgate::wire::block::{BlockConfig, BlockDecoder, DecodeEvent, StreamDecoder};
 
 use crate::formats::block::{parse_format, parse_order};
 use crate::formats::recording::{GridInfo, Header, Record, SyncPolicy, Writer, SWEEP_FORMAT};
@@ -483,7 +483,7 @@ impl Link {
         dec: &mut D,
         out: &mut [Complex32],
         query: &str,
-    ) -> anyhow::Result<Event<D::Error>> {
+    ) -> anyhow::Result<DecodeEvent<D::Error>> {
         loop {
             if self.start < self.end {
                 let fed = dec.feed(&self.buf[self.start..self.end], out);
@@ -561,7 +561,7 @@ pub struct Summary {
 }
 
 /// Where angles come from.
-pub enum Positioner {
+pub enum AngleSource {
     /// None: only sweeps are recorded.
     None,
     /// A line server at this address.
@@ -575,7 +575,7 @@ pub struct Request {
     /// Instrument address, HOST:PORT.
     pub instrument: String,
     /// Where angles come from.
-    pub positioner: Positioner,
+    pub positioner: AngleSource,
     /// Stop after this many sweeps.
     pub max_sweeps: Option<u64>,
     /// Seconds to keep reading angle samples after the last sweep.
@@ -769,7 +769,7 @@ enum Took {
 
 /// Runs an acquisition.
 pub fn acquire(profile: &Profile, req: Request) -> anyhow::Result<Summary> {
-    if req.max_sweeps.is_none() && matches!(req.positioner, Positioner::None) {
+    if req.max_sweeps.is_none() && matches!(req.positioner, AngleSource::None) {
         bail!("with no positioner, give --sweeps");
     }
     let epoch = Instant::now();
@@ -884,20 +884,20 @@ fn decoder(profile: &Profile, points: usize) -> anyhow::Result<Decoder> {
 
 /// Starts the angle source; the simulated positioner also gives its scenario.
 fn start_angles(
-    positioner: Positioner,
+    positioner: AngleSource,
     epoch: Instant,
     timeout: Duration,
 ) -> anyhow::Result<(Angles, Option<Scenario>)> {
     Ok(match positioner {
-        Positioner::None => (Angles::None, None),
-        Positioner::Lines(addr) => (
+        AngleSource::None => (Angles::None, None),
+        AngleSource::Lines(addr) => (
             Angles::Lines {
                 rx: spawn_positioner(&addr, epoch, timeout)?,
                 done: false,
             },
             None,
         ),
-        Positioner::Sim(s, seed) => {
+        AngleSource::Sim(s, seed) => {
             s.validate()?;
             let mut sim = Simulator::new(&s, seed);
             let angles = Angles::Sim {
@@ -1188,15 +1188,15 @@ fn take_sweep(
     link.send(&profile.data)?;
     Ok(match dec {
         Decoder::Block(d) => match link.read_data(d, sweep, &profile.data)? {
-            Event::Sweep { .. } => Ok(()),
-            Event::Rejected(e) => Err((
+            DecodeEvent::Sweep { .. } => Ok(()),
+            DecodeEvent::Rejected(e) => Err((
                 e.to_string(),
                 matches!(e, sweepgate::error::BlockError::NonFinite { .. }),
             )),
         },
         Decoder::Ascii(d) => match link.read_data(d, sweep, &profile.data)? {
-            Event::Sweep { .. } => Ok(()),
-            Event::Rejected(e) => Err((
+            DecodeEvent::Sweep { .. } => Ok(()),
+            DecodeEvent::Rejected(e) => Err((
                 e.to_string(),
                 matches!(e, sweepgate::error::AsciiError::NonFinite { .. }),
             )),
@@ -1238,16 +1238,16 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
     };
     let profile = Profile::from_toml(&text).context("in the profile")?;
     let positioner = if let Some(a) = &opts.positioner {
-        Positioner::Lines(a.clone())
+        AngleSource::Lines(a.clone())
     } else if opts.positioner_sim {
         let Some(path) = &opts.scenario else {
             bail!("--positioner-sim needs --scenario");
         };
         let s = Scenario::load(path)?;
         let seed = opts.seed.unwrap_or(s.simulation.seed);
-        Positioner::Sim(Box::new(s), seed)
+        AngleSource::Sim(Box::new(s), seed)
     } else {
-        Positioner::None
+        AngleSource::None
     };
     let mut choices = opts.gate.choices()?;
     choices.bin_width_deg = opts.bin_width_deg;

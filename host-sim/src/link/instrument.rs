@@ -107,7 +107,7 @@ const DEMO_SCENARIO: &str = include_str!("../../scenarios/demo-lab.toml");
 
 /// Data format set by `FORMat:DATA`.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum DataFormat {
+pub enum TransferFormat {
     /// A binary block of IEEE 754 values.
     Real(Format),
     /// ASCII numbers with this many significant digits (0: shortest exact form).
@@ -170,7 +170,7 @@ pub struct Instrument {
     original: crate::model::scenario::Sweep,
     seed: u64,
     sim: Simulator,
-    format: DataFormat,
+    format: TransferFormat,
     order: ByteOrder,
     next_sweep: usize,
     taken: u64,
@@ -302,7 +302,7 @@ impl Instrument {
             scenario,
             seed,
             sim,
-            format: DataFormat::Ascii(0),
+            format: TransferFormat::Ascii(0),
             order: ByteOrder::Normal,
             next_sweep: 0,
             taken: 0,
@@ -344,7 +344,7 @@ impl Instrument {
             self.scenario.sweep = self.original.clone();
             self.sim = Simulator::new(&self.scenario, self.seed);
         }
-        self.format = DataFormat::Ascii(0);
+        self.format = TransferFormat::Ascii(0);
         self.order = ByteOrder::Normal;
         self.next_sweep = 0;
         self.sweep = None;
@@ -500,9 +500,9 @@ impl Instrument {
         if query {
             no_params(params)?;
             return Ok(Some(Answer::Text(match self.format {
-                DataFormat::Real(Format::Real32) => "REAL,32".into(),
-                DataFormat::Real(Format::Real64) => "REAL,64".into(),
-                DataFormat::Ascii(n) => format!("ASC,{n}"),
+                TransferFormat::Real(Format::Real32) => "REAL,32".into(),
+                TransferFormat::Real(Format::Real64) => "REAL,64".into(),
+                TransferFormat::Ascii(n) => format!("ASC,{n}"),
             })));
         }
         let kind = params
@@ -514,11 +514,11 @@ impl Instrument {
             return Err(ScpiError::PARAMETER_NOT_ALLOWED);
         }
         self.format = match (kind.as_str(), len) {
-            ("REAL", None | Some(Ok(32))) => DataFormat::Real(Format::Real32),
-            ("REAL", Some(Ok(64))) => DataFormat::Real(Format::Real64),
+            ("REAL", None | Some(Ok(32))) => TransferFormat::Real(Format::Real32),
+            ("REAL", Some(Ok(64))) => TransferFormat::Real(Format::Real64),
             ("REAL", Some(Ok(_))) => return Err(ScpiError::ILLEGAL_VALUE),
-            ("ASC" | "ASCII", None) => DataFormat::Ascii(0),
-            ("ASC" | "ASCII", Some(Ok(n))) if n <= 17 => DataFormat::Ascii(n as u8),
+            ("ASC" | "ASCII", None) => TransferFormat::Ascii(0),
+            ("ASC" | "ASCII", Some(Ok(n))) if n <= 17 => TransferFormat::Ascii(n as u8),
             ("ASC" | "ASCII", Some(Ok(_))) => return Err(ScpiError::OUT_OF_RANGE),
             (_, Some(Err(_))) => return Err(ScpiError::DATA_TYPE),
             _ => return Err(ScpiError::ILLEGAL_VALUE),
@@ -762,9 +762,9 @@ fn parse_hz(p: &str) -> Result<f64, ScpiError> {
     Ok(v * scale)
 }
 
-fn encode(format: DataFormat, order: ByteOrder, values: &[Complex32]) -> Answer {
+fn encode(format: TransferFormat, order: ByteOrder, values: &[Complex32]) -> Answer {
     match format {
-        DataFormat::Real(f) => {
+        TransferFormat::Real(f) => {
             let mut buf = vec![0u8; 16 + values.len() * f.sample_bytes()];
             match block::emit(f, order, values, &mut buf) {
                 Ok(n) => {
@@ -775,7 +775,7 @@ fn encode(format: DataFormat, order: ByteOrder, values: &[Complex32]) -> Answer 
                 Err(_) => Answer::Text(String::new()),
             }
         }
-        DataFormat::Ascii(digits) => {
+        TransferFormat::Ascii(digits) => {
             let mut s = String::with_capacity(values.len() * 30);
             for (i, c) in values.iter().enumerate() {
                 for (j, v) in [c.re, c.im].into_iter().enumerate() {

@@ -12,7 +12,7 @@ use std::time::Duration;
 
 use anyhow::Context;
 
-use crate::output::screen::{self as preview, Feed, Screen};
+use crate::output::screen::{self as preview, Screen, ScreenInput};
 
 /// Options of `sweepgate view`.
 #[derive(Debug, Clone)]
@@ -58,13 +58,13 @@ pub fn view(args: &Options) -> anyhow::Result<Screen> {
                 Ok(0) | Err(_) => break,
                 Ok(n) => {
                     counted.fetch_add(n as u64, Ordering::Relaxed);
-                    if tx.send(Feed::Bytes(buf[..n].to_vec())).is_err() {
+                    if tx.send(ScreenInput::Bytes(buf[..n].to_vec())).is_err() {
                         break;
                     }
                 }
             }
         }
-        let _ = tx.send(Feed::End);
+        let _ = tx.send(ScreenInput::End);
     });
     let mut screen = Screen::new(format!("stream from {}", args.from));
     screen.total_bins = args.bins;

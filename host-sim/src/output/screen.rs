@@ -27,7 +27,7 @@ use ratatui::Frame;
 use sweepgate::bins::BinFlags;
 use sweepgate::grid::Grid;
 use sweepgate::wire::preview::{
-    BinRecord, Decoder, DecoderCounters, PositionerState, Record, StatusRecord,
+    BinRecord, Decoder, DecoderCounters, PositionerState, PreviewRecord, StatusRecord,
 };
 
 /// Pattern frequencies a preview record may carry here (unused slots are padded).
@@ -40,7 +40,7 @@ pub type PreviewDecoder = Decoder<PREVIEW_F, PREVIEW_BUF>;
 
 /// What a producer sends the preview.
 #[derive(Debug, Clone)]
-pub enum Feed {
+pub enum ScreenInput {
     /// Preview frame bytes.
     Bytes(Vec<u8>),
     /// A warning to show (not from the stream, e.g. recording damage).
@@ -109,15 +109,15 @@ impl Screen {
     }
 
     /// Applies one decoded record.
-    pub fn apply(&mut self, rec: Record<PREVIEW_F>) {
+    pub fn apply(&mut self, rec: PreviewRecord<PREVIEW_F>) {
         match rec {
-            Record::Bin(b) => {
+            PreviewRecord::Bin(b) => {
                 if b.echo_db.is_finite() {
                     self.last_echo_db = Some(b.echo_db);
                 }
                 self.bins.insert(b.bin, b);
             }
-            Record::Status(s) => {
+            PreviewRecord::Status(s) => {
                 if let Some((t0, n0)) = self.first_status {
                     if s.time_us > t0 && s.sweeps_pushed >= n0 {
                         let dt = (s.time_us - t0) as f64 * 1e-6;
@@ -132,11 +132,11 @@ impl Screen {
     }
 
     /// Applies a feed message.
-    pub fn take(&mut self, f: Feed) {
+    pub fn take(&mut self, f: ScreenInput) {
         match f {
-            Feed::Bytes(b) => self.feed(&b),
-            Feed::Note(n) => self.notes.push(n),
-            Feed::End => self.ended = true,
+            ScreenInput::Bytes(b) => self.feed(&b),
+            ScreenInput::Note(n) => self.notes.push(n),
+            ScreenInput::End => self.ended = true,
         }
     }
 
@@ -446,7 +446,7 @@ pub fn have_terminal() -> bool {
 /// Shows the full-screen preview until the feed ends (then `linger` longer) or `q` is
 /// pressed, which sets `quit`. The terminal is restored on every exit path.
 pub fn run_terminal(
-    rx: &Receiver<Feed>,
+    rx: &Receiver<ScreenInput>,
     screen: &mut Screen,
     quit: &AtomicBool,
     linger: Duration,
@@ -459,7 +459,7 @@ pub fn run_terminal(
 
 fn terminal_loop(
     term: &mut ratatui::DefaultTerminal,
-    rx: &Receiver<Feed>,
+    rx: &Receiver<ScreenInput>,
     screen: &mut Screen,
     quit: &AtomicBool,
     linger: Duration,
@@ -504,7 +504,7 @@ fn terminal_loop(
 
 /// Without a terminal: a progress line on stderr (bins filled against the total) until the
 /// feed ends.
-pub fn run_plain(rx: &Receiver<Feed>, screen: &mut Screen, progress: bool) {
+pub fn run_plain(rx: &Receiver<ScreenInput>, screen: &mut Screen, progress: bool) {
     let bar = if progress {
         let b = indicatif::ProgressBar::new(u64::from(screen.total_bins.unwrap_or(0)));
         b.set_style(
@@ -518,7 +518,7 @@ pub fn run_plain(rx: &Receiver<Feed>, screen: &mut Screen, progress: bool) {
     loop {
         match rx.recv_timeout(Duration::from_millis(200)) {
             Ok(f) => {
-                let end = matches!(f, Feed::End);
+                let end = matches!(f, ScreenInput::End);
                 screen.take(f);
                 if end {
                     break;

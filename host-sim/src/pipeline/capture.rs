@@ -14,7 +14,7 @@ use sweepgate::pump::Pump;
 use sweepgate::scan::{EchoMode, ScanCounters};
 use sweepgate::wire::block::{emit, ByteOrder, Format};
 use sweepgate::wire::capture::{CaptureHeader, Entry, HEADER_LEN, MAX_ENTRY_LEN, MAX_PATTERN};
-use sweepgate::wire::preview::{Decoder, Record as Preview};
+use sweepgate::wire::preview::{Decoder, PreviewRecord as Preview};
 use sweepgate::Complex32;
 
 /// FFT size of the board build (`examples/firmware-m4`); the host replays a capture with

@@ -26,7 +26,7 @@ use anyhow::{bail, Context};
 use crate::formats::recording::{self as record, Recovered};
 use crate::output::export::{self, Exports};
 use crate::output::report;
-use crate::output::screen::{self as preview, Feed, Screen};
+use crate::output::screen::{self as preview, Screen, ScreenInput};
 use crate::pipeline::options::{default_report_dir, GateOptions};
 use crate::pipeline::outputs;
 use crate::pipeline::setup::{self, Setup};
@@ -123,7 +123,7 @@ pub fn replay_records(
 
 /// Preview bytes to the screen's channel and to any TCP clients.
 struct ChannelSink {
-    tx: Sender<Feed>,
+    tx: Sender<ScreenInput>,
     clients: Option<Clients>,
 }
 
@@ -131,7 +131,7 @@ type Clients = Arc<Mutex<Vec<TcpStream>>>;
 
 impl Sink for ChannelSink {
     fn send(&mut self, bytes: &[u8]) {
-        let _ = self.tx.send(Feed::Bytes(bytes.to_vec()));
+        let _ = self.tx.send(ScreenInput::Bytes(bytes.to_vec()));
         if let Some(c) = &self.clients {
             if let Ok(mut v) = c.lock() {
                 // Non-blocking: a full socket buffer is an error and drops the viewer.
@@ -254,7 +254,7 @@ fn close(clients: &Clients) {
     }
 }
 
-/// Replays on a thread with room for the engine; the feed ends with [`Feed::End`].
+/// Replays on a thread with room for the engine; the feed ends with [`ScreenInput::End`].
 fn spawn_worker(
     rec: Recovered,
     setup: Setup,
@@ -269,7 +269,7 @@ fn spawn_worker(
         .spawn(move || {
             let r =
                 stream::stream_keeping_bands(&rec, setup, &mut sink, &pacing, &quit, keep_bands);
-            let _ = sink.tx.send(Feed::End);
+            let _ = sink.tx.send(ScreenInput::End);
             r
         })
         .context("starting the replay thread")
@@ -277,7 +277,7 @@ fn spawn_worker(
 
 /// Shows the feed on the full screen (`live`) or as a progress line until it ends.
 fn show(
-    rx: &Receiver<Feed>,
+    rx: &Receiver<ScreenInput>,
     screen: &mut Screen,
     live: bool,
     quit: &AtomicBool,

@@ -18,7 +18,7 @@ use std::time::{Duration, Instant};
 use anyhow::Context;
 use sweepgate::metrics::wrap_deg;
 use sweepgate::scan::{Event, ScanCounters};
-use sweepgate::wire::preview::{encode_frame, Record as PreviewRecord};
+use sweepgate::wire::preview::{encode_frame, PreviewRecord};
 use sweepgate::Complex32;
 
 use crate::formats::recording::{self as record, Header, Record, Recovered, Writer};

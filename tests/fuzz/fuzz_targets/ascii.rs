@@ -5,7 +5,7 @@
 
 use libfuzzer_sys::fuzz_target;
 use sweepgate::wire::ascii::{AsciiConfig, AsciiDecoder};
-use sweepgate::wire::block::Event;
+use sweepgate::wire::block::DecodeEvent;
 use sweepgate::Complex32;
 
 fuzz_target!(|data: &[u8]| {
@@ -31,7 +31,7 @@ fuzz_target!(|data: &[u8]| {
             total += fed.consumed as u64;
             chunk = &chunk[fed.consumed..];
             match fed.event {
-                Some(Event::Sweep { points: p }) => {
+                Some(DecodeEvent::Sweep { points: p }) => {
                     assert!(fed.consumed > 0);
                     assert_eq!(p, points);
                     assert!(buf[..p]
@@ -39,7 +39,7 @@ fuzz_target!(|data: &[u8]| {
                         .all(|v| v.re.is_finite() && v.im.is_finite()));
                     sweeps += 1;
                 }
-                Some(Event::Rejected(_)) => {
+                Some(DecodeEvent::Rejected(_)) => {
                     assert!(fed.consumed > 0);
                     rejected += 1;
                 }

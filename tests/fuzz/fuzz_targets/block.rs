@@ -4,7 +4,7 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use sweepgate::wire::block::{BlockConfig, BlockDecoder, ByteOrder, Event, Format};
+use sweepgate::wire::block::{BlockConfig, BlockDecoder, ByteOrder, DecodeEvent, Format};
 use sweepgate::Complex32;
 
 fuzz_target!(|data: &[u8]| {
@@ -44,14 +44,14 @@ fuzz_target!(|data: &[u8]| {
             idle_calls = if fed.consumed == 0 { idle_calls + 1 } else { 0 };
             assert!(idle_calls < 2, "feed made no progress twice");
             match fed.event {
-                Some(Event::Sweep { points: p }) => {
+                Some(DecodeEvent::Sweep { points: p }) => {
                     assert_eq!(p, points);
                     assert!(buf[..p]
                         .iter()
                         .all(|v| v.re.is_finite() && v.im.is_finite()));
                     sweeps += 1;
                 }
-                Some(Event::Rejected(_)) => rejected += 1,
+                Some(DecodeEvent::Rejected(_)) => rejected += 1,
                 None => {
                     assert!(chunk.is_empty());
                     break;

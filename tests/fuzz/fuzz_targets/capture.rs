@@ -5,7 +5,7 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use sweepgate::wire::block::{BlockConfig, BlockDecoder, Event};
+use sweepgate::wire::block::{BlockConfig, BlockDecoder, DecodeEvent};
 use sweepgate::wire::capture::{CaptureHeader, Entry, HEADER_LEN, MAX_ENTRY_LEN};
 use sweepgate::Complex32;
 
@@ -53,7 +53,7 @@ fuzz_target!(|data: &[u8]| {
                         let fed = d.feed(chunk, &mut buf);
                         fed_total += fed.consumed as u64;
                         chunk = &chunk[fed.consumed..];
-                        if let Some(Event::Sweep { points: p }) = fed.event {
+                        if let Some(DecodeEvent::Sweep { points: p }) = fed.event {
                             assert!(buf[..p]
                                 .iter()
                                 .all(|v| v.re.is_finite() && v.im.is_finite()));
