@@ -39,9 +39,10 @@ use sweepgate::{
     fft::Fft,
     gate::{Gate, GateConfig},
     grid::Grid,
+    scan::{Scan, ScanConfig},
     track::Direction,
     window::WindowKind,
-    wire::block::{emit, ByteOrder, Format},
+    wire::block::{emit, BlockConfig, BlockDecoder, ByteOrder, DecodeEvent as BlockEvent, Format},
 };
 
 #[cfg(feature = "gate-figures")]
