@@ -229,7 +229,7 @@ def test_impulse_response_and_time_axis():
 
 def test_gate_object_describes_itself():
     f = grid(8e9, 12e9, 801)
-    g = sweepgate.make_gate(f, center_s=20e-9, span_s=4e-9, band_window="kaiser", shape="hann")
+    g = sweepgate.make_gate(f, center_s=20e-9, span_s=4e-9, band_window="kaiser:6", shape="hann")
     assert g.band_window == "kaiser:6" and g.shape == "hann" and g.renormalize
     assert g.points == 801 and g.fft_size == 1024
     assert g.alias_free_s == pytest.approx(200e-9, rel=1e-12)
