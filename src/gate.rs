@@ -538,16 +538,7 @@ where
                 0
             }
         });
-        // The cuts in ascending order (insertion sort: F is small, and it keeps no sorting
-        // code of size in a small board's flash).
-        let mut cuts = ks;
-        for i in 1..F {
-            let mut j = i;
-            while j > 0 && cuts[j - 1] > cuts[j] {
-                cuts.swap(j - 1, j);
-                j -= 1;
-            }
-        }
+        let cuts = sorted_cuts(ks);
         let mut acc = [[0.0f32; 2]; F];
         let mut from = 0;
         for to in cuts.into_iter().chain(core::iter::once(k_points)) {
@@ -562,27 +553,7 @@ where
             });
             let xs = x.get(from..to).unwrap_or_default();
             let ws = self.band.get(from..to).unwrap_or_default();
-            // Four frequencies at a time (their sums fill half the FPU's registers), then
-            // two, then one.
-            let mut f = 0;
-            while f + 4 <= F {
-                let r = [runs[f], runs[f + 1], runs[f + 2], runs[f + 3]];
-                let mut a = [acc[f], acc[f + 1], acc[f + 2], acc[f + 3]];
-                dots_run::<4, WINDOW>(xs, ws, &r, &mut a);
-                acc[f..f + 4].copy_from_slice(&a);
-                f += 4;
-            }
-            if f + 2 <= F {
-                let mut a = [acc[f], acc[f + 1]];
-                dots_run::<2, WINDOW>(xs, ws, &[runs[f], runs[f + 1]], &mut a);
-                acc[f..f + 2].copy_from_slice(&a);
-                f += 2;
-            }
-            if f < F {
-                let mut a = [acc[f]];
-                dots_run::<1, WINDOW>(xs, ws, &[runs[f]], &mut a);
-                acc[f] = a[0];
-            }
+            accumulate_piece::<F, WINDOW>(xs, ws, &runs, &mut acc);
             from = to;
         }
         let mut out = [ZERO; F];
@@ -595,6 +566,50 @@ where
             };
         }
         out
+    }
+}
+
+/// The cut indices in ascending order (insertion sort: F is small, and it keeps no sorting
+/// code of size in a small board's flash).
+#[inline(always)]
+fn sorted_cuts<const F: usize>(mut cuts: [usize; F]) -> [usize; F] {
+    for i in 1..F {
+        let mut j = i;
+        while j > 0 && cuts[j - 1] > cuts[j] {
+            cuts.swap(j - 1, j);
+            j -= 1;
+        }
+    }
+    cuts
+}
+
+/// One piece of the sweep (between two cuts) into the F sums: four frequencies at a time
+/// (their sums fill half the FPU's registers), then two, then one.
+#[inline(always)]
+fn accumulate_piece<const F: usize, const WINDOW: bool>(
+    xs: &[Complex32],
+    ws: &[f32],
+    runs: &[&[Complex32]; F],
+    acc: &mut [[f32; 2]; F],
+) {
+    let mut f = 0;
+    while f + 4 <= F {
+        let r = [runs[f], runs[f + 1], runs[f + 2], runs[f + 3]];
+        let mut a = [acc[f], acc[f + 1], acc[f + 2], acc[f + 3]];
+        dots_run::<4, WINDOW>(xs, ws, &r, &mut a);
+        acc[f..f + 4].copy_from_slice(&a);
+        f += 4;
+    }
+    if f + 2 <= F {
+        let mut a = [acc[f], acc[f + 1]];
+        dots_run::<2, WINDOW>(xs, ws, &[runs[f], runs[f + 1]], &mut a);
+        acc[f..f + 2].copy_from_slice(&a);
+        f += 2;
+    }
+    if f < F {
+        let mut a = [acc[f]];
+        dots_run::<1, WINDOW>(xs, ws, &[runs[f]], &mut a);
+        acc[f] = a[0];
     }
 }
 
