@@ -241,5 +241,8 @@ def test_gate_object_describes_itself():
     assert len(g.band_window_values) == 801
     assert g.nearest_index(10e9) == 400
     assert "center_s=2e-8" in repr(g)
-    assert sweepgate.parse_window("Kaiser") == "kaiser:6"
+    assert sweepgate.parse_window("Kaiser:6") == "kaiser:6"
+    # A Kaiser window without its parameter is refused, as on the command line.
+    with pytest.raises(sweepgate.SweepgateError, match="give β"):
+        sweepgate.parse_window("Kaiser")
     assert sweepgate.DEFAULT_GATE_SHAPE == "tukey:0.3"
