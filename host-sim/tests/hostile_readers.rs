@@ -18,6 +18,8 @@ use sweepgate_host::formats::recording::{
     Record, Recovered, Stop, Writer, FILE_HEADER_LEN, FRAME_OVERHEAD, MAX_FILE_BYTES, MAX_PAYLOAD,
     SWEEP_FORMAT, SYNC,
 };
+use sweepgate_host::model::scenario::Scenario;
+use sweepgate_host::pipeline::simulate::simulate_to;
 
 /// Longest a single case may take before it counts as a hang: far beyond any case's
 /// normal run (milliseconds), so this is a hang detector, not a performance assertion.
@@ -243,6 +245,33 @@ fn header_record_flip_cases(cases: &mut Vec<Case>) {
             }),
         ));
     }
+    // A simulated scan (the header holds the whole scenario): the copy before the end
+    // record stands in for a damaged header record, equal to it.
+    cases.push((
+        "simulated recording, header record damaged".into(),
+        Box::new(|| {
+            let mut s = Scenario::from_toml(include_str!("../scenarios/demo-lab.toml"))
+                .map_err(|e| e.to_string())?;
+            s.sweep.points = 21;
+            s.positioner.start_deg = -3.0;
+            s.positioner.stop_deg = 3.0;
+            let bytes = simulate_to(&s, None, 5, Vec::new(), false)
+                .map_err(|e| e.to_string())?
+                .0;
+            let full = recover(&bytes);
+            let mut bad = bytes.clone();
+            bad[FILE_HEADER_LEN + 40] ^= 0x20;
+            let r = recover(&bad);
+            check(
+                r.header() == full.header()
+                    && r.header().and_then(|h| h.scenario.as_ref()).is_some()
+                    && matches!(r.header_origin(), Some(HeaderOrigin::Copy(_)))
+                    && r.records[..] == full.records[1..]
+                    && r.stop == Stop::Complete,
+                || format!("{:?} / {:?}", r.header_origin(), r.damage),
+            )
+        }),
+    ));
     // Header record and copy both damaged: no header, unless the caller gives the grid.
     let mut both = bytes.clone();
     both[b[0] + 20] ^= 1;

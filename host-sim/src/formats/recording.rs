@@ -31,8 +31,9 @@
 //!
 //! The header record holds the grid, without which no sweep can be read. So that a damaged
 //! header record does not lose the whole scan, [`Writer`] repeats it as a header copy
-//! (kind 6, same payload) after every [`HEADER_COPY_EVERY`] records and once more just
-//! before the end record. Readers use the first intact header record, else the first
+//! (kind 6, same payload) once at least [`HEADER_COPY_EVERY_BYTES`] (1 MiB) were written
+//! since the header or the last copy, and once more just before the end record: a few
+//! kilobytes per megabyte at most. Readers use the first intact header record, else the first
 //! intact copy ([`Recovered::header`], [`Recovered::header_origin`]). Files written before
 //! copies existed simply have none and read as before; readers that predate kind 6 pass
 //! copies through as an unknown kind and skip them. When neither survived,
@@ -105,9 +106,9 @@ pub const FRAME_OVERHEAD: usize = 13;
 pub const MAX_PAYLOAD: usize = 16 << 20;
 /// Largest recording [`recover_file`] reads (1 GiB); larger files are refused unread.
 pub const MAX_FILE_BYTES: u64 = 1 << 30;
-/// [`Writer`] writes a header copy after this many records since the header or the last
-/// copy (and once before the end record).
-pub const HEADER_COPY_EVERY: u64 = 256;
+/// [`Writer`] writes a header copy after the record that makes this many bytes since the
+/// header or the last copy (and once before the end record).
+pub const HEADER_COPY_EVERY_BYTES: u64 = 1 << 20;
 
 /// Record kind numbers.
 pub mod kind {
@@ -1082,8 +1083,8 @@ pub struct Writer<W: Write> {
     on_written: Option<Box<dyn FnMut(u64, u64)>>,
     /// The framed header copy, once a header record was written.
     header_copy: Option<Vec<u8>>,
-    /// `records` after the header or the last copy.
-    copied_at: u64,
+    /// `records` and `offset` after the header or the last copy.
+    copied_at: (u64, u64),
 }
 
 impl<W: Write> fmt::Debug for Writer<W> {
@@ -1142,7 +1143,7 @@ impl<W: Write> Writer<W> {
             syncs: 0,
             on_written: None,
             header_copy: None,
-            copied_at: 0,
+            copied_at: (0, 0),
         })
     }
 
@@ -1163,7 +1164,8 @@ impl<W: Write> Writer<W> {
     }
 
     /// Appends one record; returns the offset it starts at. After a header record, and
-    /// then after every [`HEADER_COPY_EVERY`] records, a header copy follows.
+    /// then whenever [`HEADER_COPY_EVERY_BYTES`] were written since the last copy, a
+    /// header copy follows.
     pub fn write(&mut self, rec: &Record) -> std::io::Result<u64> {
         let frame = rec.frame();
         if frame.len() - FRAME_OVERHEAD > MAX_PAYLOAD {
@@ -1175,10 +1177,10 @@ impl<W: Write> Writer<W> {
         let at = self.put(&frame, rec.kind())?;
         if let Record::Header(h) = rec {
             self.header_copy = Some(Record::HeaderCopy(h.clone()).frame());
-            self.copied_at = self.records;
+            self.copied_at = (self.records, self.offset);
         } else if self.header_copy.is_some()
             && !matches!(rec, Record::End { .. })
-            && self.records - self.copied_at >= HEADER_COPY_EVERY
+            && self.offset - self.copied_at.1 >= HEADER_COPY_EVERY_BYTES
         {
             self.write_copy()?;
         }
@@ -1190,7 +1192,7 @@ impl<W: Write> Writer<W> {
             let written = self.put(&frame, kind::HEADER_COPY);
             self.header_copy = Some(frame);
             written?;
-            self.copied_at = self.records;
+            self.copied_at = (self.records, self.offset);
         }
         Ok(())
     }
@@ -1226,7 +1228,7 @@ impl<W: Write> Writer<W> {
     /// record) and the end record (and syncs, for [`Writer::create`]); returns the output
     /// and the total bytes written.
     pub fn finish(mut self) -> std::io::Result<(W, u64)> {
-        if self.header_copy.is_some() && self.records != self.copied_at {
+        if self.header_copy.is_some() && self.records != self.copied_at.0 {
             self.write_copy()?;
         }
         let end = Record::End {
@@ -1387,9 +1389,14 @@ mod tests {
     fn the_writer_repeats_the_header_every_so_often_and_before_the_end() {
         let mut w = Writer::new(Vec::new()).unwrap();
         w.write(&Record::Header(Box::new(test_header()))).unwrap();
-        let n = 2 * HEADER_COPY_EVERY + 10;
-        for i in 0..n {
-            w.write(&position(i)).unwrap();
+        let header_end = w.offset();
+        // Records of 100,013 bytes: the 11th after the header or a copy passes 1 MiB.
+        let big = Record::Unknown {
+            kind: 99,
+            payload: vec![1; 100_000],
+        };
+        for _ in 0..25 {
+            w.write(&big).unwrap();
         }
         let (bytes, _) = w.finish().unwrap();
         let r = recover(&bytes);
@@ -1398,21 +1405,25 @@ mod tests {
         let copies: Vec<usize> = (0..kinds.len())
             .filter(|&i| kinds[i] == kind::HEADER_COPY)
             .collect();
-        // Header at 0; a copy after every HEADER_COPY_EVERY records following the header
-        // or the last copy, and one before the end record.
-        let every = HEADER_COPY_EVERY as usize;
-        assert_eq!(copies, [every + 1, 2 * every + 2, kinds.len() - 2]);
+        let per_mib = (HEADER_COPY_EVERY_BYTES as usize).div_ceil(100_013);
+        assert_eq!(per_mib, 11);
+        // Header at 0, copies after records 11 and 22 past it (records 12 and 24), one
+        // before the end record.
+        assert_eq!(copies, [per_mib + 1, 2 * per_mib + 2, kinds.len() - 2]);
         assert_eq!(kinds[0], kind::HEADER);
         assert_eq!(*kinds.last().unwrap(), kind::END);
         for &i in &copies {
             assert_eq!(r.records[i].1, Record::HeaderCopy(Box::new(test_header())));
         }
+        let first_copy_at = r.records[copies[0]].0;
+        assert!(first_copy_at - header_end >= HEADER_COPY_EVERY_BYTES);
+        assert!(first_copy_at - header_end < HEADER_COPY_EVERY_BYTES + 100_013);
         // The end record counts what the caller wrote.
         assert_eq!(
             r.records.last().unwrap().1,
             Record::End {
                 sweeps: 0,
-                positions: n,
+                positions: 0,
                 truths: 0
             }
         );
