@@ -433,27 +433,7 @@ where
             });
             let xs = x.get(from..to).unwrap_or_default();
             let ws = self.band.get(from..to).unwrap_or_default();
-            // Four frequencies at a time (their sums fill half the FPU's registers), then
-            // two, then one.
-            let mut f = 0;
-            while f + 4 <= F {
-                let r = [runs[f], runs[f + 1], runs[f + 2], runs[f + 3]];
-                let mut a = [acc[f], acc[f + 1], acc[f + 2], acc[f + 3]];
-                dots_run::<4, WINDOW>(xs, ws, &r, &mut a);
-                acc[f..f + 4].copy_from_slice(&a);
-                f += 4;
-            }
-            if f + 2 <= F {
-                let mut a = [acc[f], acc[f + 1]];
-                dots_run::<2, WINDOW>(xs, ws, &[runs[f], runs[f + 1]], &mut a);
-                acc[f..f + 2].copy_from_slice(&a);
-                f += 2;
-            }
-            if f < F {
-                let mut a = [acc[f]];
-                dots_run::<1, WINDOW>(xs, ws, &[runs[f]], &mut a);
-                acc[f] = a[0];
-            }
+            dots_groups::<F, WINDOW>(xs, ws, &runs, &mut acc);
             from = to;
         }
         let mut out = [ZERO; F];
@@ -466,6 +446,36 @@ where
             };
         }
         out
+    }
+}
+
+/// [`dots_run`] over all F frequencies: four at a time (their sums fill half the FPU's
+/// registers), then two, then one.
+#[inline(always)]
+fn dots_groups<const F: usize, const WINDOW: bool>(
+    xs: &[Complex32],
+    ws: &[f32],
+    runs: &[&[Complex32]; F],
+    acc: &mut [[f32; 2]; F],
+) {
+    let mut f = 0;
+    while f + 4 <= F {
+        let r = [runs[f], runs[f + 1], runs[f + 2], runs[f + 3]];
+        let mut a = [acc[f], acc[f + 1], acc[f + 2], acc[f + 3]];
+        dots_run::<4, WINDOW>(xs, ws, &r, &mut a);
+        acc[f..f + 4].copy_from_slice(&a);
+        f += 4;
+    }
+    if f + 2 <= F {
+        let mut a = [acc[f], acc[f + 1]];
+        dots_run::<2, WINDOW>(xs, ws, &[runs[f], runs[f + 1]], &mut a);
+        acc[f..f + 2].copy_from_slice(&a);
+        f += 2;
+    }
+    if f < F {
+        let mut a = [acc[f]];
+        dots_run::<1, WINDOW>(xs, ws, &[runs[f]], &mut a);
+        acc[f] = a[0];
     }
 }
 
