@@ -99,20 +99,18 @@ fn real32_words<const BIG_ENDIAN: bool>(b: &[u8; 8]) -> (u32, u32) {
     }
 }
 
-/// Copies whole REAL,32 samples from `src` into `dst` (as many as `dst` holds; nothing if
-/// `src` is short) and returns all their words ORed together: see [`all_usable`].
+/// Fills `dst` with whole REAL,32 samples from `src` and returns all their words ORed
+/// together (see [`all_usable`]); `None`, with nothing written, if `src` is too short.
 #[inline(never)]
-fn real32_copy<const BIG_ENDIAN: bool>(src: &[u8], dst: &mut [Complex32]) -> u32 {
+fn real32_copy<const BIG_ENDIAN: bool>(src: &[u8], dst: &mut [Complex32]) -> Option<u32> {
     let mut any = 0u32;
-    let Some(src) = src.get(..8 * dst.len()) else {
-        return 0;
-    };
+    let src = src.get(..8 * dst.len())?;
     for (o, b) in dst.iter_mut().zip(src.chunks_exact(8)) {
         let (re, im) = real32_words::<BIG_ENDIAN>(&eight(b));
         any |= re | im;
         *o = Complex32::new(f32::from_bits(re), f32::from_bits(im));
     }
-    any
+    Some(any)
 }
 
 /// Whether every value a [`real32_copy`] wrote to `dst` is usable, given the OR of their
@@ -144,7 +142,9 @@ fn real32_samples<const BIG_ENDIAN: bool>(bytes: &[u8], out: &mut [Complex32]) -
     let Some(dst) = out.get_mut(..n) else {
         return 0;
     };
-    let any = real32_copy::<BIG_ENDIAN>(bytes, dst);
+    let Some(any) = real32_copy::<BIG_ENDIAN>(bytes, dst) else {
+        return 0;
+    };
     if all_usable(any, dst) {
         return n;
     }
@@ -631,7 +631,7 @@ impl BlockDecoder {
             *slot = Complex32::new(f32::from_bits(re), f32::from_bits(im));
             (chunk.get(8 - fill..)?, dst)
         };
-        any |= real32_copy::<BIG_ENDIAN>(body, dst);
+        any |= real32_copy::<BIG_ENDIAN>(body, dst)?;
         let written = out.get(index as usize..index as usize + samples)?;
         if !all_usable(any, written) {
             // An unusable value: the general path decodes the chunk again and reports it.

@@ -1,6 +1,7 @@
 //! Host benchmarks of the core (criterion): one closed bin through the FFT path and through
-//! the kernel path for M = 256, 1024, 4096 and F = 1, 4, 16; decoding one IEEE 488.2 block;
-//! and an end-to-end scan of 361 bins through the engine.
+//! the kernel path (window on the fly, and window in place then dot products as the scan
+//! engine does it) for M = 256, 1024, 4096 and F = 1, 4, 16; the gate's set-up; decoding one
+//! IEEE 488.2 block; and an end-to-end scan of 361 bins through the engine.
 //!
 //! `cargo bench -p sweepgate --bench gating`
 
@@ -63,6 +64,16 @@ fn kernel_bench<const M: usize, const F: usize>(
             black_box(&out);
         })
     });
+    // As the scan engine closes a bin: window the sum in place, then the dot products.
+    let mut buf = Box::new(*raw);
+    c.bench_function(BenchmarkId::new(format!("window + kernel F={F}"), M), |b| {
+        b.iter(|| {
+            buf.copy_from_slice(black_box(raw));
+            gate.window(&mut buf, 0.5);
+            gate.apply_kernels_windowed(&kernels, &buf, &mut out);
+            black_box(&out);
+        })
+    });
 }
 
 fn size<const M: usize>(c: &mut Criterion, points: usize)
@@ -79,6 +90,10 @@ where
     kernel_bench::<M, 1>(&mut g, &gate, &raw);
     kernel_bench::<M, 4>(&mut g, &gate, &raw);
     kernel_bench::<M, 16>(&mut g, &gate, &raw);
+    let cfg = *gate.config();
+    g.bench_function(BenchmarkId::new("set-up", M), |b| {
+        b.iter(|| black_box(Gate::<M>::new(black_box(&cfg)).is_ok()))
+    });
     g.finish();
 }
 
