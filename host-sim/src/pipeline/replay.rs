@@ -23,12 +23,12 @@ use std::time::Duration;
 
 use anyhow::{bail, Context};
 
+use crate::formats::files::{check_output_dir, refuse_if_same_file};
 use crate::formats::recording::{self as record, Recovered};
 use crate::output::export::{self, Exports};
 use crate::output::report;
 use crate::output::screen::{self as preview, Screen, ScreenInput};
 use crate::pipeline::options::{default_report_dir, GateOptions};
-use crate::pipeline::outputs;
 use crate::pipeline::setup::{self, Setup};
 use crate::pipeline::stream::{self, Outcome, Pacing, Sink};
 
@@ -146,13 +146,13 @@ impl Sink for ChannelSink {
 pub fn replay_file(opts: &Options) -> anyhow::Result<(Outcome, PathBuf)> {
     let pace = opts.pace()?;
     if let Some(r) = &opts.record {
-        outputs::refuse_output_is_input("--record", r, &[&opts.rec])?;
+        refuse_if_same_file(r, &[&opts.rec]).context("--record")?;
     }
     let out_dir = opts
         .out
         .clone()
         .unwrap_or_else(|| default_report_dir(&opts.rec));
-    outputs::check_report_dir(&out_dir)?;
+    check_output_dir(&out_dir)?;
     let rec = record::recover_file(&opts.rec)
         .with_context(|| format!("reading {}", opts.rec.display()))?;
     let s = setup(&rec, opts)?;
