@@ -52,6 +52,7 @@ use crate::formats::gain_table::GainTable;
 use crate::formats::manifest::{AngleSweep, Manifest};
 use crate::formats::recording as record;
 use crate::formats::touchstone::{Parameter, Spacing, Touchstone};
+use crate::limits::MIN_REFERENCE_DB;
 use crate::output::export::{self, BandRow, Bands, Exports};
 use crate::output::report::{self, ImpulseView, ReportBin, ReportInput, ReportValue};
 use crate::pipeline::engine::gate_sweeps;
@@ -512,7 +513,16 @@ fn gain_reference(
         let g_ref = gains
             .gain_dbi(*f)
             .with_context(|| format!("{}: at {f} Hz", table.display()))?;
-        per_frequency.push((g_ref, crate::units::db(v.gated)));
+        let level_db = crate::units::db(v.gated);
+        if level_db < MIN_REFERENCE_DB {
+            bail!(
+                "{}: the gated reference is {level_db:.1} dB at {f} Hz, below \
+                 {MIN_REFERENCE_DB} dB (an all-zero or disconnected measurement); it cannot \
+                 set the gain",
+                reference.display()
+            );
+        }
+        per_frequency.push((g_ref, level_db));
     }
     Ok(report::GainReference {
         table: table.display().to_string(),

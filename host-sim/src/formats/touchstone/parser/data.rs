@@ -157,6 +157,21 @@ impl Parser<'_> {
             .chunks_exact(2)
             .map(|p| fmt.to_complex(p[0], p[1]))
             .collect();
+        let single = f64::from(f32::MAX);
+        if let Some((k, v)) = vals
+            .iter()
+            .enumerate()
+            .find(|(_, v)| !(v.re.abs() <= single && v.im.abs() <= single))
+        {
+            return Err(self.err_at(
+                at,
+                TouchstoneErrorKind::BeyondSinglePrecision {
+                    value: k + 1,
+                    re: v.re,
+                    im: v.im,
+                },
+            ));
+        }
         let base = self.data.len();
         self.data.resize(base + n * n, Complex64::new(0.0, 0.0));
         let order = self.two_port_order.unwrap_or(TwoPortOrder::Order21_12);
