@@ -87,3 +87,6 @@ pub const MAX_PACED_REPLAY_S: f64 = 7200.0;
 /// this (an all-zero file, a disconnected cable) would give an absurd gain (a zero reference
 /// at the −300 dB floor turns a 10 dBi horn into 310 dBi), so it is refused.
 pub const MIN_REFERENCE_DB: f64 = -200.0;
+
+/// Most characters of a file's or a user's text quoted in a message (then `…`).
+pub const MAX_QUOTED_CHARS: usize = 40;

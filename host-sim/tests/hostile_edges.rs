@@ -563,3 +563,312 @@ fn paced_replays(d: &Path, rec: &Path) -> usize {
     }
     cases.len()
 }
+
+/// An 11-point one-port file from 1 GHz in 100 MHz steps with S11 = `v`.
+fn good_s1p(v: f64) -> String {
+    let lines: Vec<String> = (0..11)
+        .map(|k| format!("{} {v} 0", 1e9 + 1e8 * k as f64))
+        .collect();
+    s1p("RI", &lines.iter().map(String::as_str).collect::<Vec<_>>())
+}
+
+/// How often `needle` occurs in `hay`.
+fn occurrences(hay: &str, needle: &str) -> usize {
+    hay.matches(needle).count()
+}
+
+/// One message case: a command, the words its refusal must hold, a word it must hold
+/// exactly once (the file it names, the cause), words it must not hold, and the most bytes
+/// of standard error.
+struct Message {
+    name: &'static str,
+    args: Vec<std::ffi::OsString>,
+    words: Vec<String>,
+    once: String,
+    never: Vec<&'static str>,
+}
+
+fn message(
+    name: &'static str,
+    args: &[&dyn AsRef<std::ffi::OsStr>],
+    words: &[&str],
+    once: &str,
+    never: &[&'static str],
+) -> Message {
+    Message {
+        name,
+        args: args.iter().map(|a| a.as_ref().to_owned()).collect(),
+        words: words.iter().map(|w| (*w).to_owned()).collect(),
+        once: once.to_owned(),
+        never: never.to_vec(),
+    }
+}
+
+#[test]
+fn messages_are_precise_and_single() {
+    let d = temp("msg");
+    let p = |n: &str| d.join(n);
+    let huge = "7".repeat(50 << 20);
+    let clip = format!("{}…", "7".repeat(40));
+    std::fs::create_dir(p("folder.s1p")).unwrap();
+    std::fs::create_dir(p("folder.rec")).unwrap();
+    std::fs::write(p("a.s1p"), good_s1p(0.5)).unwrap();
+    std::fs::write(p("b.s1p"), good_s1p(0.25)).unwrap();
+    std::fs::write(p("bad.s1p"), s1p("RI", &["1e9 0.1 0", "2e9 x 0"])).unwrap();
+    std::fs::write(
+        p("huge.s1p"),
+        s1p("RI", &["1e9 0.1 0", &format!("2e9 {huge}x 0")]),
+    )
+    .unwrap();
+    let row = "0 0 0.1 0 0 0 0 0";
+    let desc2: Vec<String> = ["3e9", "2e9", "1e9"]
+        .iter()
+        .map(|f| format!("{f} {row}"))
+        .collect();
+    std::fs::write(
+        p("desc.s2p"),
+        s1p("RI", &desc2.iter().map(String::as_str).collect::<Vec<_>>()),
+    )
+    .unwrap();
+    std::fs::write(
+        p("desc.s1p"),
+        s1p("RI", &["3e9 0.1 0", "2e9 0.1 0", "1e9 0.1 0"]),
+    )
+    .unwrap();
+    let manifest = |name: &str, rows: &str| {
+        std::fs::write(p(name), format!("angle_deg,file\n{rows}")).unwrap();
+        p(name)
+    };
+    let good = manifest("good.csv", "0,a.s1p\n10,b.s1p\n");
+    let folder_row = manifest("folder.csv", "0,folder.s1p\n");
+    let desc2_m = manifest("desc2.csv", "0,desc.s2p\n");
+    let desc1_m = manifest("desc1.csv", "0,desc.s1p\n");
+    let bad_m = manifest("bad.csv", "0,bad.s1p\n");
+    let huge_m = manifest("huge.csv", "0,huge.s1p\n");
+    let huge_angle = manifest("angle.csv", &format!("{huge}x,a.s1p\n"));
+    std::fs::write(p("header.csv"), format!("{huge},file\n0,a.s1p\n")).unwrap();
+    std::fs::write(p("gain.csv"), "frequency_hz,gain_dbi\n1e9,10\n2e9,10\n").unwrap();
+    std::fs::write(
+        p("huge-gain.csv"),
+        format!("frequency_hz,gain_dbi\n1e9,{huge}x\n"),
+    )
+    .unwrap();
+    std::fs::write(p("settings.toml"), "out = \"r\"\nbogus = [1,\n").unwrap();
+    std::fs::write(p("key.toml"), format!("{} = 1\n", "k".repeat(50 << 20))).unwrap();
+    let scen = shipped("demo-lab.toml").replacen(
+        "mode = \"continuous\"",
+        &format!("mode = \"{}\"", "c".repeat(50 << 20)),
+        1,
+    );
+    std::fs::write(p("mode.toml"), scen).unwrap();
+    std::fs::write(p("noise.rec"), [0x5au8; 4096]).unwrap();
+    let (out, r) = (p("report"), "--out");
+    let cases = vec![
+        // A folder named in a manifest is a folder, not a missing file.
+        message(
+            "manifest row is a folder",
+            &[&"process", &folder_row, &r, &out],
+            &["is a folder, not a file"],
+            "folder.s1p",
+            &["does not exist"],
+        ),
+        // A folder given as the recording: said once, with no "reading X:" before it.
+        message(
+            "recording is a folder",
+            &[&"replay", &"--no-preview", &p("folder.rec"), &r, &out],
+            &["is a folder, not a recording"],
+            "folder.rec",
+            &["does not exist"],
+        ),
+        message(
+            "process input is a folder",
+            &[&"process", &p("folder.rec"), &r, &out],
+            &["is a folder, not a recording"],
+            "folder.rec",
+            &["does not exist"],
+        ),
+        // Descending two-port (version 1.1, where a step back may start noise data) and
+        // one-port data: said to be descending, not "needs at least 2 points".
+        message(
+            "descending two-port",
+            &[&"process", &desc2_m, &r, &out],
+            &["desc.s2p:4:", "frequencies must increase"],
+            "not above",
+            &["at least 2 points"],
+        ),
+        message(
+            "descending one-port",
+            &[&"process", &desc1_m, &r, &out],
+            &["desc.s1p:4:", "frequencies must increase"],
+            "not above",
+            &["at least 2 points"],
+        ),
+        // A Touchstone error through a manifest, and as the gain reference: printed once.
+        message(
+            "touchstone error in a manifest",
+            &[&"process", &bad_m, &r, &out],
+            &["bad.csv:2:", "bad.s1p:4:"],
+            "is not a number",
+            &[],
+        ),
+        message(
+            "touchstone error as the reference",
+            &[
+                &"process",
+                &good,
+                &r,
+                &out,
+                &"--gain-table",
+                &p("gain.csv"),
+                &"--reference",
+                &p("bad.s1p"),
+            ],
+            &["bad.s1p:4:"],
+            "is not a number",
+            &[],
+        ),
+        // 50 MB tokens: quoted cut to 40 characters and "…".
+        message(
+            "50 MB number in a Touchstone file",
+            &[&"process", &huge_m, &r, &out],
+            &[&clip, "huge.s1p:4:"],
+            "is not a number",
+            &[],
+        ),
+        message(
+            "50 MB angle in a manifest",
+            &[&"process", &huge_angle, &r, &out],
+            &[&clip, "angle.csv:2:"],
+            "is not a number",
+            &[],
+        ),
+        message(
+            "50 MB manifest header",
+            &[&"process", &"--manifest", &p("header.csv"), &r, &out],
+            &[&clip],
+            "header is",
+            &[],
+        ),
+        message(
+            "50 MB gain in a gain table",
+            &[
+                &"process",
+                &good,
+                &r,
+                &out,
+                &"--gain-table",
+                &p("huge-gain.csv"),
+                &"--reference",
+                &p("a.s1p"),
+            ],
+            &[&clip, "huge-gain.csv"],
+            "is not a finite number",
+            &[],
+        ),
+        message(
+            "50 MB key in a settings file",
+            &[&"process", &good, &"--settings", &p("key.toml")],
+            &[&format!("{}…", "k".repeat(40))],
+            "unknown key",
+            &[],
+        ),
+        message(
+            "50 MB mode in a scenario",
+            &[
+                &"simulate",
+                &"--scenario",
+                &p("mode.toml"),
+                &"--out",
+                &p("x.rec"),
+            ],
+            &[&format!("{}…", "c".repeat(40)), "mode.toml"],
+            "unknown variant",
+            &[],
+        ),
+        // A TOML syntax error in a settings file: one line with its position.
+        message(
+            "settings syntax error",
+            &[&"process", &good, &"--settings", &p("settings.toml")],
+            &["settings.toml", "line 3, column 1"],
+            "settings file",
+            &[],
+        ),
+        // Bytes that are no recording: the file named once, with the reason.
+        message(
+            "not a recording",
+            &[&"replay", &"--no-preview", &p("noise.rec"), &r, &out],
+            &["no intact recording header"],
+            "noise.rec",
+            &[],
+        ),
+        message(
+            "not a recording, processed",
+            &[&"process", &p("noise.rec"), &r, &out],
+            &["no intact recording header"],
+            "noise.rec",
+            &[],
+        ),
+    ];
+    let mut count = 0;
+    for m in cases {
+        let out = run(m.name, {
+            let mut c = bin();
+            c.args(&m.args);
+            c
+        });
+        let words: Vec<&str> = m.words.iter().map(String::as_str).collect();
+        assert_refused(m.name, &out, &words);
+        let err = String::from_utf8_lossy(&out.stderr);
+        assert_eq!(
+            occurrences(&err, &m.once),
+            1,
+            "case {}: {:?} not once in {err}",
+            m.name,
+            m.once
+        );
+        for n in &m.never {
+            assert!(!err.contains(n), "case {}: {n:?} in {err}", m.name);
+        }
+        assert_eq!(err.trim_end().lines().count(), 1, "case {}: {err}", m.name);
+        assert!(err.len() < 1000, "case {}: {} bytes", m.name, err.len());
+        count += 1;
+    }
+    println!("hostile edges: {count} message cases passed");
+    std::fs::remove_dir_all(&d).ok();
+}
+
+#[test]
+fn a_long_manifest_is_checked_for_repeated_angles_in_linear_time() {
+    use sweepgate_host::formats::manifest::{Manifest, ManifestErrorKind};
+    let d = temp("long");
+    std::fs::write(d.join("a.s1p"), good_s1p(0.5)).unwrap();
+    // 300 000 distinct angles, then one repeated: refused naming both lines. A pairwise
+    // check makes 4.5e10 comparisons (minutes); one hash look-up per row takes well under
+    // the 10 s allowed here.
+    let n = 300_000usize;
+    let mut text = String::from("angle_deg,file\n");
+    for i in 0..n {
+        text.push_str(&format!("{},a.s1p\n", i as f64 * 0.001));
+    }
+    text.push_str("-0,a.s1p\n");
+    let dir = d.clone();
+    let started = Instant::now();
+    let e = within(30, "long manifest", move || {
+        Manifest::parse_str(&text, "long.csv", &dir).unwrap_err()
+    });
+    assert!(
+        started.elapsed() < Duration::from_secs(10),
+        "{:?}",
+        started.elapsed()
+    );
+    // −0 repeats the 0 of line 2 (equal angles, whatever the sign of zero).
+    assert_eq!(e.line, Some(n + 2));
+    assert!(
+        matches!(
+            e.kind,
+            ManifestErrorKind::DuplicateAngle { first_line: 2, .. }
+        ),
+        "{e}"
+    );
+    std::fs::remove_dir_all(&d).ok();
+}

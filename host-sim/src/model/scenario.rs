@@ -537,7 +537,7 @@ impl Antenna {
 /// A TOML error as one line: `line L, column C: message` (the toml crate's own display
 /// spans several lines with a snippet).
 pub(crate) fn toml_one_line(text: &str, e: &toml::de::Error) -> String {
-    let msg = e.message().trim().replace('\n', " ");
+    let msg = crate::quote::clip_quotes(&e.message().trim().replace('\n', " "));
     match e.span() {
         Some(span) => {
             let before = text.get(..span.start).unwrap_or(text);
@@ -546,7 +546,18 @@ pub(crate) fn toml_one_line(text: &str, e: &toml::de::Error) -> String {
                 .rfind('\n')
                 .map_or(before.len(), |i| before.len() - i - 1)
                 + 1;
-            format!("line {line}, column {column}: {msg}")
+            // A value of the wrong type: its key, which the toml crate shows only in the
+            // snippet this form leaves out.
+            let on_line = &before[before.rfind('\n').map_or(0, |i| i + 1)..];
+            let key = on_line
+                .trim_end()
+                .strip_suffix('=')
+                .map(str::trim)
+                .filter(|k| !k.is_empty())
+                .map_or(String::new(), |k| {
+                    format!(", key `{}`", crate::quote::clipped(k))
+                });
+            format!("line {line}, column {column}{key}: {msg}")
         }
         None => msg,
     }

@@ -153,8 +153,11 @@ pub fn replay_file(opts: &Options) -> anyhow::Result<(Outcome, PathBuf)> {
         .clone()
         .unwrap_or_else(|| default_report_dir(&opts.rec));
     check_output_dir(&out_dir)?;
-    let rec = record::recover_file(&opts.rec)
-        .with_context(|| format!("reading {}", opts.rec.display()))?;
+    // The file error names the file.
+    let rec = record::recover_file(&opts.rec)?;
+    if rec.header().is_none() {
+        bail!(stream::no_header(&opts.rec));
+    }
     let s = setup(&rec, opts)?;
     let mut screen = screen_for(&s, &rec);
     let clients = match opts.serve {

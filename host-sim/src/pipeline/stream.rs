@@ -35,6 +35,14 @@ use crate::pipeline::transform::c64;
 /// Scan time between status records, µs.
 pub const STATUS_INTERVAL_US: u64 = 250_000;
 
+/// The refusal of a file without an intact recording header, naming the file once.
+pub fn no_header(path: &std::path::Path) -> String {
+    format!(
+        "{}: no intact recording header (not a recording, or its start is lost)",
+        path.display()
+    )
+}
+
 /// Where the preview bytes go.
 pub trait Sink {
     /// Takes a chunk of preview frame bytes.

@@ -182,7 +182,8 @@ impl fmt::Display for TouchstoneErrorKind {
                 found_hz,
             } => write!(
                 f,
-                "frequency {found_hz} Hz is not above the previous one, {previous_hz} Hz"
+                "frequency {found_hz} Hz is not above the previous one, {previous_hz} Hz \
+                 (frequencies must increase; descending data is not read)"
             ),
             Self::UnknownKeyword(k) => write!(f, "unknown keyword [{k}]"),
             Self::UnsupportedVersion(v) => write!(f, "unsupported Touchstone version `{v}` (1.1 and 2.0 are read)"),

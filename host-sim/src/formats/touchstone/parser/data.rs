@@ -86,7 +86,9 @@ impl Parser<'_> {
             self.record_start = self.line;
             // Version 1.1 2-port noise data follows the network data and starts at a
             // frequency not above the last network frequency.
-            if !self.is_v2() && n == 2 {
+            // A line of another length going back is a descending network record, refused
+            // below as not increasing.
+            if !self.is_v2() && n == 2 && content.split_whitespace().count() == 5 {
                 if let (Some(first), Some(&last_hz)) = (
                     content.split_whitespace().next(),
                     self.frequencies_hz.last(),
