@@ -210,6 +210,25 @@ impl std::error::Error for ManifestError {
     }
 }
 
+/// One row's angle and file name, as written.
+fn parse_row(raw: &str) -> Result<(f64, String), ManifestErrorKind> {
+    let (angle, file) = raw
+        .split_once(',')
+        .ok_or(ManifestErrorKind::MissingFileField)?;
+    let angle = angle.trim();
+    let angle_deg: f64 = angle
+        .parse()
+        .map_err(|_| ManifestErrorKind::BadAngle(angle.to_string()))?;
+    if !angle_deg.is_finite() {
+        return Err(ManifestErrorKind::NonFiniteAngle(angle.to_string()));
+    }
+    let file = unquote(file.trim())?;
+    if file.is_empty() {
+        return Err(ManifestErrorKind::EmptyFileName);
+    }
+    Ok((angle_deg, file))
+}
+
 /// A parsed manifest.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Manifest {
@@ -258,23 +277,7 @@ impl Manifest {
                 continue;
             }
             let at = Some(line);
-            let (angle, file) = raw
-                .split_once(',')
-                .ok_or_else(|| err(at, ManifestErrorKind::MissingFileField))?;
-            let angle = angle.trim();
-            let angle_deg: f64 = angle
-                .parse()
-                .map_err(|_| err(at, ManifestErrorKind::BadAngle(angle.to_string())))?;
-            if !angle_deg.is_finite() {
-                return Err(err(
-                    at,
-                    ManifestErrorKind::NonFiniteAngle(angle.to_string()),
-                ));
-            }
-            let file = unquote(file.trim()).map_err(|k| err(at, k))?;
-            if file.is_empty() {
-                return Err(err(at, ManifestErrorKind::EmptyFileName));
-            }
+            let (angle_deg, file) = parse_row(raw).map_err(|k| err(at, k))?;
             // One look-up per row (a hash of the angle's bits, −0 counted as 0), so a
             // manifest of a million rows is read in linear time.
             let key = if angle_deg == 0.0 {
