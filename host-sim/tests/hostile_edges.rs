@@ -872,3 +872,134 @@ fn a_long_manifest_is_checked_for_repeated_angles_in_linear_time() {
     );
     std::fs::remove_dir_all(&d).ok();
 }
+
+/// Rewrites `rec` into `out` keeping each record as `f` returns it (`None`: dropped).
+fn rewritten(rec: &Path, out: &Path, f: impl Fn(&Record) -> Option<Record>) {
+    let r = record::recover_file(rec).unwrap();
+    let mut w = Writer::create(out, SyncPolicy::default()).unwrap();
+    for (_, rec) in &r.records {
+        if let Some(rec) = f(rec) {
+            w.write(&rec).unwrap();
+        }
+    }
+    w.finish().unwrap();
+}
+
+#[test]
+fn a_run_that_fills_no_bin_fails_with_the_reason_and_keeps_the_last_report() {
+    let d = temp("empty");
+    let rec = lab_recording(&d);
+    // The report of a good run, which the failed runs below must leave as it is.
+    let report = d.join("report");
+    let out = run("good replay", {
+        let mut c = bin();
+        c.args(["replay", "--as-fast-as-possible", "--no-preview"])
+            .arg(&rec)
+            .arg("--out")
+            .arg(&report);
+        c
+    });
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let listing = |dir: &Path| {
+        let mut v: Vec<(String, Vec<u8>)> = std::fs::read_dir(dir)
+            .unwrap()
+            .map(|e| {
+                let e = e.unwrap();
+                (
+                    e.file_name().to_string_lossy().into_owned(),
+                    std::fs::read(e.path()).unwrap(),
+                )
+            })
+            .collect();
+        v.sort();
+        v
+    };
+    let before = listing(&report);
+    // (case, what is done to the records, the reason the refusal must give).
+    let no_angles = d.join("no-angles.rec");
+    rewritten(&rec, &no_angles, |r| match r {
+        Record::Position { .. } => None,
+        r => Some(r.clone()),
+    });
+    let nan = d.join("nan.rec");
+    rewritten(&rec, &nan, |r| match r {
+        Record::Sweep {
+            index,
+            start_us,
+            end_us,
+            s21,
+        } => Some(Record::Sweep {
+            index: *index,
+            start_us: *start_us,
+            end_us: *end_us,
+            s21: vec![sweepgate::Complex32::new(f32::NAN, 0.0); s21.len()],
+        }),
+        r => Some(r.clone()),
+    });
+    let short = d.join("short.rec");
+    rewritten(&rec, &short, |r| match r {
+        Record::Sweep {
+            index,
+            start_us,
+            end_us,
+            s21,
+        } => Some(Record::Sweep {
+            index: *index,
+            start_us: *start_us,
+            end_us: *end_us,
+            s21: s21[..s21.len() / 2].to_vec(),
+        }),
+        r => Some(r.clone()),
+    });
+    let no_sweeps = d.join("no-sweeps.rec");
+    rewritten(&rec, &no_sweeps, |r| match r {
+        Record::Sweep { .. } => None,
+        r => Some(r.clone()),
+    });
+    let cases: [(&str, &Path, &str); 4] = [
+        // No positioner sample: every sweep refused for want of an angle.
+        (
+            "no positioner samples",
+            &no_angles,
+            "no positioner angle yet",
+        ),
+        // Every sweep holds NaN: refused as not finite.
+        ("every sweep NaN", &nan, "not a finite number"),
+        // Every sweep half as long as the grid: refused on its point count.
+        (
+            "every sweep short",
+            &short,
+            "point count does not match the grid",
+        ),
+        // Positioner samples and no sweep at all.
+        ("no sweeps", &no_sweeps, "holds no sweep"),
+    ];
+    let mut count = 0;
+    for (name, r, reason) in cases {
+        for command in ["replay", "process"] {
+            let case = format!("{name} ({command})");
+            let out = run(&case, {
+                let mut c = bin();
+                c.arg(command);
+                if command == "replay" {
+                    c.args(["--as-fast-as-possible", "--no-preview"]);
+                }
+                c.arg(r).arg("--out").arg(&report);
+                c
+            });
+            assert_refused(&case, &out, &["no bin was filled", reason]);
+            assert_eq!(
+                listing(&report),
+                before,
+                "case {case}: the last report changed"
+            );
+            count += 1;
+        }
+    }
+    println!("hostile edges: {count} empty-run cases passed");
+    std::fs::remove_dir_all(&d).ok();
+}

@@ -319,6 +319,7 @@ pub fn process_recording(r: &Resolved, path: &Path) -> anyhow::Result<Processed>
         &quit,
         r.exports.any(),
     )?;
+    stream::refuse_empty(&o)?;
     Ok(Processed {
         report: o.report,
         gate: o.setup.gate,

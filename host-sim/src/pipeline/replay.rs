@@ -187,6 +187,7 @@ pub fn replay_file(opts: &Options) -> anyhow::Result<(Outcome, PathBuf)> {
     for line in screen.summary_lines() {
         eprintln!("{line}");
     }
+    stream::refuse_empty(&outcome)?;
     report::write_report(&outcome.report, &out_dir)
         .with_context(|| format!("writing the report to {}", out_dir.display()))?;
     export::write_exports(&outcome.report, outcome.bands.as_ref(), &opts.exports)?;

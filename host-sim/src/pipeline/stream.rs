@@ -18,6 +18,7 @@ use std::sync::atomic::{AtomicBool, Ordering};
 use std::time::{Duration, Instant};
 
 use anyhow::Context;
+use sweepgate::error::SweepReject;
 use sweepgate::metrics::wrap_deg;
 use sweepgate::scan::{Event, ScanCounters};
 use sweepgate::wire::preview::{encode_frame, PreviewRecord};
@@ -40,6 +41,35 @@ pub fn no_header(path: &std::path::Path) -> String {
     format!(
         "{}: no intact recording header (not a recording, or its start is lost)",
         path.display()
+    )
+}
+
+/// Refuses a scan that filled no bin (and was not stopped by the user): the report would
+/// be empty. The reason is the engine's: no sweep at all, or each reason sweeps were
+/// refused for, with its count.
+pub fn refuse_empty(o: &Outcome) -> anyhow::Result<()> {
+    if !o.report.bins.is_empty() || o.interrupted {
+        return Ok(());
+    }
+    let c = &o.counters;
+    if c.sweeps_pushed == 0 {
+        anyhow::bail!("no bin was filled: the recording holds no sweep; no report was written");
+    }
+    let reasons: Vec<String> = SweepReject::ALL
+        .iter()
+        .zip(c.sweeps_rejected_by)
+        .filter(|(_, n)| *n > 0)
+        .map(|(r, n)| format!("{n} {r}"))
+        .collect();
+    anyhow::bail!(
+        "no bin was filled: {} of {} sweeps were refused ({}); no report was written",
+        c.sweeps_pushed.saturating_sub(c.sweeps_binned),
+        c.sweeps_pushed,
+        if reasons.is_empty() {
+            "no reason counted".to_owned()
+        } else {
+            reasons.join("; ")
+        }
     )
 }
 
