@@ -870,6 +870,7 @@ fn a_long_manifest_is_checked_for_repeated_angles_in_linear_time() {
         ),
         "{e}"
     );
+    println!("hostile edges: 1 long-manifest case passed");
     std::fs::remove_dir_all(&d).ok();
 }
 
