@@ -1004,3 +1004,51 @@ fn a_run_that_fills_no_bin_fails_with_the_reason_and_keeps_the_last_report() {
     println!("hostile edges: {count} empty-run cases passed");
     std::fs::remove_dir_all(&d).ok();
 }
+
+#[test]
+fn a_recording_header_with_absurd_bins_is_refused_quickly() {
+    let d = temp("hdr");
+    let rec = lab_recording(&d);
+    let mut count = 0;
+    // (case, bin width in the header): nanodegree bins would be 3.6e11 bins of a full turn,
+    // and a negative width none; both refused by the engine's layout, naming the width,
+    // before any sweep is read.
+    for (name, width) in [
+        ("nanodegree bins in the header", 1e-9),
+        ("negative bins in the header", -1.0),
+    ] {
+        let bad = d.join(format!("{}.rec", name.replace(' ', "-")));
+        let set =
+            |h: &mut sweepgate_host::formats::recording::Header| h.bin_width_deg = Some(width);
+        rewritten(&rec, &bad, |r| match r {
+            Record::Header(h) => {
+                let mut h = h.clone();
+                set(&mut h);
+                Some(Record::Header(h))
+            }
+            Record::HeaderCopy(h) => {
+                let mut h = h.clone();
+                set(&mut h);
+                Some(Record::HeaderCopy(h))
+            }
+            r => Some(r.clone()),
+        });
+        for command in ["replay", "process"] {
+            let case = format!("{name} ({command})");
+            let out = run(&case, {
+                let mut c = bin();
+                c.arg(command);
+                if command == "replay" {
+                    c.args(["--as-fast-as-possible", "--no-preview"]);
+                }
+                c.arg(&bad).arg("--out").arg(d.join("report"));
+                c
+            });
+            assert_refused(&case, &out, &["bin layout", &format!("bins of {width}°")]);
+            assert!(!d.join("report/pattern.csv").exists(), "case {case}");
+            count += 1;
+        }
+    }
+    println!("hostile edges: {count} header bin-width cases passed");
+    std::fs::remove_dir_all(&d).ok();
+}
