@@ -37,3 +37,56 @@ pub const LONGEST_FRAME_BYTES: usize = {
 };
 
 const _: () = assert!(MAX_FRAME_BYTES >= LONGEST_FRAME_BYTES);
+
+/// Most sweeps a scenario may ask for (a guard against a typo running for hours); also
+/// the most sweeps a step-and-stop scan takes at one step.
+pub const MAX_SWEEPS: usize = 200_000;
+
+/// Narrowest angle bin, degrees: the engine keeps angles in f32, whose spacing near the
+/// largest scan span (3600°, ten turns) is 2.4e-4°, so a bin must be several of those
+/// wide to be told from its neighbour.
+pub const MIN_BIN_WIDTH_DEG: f64 = 1e-3;
+
+/// Widest angle bin, degrees: one bin per turn.
+pub const MAX_BIN_WIDTH_DEG: f64 = 360.0;
+
+/// Shortest interval between positioner samples, s: 10 kHz, above what a turntable's
+/// encoder link reports; each sample is one record, so this bounds the recording too.
+pub const MIN_SAMPLE_INTERVAL_S: f64 = 1e-4;
+
+/// Longest interval between positioner samples, s: a turntable read less often than every
+/// 10 s gives too few samples to place a sweep.
+pub const MAX_SAMPLE_INTERVAL_S: f64 = 10.0;
+
+/// Longest settle time after a step, s (an hour: a positioner that takes longer is broken).
+pub const MAX_SETTLE_S: f64 = 3600.0;
+
+/// Longest simulated scan, s (a day), from the first sample to the end of the motion.
+pub const MAX_SCAN_S: f64 = 86_400.0;
+
+/// Most positioner samples a simulated scan writes (scan time / sample interval): about
+/// 50 MB of records and 80 MB held while they are made.
+pub const MAX_POSITION_SAMPLES: usize = 2_000_000;
+
+/// Slowest turntable speed, degrees per second (a degree a minute and a half; slower,
+/// and a scan of any span takes longer than [`MAX_SCAN_S`] anyway).
+pub const MIN_SPEED_DEG_S: f64 = 1e-2;
+
+/// Fastest turntable speed, degrees per second (ten turns a second).
+pub const MAX_SPEED_DEG_S: f64 = 3600.0;
+
+/// Longest wait between two records of a paced replay, s of wall time: a longer gap in
+/// record time (a pause, a far-future timestamp) is cut to this, with a warning.
+pub const MAX_PACED_WAIT_S: f64 = 5.0;
+
+/// Longest paced replay, s of wall time (two hours): slower paces are refused before the
+/// replay starts (`--as-fast-as-possible` has no limit).
+pub const MAX_PACED_REPLAY_S: f64 = 7200.0;
+
+/// Lowest gated level of a gain-by-substitution reference, dB: a reference measured below
+/// this (an all-zero file, a disconnected cable) would give an absurd gain (a zero reference
+/// at the −300 dB floor turns a 10 dBi horn into 310 dBi), so it is refused.
+pub const MIN_REFERENCE_DB: f64 = -200.0;
+
+/// Most characters of a file's or a user's text quoted in a message (then `…`).
+pub const MAX_QUOTED_CHARS: usize = 40;

@@ -169,3 +169,74 @@ fn levels_and_phases_give_back_the_complex_values() {
     assert!((g - gated).norm() / gated.norm() < 2e-7, "{g} vs {gated}");
     assert_eq!(col("raw_phase_deg"), col("gated_phase_deg") + 1);
 }
+
+/// The folder's file names, sorted.
+fn names(dir: &std::path::Path) -> Vec<String> {
+    let mut v: Vec<String> = std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    v.sort();
+    v
+}
+
+#[test]
+fn a_new_run_replaces_the_whole_set_and_leaves_other_files() {
+    let dir = tempfile::tempdir().unwrap();
+    write_report(&input(), dir.path()).unwrap();
+    std::fs::write(dir.path().join("notes.txt"), "mine").unwrap();
+    // A plot name with something other than digits before "MHz" is not a report plot.
+    std::fs::write(dir.path().join("pattern-rect-oldMHz.svg"), "mine").unwrap();
+    // Expected: a run at 9 GHz without an impulse view writes its four files and removes
+    // the 10 GHz plots and the impulse plot of the run before, so no plot is left beside a
+    // table it does not belong to; the user's files stay.
+    let mut next = input();
+    next.frequencies_hz = vec![9e9];
+    next.impulse = None;
+    let files = write_report(&next, dir.path()).unwrap();
+    assert_eq!(files.len(), 4);
+    assert_eq!(
+        names(dir.path()),
+        [
+            "notes.txt",
+            "pattern-polar-9000MHz.svg",
+            "pattern-rect-9000MHz.svg",
+            "pattern-rect-oldMHz.svg",
+            "pattern.csv",
+            "summary.json"
+        ]
+    );
+    let csv = std::fs::read_to_string(dir.path().join("pattern.csv")).unwrap();
+    assert!(
+        csv.lines().nth(1).unwrap().contains(",9000000000,"),
+        "{csv}"
+    );
+}
+
+#[test]
+fn a_report_that_cannot_be_written_leaves_the_last_one_whole() {
+    let dir = tempfile::tempdir().unwrap();
+    let report = dir.path().join("report");
+    write_report(&input(), &report).unwrap();
+    let before: Vec<(String, Vec<u8>)> = names(&report)
+        .into_iter()
+        .map(|n| {
+            let b = std::fs::read(report.join(&n)).unwrap();
+            (n, b)
+        })
+        .collect();
+    // Expected: one plot's name is taken by a folder, which is found before any file is
+    // renamed into place: the run fails naming that file and the last report is kept whole.
+    let blocked = report.join("pattern-polar-9000MHz.svg");
+    std::fs::create_dir(&blocked).unwrap();
+    std::fs::write(blocked.join("inside"), "x").unwrap();
+    let mut next = input();
+    next.frequencies_hz = vec![9e9];
+    let e = write_report(&next, &report).unwrap_err();
+    let msg = format!("{e:#}");
+    assert!(msg.contains("pattern-polar-9000MHz.svg"), "{msg}");
+    assert!(!msg.contains('\n'), "{msg}");
+    for (n, b) in &before {
+        assert_eq!(&std::fs::read(report.join(n)).unwrap(), b, "{n} changed");
+    }
+}

@@ -4,7 +4,6 @@
 
 use std::path::PathBuf;
 
-use anyhow::Context;
 use numpy::ndarray::Array2;
 use numpy::IntoPyArray;
 use pyo3::prelude::*;
@@ -130,7 +129,8 @@ fn damage_list<'py>(py: Python<'py>, rec: &Recovered) -> PyResult<Vec<Bound<'py,
 #[pyfunction]
 fn read_recording<'py>(py: Python<'py>, path: PathBuf) -> PyResult<Bound<'py, PyDict>> {
     let rec = py
-        .detach(|| recover_file(&path).with_context(|| format!("reading {}", path.display())))
+        // The file error names the file ("reading PATH: ..."); no second name before it.
+        .detach(|| recover_file(&path).map_err(anyhow::Error::from))
         .map_err(to_py_err)?;
     let k = points(&rec);
     let (s, p) = py.detach(|| columns(&rec, k));

@@ -122,7 +122,8 @@ impl fmt::Display for FileError {
             }
             FileError::SameFile { output, input } => write!(
                 f,
-                "the output {} is the same file as the input {}; choose another output",
+                "{} is the input file {}: writing it would destroy the input; choose another \
+                 output",
                 output.display(),
                 input.display()
             ),
@@ -259,16 +260,26 @@ impl AtomicFile {
     /// Flushes and syncs the data, renames it over the target and syncs the folder. On an
     /// error before the rename the target is untouched and the temporary file removed.
     pub fn finish(mut self) -> Result<(), FileError> {
-        let target = self.target.clone();
-        let file = self
-            .file
-            .take()
-            .ok_or_else(|| io_err("writing", &target)(io::ErrorKind::Other.into()))?;
+        self.make_ready()?;
+        self.rename_over()
+    }
+
+    /// Flushes, syncs and closes the temporary file: every byte is on the disk under the
+    /// temporary name and only the rename is left. The target is untouched.
+    fn make_ready(&mut self) -> Result<(), FileError> {
+        let target = &self.target;
+        let Some(file) = self.file.take() else {
+            return Ok(());
+        };
         let file = file
             .into_inner()
-            .map_err(|e| io_err("writing", &target)(e.into_error()))?;
-        file.sync_all().map_err(io_err("syncing", &target))?;
-        drop(file);
+            .map_err(|e| io_err("writing", target)(e.into_error()))?;
+        file.sync_all().map_err(io_err("syncing", target))
+    }
+
+    /// Renames the (ready) temporary file over the target and syncs the folder.
+    fn rename_over(mut self) -> Result<(), FileError> {
+        let target = self.target.clone();
         fs::rename(&self.temp, &target).map_err(io_err("replacing", &target))?;
         self.renamed = true;
         sync_folder(folder_of(&target)).map_err(io_err("syncing the folder of", &target))
@@ -326,6 +337,36 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<(), FileError> {
         inner.write_all(bytes).map_err(io_err("writing", path))?;
     }
     f.finish()
+}
+
+/// Writes a set of files that belong together (a report folder) so that a failure leaves
+/// the old set: every file is first written and synced under a temporary name beside its
+/// target, and only when all of them are on the disk are they renamed over their targets,
+/// in the order given. A full disk, an unwritable folder, a target that is a folder or any
+/// other error while writing leaves every target as it was and removes the temporary files; the error names the file
+/// that could not be written. (A rename failing after others succeeded, which needs no
+/// space and does not happen on a healthy local file system, would leave the files named
+/// before it new and the rest old; the error names the file.)
+pub fn write_set(files: &[(PathBuf, Vec<u8>)]) -> Result<(), FileError> {
+    let mut staged = Vec::with_capacity(files.len());
+    for (path, bytes) in files {
+        let mut f = AtomicFile::create(path)?;
+        if let Some(inner) = f.file.as_mut() {
+            inner.write_all(bytes).map_err(io_err("writing", path))?;
+        }
+        f.make_ready()?;
+        if fs::metadata(path).is_ok_and(|m| m.is_dir()) {
+            return Err(FileError::IsAFolder {
+                path: path.clone(),
+                what: "file",
+            });
+        }
+        staged.push(f);
+    }
+    for f in staged.drain(..) {
+        f.rename_over()?;
+    }
+    Ok(())
 }
 
 /// What makes two paths the same file.
@@ -565,6 +606,44 @@ mod tests {
         fs::remove_file(&filler).unwrap();
         check_output_dir(&m.dir).unwrap();
         assert_eq!(listing(&m.dir), ["report.csv"]);
+    }
+
+    #[test]
+    fn a_set_is_written_together_or_not_at_all() {
+        let d = tempfile::tempdir().unwrap();
+        let (a, b) = (d.path().join("pattern.csv"), d.path().join("summary.json"));
+        write_set(&[(a.clone(), b"a1".to_vec()), (b.clone(), b"b1".to_vec())]).unwrap();
+        assert_eq!(listing(d.path()), ["pattern.csv", "summary.json"]);
+        // The last file of the set cannot be written (its folder is missing): the first,
+        // already written under its temporary name, is not renamed into place either.
+        let bad = d.path().join("missing/plot.svg");
+        let e = write_set(&[
+            (a.clone(), b"a2".to_vec()),
+            (b.clone(), b"b2".to_vec()),
+            (bad.clone(), b"c2".to_vec()),
+        ])
+        .unwrap_err();
+        assert!(chain(&e).contains(&*bad.to_string_lossy()), "{}", chain(&e));
+        assert_eq!(fs::read(&a).unwrap(), b"a1", "the old set is kept");
+        assert_eq!(fs::read(&b).unwrap(), b"b1");
+        assert_eq!(listing(d.path()), ["pattern.csv", "summary.json"]);
+        write_set(&[(a.clone(), b"a3".to_vec()), (b.clone(), b"b3".to_vec())]).unwrap();
+        assert_eq!(fs::read(&a).unwrap(), b"a3");
+        assert_eq!(fs::read(&b).unwrap(), b"b3");
+        if let Some(m) = Mount::tmpfs("set", "size=64k") {
+            let (p, q) = (m.dir.join("small.csv"), m.dir.join("large.svg"));
+            write_set(&[(p.clone(), b"old".to_vec()), (q.clone(), b"old".to_vec())]).unwrap();
+            let e = write_set(&[
+                (p.clone(), b"new".to_vec()),
+                (q.clone(), vec![b'x'; 200_000]),
+            ])
+            .unwrap_err();
+            assert!(chain(&e).contains("large.svg"), "{}", chain(&e));
+            assert!(chain(&e).contains("No space left"), "{}", chain(&e));
+            assert_eq!(fs::read(&p).unwrap(), b"old");
+            assert_eq!(fs::read(&q).unwrap(), b"old");
+            assert_eq!(listing(&m.dir), ["large.svg", "small.csv"]);
+        }
     }
 
     #[test]

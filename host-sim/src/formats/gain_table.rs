@@ -88,7 +88,10 @@ impl GainTable {
                 if fields != ["frequency_hz", "gain_dbi"] {
                     return Err(err(
                         n,
-                        format!("expected the header `{GAIN_TABLE_HEADER}`, found `{line}`"),
+                        format!(
+                            "expected the header `{GAIN_TABLE_HEADER}`, found `{}`",
+                            crate::quote::clipped(line)
+                        ),
                     ));
                 }
                 header_seen = true;
@@ -107,7 +110,10 @@ impl GainTable {
                 v.parse::<f64>()
                     .ok()
                     .filter(|x| x.is_finite())
-                    .ok_or_else(|| err(n, format!("{what} `{v}` is not a finite number")))
+                    .ok_or_else(|| {
+                        let v = crate::quote::clipped(v);
+                        err(n, format!("{what} `{v}` is not a finite number"))
+                    })
             };
             let f_hz = number(f, "frequency_hz")?;
             let g_dbi = number(g, "gain_dbi")?;

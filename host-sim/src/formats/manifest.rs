@@ -43,6 +43,7 @@ use sweepgate::Complex32;
 use crate::formats::touchstone::{
     Parameter, Spacing, Touchstone, TouchstoneError, UNIFORM_TOLERANCE_OF_STEP,
 };
+use crate::quote::clipped;
 
 /// The header line a manifest starts with.
 pub const HEADER: &str = "angle_deg,file";
@@ -121,6 +122,8 @@ pub enum ManifestErrorKind {
     },
     /// A file that does not exist.
     MissingFile(PathBuf),
+    /// A folder where a file was expected.
+    FileIsAFolder(PathBuf),
     /// A header and nothing else.
     NoRows,
     /// A file of the manifest was refused.
@@ -146,17 +149,18 @@ impl fmt::Display for ManifestErrorKind {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
             Self::Io(e) => write!(f, "cannot read: {e}"),
-            Self::BadHeader(h) => write!(f, "header is `{h}`, expected `{HEADER}`"),
+            Self::BadHeader(h) => write!(f, "header is `{}`, expected `{HEADER}`", clipped(h)),
             Self::MissingFileField => write!(f, "expected `angle_deg,file`, found no comma"),
             Self::EmptyFileName => write!(f, "empty file name"),
             Self::UnclosedQuote => write!(f, "file name opens a quote it does not close"),
-            Self::BadAngle(s) => write!(f, "angle `{s}` is not a number"),
-            Self::NonFiniteAngle(s) => write!(f, "angle `{s}` is not a finite number"),
+            Self::BadAngle(s) => write!(f, "angle `{}` is not a number", clipped(s)),
+            Self::NonFiniteAngle(s) => write!(f, "angle `{}` is not a finite number", clipped(s)),
             Self::DuplicateAngle {
                 angle_deg,
                 first_line,
             } => write!(f, "angle {angle_deg}° already given on line {first_line}"),
             Self::MissingFile(p) => write!(f, "file {} does not exist", p.display()),
+            Self::FileIsAFolder(p) => write!(f, "{} is a folder, not a file", p.display()),
             Self::NoRows => write!(f, "no rows after the header"),
             Self::Touchstone(e) => write!(f, "{e}"),
             Self::DifferentGrid(m) => write!(
@@ -198,12 +202,31 @@ impl fmt::Display for ManifestError {
 }
 
 impl std::error::Error for ManifestError {
+    /// None: a Touchstone error is already part of this error's message (it names its
+    /// file and line), and as a source it would be printed a second time; it stays
+    /// available, typed, in [`ManifestError::kind`].
     fn source(&self) -> Option<&(dyn std::error::Error + 'static)> {
-        match &self.kind {
-            ManifestErrorKind::Touchstone(e) => Some(e.as_ref()),
-            _ => None,
-        }
+        None
     }
+}
+
+/// One row's angle and file name, as written.
+fn parse_row(raw: &str) -> Result<(f64, String), ManifestErrorKind> {
+    let (angle, file) = raw
+        .split_once(',')
+        .ok_or(ManifestErrorKind::MissingFileField)?;
+    let angle = angle.trim();
+    let angle_deg: f64 = angle
+        .parse()
+        .map_err(|_| ManifestErrorKind::BadAngle(angle.to_string()))?;
+    if !angle_deg.is_finite() {
+        return Err(ManifestErrorKind::NonFiniteAngle(angle.to_string()));
+    }
+    let file = unquote(file.trim())?;
+    if file.is_empty() {
+        return Err(ManifestErrorKind::EmptyFileName);
+    }
+    Ok((angle_deg, file))
 }
 
 /// A parsed manifest.
@@ -248,38 +271,34 @@ impl Manifest {
             ));
         }
         let mut rows: Vec<ManifestRow> = Vec::new();
+        let mut seen: std::collections::HashMap<u64, usize> = std::collections::HashMap::new();
         for (line, raw) in lines {
             if raw.trim().is_empty() {
                 continue;
             }
             let at = Some(line);
-            let (angle, file) = raw
-                .split_once(',')
-                .ok_or_else(|| err(at, ManifestErrorKind::MissingFileField))?;
-            let angle = angle.trim();
-            let angle_deg: f64 = angle
-                .parse()
-                .map_err(|_| err(at, ManifestErrorKind::BadAngle(angle.to_string())))?;
-            if !angle_deg.is_finite() {
-                return Err(err(
-                    at,
-                    ManifestErrorKind::NonFiniteAngle(angle.to_string()),
-                ));
-            }
-            let file = unquote(file.trim()).map_err(|k| err(at, k))?;
-            if file.is_empty() {
-                return Err(err(at, ManifestErrorKind::EmptyFileName));
-            }
-            if let Some(first) = rows.iter().find(|r| r.angle_deg == angle_deg) {
+            let (angle_deg, file) = parse_row(raw).map_err(|k| err(at, k))?;
+            // One look-up per row (a hash of the angle's bits, −0 counted as 0), so a
+            // manifest of a million rows is read in linear time.
+            let key = if angle_deg == 0.0 {
+                0
+            } else {
+                angle_deg.to_bits()
+            };
+            if let Some(&first_line) = seen.get(&key) {
                 return Err(err(
                     at,
                     ManifestErrorKind::DuplicateAngle {
                         angle_deg,
-                        first_line: first.line,
+                        first_line,
                     },
                 ));
             }
+            seen.insert(key, line);
             let path = base.join(&file);
+            if path.is_dir() {
+                return Err(err(at, ManifestErrorKind::FileIsAFolder(path)));
+            }
             if !path.is_file() {
                 return Err(err(at, ManifestErrorKind::MissingFile(path)));
             }

@@ -8,5 +8,4 @@ pub mod gain_table;
 pub mod manifest;
 pub mod npy;
 pub mod recording;
-pub mod replace;
 pub mod touchstone;

@@ -13,6 +13,7 @@ use std::path::Path;
 use anyhow::Context;
 use sweepgate::plan::SPEED_OF_LIGHT_M_S;
 
+use crate::limits::{MAX_BINS, MAX_POSITION_SAMPLES, MAX_SCAN_S};
 use crate::model::geometry;
 use crate::model::scenario::{bad, toml_one_line, Scenario, ScenarioError, MAX_SWEEPS};
 use crate::model::timeline::Timeline;
@@ -37,10 +38,12 @@ impl Scenario {
     }
 
     /// Checks every field ([`Scenario::check_fields`]), then that the scan takes at least
-    /// one and at most [`MAX_SWEEPS`] sweeps; the error names the first bad field.
+    /// one and at most [`MAX_SWEEPS`] sweeps, at most [`MAX_SCAN_S`] and at most
+    /// [`MAX_POSITION_SAMPLES`] positioner samples; the error names the first bad field.
     pub fn validate(&self) -> Result<(), ScenarioError> {
         self.check_fields()?;
-        let n = self.expected_sweeps();
+        let timeline = Timeline::new(self);
+        let n = timeline.sweep_starts_s().len();
         if n > MAX_SWEEPS {
             return Err(bad(
                 "positioner",
@@ -51,6 +54,43 @@ impl Scenario {
             return Err(bad(
                 "positioner",
                 "the scan is shorter than one sweep: no sweep would be taken",
+            ));
+        }
+        let end_s = timeline.end_s();
+        if end_s.is_nan() || end_s > MAX_SCAN_S {
+            return Err(bad(
+                "positioner",
+                format!("the scan would last {end_s:.0} s (limit {MAX_SCAN_S:.0} s, a day)"),
+            ));
+        }
+        let interval_s = self.positioner.sample_interval_s;
+        let samples = end_s / interval_s;
+        if samples > MAX_POSITION_SAMPLES as f64 {
+            return Err(bad(
+                "positioner.sample_interval_s",
+                format!(
+                    "{interval_s} s over a {end_s:.0} s scan gives {samples:.0} positioner \
+                     samples (limit {MAX_POSITION_SAMPLES})"
+                ),
+            ));
+        }
+        self.check_bin_count()
+    }
+
+    /// The scan's angle bins (span / bin width) fit the engine's [`MAX_BINS`].
+    fn check_bin_count(&self) -> Result<(), ScenarioError> {
+        let q = &self.positioner;
+        let span = (q.stop_deg - q.start_deg).abs().min(360.0);
+        let width = self.bin_width_deg();
+        let bins = span / width;
+        if bins > MAX_BINS as f64 + 1e-6 {
+            return Err(bad(
+                "pattern.bin_width_deg",
+                format!(
+                    "{width} deg over a {span} deg scan gives {bins:.0} bins (limit {MAX_BINS}: \
+                     at least {} deg)",
+                    span / MAX_BINS as f64
+                ),
             ));
         }
         Ok(())

@@ -32,8 +32,11 @@ use serde::{Deserialize, Serialize};
 use sweepgate::grid::Grid;
 use sweepgate::plan::{Axis, Plane, Point};
 
-/// Most sweeps a scenario may ask for (a guard against a typo running for hours).
-pub const MAX_SWEEPS: usize = 200_000;
+pub use crate::limits::MAX_SWEEPS;
+use crate::limits::{
+    MAX_BIN_WIDTH_DEG, MAX_SAMPLE_INTERVAL_S, MAX_SETTLE_S, MAX_SPEED_DEG_S, MIN_BIN_WIDTH_DEG,
+    MIN_SAMPLE_INTERVAL_S, MIN_SPEED_DEG_S,
+};
 
 /// A scenario field that failed validation, with the reason.
 #[derive(Debug, Clone, PartialEq)]
@@ -330,9 +333,14 @@ impl Positioner {
         if (q.stop_deg - q.start_deg).abs() > 3600.0 {
             return Err(bad("positioner.stop_deg", "span above 10 turns"));
         }
-        positive("positioner.speed_deg_s", q.speed_deg_s)?;
+        within(
+            "positioner.speed_deg_s",
+            q.speed_deg_s,
+            (MIN_SPEED_DEG_S, MAX_SPEED_DEG_S),
+            "deg/s",
+        )?;
         positive("positioner.acceleration_deg_s2", q.acceleration_deg_s2)?;
-        non_negative("positioner.settle_s", q.settle_s)?;
+        within("positioner.settle_s", q.settle_s, (0.0, MAX_SETTLE_S), "s")?;
         if q.mode == Mode::Step {
             match q.step_deg {
                 None => return Err(bad("positioner.step_deg", "required in step mode")),
@@ -340,14 +348,25 @@ impl Positioner {
                     positive("positioner.step_deg", st)?;
                 }
             }
-            if q.sweeps_per_step == 0 {
-                return Err(bad("positioner.sweeps_per_step", "must be at least 1"));
+            if !(1..=MAX_SWEEPS).contains(&q.sweeps_per_step) {
+                return Err(bad(
+                    "positioner.sweeps_per_step",
+                    format!(
+                        "{} is outside 1…{MAX_SWEEPS} (the most sweeps of a scan)",
+                        q.sweeps_per_step
+                    ),
+                ));
             }
         }
         if q.counts_per_turn == 0 {
             return Err(bad("positioner.counts_per_turn", "must be at least 1"));
         }
-        positive("positioner.sample_interval_s", q.sample_interval_s)?;
+        within(
+            "positioner.sample_interval_s",
+            q.sample_interval_s,
+            (MIN_SAMPLE_INTERVAL_S, MAX_SAMPLE_INTERVAL_S),
+            "s",
+        )?;
         non_negative("positioner.timing_jitter_s", q.timing_jitter_s)?;
         if q.timing_jitter_s > q.sample_interval_s {
             return Err(bad(
@@ -440,6 +459,34 @@ pub(crate) fn positive(field: &str, v: f64) -> Result<f64, ScenarioError> {
     }
 }
 
+/// `v` if it lies within `lo…hi` (inclusive; `unit` is written after the range), else the
+/// field, the value and the range.
+pub(crate) fn within(
+    field: &str,
+    v: f64,
+    (lo, hi): (f64, f64),
+    unit: &str,
+) -> Result<f64, ScenarioError> {
+    if (lo..=hi).contains(&v) {
+        Ok(v)
+    } else {
+        Err(bad(
+            field,
+            format!("{} is outside {lo}…{hi} {unit}", short_number(v)),
+        ))
+    }
+}
+
+/// A number as a person would write it: plain between 1e-4 and 1e6, else in exponent form
+/// (`1e-9`, `1e300`, not thirty zeros).
+pub(crate) fn short_number(v: f64) -> String {
+    if v == 0.0 || (1e-4..1e6).contains(&v.abs()) || !v.is_finite() {
+        format!("{v}")
+    } else {
+        format!("{v:e}")
+    }
+}
+
 pub(crate) fn non_negative(field: &str, v: f64) -> Result<f64, ScenarioError> {
     if finite(field, v)? >= 0.0 {
         Ok(v)
@@ -490,7 +537,7 @@ impl Antenna {
 /// A TOML error as one line: `line L, column C: message` (the toml crate's own display
 /// spans several lines with a snippet).
 pub(crate) fn toml_one_line(text: &str, e: &toml::de::Error) -> String {
-    let msg = e.message().trim().replace('\n', " ");
+    let msg = crate::quote::clip_quotes(&e.message().trim().replace('\n', " "));
     match e.span() {
         Some(span) => {
             let before = text.get(..span.start).unwrap_or(text);
@@ -499,7 +546,18 @@ pub(crate) fn toml_one_line(text: &str, e: &toml::de::Error) -> String {
                 .rfind('\n')
                 .map_or(before.len(), |i| before.len() - i - 1)
                 + 1;
-            format!("line {line}, column {column}: {msg}")
+            // A value of the wrong type: its key, which the toml crate shows only in the
+            // snippet this form leaves out.
+            let on_line = &before[before.rfind('\n').map_or(0, |i| i + 1)..];
+            let key = on_line
+                .trim_end()
+                .strip_suffix('=')
+                .map(str::trim)
+                .filter(|k| !k.is_empty())
+                .map_or(String::new(), |k| {
+                    format!(", key `{}`", crate::quote::clipped(k))
+                });
+            format!("line {line}, column {column}{key}: {msg}")
         }
         None => msg,
     }
@@ -601,7 +659,12 @@ impl Scenario {
             }
         }
         if let Some(b) = self.pattern.bin_width_deg {
-            positive("pattern.bin_width_deg", b)?;
+            within(
+                "pattern.bin_width_deg",
+                b,
+                (MIN_BIN_WIDTH_DEG, MAX_BIN_WIDTH_DEG),
+                "deg",
+            )?;
         }
         Ok(())
     }

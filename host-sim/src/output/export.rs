@@ -28,7 +28,7 @@
 //! A bins, K swept frequencies, F pattern frequencies. The values are the ones the report
 //! was made from: at `pattern_index` they are the raw and gated values of `pattern.csv`.
 //!
-//! Every file goes through [`crate::formats::replace::write_replacing`]: whole or absent.
+//! Every file goes through [`crate::formats::files::write_atomic`]: whole or absent.
 
 use std::path::{Path, PathBuf};
 
@@ -37,9 +37,9 @@ use num_complex::Complex64;
 use sweepgate::grid::Grid;
 use sweepgate::Complex32;
 
+use crate::formats::files::{check_output_dir, write_atomic};
 use crate::formats::manifest::manifest_text;
 use crate::formats::npy::{npz_bytes, Array};
-use crate::formats::replace::write_replacing;
 use crate::formats::touchstone::s21_two_port_text;
 use crate::output::report::{ReportBin, ReportInput};
 
@@ -116,7 +116,7 @@ fn paired<'a>(
 
 /// Writes the Touchstone files and their manifest to `dir`; returns the manifest's path.
 pub fn write_touchstone(input: &ReportInput, bands: &Bands, dir: &Path) -> anyhow::Result<PathBuf> {
-    std::fs::create_dir_all(dir).with_context(|| format!("creating {}", dir.display()))?;
+    check_output_dir(dir)?;
     let freqs: Vec<f64> = (0..bands.grid.points())
         .map(|i| bands.grid.frequency_hz(i))
         .collect();
@@ -129,14 +129,14 @@ pub fn write_touchstone(input: &ReportInput, bands: &Bands, dir: &Path) -> anyho
         ];
         let gated: Vec<Complex64> = row.gated.iter().map(|v| c64(*v)).collect();
         let path = dir.join(&name);
-        write_replacing(
+        write_atomic(
             &path,
             s21_two_port_text(&comments, &freqs, &gated).as_bytes(),
         )?;
         rows.push((b.angle_deg, name));
     }
     let manifest = dir.join("manifest.csv");
-    write_replacing(&manifest, manifest_text(&rows).as_bytes())?;
+    write_atomic(&manifest, manifest_text(&rows).as_bytes())?;
     Ok(manifest)
 }
 
@@ -180,7 +180,7 @@ pub fn arrays(input: &ReportInput, bands: &Bands) -> anyhow::Result<Vec<Array>> 
 pub fn write_arrays(input: &ReportInput, bands: &Bands, path: &Path) -> anyhow::Result<()> {
     let bytes =
         npz_bytes(&arrays(input, bands)?).with_context(|| format!("making {}", path.display()))?;
-    write_replacing(path, &bytes)
+    Ok(write_atomic(path, &bytes)?)
 }
 
 /// Writes the exports asked for; returns the files named to the user (the manifest, the

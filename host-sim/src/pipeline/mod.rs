@@ -7,7 +7,6 @@ pub mod demo;
 pub mod engine;
 pub mod manifest_bins;
 pub mod options;
-pub mod outputs;
 pub mod plan;
 pub mod process;
 pub mod replay;

@@ -52,6 +52,8 @@ use crate::formats::gain_table::GainTable;
 use crate::formats::manifest::{AngleSweep, Manifest};
 use crate::formats::recording as record;
 use crate::formats::touchstone::{Parameter, Spacing, Touchstone};
+use crate::limits::MIN_REFERENCE_DB;
+use crate::model::scenario::toml_one_line;
 use crate::output::export::{self, BandRow, Bands, Exports};
 use crate::output::report::{self, ImpulseView, ReportBin, ReportInput, ReportValue};
 use crate::pipeline::engine::gate_sweeps;
@@ -61,6 +63,7 @@ use crate::pipeline::setup::{self, Automatic};
 use crate::pipeline::stream::{self, Discard, Pacing};
 use crate::pipeline::summary::Settings;
 use crate::pipeline::transform::c64;
+use crate::quote::{clip_quotes, clipped};
 
 /// Options of `sweepgate process`, as given (`cli/process.rs` spells them).
 #[derive(Debug, Clone, Default)]
@@ -126,18 +129,25 @@ pub struct SettingsFile {
 impl SettingsFile {
     /// Parses settings text; `name` is used in errors. Unknown keys are refused by name.
     pub fn parse_str(text: &str, name: &str) -> anyhow::Result<Self> {
-        let table: toml::Table = text
-            .parse()
-            .with_context(|| format!("settings file {name}"))?;
+        // The toml crate's message spans several lines with a snippet of the file; the
+        // one-line form keeps its message and position, with long quotes cut.
+        let one_line = |e: toml::de::Error| {
+            anyhow::anyhow!(
+                "settings file {name}: {}",
+                clip_quotes(&toml_one_line(text, &e))
+            )
+        };
+        let table: toml::Table = text.parse().map_err(one_line)?;
         for key in table.keys() {
             if !SETTINGS_KEYS.contains(&key.as_str()) {
                 bail!(
-                    "settings file {name}: unknown key `{key}` (known keys: {})",
+                    "settings file {name}: unknown key `{}` (known keys: {})",
+                    clipped(key),
                     SETTINGS_KEYS.join(", ")
                 );
             }
         }
-        toml::from_str(text).with_context(|| format!("settings file {name}"))
+        toml::from_str(text).map_err(one_line)
     }
 
     /// Reads a settings file; a relative `out` is taken against the file's folder.
@@ -296,10 +306,9 @@ pub struct Processed {
 
 /// Processes a recording: streamed through the engine as `replay` does.
 pub fn process_recording(r: &Resolved, path: &Path) -> anyhow::Result<Processed> {
-    let rec = record::recover_file(path).with_context(|| format!("reading {}", path.display()))?;
-    let h = rec
-        .header()
-        .context("the recording has no intact header record")?;
+    // The file error names the file.
+    let rec = record::recover_file(path)?;
+    let h = rec.header().with_context(|| stream::no_header(path))?;
     let setup = setup::for_recording(h, &r.choices, &stream::sweeps_of(&rec))?;
     let quit = AtomicBool::new(false);
     let o = stream::stream_keeping_bands(
@@ -310,6 +319,7 @@ pub fn process_recording(r: &Resolved, path: &Path) -> anyhow::Result<Processed>
         &quit,
         r.exports.any(),
     )?;
+    stream::refuse_empty(&o)?;
     Ok(Processed {
         report: o.report,
         gate: o.setup.gate,
@@ -512,7 +522,16 @@ fn gain_reference(
         let g_ref = gains
             .gain_dbi(*f)
             .with_context(|| format!("{}: at {f} Hz", table.display()))?;
-        per_frequency.push((g_ref, crate::units::db(v.gated)));
+        let level_db = crate::units::db(v.gated);
+        if level_db < MIN_REFERENCE_DB {
+            bail!(
+                "{}: the gated reference is {level_db:.1} dB at {f} Hz, below \
+                 {MIN_REFERENCE_DB} dB (an all-zero or disconnected measurement); it cannot \
+                 set the gain",
+                reference.display()
+            );
+        }
+        per_frequency.push((g_ref, level_db));
     }
     Ok(report::GainReference {
         table: table.display().to_string(),

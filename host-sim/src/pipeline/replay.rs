@@ -23,12 +23,12 @@ use std::time::Duration;
 
 use anyhow::{bail, Context};
 
+use crate::formats::files::{check_output_dir, refuse_if_same_file};
 use crate::formats::recording::{self as record, Recovered};
 use crate::output::export::{self, Exports};
 use crate::output::report;
 use crate::output::screen::{self as preview, Screen, ScreenInput};
 use crate::pipeline::options::{default_report_dir, GateOptions};
-use crate::pipeline::outputs;
 use crate::pipeline::setup::{self, Setup};
 use crate::pipeline::stream::{self, Outcome, Pacing, Sink};
 
@@ -146,15 +146,18 @@ impl Sink for ChannelSink {
 pub fn replay_file(opts: &Options) -> anyhow::Result<(Outcome, PathBuf)> {
     let pace = opts.pace()?;
     if let Some(r) = &opts.record {
-        outputs::refuse_output_is_input("--record", r, &[&opts.rec])?;
+        refuse_if_same_file(r, &[&opts.rec]).context("--record")?;
     }
     let out_dir = opts
         .out
         .clone()
         .unwrap_or_else(|| default_report_dir(&opts.rec));
-    outputs::check_report_dir(&out_dir)?;
-    let rec = record::recover_file(&opts.rec)
-        .with_context(|| format!("reading {}", opts.rec.display()))?;
+    check_output_dir(&out_dir)?;
+    // The file error names the file.
+    let rec = record::recover_file(&opts.rec)?;
+    if rec.header().is_none() {
+        bail!(stream::no_header(&opts.rec));
+    }
     let s = setup(&rec, opts)?;
     let mut screen = screen_for(&s, &rec);
     let clients = match opts.serve {
@@ -184,6 +187,7 @@ pub fn replay_file(opts: &Options) -> anyhow::Result<(Outcome, PathBuf)> {
     for line in screen.summary_lines() {
         eprintln!("{line}");
     }
+    stream::refuse_empty(&outcome)?;
     report::write_report(&outcome.report, &out_dir)
         .with_context(|| format!("writing the report to {}", out_dir.display()))?;
     export::write_exports(&outcome.report, outcome.bands.as_ref(), &opts.exports)?;

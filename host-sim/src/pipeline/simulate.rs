@@ -19,6 +19,7 @@ use std::path::{Path, PathBuf};
 use anyhow::Context;
 use num_complex::Complex32;
 
+use crate::formats::files::refuse_if_same_file;
 use crate::formats::recording::{GridInfo, Header, Record, SyncPolicy, Writer, SWEEP_FORMAT};
 use crate::model::room;
 use crate::model::scenario::Scenario;
@@ -53,7 +54,7 @@ pub struct Summary {
 
 /// Runs the command.
 pub fn run(args: &Options) -> anyhow::Result<()> {
-    crate::pipeline::outputs::refuse_output_is_input("--out", &args.out, &[&args.scenario])?;
+    refuse_if_same_file(&args.out, &[&args.scenario]).context("--out")?;
     let text = std::fs::read_to_string(&args.scenario)
         .with_context(|| format!("reading scenario {}", args.scenario.display()))?;
     let scenario = Scenario::from_toml(&text)

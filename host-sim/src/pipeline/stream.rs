@@ -3,7 +3,9 @@
 //! Position and sweep records are put in time order (a position at its timestamp, a sweep
 //! at its end; records of equal time keep their order in the file) and fed to the
 //! [`Engine`], which holds each sweep until the positioner has reported at or past its end.
-//! The pace is the record time times `pace` (`None`: no waiting). Every closed bin becomes a
+//! The pace is the record time times `pace` (`None`: no waiting), counted from the first
+//! record; a wait is never longer than [`MAX_PACED_WAIT_S`] and a paced replay that would
+//! take longer than [`MAX_PACED_REPLAY_S`] is refused before it starts. Every closed bin becomes a
 //! preview record ([`sweepgate::scan::BinResult::to_record`]), framed by
 //! [`sweepgate::wire::preview::encode_frame`] and sent as bytes to a [`Sink`]; a status
 //! record follows every quarter second of scan time. At the end the bins get their truth
@@ -16,13 +18,14 @@ use std::sync::atomic::{AtomicBool, Ordering};
 use std::time::{Duration, Instant};
 
 use anyhow::Context;
+use sweepgate::error::SweepReject;
 use sweepgate::metrics::wrap_deg;
 use sweepgate::scan::{Event, ScanCounters};
 use sweepgate::wire::preview::{encode_frame, PreviewRecord};
 use sweepgate::Complex32;
 
 use crate::formats::recording::{self as record, Header, Record, Recovered, Writer};
-use crate::limits::{MAX_FRAME_BYTES, MAX_FREQUENCIES};
+use crate::limits::{MAX_FRAME_BYTES, MAX_FREQUENCIES, MAX_PACED_REPLAY_S, MAX_PACED_WAIT_S};
 use crate::output::export::Bands;
 use crate::output::report::{ReportBin, ReportInput};
 use crate::pipeline::engine::Engine;
@@ -32,6 +35,43 @@ use crate::pipeline::transform::c64;
 
 /// Scan time between status records, µs.
 pub const STATUS_INTERVAL_US: u64 = 250_000;
+
+/// The refusal of a file without an intact recording header, naming the file once.
+pub fn no_header(path: &std::path::Path) -> String {
+    format!(
+        "{}: no intact recording header (not a recording, or its start is lost)",
+        path.display()
+    )
+}
+
+/// Refuses a scan that filled no bin (and was not stopped by the user): the report would
+/// be empty. The reason is the engine's: no sweep at all, or each reason sweeps were
+/// refused for, with its count.
+pub fn refuse_empty(o: &Outcome) -> anyhow::Result<()> {
+    if !o.report.bins.is_empty() || o.interrupted {
+        return Ok(());
+    }
+    let c = &o.counters;
+    if c.sweeps_pushed == 0 {
+        anyhow::bail!("no bin was filled: the recording holds no sweep; no report was written");
+    }
+    let reasons: Vec<String> = SweepReject::ALL
+        .iter()
+        .zip(c.sweeps_rejected_by)
+        .filter(|(_, n)| *n > 0)
+        .map(|(r, n)| format!("{n} {r}"))
+        .collect();
+    anyhow::bail!(
+        "no bin was filled: {} of {} sweeps were refused ({}); no report was written",
+        c.sweeps_pushed.saturating_sub(c.sweeps_binned),
+        c.sweeps_pushed,
+        if reasons.is_empty() {
+            "no reason counted".to_owned()
+        } else {
+            reasons.join("; ")
+        }
+    )
+}
 
 /// Where the preview bytes go.
 pub trait Sink {
@@ -192,10 +232,11 @@ pub fn stream_keeping_bands(
         buf: [0; MAX_FRAME_BYTES],
         bytes: 0,
     };
-    let start = Instant::now();
+    let order = time_order(rec);
+    let mut pacer = Pacer::new(&order, pacing.pace)?;
     let mut next_status_us = 0u64;
     let mut interrupted = false;
-    for (t_us, i) in time_order(rec) {
+    for (t_us, i) in order {
         if quit.load(Ordering::Relaxed) {
             interrupted = true;
             break;
@@ -207,7 +248,7 @@ pub fn stream_keeping_bands(
             w.write(r)
                 .with_context(|| format!("writing {}", path.display()))?;
         }
-        wait_until(start, t_us, pacing.pace);
+        pacer.wait(t_us, quit);
         feed(&mut engine, r, &mut frames);
         if t_us >= next_status_us {
             frames.emit(&PreviewRecord::Status(engine.status()));
@@ -222,16 +263,80 @@ pub fn stream_keeping_bands(
             .with_context(|| format!("finishing {}", path.display()))?;
     }
     let preview_bytes = frames.bytes;
-    Ok(outcome(rec, h, setup, &engine, preview_bytes, interrupted))
+    let mut o = outcome(rec, h, setup, &engine, preview_bytes, interrupted);
+    if pacer.cut > 0 {
+        o.report.warnings.push(format!(
+            "{} waits of the paced replay were cut to {MAX_PACED_WAIT_S} s (record time \
+             jumped ahead)",
+            pacer.cut
+        ));
+    }
+    Ok(o)
 }
 
-/// Sleeps until record time `t_us` is due at `pace`.
-fn wait_until(start: Instant, t_us: u64, pace: Option<f64>) {
-    if let Some(p) = pace {
-        let due = Duration::from_secs_f64(t_us as f64 * 1e-6 * p);
-        let now = start.elapsed();
-        if due > now {
-            std::thread::sleep(due - now);
+/// The waits of a paced replay. Record time counts from the first record (a recording
+/// that starts far from time 0 starts at once); a wait longer than [`MAX_PACED_WAIT_S`]
+/// (record time jumping ahead, a far-future timestamp) is cut to it and the schedule moves
+/// with it; the quit flag is looked at every 50 ms while waiting.
+struct Pacer {
+    /// Wall seconds per record second (`None`: no waiting).
+    pace: Option<f64>,
+    start: Instant,
+    first_us: Option<u64>,
+    /// Wall time taken out of the schedule by cut waits.
+    skipped: Duration,
+    /// Waits cut.
+    cut: u64,
+}
+
+impl Pacer {
+    /// Refuses a paced replay of `order` that would take longer than
+    /// [`MAX_PACED_REPLAY_S`] with every wait cut as [`Pacer::wait`] cuts it.
+    fn new(order: &[(u64, usize)], pace: Option<f64>) -> anyhow::Result<Self> {
+        if let Some(p) = pace {
+            let total_s: f64 = order
+                .windows(2)
+                .map(|w| (w[1].0.saturating_sub(w[0].0) as f64 * 1e-6 * p).min(MAX_PACED_WAIT_S))
+                .sum();
+            if total_s > MAX_PACED_REPLAY_S {
+                anyhow::bail!(
+                    "at this --speed the paced replay would take {total_s:.0} s (limit \
+                     {MAX_PACED_REPLAY_S:.0} s): raise --speed or use --as-fast-as-possible"
+                );
+            }
+        }
+        Ok(Self {
+            pace,
+            start: Instant::now(),
+            first_us: None,
+            skipped: Duration::ZERO,
+            cut: 0,
+        })
+    }
+
+    /// Sleeps until record time `t_us` is due (or `quit` is set).
+    fn wait(&mut self, t_us: u64, quit: &AtomicBool) {
+        let Some(p) = self.pace else { return };
+        let first = *self.first_us.get_or_insert(t_us);
+        let due_s = t_us.saturating_sub(first) as f64 * 1e-6 * p;
+        let due = Duration::from_secs_f64(due_s.min(1e15)).saturating_sub(self.skipped);
+        let now = self.start.elapsed();
+        let Some(mut wait) = due.checked_sub(now) else {
+            return;
+        };
+        let longest = Duration::from_secs_f64(MAX_PACED_WAIT_S);
+        if wait > longest {
+            self.skipped += wait - longest;
+            self.cut += 1;
+            wait = longest;
+        }
+        let end = now + wait;
+        while !quit.load(Ordering::Relaxed) {
+            let left = end.saturating_sub(self.start.elapsed());
+            if left.is_zero() {
+                break;
+            }
+            std::thread::sleep(left.min(Duration::from_millis(50)));
         }
     }
 }

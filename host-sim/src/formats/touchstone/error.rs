@@ -55,6 +55,16 @@ pub enum TouchstoneErrorKind {
         /// Last line the record took numbers from.
         last_line: usize,
     },
+    /// A value whose real or imaginary part is beyond the single-precision range the gate
+    /// works in (±3.4e38), or not finite after its format's conversion (dB of 1e308).
+    BeyondSinglePrecision {
+        /// Which value of the record, from 1.
+        value: usize,
+        /// Its real part.
+        re: f64,
+        /// Its imaginary part.
+        im: f64,
+    },
     /// A frequency that is negative.
     NegativeFrequency(f64),
     /// A frequency not above the one before it.
@@ -124,6 +134,15 @@ pub enum TouchstoneErrorKind {
     Grid(GridError),
 }
 
+/// The message of [`TouchstoneErrorKind::BeyondSinglePrecision`].
+fn beyond_single(f: &mut fmt::Formatter<'_>, value: usize, re: f64, im: f64) -> fmt::Result {
+    write!(
+        f,
+        "value {value} of the record is {re:e}{im:+e}j, beyond the single-precision range \
+         (±3.4e38) the gate works in"
+    )
+}
+
 impl fmt::Display for TouchstoneErrorKind {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
@@ -156,13 +175,15 @@ impl fmt::Display for TouchstoneErrorKind {
                     String::new()
                 }
             ),
+            Self::BeyondSinglePrecision { value, re, im } => beyond_single(f, *value, *re, *im),
             Self::NegativeFrequency(x) => write!(f, "negative frequency {x} Hz"),
             Self::NotIncreasing {
                 previous_hz,
                 found_hz,
             } => write!(
                 f,
-                "frequency {found_hz} Hz is not above the previous one, {previous_hz} Hz"
+                "frequency {found_hz} Hz is not above the previous one, {previous_hz} Hz \
+                 (frequencies must increase; descending data is not read)"
             ),
             Self::UnknownKeyword(k) => write!(f, "unknown keyword [{k}]"),
             Self::UnsupportedVersion(v) => write!(f, "unsupported Touchstone version `{v}` (1.1 and 2.0 are read)"),

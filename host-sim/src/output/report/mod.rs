@@ -22,6 +22,9 @@
 //!   normalized to peak, against angle and in polar form.
 //! - `impulse-boresight.svg`: the impulse response of the bin nearest 0° with the gate.
 //!
+//! The folder is written as one set (see [`write_report`]): a failed run leaves the last
+//! good run's files, never a mix.
+//!
 //! Plots are SVG drawn by `plotters` with its SVG backend: text is written as SVG text
 //! elements, so no fonts are needed on the machine.
 
@@ -36,6 +39,7 @@ use serde_json::{json, Value};
 use sweepgate::bins::BinFlags;
 use sweepgate::metrics::{pattern_metrics, wrap_deg, Coverage, PatternMetrics};
 
+use crate::formats::files::{check_output_dir, write_set, FileError};
 use crate::units::{db, FLOOR_DB};
 
 /// One pattern frequency's values in one bin.
@@ -417,31 +421,78 @@ pub fn summary_json(input: &ReportInput) -> Value {
     })
 }
 
-/// Writes the report folder; returns the files written.
-pub fn write_report(input: &ReportInput, dir: &Path) -> anyhow::Result<Vec<PathBuf>> {
-    std::fs::create_dir_all(dir).with_context(|| format!("creating {}", dir.display()))?;
-    let mut files = Vec::new();
-    let csv = dir.join("pattern.csv");
-    std::fs::write(&csv, pattern_csv(input)).with_context(|| format!("{}", csv.display()))?;
-    files.push(csv);
-    let sum = dir.join("summary.json");
-    let text = serde_json::to_string_pretty(&summary_json(input))?;
-    std::fs::write(&sum, text + "\n").with_context(|| format!("{}", sum.display()))?;
-    files.push(sum);
+/// The report's files and their contents, made in memory (nothing is written).
+pub fn report_files(input: &ReportInput) -> anyhow::Result<Vec<(String, Vec<u8>)>> {
+    let mut files = vec![("pattern.csv".to_owned(), pattern_csv(input).into_bytes())];
+    let text = serde_json::to_string_pretty(&summary_json(input)).context("making summary.json")?;
+    files.push(("summary.json".to_owned(), (text + "\n").into_bytes()));
     if !input.bins.is_empty() {
         for (fi, f) in input.frequencies_hz.iter().enumerate() {
-            let p = dir.join(format!("pattern-rect-{}.svg", mhz_name(*f)));
-            plot::rect(&p, input, fi)?;
-            files.push(p);
-            let p = dir.join(format!("pattern-polar-{}.svg", mhz_name(*f)));
-            plot::polar(&p, input, fi)?;
-            files.push(p);
+            let name = format!("pattern-rect-{}.svg", mhz_name(*f));
+            let svg = plot::rect(&name, input, fi)?;
+            files.push((name, svg.into_bytes()));
+            let name = format!("pattern-polar-{}.svg", mhz_name(*f));
+            let svg = plot::polar(&name, input, fi)?;
+            files.push((name, svg.into_bytes()));
         }
     }
     if let Some(iv) = &input.impulse {
-        let p = dir.join("impulse-boresight.svg");
-        plot::impulse(&p, input, iv)?;
-        files.push(p);
+        let name = IMPULSE_PLOT.to_owned();
+        let svg = plot::impulse(&name, input, iv)?;
+        files.push((name, svg.into_bytes()));
+    }
+    Ok(files)
+}
+
+/// The impulse plot's file name.
+const IMPULSE_PLOT: &str = "impulse-boresight.svg";
+
+/// Whether `name` is one of the names a report writes (table, summary, plots).
+fn is_report_name(name: &str) -> bool {
+    let plot = |prefix: &str| {
+        name.strip_prefix(prefix)
+            .and_then(|r| r.strip_suffix("MHz.svg"))
+            .is_some_and(|mhz| !mhz.is_empty() && mhz.bytes().all(|b| b.is_ascii_digit()))
+    };
+    matches!(name, "pattern.csv" | "summary.json" | IMPULSE_PLOT)
+        || plot("pattern-rect-")
+        || plot("pattern-polar-")
+}
+
+/// Writes the report folder as one set; returns the files written.
+///
+/// Every file is made in memory first, then written by [`write_set`]: each to a temporary
+/// name and synced, and only when all are on the disk renamed into place. So a run that
+/// fails (a refused input, a full disk, an unwritable folder) leaves the folder as the last
+/// good run left it, and the error names the file that could not be written. After the
+/// renames, report files of an earlier run that this run does not write (plots at other
+/// pattern frequencies, an impulse plot this run has none of) are removed, so the folder
+/// always holds one run's consistent set. Files with other names are left alone.
+pub fn write_report(input: &ReportInput, dir: &Path) -> anyhow::Result<Vec<PathBuf>> {
+    let made = report_files(input)?;
+    check_output_dir(dir)?;
+    let set: Vec<(PathBuf, Vec<u8>)> = made
+        .into_iter()
+        .map(|(name, bytes)| (dir.join(name), bytes))
+        .collect();
+    write_set(&set)?;
+    let files: Vec<PathBuf> = set.into_iter().map(|(p, _)| p).collect();
+    let entries = std::fs::read_dir(dir).map_err(|source| FileError::Io {
+        action: "listing",
+        path: dir.to_path_buf(),
+        source,
+    })?;
+    for entry in entries.flatten() {
+        let path = entry.path();
+        let name = entry.file_name();
+        let stale = name.to_str().is_some_and(is_report_name) && !files.contains(&path);
+        if stale && entry.file_type().is_ok_and(|t| t.is_file()) {
+            std::fs::remove_file(&path).map_err(|source| FileError::Io {
+                action: "removing the earlier run's",
+                path: path.clone(),
+                source,
+            })?;
+        }
     }
     Ok(files)
 }

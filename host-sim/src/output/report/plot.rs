@@ -3,7 +3,6 @@
 //! drawn with their legend entries, and the legend box.
 
 use std::ops::Range;
-use std::path::Path;
 
 use anyhow::Context;
 use plotters::coord::types::RangedCoordf64;
@@ -34,9 +33,9 @@ struct Curve {
 type Area<'b> = DrawingArea<SVGBackend<'b>, Shift>;
 type Chart<'a, 'b> = ChartContext<'a, SVGBackend<'b>, Cartesian2d<RangedCoordf64, RangedCoordf64>>;
 
-/// A white SVG drawing area of `size` pixels at `path`.
-fn canvas(path: &Path, size: (u32, u32)) -> anyhow::Result<Area<'_>> {
-    let root = SVGBackend::new(path, size).into_drawing_area();
+/// A white SVG drawing area of `size` pixels drawn into `svg`.
+fn canvas(svg: &mut String, size: (u32, u32)) -> anyhow::Result<Area<'_>> {
+    let root = SVGBackend::with_string(svg, size).into_drawing_area();
     root.fill(&WHITE).context("filling the background")?;
     Ok(root)
 }
@@ -86,7 +85,7 @@ fn draw_curves(chart: &mut Chart<'_, '_>, curves: Vec<Curve>) -> anyhow::Result<
     Ok(())
 }
 
-/// The legend box at `position`, then the file is written.
+/// The legend box at `position`, then the drawing is finished into its text.
 fn finish<'a, 'b: 'a>(
     mut chart: Chart<'a, 'b>,
     root: &Area<'b>,
@@ -99,7 +98,7 @@ fn finish<'a, 'b: 'a>(
         .position(position)
         .draw()
         .context("drawing the legend")?;
-    root.present().context("writing the file")
+    root.present().context("finishing the drawing")
 }
 
 /// The free-space truth (when known, wide and light, drawn first so the gated curve over
@@ -132,15 +131,16 @@ fn pattern_curves(
 }
 
 /// The pattern against angle, normalized to its peak.
-pub(super) fn rect(path: &Path, input: &ReportInput, fi: usize) -> anyhow::Result<()> {
-    let plot = || -> anyhow::Result<()> {
+pub(super) fn rect(name: &str, input: &ReportInput, fi: usize) -> anyhow::Result<String> {
+    let mut svg = String::new();
+    let mut plot = || -> anyhow::Result<()> {
         let angles = input.cut(fi).angles_deg;
         let f = input.frequencies_hz.get(fi).copied().unwrap_or(0.0);
         let (x0, x1) = match (angles.first(), angles.last()) {
             (Some(a), Some(b)) if b > a => (*a, *b),
             _ => (-180.0, 180.0),
         };
-        let root = canvas(path, (960, 560))?;
+        let root = canvas(&mut svg, (960, 560))?;
         let mut chart = frame(
             &root,
             format!("{}: pattern at {:.3} GHz", input.title, f / 1e9),
@@ -152,7 +152,8 @@ pub(super) fn rect(path: &Path, input: &ReportInput, fi: usize) -> anyhow::Resul
         draw_curves(&mut chart, curves)?;
         finish(chart, &root, SeriesLabelPosition::LowerRight)
     };
-    plot().with_context(|| format!("plotting {}", path.display()))
+    plot().with_context(|| format!("plotting {name}"))?;
+    Ok(svg)
 }
 
 /// Radius of a level on the polar plot: 1 at the peak, 0 at [`PLOT_FLOOR_DB`].
@@ -201,10 +202,11 @@ fn polar_grid(chart: &mut Chart<'_, '_>) -> anyhow::Result<()> {
 }
 
 /// The pattern in polar form, normalized to its peak; a full circle is closed.
-pub(super) fn polar(path: &Path, input: &ReportInput, fi: usize) -> anyhow::Result<()> {
-    let plot = || -> anyhow::Result<()> {
+pub(super) fn polar(name: &str, input: &ReportInput, fi: usize) -> anyhow::Result<String> {
+    let mut svg = String::new();
+    let mut plot = || -> anyhow::Result<()> {
         let f = input.frequencies_hz.get(fi).copied().unwrap_or(0.0);
-        let root = canvas(path, (760, 800))?;
+        let root = canvas(&mut svg, (760, 800))?;
         let mut chart = frame(
             &root,
             format!("{}: polar pattern at {:.3} GHz", input.title, f / 1e9),
@@ -224,7 +226,8 @@ pub(super) fn polar(path: &Path, input: &ReportInput, fi: usize) -> anyhow::Resu
         draw_curves(&mut chart, curves)?;
         finish(chart, &root, SeriesLabelPosition::UpperRight)
     };
-    plot().with_context(|| format!("plotting {}", path.display()))
+    plot().with_context(|| format!("plotting {name}"))?;
+    Ok(svg)
 }
 
 /// The impulse response, the response after the gate and the gate itself, in dB against
@@ -298,10 +301,11 @@ fn gate_marks(chart: &mut Chart<'_, '_>, iv: &ImpulseView) -> anyhow::Result<()>
 }
 
 /// The impulse response of one bin with the gate.
-pub(super) fn impulse(path: &Path, input: &ReportInput, iv: &ImpulseView) -> anyhow::Result<()> {
-    let plot = || -> anyhow::Result<()> {
+pub(super) fn impulse(name: &str, input: &ReportInput, iv: &ImpulseView) -> anyhow::Result<String> {
+    let mut svg = String::new();
+    let mut plot = || -> anyhow::Result<()> {
         let t_end = iv.time_ns.last().copied().unwrap_or(1.0).max(1e-3);
-        let root = canvas(path, (960, 560))?;
+        let root = canvas(&mut svg, (960, 560))?;
         let mut chart = frame(
             &root,
             format!(
@@ -316,5 +320,6 @@ pub(super) fn impulse(path: &Path, input: &ReportInput, iv: &ImpulseView) -> any
         gate_marks(&mut chart, iv)?;
         finish(chart, &root, SeriesLabelPosition::UpperRight)
     };
-    plot().with_context(|| format!("plotting {}", path.display()))
+    plot().with_context(|| format!("plotting {name}"))?;
+    Ok(svg)
 }

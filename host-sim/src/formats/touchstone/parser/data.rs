@@ -86,7 +86,9 @@ impl Parser<'_> {
             self.record_start = self.line;
             // Version 1.1 2-port noise data follows the network data and starts at a
             // frequency not above the last network frequency.
-            if !self.is_v2() && n == 2 {
+            // A line of another length going back is a descending network record, refused
+            // below as not increasing.
+            if !self.is_v2() && n == 2 && content.split_whitespace().count() == 5 {
                 if let (Some(first), Some(&last_hz)) = (
                     content.split_whitespace().next(),
                     self.frequencies_hz.last(),
@@ -157,6 +159,21 @@ impl Parser<'_> {
             .chunks_exact(2)
             .map(|p| fmt.to_complex(p[0], p[1]))
             .collect();
+        let single = f64::from(f32::MAX);
+        if let Some((k, v)) = vals
+            .iter()
+            .enumerate()
+            .find(|(_, v)| !(v.re.abs() <= single && v.im.abs() <= single))
+        {
+            return Err(self.err_at(
+                at,
+                TouchstoneErrorKind::BeyondSinglePrecision {
+                    value: k + 1,
+                    re: v.re,
+                    im: v.im,
+                },
+            ));
+        }
         let base = self.data.len();
         self.data.resize(base + n * n, Complex64::new(0.0, 0.0));
         let order = self.two_port_order.unwrap_or(TwoPortOrder::Order21_12);

@@ -5,6 +5,7 @@ use super::{Parser, Section};
 use crate::formats::touchstone::{
     MatrixFormat, TouchstoneError, TouchstoneErrorKind, TwoPortOrder, Version, MAX_PORTS,
 };
+use crate::quote::clipped;
 
 /// A keyword line: the keyword as written (for messages) and its lower-cased value.
 struct Keyword {
@@ -68,19 +69,19 @@ impl Parser<'_> {
                 self.version = Some(Version::V2_0);
                 Ok(())
             }
-            v => Err(self.err(TouchstoneErrorKind::UnsupportedVersion(v.to_string()))),
+            v => Err(self.err(TouchstoneErrorKind::UnsupportedVersion(clipped(v)))),
         }
     }
 
     fn bad_value(&self, k: &Keyword) -> TouchstoneError {
         self.err(TouchstoneErrorKind::BadKeywordValue {
-            keyword: k.display.clone(),
-            value: k.value.clone(),
+            keyword: clipped(&k.display),
+            value: clipped(&k.value),
         })
     }
 
     fn duplicate(&self, k: &Keyword) -> TouchstoneError {
-        self.err(TouchstoneErrorKind::DuplicateKeyword(k.display.clone()))
+        self.err(TouchstoneErrorKind::DuplicateKeyword(clipped(&k.display)))
     }
 
     /// The keyword's value as a count.
@@ -216,9 +217,5 @@ pub(super) fn keyword_name(content: &str) -> (String, String) {
 /// The keyword as written, for messages.
 fn keyword_display(content: &str) -> String {
     let inner = content.strip_prefix('[').unwrap_or(content);
-    inner
-        .split_once(']')
-        .map_or(inner, |(n, _)| n)
-        .trim()
-        .to_string()
+    clipped(inner.split_once(']').map_or(inner, |(n, _)| n).trim())
 }

@@ -15,6 +15,8 @@ use super::{
 };
 use keywords::keyword_name;
 
+use crate::quote::clipped;
+
 /// Port count from a `.s<N>p` extension.
 pub(super) fn ports_from_name(name: &str) -> Option<usize> {
     let ext = Path::new(name).extension()?.to_str()?.to_ascii_lowercase();
@@ -30,8 +32,8 @@ fn parse_number(tok: &str) -> Result<f64, TouchstoneErrorKind> {
     match tok.parse::<f64>() {
         Ok(x) if x.is_finite() => Ok(x),
         // Rust also accepts `inf`, `nan`, `infinity`: refuse them as not finite.
-        Ok(_) => Err(TouchstoneErrorKind::NonFiniteNumber(tok.to_string())),
-        Err(_) => Err(TouchstoneErrorKind::BadNumber(tok.to_string())),
+        Ok(_) => Err(TouchstoneErrorKind::NonFiniteNumber(clipped(tok))),
+        Err(_) => Err(TouchstoneErrorKind::BadNumber(clipped(tok))),
     }
 }
 

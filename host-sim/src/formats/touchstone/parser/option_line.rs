@@ -75,7 +75,11 @@ impl Parser<'_> {
                     return Err(dup("reference resistance"));
                 }
             } else {
-                return Err(self.err(TouchstoneErrorKind::UnknownOption(tok.to_string())));
+                return Err(
+                    self.err(TouchstoneErrorKind::UnknownOption(crate::quote::clipped(
+                        tok,
+                    ))),
+                );
             }
         }
         self.options = Some(o);
