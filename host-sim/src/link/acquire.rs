@@ -49,6 +49,24 @@
 //! points_query = "SENSe:SWEep:POINts?"     # or points = 201
 //! ```
 //!
+//! # Set-up, verified
+//!
+//! Each `[[settings]]` entry is set after `setup` (its `set`, when given) and then read
+//! back with its `query` before the scan: the answer must be `expect`, as a number within
+//! `tolerance` (relative, default 1e-9) or as text (case and quotes aside). Any mismatch
+//! stops `acquire` before the recording is created, naming each setting, what the
+//! instrument answered and what the profile says. Give one entry per thing the scan
+//! depends on: sweep range and points, IF bandwidth, power, the trace, data format and
+//! byte order (`host-sim/profiles/simulated-fixed.toml` sets and checks all of them).
+//!
+//! ```toml
+//! [[settings]]
+//! name = "IF bandwidth"
+//! set = "SENSe:BANDwidth 1000"      # optional
+//! query = "SENSe:BANDwidth?"
+//! expect = "1000"
+//! ```
+//!
 //! A string whose header (first word) ends with `?` is a query: one answer line is read
 //! (and, in `setup`, printed). An error queue answer starting with `0,` or `+0,` means
 //! "no error"; any other entry after setup stops the acquisition with the entries.
@@ -300,6 +318,43 @@ pub struct Profile {
     /// counted.
     #[serde(default = "default_positioner_queue")]
     pub positioner_queue: usize,
+    /// Settings made after `setup` and read back before the scan.
+    #[serde(default)]
+    pub settings: Vec<SettingSpec>,
+}
+
+/// One `[[settings]]` entry: a setting the instrument must hold before the scan.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SettingSpec {
+    /// What it is, for messages (e.g. "IF bandwidth").
+    pub name: String,
+    /// Command that sets it (optional: `setup` may have set it).
+    pub set: Option<String>,
+    /// Query that reads it back.
+    pub query: String,
+    /// The value the query must answer: compared as numbers when both read as numbers
+    /// (within `tolerance`, relative), else as text (case and quotes aside).
+    pub expect: String,
+    /// Relative tolerance of a numeric comparison (default 1e-9).
+    #[serde(default = "default_tolerance")]
+    pub tolerance: f64,
+}
+
+fn default_tolerance() -> f64 {
+    1e-9
+}
+
+impl SettingSpec {
+    /// Whether `answer` holds the expected value.
+    pub fn accepts(&self, answer: &str) -> bool {
+        let unquote = |t: &str| t.trim().trim_matches('"').trim().to_owned();
+        let (a, e) = (unquote(answer), unquote(&self.expect));
+        match (a.parse::<f64>(), e.parse::<f64>()) {
+            (Ok(x), Ok(y)) => (x - y).abs() <= self.tolerance * x.abs().max(y.abs()),
+            _ => a.eq_ignore_ascii_case(&e),
+        }
+    }
 }
 
 fn default_timeout() -> f64 {
@@ -367,6 +422,17 @@ impl Profile {
                 "retry_backoff_s must be 0 to 60 (got {})",
                 p.retry_backoff_s
             );
+        }
+        for st in &p.settings {
+            if !is_query(&st.query) || st.set.as_deref().is_some_and(is_query) {
+                bail!(
+                    "[[settings]] {:?}: `query` must be a query and `set` must not be one",
+                    st.name
+                );
+            }
+            if !(st.tolerance.is_finite() && (0.0..1.0).contains(&st.tolerance)) {
+                bail!("[[settings]] {:?}: tolerance must be 0 to below 1", st.name);
+            }
         }
         if p.retries > 16 {
             bail!("retries must be at most 16 (got {})", p.retries);
@@ -1097,12 +1163,18 @@ fn connect_and_set_up(
             link.send(cmd)?;
         }
     }
+    for st in &profile.settings {
+        if let Some(cmd) = &st.set {
+            link.send(cmd)?;
+        }
+    }
     if let Some(q) = &profile.error_query {
         let e = link.errors(q)?;
         if !e.is_empty() {
             bail!("instrument error queue after setup: {}", e.join("; "));
         }
     }
+    verify_settings(&mut link, &profile.settings)?;
     let grid = query_grid(&mut link, &profile.grid)?;
     eprintln!(
         "grid: {} Hz to {} Hz, {} points; format {}",
@@ -1112,6 +1184,34 @@ fn connect_and_set_up(
         profile.format
     );
     Ok((link, idn, grid))
+}
+
+/// Reads back every `[[settings]]` entry; any mismatch stops before the scan, naming each.
+fn verify_settings(link: &mut Link, settings: &[SettingSpec]) -> anyhow::Result<()> {
+    let mut wrong = Vec::new();
+    for st in settings {
+        let a = link.query(&st.query)?;
+        if !st.accepts(&a) {
+            wrong.push(format!(
+                "{}: {:?} answered {}, the profile says {:?}",
+                st.name,
+                st.query,
+                shown(&a),
+                st.expect
+            ));
+        }
+    }
+    if !wrong.is_empty() {
+        bail!(
+            "the instrument's set-up does not match the profile, nothing was recorded: {}",
+            wrong.join("; ")
+        );
+    }
+    if !settings.is_empty() {
+        let names: Vec<&str> = settings.iter().map(|s| s.name.as_str()).collect();
+        eprintln!("set-up read back as the profile says: {}", names.join(", "));
+    }
+    Ok(())
 }
 
 /// The grid from the profile's fixed values or queries.
