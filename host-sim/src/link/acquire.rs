@@ -3,7 +3,8 @@
 //!
 //! ```text
 //! sweepgate acquire [--profile FILE] --instrument HOST:PORT
-//!                   [--positioner HOST:PORT | --positioner-sim --scenario FILE]
+//!                   [--positioner HOST:PORT | --positioner-sim --scenario FILE
+//!                    | --drive HOST:PORT (--steps=FROM:TO:STEP | --turn=FROM:TO:SPEED)]
 //!                   [--sweeps N] [--linger-s S] --out REC
 //!                   [--gate-center-ns T] [--gate-span-ns S] [--band-window W] [--gate-shape W]
 //!                   [--frequencies-hz F1,F2] [--bin-width-deg W]
@@ -163,6 +164,28 @@
 //! refused, samples dropped, the clock fit) and the reason; the same counts are printed
 //! on the terminal at the end.
 //!
+//! # Driving a positioner
+//!
+//! `--drive HOST:PORT` drives a positioner speaking the turntable line protocol
+//! ([`crate::link::drive`]; `sweepgate positioner` simulates one). After the instrument is
+//! set up, `acquire` asks the positioner its limits and keeps the tighter of those and of
+//! `--angle-range`, `--max-speed-deg-s`, `--max-accel-deg-s2`; a plan outside them is refused
+//! before anything moves. `--steps=FROM:TO:STEP` steps and stops: move at
+//! `--move-speed-deg-s`, wait until the angle stays within `--settle-tolerance-deg` of the
+//! step for `--settle-s` (at most `--settle-timeout-s`), sweep, next.
+//! `--turn=FROM:TO:SPEED` moves to FROM, settles, turns toward TO at SPEED, sweeps while
+//! it turns, and stops once past TO. The status is read every 20 ms while settling and
+//! before and after each sweep; each reading is recorded as an angle sample, timed by the
+//! clock fit of [`crate::link::clock`] (the positioner's time taken half-way through the
+//! exchange; exchanges with a long round trip are left out of the fit). A fault reported
+//! by the positioner, an angle outside the range, a link failure, SIGINT (Ctrl-C) or
+//! SIGTERM ends the scan: the positioner is sent `STOP` and watched until it reports no
+//! motion, the recording is ended cleanly, and `acquire` exits non-zero with the reason.
+//!
+//! Caution: keep clear of the positioner's whole swept volume while it is driven, and
+//! follow local regulations and the lab's safety practice for moving machinery; these
+//! software limits are no interlock.
+//!
 //! # Stopping
 //!
 //! After `--sweeps N` or at the end of the simulated schedule, whichever comes first;
@@ -175,7 +198,8 @@ use std::collections::BTreeSet;
 use std::io::{Read, Write};
 use std::net::{TcpStream, ToSocketAddrs};
 use std::path::{Path, PathBuf};
-use std::sync::mpsc;
+use std::sync::atomic::AtomicBool;
+use std::sync::{mpsc, Arc};
 use std::time::{Duration, Instant};
 
 use anyhow::{bail, Context};
@@ -190,7 +214,8 @@ use crate::formats::block::{parse_format, parse_order};
 use crate::formats::files::{check_output_dir, refuse_if_same_file};
 use crate::formats::recording::{kind, GridInfo, Header, Record, SyncPolicy, Writer, SWEEP_FORMAT};
 use crate::limits::{self, MAX_FREQUENCIES};
-use crate::link::clock::ClockEstimate;
+use crate::link::clock::{ClockEstimate, ClockFit};
+use crate::link::drive::{Drive, DriveOptions, DriveStatus, Kept, LineDrive, Motion, Plan};
 use crate::link::lines::{self, PosMsg, Positioner};
 use crate::model::scenario::Scenario;
 use crate::model::simulator::{Sample, Simulator};
@@ -232,6 +257,8 @@ pub struct Options {
     pub gate: GateOptions,
     /// Angle bin width for the live engine, degrees (default: the scenario's, else 1).
     pub bin_width_deg: Option<f64>,
+    /// Drive a positioner through a plan (instead of `positioner`).
+    pub drive: Option<DriveOptions>,
 }
 
 /// `[grid]` of a profile.
@@ -760,6 +787,8 @@ pub enum AngleSource {
     Lines(String),
     /// The simulator's positioner model.
     Sim(Box<Scenario>, u64),
+    /// A positioner driven through a plan.
+    Drive(Box<DriveOptions>),
 }
 
 /// What to acquire.
@@ -784,6 +813,8 @@ enum Angles {
     None,
     /// A line server; `done` once it closed.
     Lines { pos: Positioner, done: bool },
+    /// A driven positioner.
+    Drive(Box<Driven>),
     /// The simulator's samples and sweep schedule; `next` is the first sample not yet sent.
     Sim {
         samples: Vec<Sample>,
@@ -791,6 +822,91 @@ enum Angles {
         duration_s: f64,
         next: usize,
     },
+}
+
+/// A positioner being driven, its limits, its clock fit, and the stop flag (Ctrl-C).
+pub struct Driven {
+    drive: Box<dyn Drive + Send>,
+    opts: DriveOptions,
+    kept: Kept,
+    clock: ClockFit,
+    last_t_us: u64,
+    /// Shortest round trip of a status exchange seen, µs.
+    best_rtt_us: f64,
+    stop: Arc<AtomicBool>,
+}
+
+/// A status exchange whose round trip is longer than the shortest seen times this (plus
+/// [`RTT_SLACK_US`]) is left out of the clock fit: its arrival time says little.
+const RTT_FACTOR: f64 = 2.0;
+/// See [`RTT_FACTOR`], µs.
+const RTT_SLACK_US: f64 = 200.0;
+
+impl Driven {
+    /// Connects, identifies, checks the plan against the limits, sets the acceleration,
+    /// and stops on SIGINT/SIGTERM from now on.
+    fn start(opts: DriveOptions, timeout: Duration) -> anyhow::Result<Self> {
+        let mut drive = LineDrive::connect(&opts.addr, timeout)?;
+        let id = drive.identify()?;
+        let reported = drive.limits()?;
+        let kept = opts.check(&reported).context("the positioner plan")?;
+        drive.set_accel(kept.accel_deg_s2)?;
+        let stop = Arc::new(AtomicBool::new(false));
+        for sig in [signal_hook::consts::SIGINT, signal_hook::consts::SIGTERM] {
+            signal_hook::flag::register(sig, Arc::clone(&stop))
+                .context("setting up the stop on Ctrl-C")?;
+        }
+        eprintln!(
+            "positioner: {id}; angle range {}° to {}°, speed at most {} °/s, acceleration {} °/s²",
+            kept.range_deg.0, kept.range_deg.1, kept.max_speed_deg_s, kept.accel_deg_s2
+        );
+        Ok(Self {
+            drive: Box::new(drive),
+            opts,
+            kept,
+            clock: ClockFit::default(),
+            last_t_us: 0,
+            best_rtt_us: f64::INFINITY,
+            stop,
+        })
+    }
+
+    /// Reads the status; its time on our clock by the clock fit. The positioner's time
+    /// is taken to be half-way through the exchange; only exchanges with a short round
+    /// trip (within [`RTT_FACTOR`] of the shortest, plus [`RTT_SLACK_US`]) go into the
+    /// fit, so a delayed reply does not pull it.
+    fn read(&mut self, epoch: Instant) -> anyhow::Result<(DriveStatus, u64)> {
+        if self.stop.load(std::sync::atomic::Ordering::Relaxed) {
+            bail!("stopped by a signal (Ctrl-C)");
+        }
+        let sent = epoch.elapsed().as_secs_f64() * 1e6;
+        let st = self.drive.status()?;
+        let got = epoch.elapsed().as_secs_f64() * 1e6;
+        let rtt = got - sent;
+        self.best_rtt_us = self.best_rtt_us.min(rtt);
+        if rtt <= self.best_rtt_us * RTT_FACTOR + RTT_SLACK_US {
+            self.clock.add(st.t_us as f64, (sent + got) / 2.0);
+        }
+        let t = (self.clock.to_host_us(st.t_us as f64).max(0.0) as u64).max(self.last_t_us);
+        self.last_t_us = t;
+        Ok((st, t))
+    }
+
+    /// A fault, or an angle outside the kept range, stops the scan.
+    fn check(&self, st: &DriveStatus) -> anyhow::Result<()> {
+        if st.motion == Motion::Fault {
+            bail!("the positioner reported a fault at {:.3}°", st.angle_deg);
+        }
+        let (lo, hi) = self.kept.range_deg;
+        let tol = self.opts.settle_tolerance_deg;
+        if st.angle_deg < lo - tol || st.angle_deg > hi + tol {
+            bail!(
+                "the positioner at {:.3}° is outside the angle range {lo}° to {hi}°",
+                st.angle_deg
+            );
+        }
+        Ok(())
+    }
 }
 
 /// The live engine and what it prints.
@@ -1268,6 +1384,7 @@ fn start_angles(
             },
             None,
         ),
+        AngleSource::Drive(o) => (Angles::Drive(Box::new(Driven::start(*o, timeout)?)), None),
         AngleSource::Sim(s, seed) => {
             s.validate()?;
             let mut sim = Simulator::new(&s, seed);
@@ -1357,6 +1474,9 @@ fn live_engine(header: &mut Header, choices: &Choices) -> anyhow::Result<Option<
 impl Session<'_> {
     /// Takes sweeps until a stop condition; returns the fault that stopped it, if any.
     fn sweeps(&mut self, max_sweeps: Option<u64>) -> Option<anyhow::Error> {
+        if matches!(self.angles, Angles::Drive(_)) {
+            return self.driven(max_sweeps);
+        }
         let mut sweep = vec![Complex32::new(0.0, 0.0); self.points];
         while !self.should_stop(max_sweeps) {
             let t_start = match self.take_with_retries(&mut sweep) {
@@ -1539,6 +1659,10 @@ impl Session<'_> {
                 }
                 (t_start, t_end)
             }
+            Angles::Drive(_) => {
+                self.poll()?;
+                (t_start, t_end)
+            }
             Angles::None => (t_start, t_end),
         };
         self.rec.sweep(start_us, end_us, sweep)
@@ -1605,6 +1729,149 @@ impl Session<'_> {
             sum.setup = Some(e.setup);
         }
         Ok(sum)
+    }
+}
+
+/// Polls between moves, ms.
+const POLL_MS: u64 = 20;
+
+impl Session<'_> {
+    /// A driven scan: the plan, then the positioner stopped whatever happened.
+    fn driven(&mut self, max_sweeps: Option<u64>) -> Option<anyhow::Error> {
+        let ran = self.drive_plan(max_sweeps);
+        let stopped = self.stop_drive();
+        match (ran, stopped) {
+            (Err(e), Ok(())) => Some(e),
+            (Err(e), Err(s)) => Some(e.context(format!("and stopping failed: {s:#}"))),
+            (Ok(()), Err(s)) => Some(s),
+            (Ok(()), Ok(())) => None,
+        }
+    }
+
+    fn driven_mut(&mut self) -> anyhow::Result<&mut Driven> {
+        match &mut self.angles {
+            Angles::Drive(d) => Ok(d),
+            _ => bail!("no positioner to drive"),
+        }
+    }
+
+    /// Reads the positioner's status, records it as an angle sample, checks it.
+    fn poll(&mut self) -> anyhow::Result<DriveStatus> {
+        let epoch = self.epoch;
+        let cpt = f64::from(self.profile.counts_per_turn);
+        let d = self.driven_mut()?;
+        let (st, t_us) = d.read(epoch)?;
+        let clock = d.clock.estimate();
+        let counts = (st.angle_deg / 360.0 * cpt).round() as i64;
+        self.rec.position(t_us, counts, st.angle_deg)?;
+        self.rec.sum.clock = clock;
+        self.driven_mut()?.check(&st)?;
+        Ok(st)
+    }
+
+    /// Step and stop, or turn, as planned.
+    fn drive_plan(&mut self, max_sweeps: Option<u64>) -> anyhow::Result<()> {
+        let mut sweep = vec![Complex32::new(0.0, 0.0); self.points];
+        let d = self.driven_mut()?;
+        let plan = d.opts.plan;
+        let done = |s: &Self| max_sweeps.is_some_and(|m| s.rec.sum.sweeps >= m);
+        match plan {
+            Plan::Steps { .. } => {
+                for target in plan.targets() {
+                    if done(self) {
+                        break;
+                    }
+                    self.settle_at(target)?;
+                    self.drive_sweep(&mut sweep)?;
+                }
+            }
+            Plan::Turn {
+                from_deg,
+                to_deg,
+                speed_deg_s,
+            } => {
+                self.settle_at(from_deg)?;
+                let dir = if to_deg >= from_deg { 1.0 } else { -1.0 };
+                self.driven_mut()?.drive.turn(dir * speed_deg_s)?;
+                eprintln!("positioner: turning from {from_deg}° to {to_deg}° at {speed_deg_s} °/s");
+                while !done(self) {
+                    let st = self.poll()?;
+                    if (st.angle_deg - to_deg) * dir >= 0.0 {
+                        break;
+                    }
+                    self.drive_sweep(&mut sweep)?;
+                }
+            }
+        }
+        Ok(())
+    }
+
+    /// One sweep while driven: a sample before, the sweep, a sample after (in `record`).
+    fn drive_sweep(&mut self, sweep: &mut [Complex32]) -> anyhow::Result<()> {
+        self.poll()?;
+        let t = match self.take_with_retries(sweep) {
+            Took::Sweep(t) => t,
+            Took::Dropped => return Ok(()),
+            Took::Fatal(e) | Took::Stop(e) => return Err(e),
+        };
+        self.taken += 1;
+        self.record(t, sweep)
+    }
+
+    /// Moves to `target` and waits until the angle stays within the tolerance for the
+    /// settling time, or the settling deadline passes.
+    fn settle_at(&mut self, target: f64) -> anyhow::Result<()> {
+        let d = self.driven_mut()?;
+        let (speed, tol) = (d.opts.move_speed_deg_s, d.opts.settle_tolerance_deg);
+        let hold = Duration::from_secs_f64(d.opts.settle_s);
+        let give_up = Instant::now() + Duration::from_secs_f64(d.opts.settle_timeout_s);
+        d.drive.move_to(target, speed)?;
+        let mut within: Option<Instant> = None;
+        loop {
+            let st = self.poll()?;
+            if (st.angle_deg - target).abs() <= tol && st.motion == Motion::Holding {
+                let since = *within.get_or_insert_with(Instant::now);
+                if since.elapsed() >= hold {
+                    return Ok(());
+                }
+            } else {
+                within = None;
+            }
+            if Instant::now() >= give_up {
+                bail!(
+                    "the positioner did not settle within {tol}° of {target}° in {} s (at {:.3}°)",
+                    self.driven_mut()?.opts.settle_timeout_s,
+                    st.angle_deg
+                );
+            }
+            std::thread::sleep(Duration::from_millis(POLL_MS));
+        }
+    }
+
+    /// Sends a stop and waits (bounded) until the positioner reports no motion.
+    fn stop_drive(&mut self) -> anyhow::Result<()> {
+        let d = self.driven_mut()?;
+        d.drive.stop().context("stopping the positioner")?;
+        let brake_s = d.kept.max_speed_deg_s / d.kept.accel_deg_s2;
+        let give_up = Instant::now() + Duration::from_secs_f64(brake_s + 5.0);
+        loop {
+            // Read without the stop flag: a Ctrl-C must not keep us from seeing it stop.
+            let st = d
+                .drive
+                .status()
+                .context("checking that the positioner stopped")?;
+            if st.motion != Motion::Moving {
+                eprintln!("positioner: stopped at {:.3}°", st.angle_deg);
+                return Ok(());
+            }
+            if Instant::now() >= give_up {
+                bail!(
+                    "the positioner still reports motion {:.1} s after the stop",
+                    brake_s + 5.0
+                );
+            }
+            std::thread::sleep(Duration::from_millis(POLL_MS));
+        }
     }
 }
 
@@ -1723,7 +1990,9 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
     let mut inputs: Vec<&Path> = opts.profile.iter().map(PathBuf::as_path).collect();
     inputs.extend(opts.scenario.as_deref());
     refuse_if_same_file(&opts.out, &inputs)?;
-    let positioner = if let Some(a) = &opts.positioner {
+    let positioner = if let Some(d) = &opts.drive {
+        AngleSource::Drive(Box::new(d.clone()))
+    } else if let Some(a) = &opts.positioner {
         AngleSource::Lines(a.clone())
     } else if opts.positioner_sim {
         let Some(path) = &opts.scenario else {

@@ -1,8 +1,11 @@
 //! Live I/O: the SCPI client and acquisition, the simulated instrument server, preview
-//! sources, the positioner's sample lines and clock fit.
+//! sources, the positioner's sample lines and clock fit, the positioner drive and the
+//! simulated turntable.
 
 pub mod acquire;
 pub mod clock;
+pub mod drive;
 pub mod instrument;
 pub mod lines;
+pub mod turntable;
 pub mod view;
