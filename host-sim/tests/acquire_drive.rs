@@ -382,3 +382,54 @@ fn the_turntable_clock_offset_and_drift_are_recovered() {
         c["samples"]
     );
 }
+
+/// The same protocol over a serial line: the simulated turntable on a pseudo-terminal
+/// (`sweepgate positioner --serial`), `acquire --drive /dev/pts/<n>` stepping across it.
+#[test]
+fn a_step_scan_over_a_serial_line() {
+    let inst = start("drive-serial", &[]);
+    let mut child = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
+        .args(["positioner", "--serial"])
+        .stdout(Stdio::piped())
+        .stderr(Stdio::null())
+        .spawn()
+        .unwrap();
+    let mut line = String::new();
+    BufReader::new(child.stdout.take().unwrap())
+        .read_line(&mut line)
+        .unwrap();
+    let path = line.trim().strip_prefix("serial on ").unwrap().to_owned();
+    let dir = temp_dir("drive-serial");
+    let out = dir.join("serial.rec");
+    let o = acquire(
+        &[
+            "--instrument",
+            &inst.addr,
+            "--drive",
+            &path,
+            "--drive-baud",
+            "115200",
+            "--steps=0:10:5",
+        ],
+        &out,
+    );
+    child.kill().ok();
+    child.wait().ok();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(o.status.success(), "{err}");
+    assert!(
+        err.contains("positioner: sweepgate simulated turntable"),
+        "{err}"
+    );
+    let (sw, pos, _, stop) = read(&out);
+    assert_eq!(stop, Stop::Complete);
+    assert_eq!(sw.len(), 3);
+    for (i, s) in sw.iter().enumerate() {
+        let (b, a) = around(&pos, *s);
+        let target = 5.0 * i as f64;
+        assert!(
+            (b - target).abs() <= 0.05 && (a - target).abs() <= 0.05,
+            "{b} {a}"
+        );
+    }
+}

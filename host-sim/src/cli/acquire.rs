@@ -32,10 +32,14 @@ pub struct Args {
     /// Positioner line server, HOST:PORT.
     #[arg(long, conflicts_with = "positioner_sim")]
     pub positioner: Option<String>,
-    /// Drive a positioner speaking the turntable line protocol, HOST:PORT (with --steps or
+    /// Drive a positioner speaking the turntable line protocol, HOST:PORT or a serial
+    /// device path (with --steps or
     /// --turn). Keep clear of its swept volume; software limits are no interlock.
     #[arg(long, conflicts_with_all = ["positioner", "positioner_sim"])]
     pub drive: Option<String>,
+    /// Serial speed when --drive is a serial device (a path), bits per second.
+    #[arg(long, default_value_t = 115200)]
+    pub drive_baud: u32,
     /// Step and stop: FROM:TO:STEP degrees (move, settle, sweep, next).
     #[arg(
         long,
@@ -101,6 +105,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
         None => None,
         Some(addr) => Some(DriveOptions {
             addr: addr.clone(),
+            baud: a.drive_baud,
             plan: match (&a.steps, &a.turn) {
                 (Some(s), None) => Plan::parse(s, false)?,
                 (None, Some(t)) => Plan::parse(t, true)?,

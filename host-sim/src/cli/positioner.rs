@@ -12,6 +12,9 @@ pub struct Args {
     /// Address to listen on.
     #[arg(long, default_value = "127.0.0.1")]
     pub bind: String,
+    /// Serve a pseudo-terminal (a serial line) instead of TCP; prints its device path.
+    #[arg(long)]
+    pub serial: bool,
     /// Lowest angle; reaching it is a fault, degrees.
     #[arg(long, default_value_t = -370.0, allow_negative_numbers = true)]
     pub min_deg: f64,
@@ -43,21 +46,24 @@ pub struct Args {
 
 /// Runs the command.
 pub fn run(a: Args) -> anyhow::Result<()> {
-    run_server(
-        &a.bind,
-        a.port,
-        TableOptions {
-            limits: DriveLimits {
-                min_deg: a.min_deg,
-                max_deg: a.max_deg,
-                max_speed_deg_s: a.max_speed_deg_s,
-                max_accel_deg_s2: a.max_accel_deg_s2,
-            },
-            ringing_deg: a.ringing_deg,
-            settle_s: a.settle_s,
-            fault_after_s: a.fault_after_s,
-            drift_ppm: a.drift_ppm,
-            clock_offset_s: a.clock_offset_s,
+    let o = TableOptions {
+        limits: DriveLimits {
+            min_deg: a.min_deg,
+            max_deg: a.max_deg,
+            max_speed_deg_s: a.max_speed_deg_s,
+            max_accel_deg_s2: a.max_accel_deg_s2,
         },
-    )
+        ringing_deg: a.ringing_deg,
+        settle_s: a.settle_s,
+        fault_after_s: a.fault_after_s,
+        drift_ppm: a.drift_ppm,
+        clock_offset_s: a.clock_offset_s,
+    };
+    if a.serial {
+        #[cfg(unix)]
+        return crate::link::turntable::run_pty(o);
+        #[cfg(not(unix))]
+        anyhow::bail!("--serial needs a Unix pseudo-terminal");
+    }
+    run_server(&a.bind, a.port, o)
 }

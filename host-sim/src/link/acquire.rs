@@ -166,7 +166,8 @@
 //!
 //! # Driving a positioner
 //!
-//! `--drive HOST:PORT` drives a positioner speaking the turntable line protocol
+//! `--drive HOST:PORT` (or `--drive /dev/ttyUSB0` for a serial line at `--drive-baud`, default
+//! 115200, 8N1) drives a positioner speaking the turntable line protocol
 //! ([`crate::link::drive`]; `sweepgate positioner` simulates one). After the instrument is
 //! set up, `acquire` asks the positioner its limits and keeps the tighter of those and of
 //! `--angle-range`, `--max-speed-deg-s`, `--max-accel-deg-s2`; a plan outside them is refused
@@ -846,7 +847,7 @@ impl Driven {
     /// Connects, identifies, checks the plan against the limits, sets the acceleration,
     /// and stops on SIGINT/SIGTERM from now on.
     fn start(opts: DriveOptions, timeout: Duration) -> anyhow::Result<Self> {
-        let mut drive = LineDrive::connect(&opts.addr, timeout)?;
+        let mut drive = LineDrive::open(&opts.addr, opts.baud, timeout)?;
         let id = drive.identify()?;
         let reported = drive.limits()?;
         let kept = opts.check(&reported).context("the positioner plan")?;

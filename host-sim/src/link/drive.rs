@@ -27,7 +27,7 @@
 //! refuses moves until `CLEAR`. Replies are at most [`MAX_REPLY_BYTES`]; each has a
 //! deadline.
 
-use std::io::{BufReader, Write};
+use std::io::{BufReader, Read, Write};
 use std::net::{TcpStream, ToSocketAddrs};
 use std::time::Duration;
 
@@ -93,10 +93,10 @@ pub trait Drive {
     fn status(&mut self) -> anyhow::Result<DriveStatus>;
 }
 
-/// A positioner speaking the turntable line protocol over TCP.
+/// A positioner speaking the turntable line protocol over TCP or a serial line.
 pub struct LineDrive {
-    reader: BufReader<TcpStream>,
-    writer: TcpStream,
+    reader: BufReader<Box<dyn Read + Send>>,
+    writer: Box<dyn Write + Send>,
     addr: String,
 }
 
@@ -114,10 +114,33 @@ impl LineDrive {
         s.set_write_timeout(Some(timeout))?;
         s.set_nodelay(true).ok();
         Ok(Self {
-            writer: s.try_clone()?,
-            reader: BufReader::with_capacity(1024, s),
+            writer: Box::new(s.try_clone()?),
+            reader: BufReader::with_capacity(1024, Box::new(s)),
             addr: addr.to_owned(),
         })
+    }
+
+    /// Opens a serial line at `bps` with `timeout` for each reply (0.1 s steps, at most
+    /// 25.5 s).
+    #[cfg(unix)]
+    pub fn serial(path: &std::path::Path, bps: u32, timeout: Duration) -> anyhow::Result<Self> {
+        let f = crate::link::serial::open(path, bps, timeout)?;
+        Ok(Self {
+            writer: Box::new(f.try_clone()?),
+            reader: BufReader::with_capacity(1024, Box::new(f)),
+            addr: path.display().to_string(),
+        })
+    }
+
+    /// Connects to `target`: a path (starting with `/`) is a serial line at `bps`,
+    /// anything else HOST:PORT.
+    pub fn open(target: &str, bps: u32, timeout: Duration) -> anyhow::Result<Self> {
+        #[cfg(unix)]
+        if target.starts_with('/') {
+            return Self::serial(std::path::Path::new(target), bps, timeout);
+        }
+        let _ = bps;
+        Self::connect(target, timeout)
     }
 
     /// Sends one request and reads its reply; `ERR` replies are errors.
@@ -130,7 +153,10 @@ impl LineDrive {
         match read_bounded_line(&mut self.reader, &mut line, MAX_REPLY_BYTES).with_context(ctx)? {
             LineRead::Line => {}
             LineRead::TooLong => bail!("{}: reply longer than {MAX_REPLY_BYTES} bytes", ctx()),
-            LineRead::Closed => bail!("{}: the positioner closed the connection", ctx()),
+            LineRead::Closed => bail!(
+                "{}: no reply in time, or the positioner closed the connection",
+                ctx()
+            ),
         }
         let text = String::from_utf8_lossy(&line);
         let text = text.trim_end_matches('\r').trim();
@@ -319,8 +345,10 @@ impl Plan {
 /// How to drive the positioner during `acquire` (options of the command).
 #[derive(Debug, Clone)]
 pub struct DriveOptions {
-    /// The positioner, HOST:PORT.
+    /// The positioner: HOST:PORT, or a serial device path (starting with `/`).
     pub addr: String,
+    /// Serial speed, bits per second (serial lines only).
+    pub baud: u32,
     /// What to do.
     pub plan: Plan,
     /// Speed of the moves between steps and to the start, degrees per second.
@@ -442,6 +470,7 @@ mod tests {
         };
         let mut o = DriveOptions {
             addr: String::new(),
+            baud: 115200,
             plan: Plan::parse("-90:90:15", true).unwrap(),
             move_speed_deg_s: 10.0,
             angle_range_deg: Some((-100.0, 100.0)),

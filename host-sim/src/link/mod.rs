@@ -7,5 +7,7 @@ pub mod clock;
 pub mod drive;
 pub mod instrument;
 pub mod lines;
+#[cfg(unix)]
+pub mod serial;
 pub mod turntable;
 pub mod view;

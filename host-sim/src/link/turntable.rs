@@ -8,7 +8,9 @@
 //!                      [--clock-offset-s S]
 //! ```
 //!
-//! Once listening it prints `listening on 127.0.0.1:<port>` on standard output. Clients
+//! Once listening it prints `listening on 127.0.0.1:<port>` on standard output; with
+//! `--serial` it serves a pseudo-terminal instead and prints `serial on /dev/pts/<n>`, the
+//! device a client opens as its serial line. Clients
 //! share one turntable. Motion: speed changes at most by the acceleration set (`ACCEL`,
 //! default and most `--max-accel-deg-s2`), never passes the speed asked nor
 //! `--max-speed-deg-s`, and a move brakes so as to arrive at its target; on arrival the
@@ -311,8 +313,18 @@ impl TableOptions {
 /// Serves one client until it closes or sends a line over [`MAX_REPLY_BYTES`].
 fn serve_client(s: TcpStream, table: &Mutex<Turntable>, start: Instant) -> std::io::Result<()> {
     s.set_read_timeout(Some(Duration::from_secs(3600)))?;
-    let mut w = s.try_clone()?;
-    let mut r = BufReader::new(s);
+    let w = s.try_clone()?;
+    serve_stream(s, w, table, start)
+}
+
+/// Serves requests from `r`, replies to `w`, until `r` ends.
+fn serve_stream(
+    r: impl std::io::Read,
+    mut w: impl Write,
+    table: &Mutex<Turntable>,
+    start: Instant,
+) -> std::io::Result<()> {
+    let mut r = BufReader::new(r);
     let mut line = Vec::new();
     loop {
         match read_bounded_line(&mut r, &mut line, MAX_REPLY_BYTES)? {
@@ -328,6 +340,22 @@ fn serve_client(s: TcpStream, table: &Mutex<Turntable>, start: Instant) -> std::
             }
         }
     }
+}
+
+/// Serves the turntable on a pseudo-terminal: prints `serial on <path>` (the device side,
+/// for a client to open as its serial line) and serves until killed.
+#[cfg(unix)]
+pub fn run_pty(o: TableOptions) -> anyhow::Result<()> {
+    if !o.valid() {
+        anyhow::bail!("positioner options out of range: {o:?}");
+    }
+    let p = crate::link::serial::pty()?;
+    println!("serial on {}", p.path.display());
+    std::io::stdout().flush()?;
+    let table = Mutex::new(Turntable::new(o));
+    let w = p.device.try_clone()?;
+    serve_stream(&p.device, w, &table, Instant::now())?;
+    Ok(())
 }
 
 /// Listens on `bind:port`, prints `listening on <address>`, and serves clients (one thread
