@@ -2,8 +2,8 @@
 //! and a fake positioner on 127.0.0.1): an unasked extra answer, a wrong `*OPC?` answer,
 //! bytes sent unasked, values that are never finite, an answer trickling in one byte at a
 //! time, an instrument that never stops sending, a block header claiming a gigabyte, a
-//! positioner sending bytes that are not UTF-8, flooding lines, a line without end, an
-//! I/O error; and bad options (timeouts of 1e20, NaN, below 0), an output folder that
+//! positioner sending bytes that are not UTF-8, flooding lines, a line without end; and
+//! bad options (timeouts of 1e20, NaN, below 0), an output folder that
 //! cannot be one, an output that is an input, a full disk.
 //!
 //! Each case checks: no panic, no hang past its deadline (the process is killed there and

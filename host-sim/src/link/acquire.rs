@@ -1657,6 +1657,9 @@ impl Session<'_> {
             Angles::Lines { pos, done } => {
                 if !*done {
                     *done = self.rec.lines(pos, None, cpt)?;
+                    if *done {
+                        eprintln!("positioner closed its connection: no more angle samples");
+                    }
                 }
                 (t_start, t_end)
             }
