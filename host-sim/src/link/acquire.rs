@@ -609,6 +609,9 @@ impl Link {
                 Ok(())
             }
             Err(e) if is_timeout(&e) => Err(timed_out()),
+            // A signal (Ctrl-C) interrupted the read: the caller reads again, within the
+            // same deadline.
+            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => Ok(()),
             Err(e) => Err(e).with_context(|| format!("reading the answer to {query:?}")),
         }
     }
@@ -683,7 +686,7 @@ impl Link {
                 self.end = n;
                 Ok(!idle(&self.buf[..n]))
             }
-            Err(e) if is_timeout(&e) => Ok(false),
+            Err(e) if is_timeout(&e) || e.kind() == std::io::ErrorKind::Interrupted => Ok(false),
             Err(e) => Err(e).context("checking for unasked answers"),
         }
     }
@@ -708,6 +711,7 @@ impl Link {
                 Ok(0) => bail!("the instrument closed the connection"),
                 Ok(n) => thrown += n as u64,
                 Err(e) if is_timeout(&e) => return Ok(thrown),
+                Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
                 Err(e) => return Err(e).context("clearing the link"),
             }
         }
@@ -1810,9 +1814,9 @@ impl Session<'_> {
         Ok(())
     }
 
-    /// One sweep while driven: a sample before, the sweep, a sample after (in `record`).
+    /// One sweep while driven, right after the caller's poll (the sample before it, which
+    /// decided that the sweep is to be taken); the sample after it is taken in `record`.
     fn drive_sweep(&mut self, sweep: &mut [Complex32]) -> anyhow::Result<()> {
-        self.poll()?;
         let t = match self.take_with_retries(sweep) {
             Took::Sweep(t) => t,
             Took::Dropped => return Ok(()),
@@ -1852,8 +1856,20 @@ impl Session<'_> {
         }
     }
 
-    /// Sends a stop and waits (bounded) until the positioner reports no motion.
+    /// Sends a stop and waits (bounded) until the positioner reports no motion; when that
+    /// fails on the connection in use (it may be out of step after an error), once more on
+    /// a fresh connection.
     fn stop_drive(&mut self) -> anyhow::Result<()> {
+        let first = self.stop_once();
+        let Err(e) = first else { return Ok(()) };
+        eprintln!("positioner: stopping failed ({e:#}); again on a new connection");
+        let timeout = Duration::from_secs_f64(self.profile.timeout_s);
+        let d = self.driven_mut()?;
+        d.drive = Box::new(LineDrive::open(&d.opts.addr, d.opts.baud, timeout)?);
+        self.stop_once()
+    }
+
+    fn stop_once(&mut self) -> anyhow::Result<()> {
         let d = self.driven_mut()?;
         d.drive.stop().context("stopping the positioner")?;
         let brake_s = d.kept.max_speed_deg_s / d.kept.accel_deg_s2;

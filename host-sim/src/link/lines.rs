@@ -80,7 +80,12 @@ pub fn read_bounded_line(
     line.clear();
     let mut too_long = false;
     loop {
-        let chunk = r.fill_buf()?;
+        let chunk = match r.fill_buf() {
+            Ok(c) => c,
+            // A signal interrupted the read: read again.
+            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => continue,
+            Err(e) => return Err(e),
+        };
         if chunk.is_empty() {
             return Ok(LineRead::Closed);
         }
@@ -220,6 +225,31 @@ mod tests {
             read_bounded_line(&mut r, &mut line, 64).unwrap(),
             LineRead::Closed
         );
+    }
+
+    /// A read interrupted by a signal (Ctrl-C while driving) is read again, not taken for
+    /// an error or the end.
+    #[test]
+    fn an_interrupted_read_is_read_again() {
+        struct Interrupted(bool, &'static [u8]);
+        impl Read for Interrupted {
+            fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+                if std::mem::replace(&mut self.0, false) {
+                    return Err(std::io::ErrorKind::Interrupted.into());
+                }
+                let n = self.1.len().min(buf.len());
+                buf[..n].copy_from_slice(&self.1[..n]);
+                self.1 = &self.1[n..];
+                Ok(n)
+            }
+        }
+        let mut r = BufReader::new(Interrupted(true, b"OK 1 2 3 HOLDING\n"));
+        let mut line = Vec::new();
+        assert_eq!(
+            read_bounded_line(&mut r, &mut line, 64).unwrap(),
+            LineRead::Line
+        );
+        assert_eq!(line, b"OK 1 2 3 HOLDING");
     }
 
     #[test]
