@@ -90,3 +90,33 @@ pub const MIN_REFERENCE_DB: f64 = -200.0;
 
 /// Most characters of a file's or a user's text quoted in a message (then `…`).
 pub const MAX_QUOTED_CHARS: usize = 40;
+
+// Acquisition (`sweepgate acquire`): every input from the instrument and the positioner is
+// bounded by these; the profile may lower or raise the ones it names, within the bounds.
+
+/// Longest answer line read from the instrument, bytes (block answers are bounded by the
+/// decoder's point count instead).
+pub const MAX_ANSWER_LINE_BYTES: usize = 1 << 20;
+
+/// Longest positioner line, bytes; a longer line is read to its newline, thrown away and
+/// counted.
+pub const MAX_POSITIONER_LINE_BYTES: usize = 256;
+
+/// Default depth of the queue of positioner samples waiting for the acquisition loop (the
+/// profile's `positioner_queue`); a sample arriving when it is full is dropped and counted.
+pub const DEFAULT_POSITIONER_QUEUE: usize = 4096;
+
+/// Largest `positioner_queue` a profile may ask for.
+pub const MAX_POSITIONER_QUEUE: usize = 1 << 20;
+
+/// Longest wait any acquisition option may ask for (answer timeout, linger, backoff,
+/// settling), s.
+pub const MAX_WAIT_S: f64 = 3600.0;
+
+/// Default of the profile's `max_dropped_in_row`: sweeps dropped one after another
+/// (non-finite values) before the scan stops.
+pub const DEFAULT_MAX_DROPPED_IN_ROW: u32 = 8;
+
+/// Default of the profile's `max_resyncs_in_row`: times in a row one sweep is taken again
+/// because an answer was out of step before the scan stops.
+pub const DEFAULT_MAX_RESYNCS_IN_ROW: u32 = 4;

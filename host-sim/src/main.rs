@@ -29,6 +29,8 @@ enum Command {
     Plan(sweepgate_host::cli::plan::Args),
     /// Run a simulated VNA on a TCP port, answering SCPI queries.
     Instrument(instrument::Args),
+    /// Run a simulated turntable on a TCP port, driven by the turntable line protocol.
+    Positioner(sweepgate_host::cli::positioner::Args),
     /// Decode one IEEE 488.2 block from a file and print its values as JSON.
     ReadBlock(read_block::ReadBlockArgs),
     /// Drive an instrument and a positioner over TCP and record the scan.
@@ -48,6 +50,7 @@ fn main() {
         Command::Simulate(a) => simulate::run(a),
         Command::Plan(a) => sweepgate_host::cli::plan::run(a),
         Command::Instrument(a) => instrument::run(a),
+        Command::Positioner(a) => sweepgate_host::cli::positioner::run(a),
         Command::ReadBlock(a) => read_block::run(a),
         Command::Acquire(a) => acquire::run(a),
         Command::Replay(a) => replay::run(a),

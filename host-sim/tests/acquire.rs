@@ -339,3 +339,89 @@ fn with_a_gate_sweeps_go_through_the_scan_engine_and_bins_are_printed() {
         "{stdout}"
     );
 }
+
+/// The fixed set-up profile sets grid, format, byte order, IF bandwidth, power and trace,
+/// reads each back, and the sweeps are then the instrument's, bit for bit.
+#[test]
+fn a_fixed_set_up_is_read_back_and_the_scan_runs() {
+    let inst = start("acq-fixed", &[]);
+    let dir = temp_dir("acq-fixed");
+    let out = dir.join("scan.rec");
+    let profile = concat!(env!("CARGO_MANIFEST_DIR"), "/profiles/simulated-fixed.toml");
+    let o = acquire(
+        &[
+            "--profile",
+            profile,
+            "--instrument",
+            &inst.addr,
+            "--sweeps",
+            "3",
+        ],
+        &out,
+    );
+    ok(&o);
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(
+        err.contains("set-up read back as the profile says: start frequency, stop frequency, points, data format, byte order, IF bandwidth, source power, trace"),
+        "{err}"
+    );
+    let (sweeps, _, _) = split(&out);
+    assert_eq!(sweeps.len(), 3);
+    for (n, rec) in sweeps.iter().enumerate() {
+        let Record::Sweep { s21, .. } = rec else {
+            unreachable!()
+        };
+        let (_, re, im) = dumped(&inst.dump, n);
+        assert!(s21
+            .iter()
+            .zip(re.iter().zip(&im))
+            .all(|(c, (r, i))| c.re == *r && c.im == *i));
+    }
+}
+
+/// An instrument that reports one setting other than the one set (`--misreport`, the
+/// simulated instrument's test-only option) stops `acquire` before the scan: exit 1, one
+/// line naming the setting, and no recording created.
+#[test]
+fn a_set_up_mismatch_stops_before_the_scan() {
+    let profile = concat!(env!("CARGO_MANIFEST_DIR"), "/profiles/simulated-fixed.toml");
+    for (setting, name) in [
+        ("bandwidth", "IF bandwidth"),
+        ("power", "source power"),
+        ("function", "trace"),
+        ("points", "points"),
+        ("start", "start frequency"),
+        ("format", "data format"),
+        ("order", "byte order"),
+    ] {
+        let inst = start(&format!("acq-mis-{setting}"), &["--misreport", setting]);
+        let dir = temp_dir(&format!("acq-mis-{setting}"));
+        let out = dir.join("scan.rec");
+        let o = acquire(
+            &[
+                "--profile",
+                profile,
+                "--instrument",
+                &inst.addr,
+                "--sweeps",
+                "3",
+            ],
+            &out,
+        );
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert_eq!(o.status.code(), Some(1), "{setting}: {err}");
+        let last = err.lines().last().unwrap();
+        assert!(
+            last.starts_with(
+                "error: the instrument's set-up does not match the profile, nothing was recorded: "
+            ) && last.contains(&format!("{name}: "))
+                && last.matches("answered").count() == 1,
+            "{setting}: {last}"
+        );
+        assert!(!out.exists(), "{setting}: a recording was created");
+        assert!(
+            std::fs::read_dir(&inst.dump).unwrap().next().is_none(),
+            "{setting}: a sweep was taken"
+        );
+    }
+}

@@ -5,7 +5,7 @@ use std::path::PathBuf;
 
 use std::time::Duration;
 
-use crate::link::instrument::{run_server, ServerLimits, ServerOptions};
+use crate::link::instrument::{run_server, ServerLimits, ServerOptions, Setting};
 
 /// Options of `sweepgate instrument`.
 #[derive(clap::Args, Debug)]
@@ -39,6 +39,10 @@ pub struct Args {
     /// Seconds a client may stay connected at most (1 to 604800).
     #[arg(long, default_value_t = 3600, value_parser = clap::value_parser!(u32).range(1..=604_800))]
     pub session_limit_s: u32,
+    /// For tests only: the read-back of this setting lies (start, stop, points,
+    /// bandwidth, power, function, format, order).
+    #[arg(long, hide = true)]
+    pub misreport: Option<Setting>,
 }
 
 /// Runs the command.
@@ -55,5 +59,6 @@ pub fn run(args: Args) -> anyhow::Result<()> {
             idle: Duration::from_secs(u64::from(args.idle_timeout_s)),
             total: Duration::from_secs(u64::from(args.session_limit_s)),
         },
+        misreport: args.misreport,
     })
 }

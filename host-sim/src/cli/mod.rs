@@ -6,6 +6,7 @@ pub mod demo;
 pub mod gate;
 pub mod instrument;
 pub mod plan;
+pub mod positioner;
 pub mod process;
 pub mod read_block;
 pub mod replay;

@@ -24,6 +24,7 @@
 //! | 4 | truth | f64 angle_deg, u32 n, then n × (f64 frequency_hz, f32 re, f32 im): free-space S21 |
 //! | 5 | end | u64 sweeps, u64 positions, u64 truths written: the writer finished cleanly |
 //! | 6 | header copy | the header record's payload again (see below) |
+//! | 7 | acquisition report | UTF-8 JSON written by `acquire` before its end record: the counts of what it met (dropped sweeps, answers out of step, link faults, positioner lines refused, the positioner clock fit) and `stopped_by`, the reason when a fault ended the scan; readers pass it through as an unknown kind |
 //!
 //! Times are microseconds from the start of the scan.
 //!
@@ -124,6 +125,9 @@ pub mod kind {
     pub const END: u8 = 5;
     /// The header record again, for readers whose header record is damaged.
     pub const HEADER_COPY: u8 = 6;
+    /// `acquire`'s report (JSON, read as [`super::Record::Unknown`]): what it met, why it
+    /// stopped.
+    pub const ACQUIRE_REPORT: u8 = 7;
 }
 
 /// The frequency grid as stored in the header.

@@ -3,7 +3,8 @@
 //!
 //! ```text
 //! sweepgate acquire [--profile FILE] --instrument HOST:PORT
-//!                   [--positioner HOST:PORT | --positioner-sim --scenario FILE]
+//!                   [--positioner HOST:PORT | --positioner-sim --scenario FILE
+//!                    | --drive HOST:PORT (--steps=FROM:TO:STEP | --turn=FROM:TO:SPEED)]
 //!                   [--sweeps N] [--linger-s S] --out REC
 //!                   [--gate-center-ns T] [--gate-span-ns S] [--band-window W] [--gate-shape W]
 //!                   [--frequencies-hz F1,F2] [--bin-width-deg W]
@@ -47,6 +48,24 @@
 //! start_query = "SENSe:FREQuency:STARt?"   # or start_hz = 8e9
 //! stop_query = "SENSe:FREQuency:STOP?"     # or stop_hz = 12e9
 //! points_query = "SENSe:SWEep:POINts?"     # or points = 201
+//! ```
+//!
+//! # Set-up, verified
+//!
+//! Each `[[settings]]` entry is set after `setup` (its `set`, when given) and then read
+//! back with its `query` before the scan: the answer must be `expect`, as a number within
+//! `tolerance` (relative, default 1e-9) or as text (case and quotes aside). Any mismatch
+//! stops `acquire` before the recording is created, naming each setting, what the
+//! instrument answered and what the profile says. Give one entry per thing the scan
+//! depends on: sweep range and points, IF bandwidth, power, the trace, data format and
+//! byte order (`host-sim/profiles/simulated-fixed.toml` sets and checks all of them).
+//!
+//! ```toml
+//! [[settings]]
+//! name = "IF bandwidth"
+//! set = "SENSe:BANDwidth 1000"      # optional
+//! query = "SENSe:BANDwidth?"
+//! expect = "1000"
 //! ```
 //!
 //! A string whose header (first word) ends with `?` is a query: one answer line is read
@@ -93,16 +112,80 @@
 //! `t_us`: an unsigned integer, microseconds on the positioner's own clock (any origin,
 //! increasing); `angle_deg`: a decimal number, degrees. The fields are separated by
 //! spaces or tabs; a `\r` before the newline is ignored; empty lines and lines starting
-//! with `#` are skipped; other lines are counted as malformed and reported. The first
-//! sample fixes the offset between the positioner's clock and ours (its arrival time);
-//! later samples are placed by their own timestamps with that offset, so the link's
-//! latency does not jitter them. Encoder counts are derived with `counts_per_turn`.
+//! with `#` are skipped; other lines are counted as malformed and reported, as are lines
+//! that are not UTF-8 and lines longer than
+//! [`MAX_POSITIONER_LINE_BYTES`](crate::limits::MAX_POSITIONER_LINE_BYTES) (256 bytes; read
+//! to their newline and thrown away): none of them ends the scan. Samples wait for the
+//! acquisition loop in a queue of `positioner_queue` (default 4096); a sample arriving when
+//! it is full is dropped and counted. Samples are placed on our clock by a running
+//! least-squares fit of the positioner's clock against their arrival times, offset and
+//! drift, updated with every sample ([`crate::link::clock`]; until it spans 1 s, by the
+//! first sample's offset), so the link's latency does not jitter them; the fit and its
+//! uncertainty are reported at the end. Encoder counts are derived with `counts_per_turn`.
 //! Without `--sweeps`, the server closing the connection ends the scan: `acquire` stops
 //! before the next sweep.
 //!
 //! `--positioner-sim` takes the angles from the simulator's positioner model of
 //! `--scenario` instead, and stamps the n-th sweep with the n-th sweep time of that
 //! scenario's schedule (right when the instrument simulates the same scenario from `*RST`).
+//!
+//! # Never a wrong sweep
+//!
+//! Every input is bounded and every wait has a deadline: an answer line at most
+//! [`MAX_ANSWER_LINE`] (1 MiB), a data block exactly the profile's point count (the
+//! decoder refuses any other length before reading it), each answer within `timeout_s`
+//! (at most 3600 s) from the moment it is awaited however slowly its bytes trickle in,
+//! and clearing the link within `timeout_s` (a peer that never goes quiet is a link
+//! fault). Each sweep's exchange is checked to be in step: nothing unasked may be
+//! waiting before the trigger, the `wait` answer must be `wait_answer` (default `1` for
+//! `*OPC?`), and after the data the `sync` query (e.g. `*OPC?`) must answer
+//! `sync_answer` (default `1`): an extra or stale answer shows up as a wrong answer
+//! there. The sweep is then thrown away, the link cleared (read until 200 ms quiet), and
+//! the sweep taken again, `max_resyncs_in_row` times at most (default 4). A sweep with
+//! non-finite values is dropped and counted; `max_dropped_in_row` of them one after
+//! another (default 8) stop the scan.
+//!
+//! ```toml
+//! sync = "*OPC?"                    # optional: asked after each data answer
+//! sync_answer = "1"
+//! wait_answer = "1"                 # default "1" when wait is *OPC?
+//! max_dropped_in_row = 8
+//! max_resyncs_in_row = 4
+//! positioner_queue = 4096
+//! ```
+//!
+//! Before anything is sent to the instrument, the folder of `--out` is checked (created
+//! when missing, proved writable) and `--out` must not be the profile or the scenario;
+//! numeric options are checked (finite, in range). A scan that cannot go on keeps every
+//! sweep taken, ends the recording with an acquisition report (kind 7, see
+//! [`crate::formats::recording`]) and the end record, and exits non-zero with a one-line
+//! reason; a write error names the file. The report holds every count (dropped sweeps,
+//! answers out of step, bytes cleared, link faults, reconnections, positioner lines
+//! refused, samples dropped, the clock fit) and the reason; the same counts are printed
+//! on the terminal at the end.
+//!
+//! # Driving a positioner
+//!
+//! `--drive HOST:PORT` (or `--drive /dev/ttyUSB0` for a serial line at `--drive-baud`, default
+//! 115200, 8N1) drives a positioner speaking the turntable line protocol
+//! ([`crate::link::drive`]; `sweepgate positioner` simulates one). After the instrument is
+//! set up, `acquire` asks the positioner its limits and keeps the tighter of those and of
+//! `--angle-range`, `--max-speed-deg-s`, `--max-accel-deg-s2`; a plan outside them is refused
+//! before anything moves. `--steps=FROM:TO:STEP` steps and stops: move at
+//! `--move-speed-deg-s`, wait until the angle stays within `--settle-tolerance-deg` of the
+//! step for `--settle-s` (at most `--settle-timeout-s`), sweep, next.
+//! `--turn=FROM:TO:SPEED` moves to FROM, settles, turns toward TO at SPEED, sweeps while
+//! it turns, and stops once past TO. The status is read every 20 ms while settling and
+//! before and after each sweep; each reading is recorded as an angle sample, timed by the
+//! clock fit of [`crate::link::clock`] (the positioner's time taken half-way through the
+//! exchange; exchanges with a long round trip are left out of the fit). A fault reported
+//! by the positioner, an angle outside the range, a link failure, SIGINT (Ctrl-C) or
+//! SIGTERM ends the scan: the positioner is sent `STOP` and watched until it reports no
+//! motion, the recording is ended cleanly, and `acquire` exits non-zero with the reason.
+//!
+//! Caution: keep clear of the positioner's whole swept volume while it is driven, and
+//! follow local regulations and the lab's safety practice for moving machinery; these
+//! software limits are no interlock.
 //!
 //! # Stopping
 //!
@@ -116,7 +199,8 @@ use std::collections::BTreeSet;
 use std::io::{Read, Write};
 use std::net::{TcpStream, ToSocketAddrs};
 use std::path::{Path, PathBuf};
-use std::sync::mpsc;
+use std::sync::atomic::AtomicBool;
+use std::sync::{mpsc, Arc};
 use std::time::{Duration, Instant};
 
 use anyhow::{bail, Context};
@@ -128,8 +212,12 @@ use sweepgate::wire::ascii::{AsciiConfig, AsciiDecoder};
 use sweepgate::wire::block::{BlockConfig, BlockDecoder, DecodeEvent, StreamDecoder};
 
 use crate::formats::block::{parse_format, parse_order};
-use crate::formats::recording::{GridInfo, Header, Record, SyncPolicy, Writer, SWEEP_FORMAT};
-use crate::limits::MAX_FREQUENCIES;
+use crate::formats::files::{check_output_dir, refuse_if_same_file};
+use crate::formats::recording::{kind, GridInfo, Header, Record, SyncPolicy, Writer, SWEEP_FORMAT};
+use crate::limits::{self, MAX_FREQUENCIES};
+use crate::link::clock::{ClockEstimate, ClockFit};
+use crate::link::drive::{Drive, DriveOptions, DriveStatus, Kept, LineDrive, Motion, Plan};
+use crate::link::lines::{self, PosMsg, Positioner};
 use crate::model::scenario::Scenario;
 use crate::model::simulator::{Sample, Simulator};
 use crate::output::report::ReportBin;
@@ -143,7 +231,7 @@ use crate::units::db;
 pub const SIMULATED_PROFILE: &str = include_str!("../../profiles/simulated.toml");
 
 /// Longest answer line accepted, bytes.
-pub const MAX_ANSWER_LINE: usize = 1 << 20;
+pub const MAX_ANSWER_LINE: usize = crate::limits::MAX_ANSWER_LINE_BYTES;
 
 /// Options of `sweepgate acquire`, as given (`cli/acquire.rs` spells them).
 #[derive(Debug, Clone)]
@@ -170,6 +258,8 @@ pub struct Options {
     pub gate: GateOptions,
     /// Angle bin width for the live engine, degrees (default: the scenario's, else 1).
     pub bin_width_deg: Option<f64>,
+    /// Drive a positioner through a plan (instead of `positioner`).
+    pub drive: Option<DriveOptions>,
 }
 
 /// `[grid]` of a profile.
@@ -239,6 +329,60 @@ pub struct Profile {
     pub retry_backoff_s: f64,
     /// Sent after reconnecting (default: `setup`).
     pub reconnect_setup: Option<Vec<String>>,
+    /// The answer `wait` must give (default: `1` when `wait` is `*OPC?`, else any).
+    pub wait_answer: Option<String>,
+    /// Query asked after each data answer to prove the link in step (e.g. `*OPC?`).
+    pub sync: Option<String>,
+    /// The answer `sync` must give (default `1`).
+    #[serde(default = "default_sync_answer")]
+    pub sync_answer: String,
+    /// Sweeps dropped one after another (non-finite values) before the scan stops.
+    #[serde(default = "default_max_dropped")]
+    pub max_dropped_in_row: u32,
+    /// Times one sweep is taken again after an answer out of step before the scan stops.
+    #[serde(default = "default_max_resyncs")]
+    pub max_resyncs_in_row: u32,
+    /// Positioner samples that may wait for the acquisition loop; more are dropped and
+    /// counted.
+    #[serde(default = "default_positioner_queue")]
+    pub positioner_queue: usize,
+    /// Settings made after `setup` and read back before the scan.
+    #[serde(default)]
+    pub settings: Vec<SettingSpec>,
+}
+
+/// One `[[settings]]` entry: a setting the instrument must hold before the scan.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SettingSpec {
+    /// What it is, for messages (e.g. "IF bandwidth").
+    pub name: String,
+    /// Command that sets it (optional: `setup` may have set it).
+    pub set: Option<String>,
+    /// Query that reads it back.
+    pub query: String,
+    /// The value the query must answer: compared as numbers when both read as numbers
+    /// (within `tolerance`, relative), else as text (case and quotes aside).
+    pub expect: String,
+    /// Relative tolerance of a numeric comparison (default 1e-9).
+    #[serde(default = "default_tolerance")]
+    pub tolerance: f64,
+}
+
+fn default_tolerance() -> f64 {
+    1e-9
+}
+
+impl SettingSpec {
+    /// Whether `answer` holds the expected value.
+    pub fn accepts(&self, answer: &str) -> bool {
+        let unquote = |t: &str| t.trim().trim_matches('"').trim().to_owned();
+        let (a, e) = (unquote(answer), unquote(&self.expect));
+        match (a.parse::<f64>(), e.parse::<f64>()) {
+            (Ok(x), Ok(y)) => (x - y).abs() <= self.tolerance * x.abs().max(y.abs()),
+            _ => a.eq_ignore_ascii_case(&e),
+        }
+    }
 }
 
 fn default_timeout() -> f64 {
@@ -256,14 +400,43 @@ fn default_retries() -> u32 {
 fn default_backoff() -> f64 {
     0.5
 }
+fn default_sync_answer() -> String {
+    "1".into()
+}
+fn default_max_dropped() -> u32 {
+    limits::DEFAULT_MAX_DROPPED_IN_ROW
+}
+fn default_max_resyncs() -> u32 {
+    limits::DEFAULT_MAX_RESYNCS_IN_ROW
+}
+fn default_positioner_queue() -> usize {
+    limits::DEFAULT_POSITIONER_QUEUE
+}
 
 impl Profile {
+    /// The answer the `wait` query must give, when one is fixed.
+    pub fn expected_wait_answer(&self) -> Option<&str> {
+        match (&self.wait_answer, &self.wait) {
+            (Some(a), _) => Some(a),
+            (None, Some(w)) if w.trim().eq_ignore_ascii_case("*OPC?") => Some("1"),
+            _ => None,
+        }
+    }
+
     /// Parses and checks a profile.
     pub fn from_toml(text: &str) -> anyhow::Result<Self> {
         let p: Profile = toml::from_str(text)
             .map_err(|e| anyhow::anyhow!("{}", crate::model::scenario::toml_one_line(text, &e)))?;
-        if !(p.timeout_s.is_finite() && p.timeout_s > 0.0) {
-            bail!("timeout_s must be above 0 (got {})", p.timeout_s);
+        check_wait_s("timeout_s", p.timeout_s, true)?;
+        if p.max_dropped_in_row == 0 || p.max_resyncs_in_row == 0 {
+            bail!("max_dropped_in_row and max_resyncs_in_row must be above 0");
+        }
+        if !(1..=limits::MAX_POSITIONER_QUEUE).contains(&p.positioner_queue) {
+            bail!(
+                "positioner_queue must be 1 to {} (got {})",
+                limits::MAX_POSITIONER_QUEUE,
+                p.positioner_queue
+            );
         }
         if !p.format.eq_ignore_ascii_case("ascii") {
             parse_format(&p.format)?;
@@ -277,6 +450,17 @@ impl Profile {
                 "retry_backoff_s must be 0 to 60 (got {})",
                 p.retry_backoff_s
             );
+        }
+        for st in &p.settings {
+            if !is_query(&st.query) || st.set.as_deref().is_some_and(is_query) {
+                bail!(
+                    "[[settings]] {:?}: `query` must be a query and `set` must not be one",
+                    st.name
+                );
+            }
+            if !(st.tolerance.is_finite() && (0.0..1.0).contains(&st.tolerance)) {
+                bail!("[[settings]] {:?}: tolerance must be 0 to below 1", st.name);
+            }
         }
         if p.retries > 16 {
             bail!("retries must be at most 16 (got {})", p.retries);
@@ -295,70 +479,18 @@ impl Profile {
     }
 }
 
-/// One angle sample from the positioner.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct AngleSample {
-    /// On our clock, µs from the start of the acquisition.
-    pub t_us: u64,
-    /// Angle, degrees.
-    pub angle_deg: f64,
-}
+pub use crate::link::lines::{parse_angle_line, AngleSample};
 
-/// Parses one line of the positioner protocol: `Ok(None)` for blank and comment lines.
-pub fn parse_angle_line(line: &str) -> Result<Option<(u64, f64)>, String> {
-    let line = line.trim_end_matches('\r').trim();
-    if line.is_empty() || line.starts_with('#') {
-        return Ok(None);
-    }
-    let mut it = line.split_whitespace();
-    let (Some(t), Some(a), None) = (it.next(), it.next(), it.next()) else {
-        return Err(format!("expected `<t_us> <angle_deg>`, got {line:?}"));
-    };
-    let t: u64 = t.parse().map_err(|_| format!("bad t_us in {line:?}"))?;
-    let a: f64 = a
-        .parse()
-        .map_err(|_| format!("bad angle_deg in {line:?}"))?;
-    if !a.is_finite() {
-        return Err(format!("angle not finite in {line:?}"));
-    }
-    Ok(Some((t, a)))
-}
-
-enum PosMsg {
-    Sample(AngleSample),
-    Malformed(String),
-}
-
+/// Connects to the positioner's line server and starts reading its lines.
 fn spawn_positioner(
     addr: &str,
     epoch: Instant,
     timeout: Duration,
-) -> anyhow::Result<mpsc::Receiver<PosMsg>> {
+    depth: usize,
+) -> anyhow::Result<Positioner> {
     let stream = connect(addr, timeout)
         .with_context(|| format!("connecting to the positioner at {addr}"))?;
-    let (tx, rx) = mpsc::channel();
-    std::thread::spawn(move || {
-        let reader = std::io::BufReader::new(stream);
-        let mut offset: Option<i128> = None;
-        use std::io::BufRead;
-        for line in reader.lines() {
-            let Ok(line) = line else { break };
-            let msg = match parse_angle_line(&line) {
-                Ok(None) => continue,
-                Ok(Some((t, a))) => {
-                    let off = *offset
-                        .get_or_insert_with(|| epoch.elapsed().as_micros() as i128 - t as i128);
-                    let t_us = (t as i128 + off).max(0) as u64;
-                    PosMsg::Sample(AngleSample { t_us, angle_deg: a })
-                }
-                Err(e) => PosMsg::Malformed(e),
-            };
-            if tx.send(msg).is_err() {
-                break;
-            }
-        }
-    });
-    Ok(rx)
+    Ok(lines::spawn(stream, epoch, depth))
 }
 
 fn connect(addr: &str, timeout: Duration) -> anyhow::Result<TcpStream> {
@@ -379,13 +511,15 @@ fn connect(addr: &str, timeout: Duration) -> anyhow::Result<TcpStream> {
     }
 }
 
-/// A line-oriented SCPI connection with its read buffer.
+/// A line-oriented SCPI connection with its read buffer. Every answer has one deadline,
+/// `timeout_s` from the moment it is awaited, however the bytes trickle in.
 pub struct Link {
     stream: TcpStream,
     buf: Vec<u8>,
     start: usize,
     end: usize,
     timeout_s: f64,
+    deadline: Instant,
 }
 
 fn is_timeout(e: &std::io::Error) -> bool {
@@ -401,13 +535,32 @@ fn is_query(cmd: &str) -> bool {
         .is_some_and(|h| h.ends_with('?'))
 }
 
+/// Checks a wait in seconds (`what` names the option): finite, 0 or more (above 0 when
+/// `positive`), at most [`limits::MAX_WAIT_S`].
+pub fn check_wait_s(what: &str, v: f64, positive: bool) -> anyhow::Result<Duration> {
+    let low_ok = if positive { v > 0.0 } else { v >= 0.0 };
+    if !(v.is_finite() && low_ok && v <= limits::MAX_WAIT_S) {
+        bail!(
+            "{what} must be {} {} s (got {v})",
+            if positive {
+                "above 0 and at most"
+            } else {
+                "0 to"
+            },
+            limits::MAX_WAIT_S
+        );
+    }
+    Ok(Duration::from_secs_f64(v))
+}
+
 impl Link {
     /// Connects to `addr` with `timeout_s` for the connection and each answer.
     pub fn connect(addr: &str, timeout_s: f64) -> anyhow::Result<Self> {
-        let t = Duration::from_secs_f64(timeout_s);
+        let t = check_wait_s("timeout_s", timeout_s, true)?;
         let stream =
             connect(addr, t).with_context(|| format!("connecting to the instrument at {addr}"))?;
         stream.set_read_timeout(Some(t))?;
+        stream.set_write_timeout(Some(t))?;
         stream.set_nodelay(true).ok();
         Ok(Self {
             stream,
@@ -415,7 +568,13 @@ impl Link {
             start: 0,
             end: 0,
             timeout_s,
+            deadline: Instant::now() + t,
         })
+    }
+
+    /// Starts the clock of the next answer.
+    fn await_answer(&mut self) {
+        self.deadline = Instant::now() + Duration::from_secs_f64(self.timeout_s);
     }
 
     /// Sends one program message (a newline is added).
@@ -432,22 +591,34 @@ impl Link {
             self.start = 0;
             self.end = 0;
         }
+        let left = self.deadline.saturating_duration_since(Instant::now());
+        let timed_out = || {
+            anyhow::anyhow!(
+                "timeout: no answer within {} s to {query:?}",
+                self.timeout_s
+            )
+        };
+        if left.is_zero() {
+            return Err(timed_out());
+        }
+        self.stream.set_read_timeout(Some(left))?;
         match self.stream.read(&mut self.buf[self.end..]) {
             Ok(0) => bail!("the instrument closed the connection while answering {query:?}"),
             Ok(n) => {
                 self.end += n;
                 Ok(())
             }
-            Err(e) if is_timeout(&e) => bail!(
-                "timeout: no answer within {} s to {query:?}",
-                self.timeout_s
-            ),
+            Err(e) if is_timeout(&e) => Err(timed_out()),
+            // A signal (Ctrl-C) interrupted the read: the caller reads again, within the
+            // same deadline.
+            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => Ok(()),
             Err(e) => Err(e).with_context(|| format!("reading the answer to {query:?}")),
         }
     }
 
-    /// Reads one non-empty answer line (without its line end).
+    /// Reads one non-empty answer line (without its line end), within one deadline.
     pub fn read_line(&mut self, query: &str) -> anyhow::Result<String> {
+        self.await_answer();
         let mut line = Vec::new();
         loop {
             let chunk = &self.buf[self.start..self.end];
@@ -477,13 +648,14 @@ impl Link {
         self.read_line(q)
     }
 
-    /// Feeds answer bytes to `dec` until it reports an event.
+    /// Feeds answer bytes to `dec` until it reports an event, within one deadline.
     pub fn read_data<D: StreamDecoder>(
         &mut self,
         dec: &mut D,
         out: &mut [Complex32],
         query: &str,
     ) -> anyhow::Result<DecodeEvent<D::Error>> {
+        self.await_answer();
         loop {
             if self.start < self.end {
                 let fed = dec.feed(&self.buf[self.start..self.end], out);
@@ -496,14 +668,53 @@ impl Link {
         }
     }
 
-    /// Discards whatever arrives until the link has been quiet for `quiet`.
-    pub fn drain(&mut self, quiet: Duration) {
+    /// Whether bytes other than line ends are waiting, unasked for (an answer out of
+    /// step): the buffer's rest and whatever has already arrived on the socket.
+    pub fn unsolicited(&mut self) -> anyhow::Result<bool> {
+        let idle = |b: &[u8]| b.iter().all(|c| matches!(c, b'\n' | b'\r'));
+        if !idle(&self.buf[self.start..self.end]) {
+            return Ok(true);
+        }
         self.start = 0;
         self.end = 0;
-        let t = Duration::from_secs_f64(self.timeout_s);
-        self.stream.set_read_timeout(Some(quiet)).ok();
-        while matches!(self.stream.read(&mut self.buf), Ok(n) if n > 0) {}
-        self.stream.set_read_timeout(Some(t)).ok();
+        self.stream.set_nonblocking(true)?;
+        let got = self.stream.read(&mut self.buf);
+        self.stream.set_nonblocking(false)?;
+        match got {
+            Ok(0) => bail!("the instrument closed the connection"),
+            Ok(n) => {
+                self.end = n;
+                Ok(!idle(&self.buf[..n]))
+            }
+            Err(e) if is_timeout(&e) || e.kind() == std::io::ErrorKind::Interrupted => Ok(false),
+            Err(e) => Err(e).context("checking for unasked answers"),
+        }
+    }
+
+    /// Discards whatever arrives until the link has been quiet for `quiet`; an error when
+    /// it is not quiet within `timeout_s` (a peer that never stops sending).
+    pub fn drain(&mut self, quiet: Duration) -> anyhow::Result<u64> {
+        self.start = 0;
+        self.end = 0;
+        let until = Instant::now() + Duration::from_secs_f64(self.timeout_s);
+        let mut thrown = 0u64;
+        loop {
+            let left = until.saturating_duration_since(Instant::now());
+            if left.is_zero() {
+                bail!(
+                    "the instrument kept sending for {} s ({thrown} bytes thrown away) while the link was being cleared",
+                    self.timeout_s
+                );
+            }
+            self.stream.set_read_timeout(Some(quiet.min(left)))?;
+            match self.stream.read(&mut self.buf) {
+                Ok(0) => bail!("the instrument closed the connection"),
+                Ok(n) => thrown += n as u64,
+                Err(e) if is_timeout(&e) => return Ok(thrown),
+                Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
+                Err(e) => return Err(e).context("clearing the link"),
+            }
+        }
     }
 
     /// Reads the error queue until it says "no error" (at most 32 entries).
@@ -553,6 +764,19 @@ pub struct Summary {
     pub link_faults: u64,
     /// Successful reconnections after a link fault.
     pub reconnects: u64,
+    /// Answers out of step (unasked bytes, a wrong `wait` or `sync` answer): each time
+    /// the link was cleared and the sweep taken again.
+    pub out_of_step: u64,
+    /// Bytes thrown away while clearing the link.
+    pub bytes_cleared: u64,
+    /// Positioner lines holding bytes that are not UTF-8.
+    pub bad_byte_lines: u64,
+    /// Positioner lines longer than [`limits::MAX_POSITIONER_LINE_BYTES`].
+    pub long_lines: u64,
+    /// Positioner samples dropped because the queue was full.
+    pub samples_dropped: u64,
+    /// The positioner clock fit at the end (line positioner only).
+    pub clock: Option<ClockEstimate>,
     /// The live engine's set-up, when it ran.
     pub setup: Option<Setup>,
     /// The live engine's closed bins in index order (a revisited bin holds its latest
@@ -568,6 +792,8 @@ pub enum AngleSource {
     Lines(String),
     /// The simulator's positioner model.
     Sim(Box<Scenario>, u64),
+    /// A positioner driven through a plan.
+    Drive(Box<DriveOptions>),
 }
 
 /// What to acquire.
@@ -591,10 +817,9 @@ enum Angles {
     /// No positioner.
     None,
     /// A line server; `done` once it closed.
-    Lines {
-        rx: mpsc::Receiver<PosMsg>,
-        done: bool,
-    },
+    Lines { pos: Positioner, done: bool },
+    /// A driven positioner.
+    Drive(Box<Driven>),
     /// The simulator's samples and sweep schedule; `next` is the first sample not yet sent.
     Sim {
         samples: Vec<Sample>,
@@ -602,6 +827,91 @@ enum Angles {
         duration_s: f64,
         next: usize,
     },
+}
+
+/// A positioner being driven, its limits, its clock fit, and the stop flag (Ctrl-C).
+pub struct Driven {
+    drive: Box<dyn Drive + Send>,
+    opts: DriveOptions,
+    kept: Kept,
+    clock: ClockFit,
+    last_t_us: u64,
+    /// Shortest round trip of a status exchange seen, µs.
+    best_rtt_us: f64,
+    stop: Arc<AtomicBool>,
+}
+
+/// A status exchange whose round trip is longer than the shortest seen times this (plus
+/// [`RTT_SLACK_US`]) is left out of the clock fit: its arrival time says little.
+const RTT_FACTOR: f64 = 2.0;
+/// See [`RTT_FACTOR`], µs.
+const RTT_SLACK_US: f64 = 200.0;
+
+impl Driven {
+    /// Connects, identifies, checks the plan against the limits, sets the acceleration,
+    /// and stops on SIGINT/SIGTERM from now on.
+    fn start(opts: DriveOptions, timeout: Duration) -> anyhow::Result<Self> {
+        let mut drive = LineDrive::open(&opts.addr, opts.baud, timeout)?;
+        let id = drive.identify()?;
+        let reported = drive.limits()?;
+        let kept = opts.check(&reported).context("the positioner plan")?;
+        drive.set_accel(kept.accel_deg_s2)?;
+        let stop = Arc::new(AtomicBool::new(false));
+        for sig in [signal_hook::consts::SIGINT, signal_hook::consts::SIGTERM] {
+            signal_hook::flag::register(sig, Arc::clone(&stop))
+                .context("setting up the stop on Ctrl-C")?;
+        }
+        eprintln!(
+            "positioner: {id}; angle range {}° to {}°, speed at most {} °/s, acceleration {} °/s²",
+            kept.range_deg.0, kept.range_deg.1, kept.max_speed_deg_s, kept.accel_deg_s2
+        );
+        Ok(Self {
+            drive: Box::new(drive),
+            opts,
+            kept,
+            clock: ClockFit::default(),
+            last_t_us: 0,
+            best_rtt_us: f64::INFINITY,
+            stop,
+        })
+    }
+
+    /// Reads the status; its time on our clock by the clock fit. The positioner's time
+    /// is taken to be half-way through the exchange; only exchanges with a short round
+    /// trip (within [`RTT_FACTOR`] of the shortest, plus [`RTT_SLACK_US`]) go into the
+    /// fit, so a delayed reply does not pull it.
+    fn read(&mut self, epoch: Instant) -> anyhow::Result<(DriveStatus, u64)> {
+        if self.stop.load(std::sync::atomic::Ordering::Relaxed) {
+            bail!("stopped by a signal (Ctrl-C)");
+        }
+        let sent = epoch.elapsed().as_secs_f64() * 1e6;
+        let st = self.drive.status()?;
+        let got = epoch.elapsed().as_secs_f64() * 1e6;
+        let rtt = got - sent;
+        self.best_rtt_us = self.best_rtt_us.min(rtt);
+        if rtt <= self.best_rtt_us * RTT_FACTOR + RTT_SLACK_US {
+            self.clock.add(st.t_us as f64, (sent + got) / 2.0);
+        }
+        let t = (self.clock.to_host_us(st.t_us as f64).max(0.0) as u64).max(self.last_t_us);
+        self.last_t_us = t;
+        Ok((st, t))
+    }
+
+    /// A fault, or an angle outside the kept range, stops the scan.
+    fn check(&self, st: &DriveStatus) -> anyhow::Result<()> {
+        if st.motion == Motion::Fault {
+            bail!("the positioner reported a fault at {:.3}°", st.angle_deg);
+        }
+        let (lo, hi) = self.kept.range_deg;
+        let tol = self.opts.settle_tolerance_deg;
+        if st.angle_deg < lo - tol || st.angle_deg > hi + tol {
+            bail!(
+                "the positioner at {:.3}° is outside the angle range {lo}° to {hi}°",
+                st.angle_deg
+            );
+        }
+        Ok(())
+    }
 }
 
 /// The live engine and what it prints.
@@ -668,17 +978,23 @@ impl LiveEngine {
 /// The recording and the live engine: every record goes to both.
 struct Recorder {
     w: Writer<std::fs::File>,
+    path: PathBuf,
     engine: Option<LiveEngine>,
     sum: Summary,
 }
 
+/// Positioner complaints printed before they are only counted.
+const SHOWN_COMPLAINTS: u64 = 5;
+
 impl Recorder {
     fn position(&mut self, t_us: u64, counts: i64, angle_deg: f64) -> anyhow::Result<()> {
-        self.w.write(&Record::Position {
-            t_us,
-            counts,
-            angle_deg,
-        })?;
+        self.w
+            .write(&Record::Position {
+                t_us,
+                counts,
+                angle_deg,
+            })
+            .with_context(|| format!("writing {}", self.path.display()))?;
         self.sum.positions += 1;
         if let Some(e) = &mut self.engine {
             let ev = e.engine.angle(t_us, angle_deg);
@@ -688,12 +1004,14 @@ impl Recorder {
     }
 
     fn sweep(&mut self, start_us: u64, end_us: u64, s21: &[Complex32]) -> anyhow::Result<()> {
-        self.w.write(&Record::Sweep {
-            index: self.sum.sweeps as u32,
-            start_us,
-            end_us,
-            s21: s21.to_vec(),
-        })?;
+        self.w
+            .write(&Record::Sweep {
+                index: self.sum.sweeps as u32,
+                start_us,
+                end_us,
+                s21: s21.to_vec(),
+            })
+            .with_context(|| format!("writing {}", self.path.display()))?;
         if let Some(e) = &mut self.engine {
             e.engine.sweep(start_us, end_us, s21);
         }
@@ -707,40 +1025,153 @@ impl Recorder {
         Ok(())
     }
 
-    /// Forwards line-protocol samples: those waiting (`wait` = `None`) or those arriving
-    /// within `wait`. Returns true once the line server has closed.
+    /// Writes the acquisition report record (see the module docs) before the end record.
+    fn report(&mut self, stopped_by: Option<&str>) -> anyhow::Result<()> {
+        let payload = report_json(&self.sum, stopped_by).to_string().into_bytes();
+        self.w
+            .write(&Record::Unknown {
+                kind: kind::ACQUIRE_REPORT,
+                payload,
+            })
+            .with_context(|| format!("writing {}", self.path.display()))?;
+        Ok(())
+    }
+
+    /// Forwards line-protocol samples: those waiting (`wait` = `None`, at most one queue's
+    /// worth, so a flooding positioner cannot hold the loop) or those arriving within
+    /// `wait`. Returns true once the line server has closed; an error when its link failed.
     fn lines(
         &mut self,
-        rx: &mpsc::Receiver<PosMsg>,
+        pos: &Positioner,
         wait: Option<Duration>,
         counts_per_turn: f64,
     ) -> anyhow::Result<bool> {
         let deadline = wait.map(|d| Instant::now() + d);
-        loop {
+        let mut budget = pos_budget(pos);
+        let ended = loop {
             let msg = match deadline {
-                None => match rx.try_recv() {
+                None if budget == 0 => break false,
+                None => match pos.rx.try_recv() {
                     Ok(m) => m,
-                    Err(mpsc::TryRecvError::Empty) => return Ok(false),
-                    Err(mpsc::TryRecvError::Disconnected) => return Ok(true),
+                    Err(mpsc::TryRecvError::Empty) => break false,
+                    Err(mpsc::TryRecvError::Disconnected) => break true,
                 },
-                Some(d) => match rx.recv_timeout(d.saturating_duration_since(Instant::now())) {
+                Some(d) => match pos
+                    .rx
+                    .recv_timeout(d.saturating_duration_since(Instant::now()))
+                {
                     Ok(m) => m,
-                    Err(mpsc::RecvTimeoutError::Timeout) => return Ok(false),
-                    Err(mpsc::RecvTimeoutError::Disconnected) => return Ok(true),
+                    Err(mpsc::RecvTimeoutError::Timeout) => break false,
+                    Err(mpsc::RecvTimeoutError::Disconnected) => break true,
                 },
             };
-            match msg {
-                PosMsg::Sample(s) => {
-                    let counts = (s.angle_deg / 360.0 * counts_per_turn).round() as i64;
-                    self.position(s.t_us, counts, s.angle_deg)?;
-                }
-                PosMsg::Malformed(e) => {
-                    self.sum.malformed_lines += 1;
-                    eprintln!("positioner: malformed line: {e}");
-                }
+            budget = budget.saturating_sub(1);
+            if self.take(msg, counts_per_turn)? {
+                break true;
             }
-        }
+        };
+        self.sum.samples_dropped = pos.dropped.load(std::sync::atomic::Ordering::Relaxed);
+        self.sum.clock = pos.clock.lock().ok().and_then(|c| c.estimate());
+        Ok(ended)
     }
+
+    /// Handles one positioner message; true at the end of the stream.
+    fn take(&mut self, msg: PosMsg, counts_per_turn: f64) -> anyhow::Result<bool> {
+        let complaint = match msg {
+            PosMsg::Sample(s) => {
+                let counts = (s.angle_deg / 360.0 * counts_per_turn).round() as i64;
+                self.position(s.t_us, counts, s.angle_deg)?;
+                return Ok(false);
+            }
+            PosMsg::Ended(None) => return Ok(true),
+            PosMsg::Ended(Some(e)) => bail!("the positioner link failed: {e}"),
+            PosMsg::Malformed(e) => {
+                self.sum.malformed_lines += 1;
+                (self.sum.malformed_lines, format!("malformed line: {e}"))
+            }
+            PosMsg::BadBytes => {
+                self.sum.bad_byte_lines += 1;
+                (self.sum.bad_byte_lines, "a line that is not UTF-8".into())
+            }
+            PosMsg::TooLong => {
+                self.sum.long_lines += 1;
+                let max = limits::MAX_POSITIONER_LINE_BYTES;
+                (
+                    self.sum.long_lines,
+                    format!("a line longer than {max} bytes"),
+                )
+            }
+        };
+        if complaint.0 <= SHOWN_COMPLAINTS {
+            let more = if complaint.0 == SHOWN_COMPLAINTS {
+                " (further ones counted)"
+            } else {
+                ""
+            };
+            eprintln!("positioner: {} skipped{more}", complaint.1);
+        }
+        Ok(false)
+    }
+}
+
+/// The acquisition report: every count of what was met, and why the scan stopped.
+pub fn report_json(sum: &Summary, stopped_by: Option<&str>) -> serde_json::Value {
+    serde_json::json!({
+        "sweeps": sum.sweeps,
+        "positions": sum.positions,
+        "sweeps_dropped_non_finite": sum.rejected,
+        "answers_out_of_step": sum.out_of_step,
+        "bytes_cleared": sum.bytes_cleared,
+        "link_faults": sum.link_faults,
+        "reconnections": sum.reconnects,
+        "positioner_malformed_lines": sum.malformed_lines,
+        "positioner_bad_byte_lines": sum.bad_byte_lines,
+        "positioner_long_lines": sum.long_lines,
+        "positioner_samples_dropped": sum.samples_dropped,
+        "clock": sum.clock.map(|c| serde_json::json!({
+            "offset_us": c.offset_us,
+            "offset_sigma_us": c.offset_sigma_us,
+            "drift_ppm": c.drift_ppm,
+            "drift_sigma_ppm": c.drift_sigma_ppm,
+            "samples": c.samples,
+            "in_use": c.in_use,
+            "residual_us": c.residual_us,
+        })),
+        "stopped_by": stopped_by,
+    })
+}
+
+/// Every count of [`Summary`] on one line, for the terminal.
+pub fn counters_line(sum: &Summary) -> String {
+    let mut s = format!(
+        "{} sweeps dropped, {} answers out of step ({} bytes cleared), {} link faults, {} reconnections; positioner: {} malformed lines, {} not UTF-8, {} too long, {} samples dropped (queue full)",
+        sum.rejected,
+        sum.out_of_step,
+        sum.bytes_cleared,
+        sum.link_faults,
+        sum.reconnects,
+        sum.malformed_lines,
+        sum.bad_byte_lines,
+        sum.long_lines,
+        sum.samples_dropped
+    );
+    if let Some(c) = sum.clock {
+        s.push_str(&format!(
+            "; positioner clock: offset {:.0} ± {:.0} µs, drift {:.1} ± {:.1} ppm over {} samples{}",
+            c.offset_us,
+            c.offset_sigma_us,
+            c.drift_ppm,
+            c.drift_sigma_ppm,
+            c.samples,
+            if c.in_use { "" } else { " (not yet used: first-sample offset)" }
+        ));
+    }
+    s
+}
+
+/// Messages taken from the positioner queue in one pass: one queue's worth.
+fn pos_budget(pos: &Positioner) -> usize {
+    pos.depth + 1
 }
 
 /// One acquisition: the instrument link, the angle source and the recorder.
@@ -755,6 +1186,8 @@ struct Session<'a> {
     rec: Recorder,
     /// Sweeps triggered, including dropped ones.
     taken: u64,
+    /// Sweeps dropped one after another.
+    dropped_in_row: u32,
 }
 
 /// How one sweep went.
@@ -765,6 +1198,20 @@ enum Took {
     Dropped,
     /// Stop the acquisition.
     Fatal(anyhow::Error),
+    /// Stop the acquisition, with no reconnection tried (the peer answers, wrongly).
+    Stop(anyhow::Error),
+}
+
+/// How the instrument answered one sweep's exchange.
+enum Answered {
+    /// A whole sweep, the link in step.
+    Sweep,
+    /// A block or list holding non-finite values.
+    NonFinite(String),
+    /// An answer that the decoder could not read.
+    Unreadable(String),
+    /// Bytes nobody asked for, or a `wait` / `sync` answer not as expected.
+    OutOfStep(String),
 }
 
 /// Runs an acquisition.
@@ -772,16 +1219,24 @@ pub fn acquire(profile: &Profile, req: Request) -> anyhow::Result<Summary> {
     if req.max_sweeps.is_none() && matches!(req.positioner, AngleSource::None) {
         bail!("with no positioner, give --sweeps");
     }
+    check_wait_s("--linger-s", req.linger_s, false)?;
+    // The output folder is checked before anything is sent to the instrument.
+    let dir = match req.out.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p,
+        _ => Path::new("."),
+    };
+    check_output_dir(dir).context("the folder of --out")?;
     let epoch = Instant::now();
     let (link, idn, grid) = connect_and_set_up(profile, &req.instrument)?;
     let dec = decoder(profile, grid.points())?;
     let timeout = Duration::from_secs_f64(profile.timeout_s);
-    let (angles, scenario) = start_angles(req.positioner, epoch, timeout)?;
+    let (angles, scenario) = start_angles(req.positioner, epoch, timeout, profile)?;
     let mut header = header_for(profile, &req.instrument, idn, &grid, scenario);
     let engine = live_engine(&mut header, &req.choices)?;
     let mut w = Writer::create(&req.out, SyncPolicy::default())
         .with_context(|| format!("creating {}", req.out.display()))?;
-    w.write(&Record::Header(Box::new(header)))?;
+    w.write(&Record::Header(Box::new(header)))
+        .with_context(|| format!("writing {}", req.out.display()))?;
     let mut s = Session {
         profile,
         instrument: &req.instrument,
@@ -792,10 +1247,12 @@ pub fn acquire(profile: &Profile, req: Request) -> anyhow::Result<Summary> {
         angles,
         rec: Recorder {
             w,
+            path: req.out.clone(),
             engine,
             sum: Summary::default(),
         },
         taken: 0,
+        dropped_in_row: 0,
     };
     let fatal = s.sweeps(req.max_sweeps);
     s.finish(fatal, req.linger_s, &req.out)
@@ -827,12 +1284,18 @@ fn connect_and_set_up(
             link.send(cmd)?;
         }
     }
+    for st in &profile.settings {
+        if let Some(cmd) = &st.set {
+            link.send(cmd)?;
+        }
+    }
     if let Some(q) = &profile.error_query {
         let e = link.errors(q)?;
         if !e.is_empty() {
             bail!("instrument error queue after setup: {}", e.join("; "));
         }
     }
+    verify_settings(&mut link, &profile.settings)?;
     let grid = query_grid(&mut link, &profile.grid)?;
     eprintln!(
         "grid: {} Hz to {} Hz, {} points; format {}",
@@ -842,6 +1305,34 @@ fn connect_and_set_up(
         profile.format
     );
     Ok((link, idn, grid))
+}
+
+/// Reads back every `[[settings]]` entry; any mismatch stops before the scan, naming each.
+fn verify_settings(link: &mut Link, settings: &[SettingSpec]) -> anyhow::Result<()> {
+    let mut wrong = Vec::new();
+    for st in settings {
+        let a = link.query(&st.query)?;
+        if !st.accepts(&a) {
+            wrong.push(format!(
+                "{}: {:?} answered {}, the profile says {:?}",
+                st.name,
+                st.query,
+                shown(&a),
+                st.expect
+            ));
+        }
+    }
+    if !wrong.is_empty() {
+        bail!(
+            "the instrument's set-up does not match the profile, nothing was recorded: {}",
+            wrong.join("; ")
+        );
+    }
+    if !settings.is_empty() {
+        let names: Vec<&str> = settings.iter().map(|s| s.name.as_str()).collect();
+        eprintln!("set-up read back as the profile says: {}", names.join(", "));
+    }
+    Ok(())
 }
 
 /// The grid from the profile's fixed values or queries.
@@ -887,16 +1378,18 @@ fn start_angles(
     positioner: AngleSource,
     epoch: Instant,
     timeout: Duration,
+    profile: &Profile,
 ) -> anyhow::Result<(Angles, Option<Scenario>)> {
     Ok(match positioner {
         AngleSource::None => (Angles::None, None),
         AngleSource::Lines(addr) => (
             Angles::Lines {
-                rx: spawn_positioner(&addr, epoch, timeout)?,
+                pos: spawn_positioner(&addr, epoch, timeout, profile.positioner_queue)?,
                 done: false,
             },
             None,
         ),
+        AngleSource::Drive(o) => (Angles::Drive(Box::new(Driven::start(*o, timeout)?)), None),
         AngleSource::Sim(s, seed) => {
             s.validate()?;
             let mut sim = Simulator::new(&s, seed);
@@ -986,12 +1479,15 @@ fn live_engine(header: &mut Header, choices: &Choices) -> anyhow::Result<Option<
 impl Session<'_> {
     /// Takes sweeps until a stop condition; returns the fault that stopped it, if any.
     fn sweeps(&mut self, max_sweeps: Option<u64>) -> Option<anyhow::Error> {
+        if matches!(self.angles, Angles::Drive(_)) {
+            return self.driven(max_sweeps);
+        }
         let mut sweep = vec![Complex32::new(0.0, 0.0); self.points];
         while !self.should_stop(max_sweeps) {
             let t_start = match self.take_with_retries(&mut sweep) {
                 Took::Sweep(t) => t,
                 Took::Dropped => continue,
-                Took::Fatal(e) => return Some(e),
+                Took::Fatal(e) | Took::Stop(e) => return Some(e),
             };
             self.taken += 1;
             if let Err(e) = self.record(t_start, &sweep) {
@@ -1017,22 +1513,28 @@ impl Session<'_> {
         }
     }
 
-    /// Takes one sweep, reconnecting after link faults (see the module notes).
+    /// Takes one sweep, reconnecting after link faults and clearing the link after an
+    /// answer out of step (see the module notes).
     fn take_with_retries(&mut self, sweep: &mut [Complex32]) -> Took {
         let mut attempt = 0u32;
+        let mut resyncs = 0u32;
         loop {
             let t_start = self.epoch.elapsed().as_micros() as u64;
             let fault = match take_sweep(&mut self.link, &mut self.dec, sweep, self.profile) {
-                Ok(Ok(())) => return Took::Sweep(t_start),
-                Ok(Err((why, true))) => {
-                    self.taken += 1;
-                    self.rec.sum.rejected += 1;
-                    eprintln!("sweep {}: dropped: {why}", self.taken - 1);
-                    self.link.drain(Duration::from_millis(200));
-                    self.dec.reset();
-                    return Took::Dropped;
+                Ok(Answered::Sweep) => {
+                    self.dropped_in_row = 0;
+                    return Took::Sweep(t_start);
                 }
-                Ok(Err((why, false))) => {
+                Ok(Answered::NonFinite(why)) => match self.dropped(why) {
+                    Ok(t) => return t,
+                    Err(e) => e,
+                },
+                Ok(Answered::OutOfStep(why)) => match self.resync(&why, &mut resyncs) {
+                    Ok(()) => continue,
+                    Err(Took::Fatal(e)) => e,
+                    Err(t) => return t,
+                },
+                Ok(Answered::Unreadable(why)) => {
                     let p = self.profile;
                     let e = anyhow::anyhow!(
                         "answer to {:?} rejected: {why} (the profile expects {} points, format {}, byte order {})",
@@ -1054,6 +1556,50 @@ impl Session<'_> {
             if let Err(e) = self.reconnect(fault, &mut attempt) {
                 return Took::Fatal(e);
             }
+        }
+    }
+
+    /// A sweep with non-finite values: counted and dropped; too many in a row stop the
+    /// scan. `Err` when the link cannot be cleared after it (a link fault).
+    fn dropped(&mut self, why: String) -> anyhow::Result<Took> {
+        self.taken += 1;
+        self.rec.sum.rejected += 1;
+        self.dropped_in_row += 1;
+        eprintln!("sweep {}: dropped: {why}", self.taken - 1);
+        let max = self.profile.max_dropped_in_row;
+        if self.dropped_in_row >= max {
+            return Ok(Took::Stop(anyhow::anyhow!(
+                "{max} sweeps in a row dropped (max_dropped_in_row), the last: {why}"
+            )));
+        }
+        self.dec.reset();
+        self.rec.sum.bytes_cleared += self.link.drain(Duration::from_millis(200))?;
+        Ok(Took::Dropped)
+    }
+
+    /// An answer out of step: counted, the link cleared and the sweep taken again; too
+    /// many in a row stop the scan. `Err(Took::Fatal)` with a link failure while
+    /// clearing is handled as a link fault by the caller.
+    fn resync(&mut self, why: &str, resyncs: &mut u32) -> Result<(), Took> {
+        self.rec.sum.out_of_step += 1;
+        *resyncs += 1;
+        let n = self.taken;
+        let max = self.profile.max_resyncs_in_row;
+        eprintln!(
+            "sweep {n}: answer out of step: {why}; clearing the link and taking the sweep again"
+        );
+        if *resyncs > max {
+            return Err(Took::Stop(anyhow::anyhow!(
+                "answers out of step {max} times in a row at sweep {n} (max_resyncs_in_row), the last: {why}"
+            )));
+        }
+        self.dec.reset();
+        match self.link.drain(Duration::from_millis(200)) {
+            Ok(b) => {
+                self.rec.sum.bytes_cleared += b;
+                Ok(())
+            }
+            Err(e) => Err(Took::Fatal(e)),
         }
     }
 
@@ -1112,10 +1658,17 @@ impl Session<'_> {
                 }
                 (s_us, e_us)
             }
-            Angles::Lines { rx, done } => {
+            Angles::Lines { pos, done } => {
                 if !*done {
-                    *done = self.rec.lines(rx, None, cpt)?;
+                    *done = self.rec.lines(pos, None, cpt)?;
+                    if *done {
+                        eprintln!("positioner closed its connection: no more angle samples");
+                    }
                 }
+                (t_start, t_end)
+            }
+            Angles::Drive(_) => {
+                self.poll()?;
                 (t_start, t_end)
             }
             Angles::None => (t_start, t_end),
@@ -1132,9 +1685,21 @@ impl Session<'_> {
         out: &Path,
     ) -> anyhow::Result<Summary> {
         if let Some(e) = fatal {
-            // Keep the partial scan: every record written so far is whole; end it cleanly.
+            // Keep the partial scan: every record written so far is whole; end it cleanly,
+            // with the report of what was met and why it stopped.
             let swept = self.rec.sum.sweeps;
-            self.rec.w.finish()?;
+            let reason = format!("{e:#}");
+            if let Angles::Lines { pos, .. } = &self.angles {
+                self.rec.sum.samples_dropped =
+                    pos.dropped.load(std::sync::atomic::Ordering::Relaxed);
+                self.rec.sum.clock = pos.clock.lock().ok().and_then(|c| c.estimate());
+            }
+            eprintln!("{}", counters_line(&self.rec.sum));
+            self.rec.report(Some(&reason))?;
+            self.rec
+                .w
+                .finish()
+                .with_context(|| format!("finishing {}", out.display()))?;
             return Err(e.context(format!(
                 "acquisition stopped; the recording {} keeps the {swept} sweeps taken before the fault",
                 out.display()
@@ -1147,9 +1712,9 @@ impl Session<'_> {
                     self.rec.position(s.t_us, s.counts, s.angle_deg)?;
                 }
             }
-            Angles::Lines { rx, done: false } => {
-                let linger = Duration::from_secs_f64(linger_s.max(0.0));
-                self.rec.lines(rx, Some(linger), cpt)?;
+            Angles::Lines { pos, done: false } => {
+                let linger = check_wait_s("--linger-s", linger_s, false)?;
+                self.rec.lines(pos, Some(linger), cpt)?;
             }
             _ => {}
         }
@@ -1158,8 +1723,12 @@ impl Session<'_> {
                 eprintln!("instrument error queue at the end: {x}");
             }
         }
-        let Recorder { w, engine, mut sum } = self.rec;
-        w.finish()?;
+        self.rec.report(None)?;
+        let Recorder {
+            w, engine, mut sum, ..
+        } = self.rec;
+        w.finish()
+            .with_context(|| format!("finishing {}", out.display()))?;
         if let Some(mut e) = engine {
             let ev = e.engine.finish(false);
             e.print(&ev);
@@ -1171,37 +1740,236 @@ impl Session<'_> {
     }
 }
 
-/// Triggers one sweep, waits for it and reads its data: `Ok(Err((why, non_finite)))` when
-/// the decoder rejected the answer, `Err` for a link failure (closed, timeout, I/O).
+/// Polls between moves, ms.
+const POLL_MS: u64 = 20;
+
+impl Session<'_> {
+    /// A driven scan: the plan, then the positioner stopped whatever happened.
+    fn driven(&mut self, max_sweeps: Option<u64>) -> Option<anyhow::Error> {
+        let ran = self.drive_plan(max_sweeps);
+        let stopped = self.stop_drive();
+        match (ran, stopped) {
+            (Err(e), Ok(())) => Some(e),
+            (Err(e), Err(s)) => Some(e.context(format!("and stopping failed: {s:#}"))),
+            (Ok(()), Err(s)) => Some(s),
+            (Ok(()), Ok(())) => None,
+        }
+    }
+
+    fn driven_mut(&mut self) -> anyhow::Result<&mut Driven> {
+        match &mut self.angles {
+            Angles::Drive(d) => Ok(d),
+            _ => bail!("no positioner to drive"),
+        }
+    }
+
+    /// Reads the positioner's status, records it as an angle sample, checks it.
+    fn poll(&mut self) -> anyhow::Result<DriveStatus> {
+        let epoch = self.epoch;
+        let cpt = f64::from(self.profile.counts_per_turn);
+        let d = self.driven_mut()?;
+        let (st, t_us) = d.read(epoch)?;
+        let clock = d.clock.estimate();
+        let counts = (st.angle_deg / 360.0 * cpt).round() as i64;
+        self.rec.position(t_us, counts, st.angle_deg)?;
+        self.rec.sum.clock = clock;
+        self.driven_mut()?.check(&st)?;
+        Ok(st)
+    }
+
+    /// Step and stop, or turn, as planned.
+    fn drive_plan(&mut self, max_sweeps: Option<u64>) -> anyhow::Result<()> {
+        let mut sweep = vec![Complex32::new(0.0, 0.0); self.points];
+        let d = self.driven_mut()?;
+        let plan = d.opts.plan;
+        let done = |s: &Self| max_sweeps.is_some_and(|m| s.rec.sum.sweeps >= m);
+        match plan {
+            Plan::Steps { .. } => {
+                for target in plan.targets() {
+                    if done(self) {
+                        break;
+                    }
+                    self.settle_at(target)?;
+                    self.drive_sweep(&mut sweep)?;
+                }
+            }
+            Plan::Turn {
+                from_deg,
+                to_deg,
+                speed_deg_s,
+            } => {
+                self.settle_at(from_deg)?;
+                let dir = if to_deg >= from_deg { 1.0 } else { -1.0 };
+                self.driven_mut()?.drive.turn(dir * speed_deg_s)?;
+                eprintln!("positioner: turning from {from_deg}° to {to_deg}° at {speed_deg_s} °/s");
+                while !done(self) {
+                    let st = self.poll()?;
+                    if (st.angle_deg - to_deg) * dir >= 0.0 {
+                        break;
+                    }
+                    self.drive_sweep(&mut sweep)?;
+                }
+            }
+        }
+        Ok(())
+    }
+
+    /// One sweep while driven, right after the caller's poll (the sample before it, which
+    /// decided that the sweep is to be taken); the sample after it is taken in `record`.
+    fn drive_sweep(&mut self, sweep: &mut [Complex32]) -> anyhow::Result<()> {
+        let t = match self.take_with_retries(sweep) {
+            Took::Sweep(t) => t,
+            Took::Dropped => return Ok(()),
+            Took::Fatal(e) | Took::Stop(e) => return Err(e),
+        };
+        self.taken += 1;
+        self.record(t, sweep)
+    }
+
+    /// Moves to `target` and waits until the angle stays within the tolerance for the
+    /// settling time, or the settling deadline passes.
+    fn settle_at(&mut self, target: f64) -> anyhow::Result<()> {
+        let d = self.driven_mut()?;
+        let (speed, tol) = (d.opts.move_speed_deg_s, d.opts.settle_tolerance_deg);
+        let hold = Duration::from_secs_f64(d.opts.settle_s);
+        let give_up = Instant::now() + Duration::from_secs_f64(d.opts.settle_timeout_s);
+        d.drive.move_to(target, speed)?;
+        let mut within: Option<Instant> = None;
+        loop {
+            let st = self.poll()?;
+            if (st.angle_deg - target).abs() <= tol && st.motion == Motion::Holding {
+                let since = *within.get_or_insert_with(Instant::now);
+                if since.elapsed() >= hold {
+                    return Ok(());
+                }
+            } else {
+                within = None;
+            }
+            if Instant::now() >= give_up {
+                bail!(
+                    "the positioner did not settle within {tol}° of {target}° in {} s (at {:.3}°)",
+                    self.driven_mut()?.opts.settle_timeout_s,
+                    st.angle_deg
+                );
+            }
+            std::thread::sleep(Duration::from_millis(POLL_MS));
+        }
+    }
+
+    /// Sends a stop and waits (bounded) until the positioner reports no motion; when that
+    /// fails on the connection in use (it may be out of step after an error), once more on
+    /// a fresh connection.
+    fn stop_drive(&mut self) -> anyhow::Result<()> {
+        let first = self.stop_once();
+        let Err(e) = first else { return Ok(()) };
+        eprintln!("positioner: stopping failed ({e:#}); again on a new connection");
+        let timeout = Duration::from_secs_f64(self.profile.timeout_s);
+        let d = self.driven_mut()?;
+        d.drive = Box::new(LineDrive::open(&d.opts.addr, d.opts.baud, timeout)?);
+        self.stop_once()
+    }
+
+    fn stop_once(&mut self) -> anyhow::Result<()> {
+        let d = self.driven_mut()?;
+        d.drive.stop().context("stopping the positioner")?;
+        let brake_s = d.kept.max_speed_deg_s / d.kept.accel_deg_s2;
+        let give_up = Instant::now() + Duration::from_secs_f64(brake_s + 5.0);
+        loop {
+            // Read without the stop flag: a Ctrl-C must not keep us from seeing it stop.
+            let st = d
+                .drive
+                .status()
+                .context("checking that the positioner stopped")?;
+            if st.motion != Motion::Moving {
+                eprintln!("positioner: stopped at {:.3}°", st.angle_deg);
+                return Ok(());
+            }
+            if Instant::now() >= give_up {
+                bail!(
+                    "the positioner still reports motion {:.1} s after the stop",
+                    brake_s + 5.0
+                );
+            }
+            std::thread::sleep(Duration::from_millis(POLL_MS));
+        }
+    }
+}
+
+/// Triggers one sweep, waits for it and reads its data, checking the exchange is in step:
+/// nothing unasked waiting before the trigger, the `wait` answer as expected, and the
+/// `sync` answer after the data. `Err` for a link failure (closed, timeout, I/O).
 fn take_sweep(
     link: &mut Link,
     dec: &mut Decoder,
     sweep: &mut [Complex32],
     profile: &Profile,
-) -> anyhow::Result<Result<(), (String, bool)>> {
+) -> anyhow::Result<Answered> {
+    if link.unsolicited()? {
+        return Ok(Answered::OutOfStep(
+            "bytes nobody asked for were waiting before the trigger".into(),
+        ));
+    }
     for cmd in &profile.trigger {
         link.send(cmd)?;
     }
     if let Some(q) = &profile.wait {
-        link.query(q)?;
+        let a = link.query(q)?;
+        if let Some(want) = profile.expected_wait_answer() {
+            if !same_answer(&a, want) {
+                return Ok(Answered::OutOfStep(format!(
+                    "{q:?} answered {}, expected {want:?}",
+                    shown(&a)
+                )));
+            }
+        }
     }
     link.send(&profile.data)?;
-    Ok(match dec {
+    let answered = match dec {
         Decoder::Block(d) => match link.read_data(d, sweep, &profile.data)? {
-            DecodeEvent::Sweep { .. } => Ok(()),
-            DecodeEvent::Rejected(e) => Err((
-                e.to_string(),
-                matches!(e, sweepgate::error::BlockError::NonFinite { .. }),
-            )),
+            DecodeEvent::Sweep { .. } => Answered::Sweep,
+            DecodeEvent::Rejected(e @ sweepgate::error::BlockError::NonFinite { .. }) => {
+                Answered::NonFinite(e.to_string())
+            }
+            DecodeEvent::Rejected(e) => Answered::Unreadable(e.to_string()),
         },
         Decoder::Ascii(d) => match link.read_data(d, sweep, &profile.data)? {
-            DecodeEvent::Sweep { .. } => Ok(()),
-            DecodeEvent::Rejected(e) => Err((
-                e.to_string(),
-                matches!(e, sweepgate::error::AsciiError::NonFinite { .. }),
-            )),
+            DecodeEvent::Sweep { .. } => Answered::Sweep,
+            DecodeEvent::Rejected(e @ sweepgate::error::AsciiError::NonFinite { .. }) => {
+                Answered::NonFinite(e.to_string())
+            }
+            DecodeEvent::Rejected(e) => Answered::Unreadable(e.to_string()),
         },
-    })
+    };
+    if let (Answered::Sweep, Some(q)) = (&answered, &profile.sync) {
+        let a = link.query(q)?;
+        if !same_answer(&a, &profile.sync_answer) {
+            return Ok(Answered::OutOfStep(format!(
+                "after the data, {q:?} answered {}, expected {:?}: the data may be another request's",
+                shown(&a),
+                profile.sync_answer
+            )));
+        }
+    }
+    Ok(answered)
+}
+
+/// Whether an answer is the expected one: the same text (case aside) or the same number.
+fn same_answer(got: &str, want: &str) -> bool {
+    let (g, w) = (got.trim(), want.trim());
+    if g.eq_ignore_ascii_case(w) {
+        return true;
+    }
+    matches!((g.parse::<f64>(), w.parse::<f64>()), (Ok(a), Ok(b)) if a == b)
+}
+
+/// An answer as printed in a message: quoted, cut at 40 characters.
+fn shown(a: &str) -> String {
+    let cut: String = a.chars().take(40).collect();
+    if cut.len() < a.len() {
+        format!("{cut:?}… ({} bytes)", a.len())
+    } else {
+        format!("{cut:?}")
+    }
 }
 
 /// A new connection after a link fault, with the profile's `reconnect_setup` (default: its
@@ -1221,7 +1989,9 @@ fn reconnect(instrument: &str, profile: &Profile) -> anyhow::Result<Link> {
 /// Adds the instrument's error queue entries to an error, when there is an error query.
 fn with_queue(link: &mut Link, q: Option<&str>, e: anyhow::Error) -> anyhow::Error {
     let Some(q) = q else { return e };
-    link.drain(Duration::from_millis(200));
+    if link.drain(Duration::from_millis(200)).is_err() {
+        return e;
+    }
     match link.errors(q) {
         Ok(v) if !v.is_empty() => e.context(format!("instrument error queue: {}", v.join("; "))),
         _ => e,
@@ -1237,7 +2007,12 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
         None => SIMULATED_PROFILE.to_owned(),
     };
     let profile = Profile::from_toml(&text).context("in the profile")?;
-    let positioner = if let Some(a) = &opts.positioner {
+    let mut inputs: Vec<&Path> = opts.profile.iter().map(PathBuf::as_path).collect();
+    inputs.extend(opts.scenario.as_deref());
+    refuse_if_same_file(&opts.out, &inputs)?;
+    let positioner = if let Some(d) = &opts.drive {
+        AngleSource::Drive(Box::new(d.clone()))
+    } else if let Some(a) = &opts.positioner {
         AngleSource::Lines(a.clone())
     } else if opts.positioner_sim {
         let Some(path) = &opts.scenario else {
@@ -1270,6 +2045,7 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
         sum.link_faults,
         sum.reconnects
     );
+    eprintln!("{}", counters_line(&sum));
     if sum.setup.is_some() {
         eprintln!("scan engine closed {} bins", sum.bins_closed);
     }
@@ -1279,19 +2055,6 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn angle_lines() {
-        assert_eq!(parse_angle_line("12 -3.5"), Ok(Some((12, -3.5))));
-        assert_eq!(parse_angle_line("12\t4\r"), Ok(Some((12, 4.0))));
-        assert_eq!(parse_angle_line("  "), Ok(None));
-        assert_eq!(parse_angle_line("# comment"), Ok(None));
-        assert!(parse_angle_line("12").is_err());
-        assert!(parse_angle_line("12 3 4").is_err());
-        assert!(parse_angle_line("-1 3").is_err());
-        assert!(parse_angle_line("1 NaN").is_err());
-        assert!(parse_angle_line("1 x").is_err());
-    }
 
     #[test]
     fn profile_grid_needs_one_of_value_and_query() {

@@ -28,6 +28,11 @@
 //! last sweep of the scan the next one starts the scan again. `*RST` restarts the scan at
 //! sweep 0. Changing the frequency range or point count re-simulates on the new grid.
 //!
+//! A test-only option, `--misreport SETTING` (hidden from `--help`), makes one read-back
+//! lie: the query of `start`, `stop`, `points`, `bandwidth`, `power`, `function`,
+//! `format` or `order` answers a value other than the one set (numbers doubled, names
+//! changed), so a client's set-up check can be tested.
+//!
 //! `--dump DIR` writes every sweep taken as `DIR/sweep-<n>.json` (n counts sweeps taken
 //! since the program started, from 0): `{"index": sweep number in the scan, "start_hz",
 //! "stop_hz", "points", "re": [...], "im": [...]}` with the exact f32 values the
@@ -57,6 +62,9 @@
 //! | `[SENSe]:FREQuency:STARt <Hz>` / `?` | first frequency, 10 MHz to 50 GHz; suffix HZ, KHZ, MHZ, GHZ allowed |
 //! | `[SENSe]:FREQuency:STOP <Hz>` / `?` | last frequency |
 //! | `[SENSe]:SWEep:POINts <n>` / `?` | points, 2 to 10001 |
+//! | `[SENSe]:BANDwidth[:RESolution] <Hz>` / `?` | IF bandwidth, 1 Hz to 10 MHz (`*RST`: 10 kHz); recorded only |
+//! | `SOURce:POWer[:LEVel][:IMMediate][:AMPLitude] <dBm>` / `?` | source power, −90 to +20 dBm (`*RST`: −10); recorded only |
+//! | `[SENSe]:FUNCtion[:ON] "<S21\|S11\|S12\|S22>"` / `?` | the measured trace, quoted (`*RST`: `"S21"`); data are S21 whatever is chosen |
 //! | `INITiate[:IMMediate]` | takes the next sweep |
 //! | `TRACe[:DATA]? [<name>]`, `CALCulate[:DATA]?` | the last sweep, re, im interleaved: an IEEE 488.2 definite-length block (REAL formats) or comma-separated numbers (ASCii) |
 //! | `SYSTem:ERRor[:NEXT]?` | oldest error queue entry, e.g. `-113,"Undefined header"`; `0,"No error"` when empty |
@@ -180,7 +188,60 @@ pub struct Instrument {
     ese: u8,
     sre: u8,
     dump: Option<PathBuf>,
+    bandwidth_hz: f64,
+    power_dbm: f64,
+    function: &'static str,
+    misreport: Option<Setting>,
 }
+
+/// A setting whose read-back can be made to lie (`--misreport`, for tests).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Setting {
+    /// First frequency.
+    Start,
+    /// Last frequency.
+    Stop,
+    /// Point count.
+    Points,
+    /// IF bandwidth.
+    Bandwidth,
+    /// Source power.
+    Power,
+    /// Measured trace.
+    Function,
+    /// Data format.
+    Format,
+    /// Byte order.
+    Order,
+}
+
+impl std::str::FromStr for Setting {
+    type Err = String;
+    fn from_str(s: &str) -> Result<Self, String> {
+        Ok(match s {
+            "start" => Self::Start,
+            "stop" => Self::Stop,
+            "points" => Self::Points,
+            "bandwidth" => Self::Bandwidth,
+            "power" => Self::Power,
+            "function" => Self::Function,
+            "format" => Self::Format,
+            "order" => Self::Order,
+            _ => {
+                return Err(format!(
+                    "{s:?}: one of start, stop, points, bandwidth, power, function, format, order"
+                ))
+            }
+        })
+    }
+}
+
+/// IF bandwidth limits, Hz.
+pub const BANDWIDTH_RANGE_HZ: (f64, f64) = (1.0, 10e6);
+/// Source power limits, dBm.
+pub const POWER_RANGE_DBM: (f64, f64) = (-90.0, 20.0);
+/// Traces `FUNCtion` accepts.
+pub const FUNCTIONS: [&str; 4] = ["S11", "S21", "S12", "S22"];
 
 /// A header node: long form, short form, optional.
 type Node = (&'static str, &'static str, bool);
@@ -201,6 +262,23 @@ const SWE_POIN: &[Node] = &[
     ("SENSE", "SENS", true),
     ("SWEEP", "SWE", false),
     ("POINTS", "POIN", false),
+];
+const BAND: &[Node] = &[
+    ("SENSE", "SENS", true),
+    ("BANDWIDTH", "BAND", false),
+    ("RESOLUTION", "RES", true),
+];
+const POWER: &[Node] = &[
+    ("SOURCE", "SOUR", false),
+    ("POWER", "POW", false),
+    ("LEVEL", "LEV", true),
+    ("IMMEDIATE", "IMM", true),
+    ("AMPLITUDE", "AMPL", true),
+];
+const FUNC: &[Node] = &[
+    ("SENSE", "SENS", true),
+    ("FUNCTION", "FUNC", false),
+    ("ON", "ON", true),
 ];
 const INIT: &[Node] = &[("INITIATE", "INIT", false), ("IMMEDIATE", "IMM", true)];
 const TRAC_DATA: &[Node] = &[("TRACE", "TRAC", false), ("DATA", "DATA", true)];
@@ -312,6 +390,10 @@ impl Instrument {
             ese: 0,
             sre: 0,
             dump,
+            bandwidth_hz: 10e3,
+            power_dbm: -10.0,
+            function: "S21",
+            misreport: None,
         };
         me.reset();
         Ok(me)
@@ -348,6 +430,23 @@ impl Instrument {
         self.order = ByteOrder::Normal;
         self.next_sweep = 0;
         self.sweep = None;
+        self.bandwidth_hz = 10e3;
+        self.power_dbm = -10.0;
+        self.function = "S21";
+    }
+
+    /// Makes the read-back of `setting` lie (for tests of a client's set-up check).
+    pub fn misreport(&mut self, setting: Option<Setting>) {
+        self.misreport = setting;
+    }
+
+    /// `v`, or a wrong value when `setting` is the one to misreport.
+    fn report(&self, setting: Setting, v: f64) -> f64 {
+        if self.misreport == Some(setting) {
+            v * 2.0
+        } else {
+            v
+        }
     }
 
     fn push_error(&mut self, e: ScpiError) {
@@ -478,6 +577,15 @@ impl Instrument {
         if matches(t, SWE_POIN) {
             return self.points(query, &params);
         }
+        if matches(t, BAND) {
+            return self.bandwidth(query, &params);
+        }
+        if matches(t, POWER) {
+            return self.power(query, &params);
+        }
+        if matches(t, FUNC) {
+            return self.function(query, &params);
+        }
         if matches(t, INIT) {
             if query {
                 return Err(ScpiError::UNDEFINED_HEADER);
@@ -499,10 +607,13 @@ impl Instrument {
     fn data_format(&mut self, query: bool, params: &[&str]) -> Result<Option<Answer>, ScpiError> {
         if query {
             no_params(params)?;
-            return Ok(Some(Answer::Text(match self.format {
-                TransferFormat::Real(Format::Real32) => "REAL,32".into(),
-                TransferFormat::Real(Format::Real64) => "REAL,64".into(),
-                TransferFormat::Ascii(n) => format!("ASC,{n}"),
+            let lie = self.misreport == Some(Setting::Format);
+            return Ok(Some(Answer::Text(match (self.format, lie) {
+                (TransferFormat::Real(Format::Real32), false) => "REAL,32".into(),
+                (TransferFormat::Real(Format::Real64), false)
+                | (TransferFormat::Real(Format::Real32), true) => "REAL,64".into(),
+                (TransferFormat::Ascii(n), false) => format!("ASC,{n}"),
+                (_, true) => "REAL,32".into(),
             })));
         }
         let kind = params
@@ -530,9 +641,11 @@ impl Instrument {
     fn byte_order(&mut self, query: bool, params: &[&str]) -> Result<Option<Answer>, ScpiError> {
         if query {
             no_params(params)?;
-            let s = match self.order {
-                ByteOrder::Normal => "NORM",
-                ByteOrder::Swapped => "SWAP",
+            let swapped = matches!(self.order, ByteOrder::Swapped);
+            let s = if swapped != (self.misreport == Some(Setting::Order)) {
+                "SWAP"
+            } else {
+                "NORM"
             };
             return Ok(Some(Answer::Text(s.into())));
         }
@@ -554,7 +667,11 @@ impl Instrument {
         let g = self.scenario.sweep.clone();
         if query {
             no_params(params)?;
-            let v = if is_start { g.start_hz } else { g.stop_hz };
+            let v = if is_start {
+                self.report(Setting::Start, g.start_hz)
+            } else {
+                self.report(Setting::Stop, g.stop_hz)
+            };
             return Ok(Some(Answer::Text(nr3(v))));
         }
         let v = parse_hz(&one(params)?)?;
@@ -575,7 +692,12 @@ impl Instrument {
         let g = self.scenario.sweep.clone();
         if query {
             no_params(params)?;
-            return Ok(Some(Answer::Text(g.points.to_string())));
+            let n = if self.misreport == Some(Setting::Points) {
+                g.points + 1
+            } else {
+                g.points
+            };
+            return Ok(Some(Answer::Text(n.to_string())));
         }
         let p = one(params)?;
         let v: f64 = p.parse().map_err(|_| ScpiError::DATA_TYPE)?;
@@ -586,6 +708,70 @@ impl Instrument {
             return Err(ScpiError::OUT_OF_RANGE);
         }
         self.set_grid(g.start_hz, g.stop_hz, v as usize)?;
+        Ok(None)
+    }
+
+    /// `[SENSe]:BANDwidth[:RESolution]` and its query.
+    fn bandwidth(&mut self, query: bool, params: &[&str]) -> Result<Option<Answer>, ScpiError> {
+        if query {
+            no_params(params)?;
+            let v = self.report(Setting::Bandwidth, self.bandwidth_hz);
+            return Ok(Some(Answer::Text(nr3(v))));
+        }
+        let v = parse_hz(&one(params)?)?;
+        if !(BANDWIDTH_RANGE_HZ.0..=BANDWIDTH_RANGE_HZ.1).contains(&v) {
+            return Err(ScpiError::OUT_OF_RANGE);
+        }
+        self.bandwidth_hz = v;
+        Ok(None)
+    }
+
+    /// `SOURce:POWer[:LEVel][:IMMediate][:AMPLitude]` and its query, dBm.
+    fn power(&mut self, query: bool, params: &[&str]) -> Result<Option<Answer>, ScpiError> {
+        if query {
+            no_params(params)?;
+            let v = self.report(Setting::Power, self.power_dbm);
+            let v = if v == self.power_dbm && self.misreport == Some(Setting::Power) {
+                v + 1.0 // 0 dBm doubled is still 0
+            } else {
+                v
+            };
+            return Ok(Some(Answer::Text(nr3(v))));
+        }
+        let p = one(params)?;
+        let p = p.strip_suffix("DBM").unwrap_or(&p).trim();
+        let v: f64 = p.parse().map_err(|_| ScpiError::DATA_TYPE)?;
+        if !v.is_finite() {
+            return Err(ScpiError::DATA_TYPE);
+        }
+        if !(POWER_RANGE_DBM.0..=POWER_RANGE_DBM.1).contains(&v) {
+            return Err(ScpiError::OUT_OF_RANGE);
+        }
+        self.power_dbm = v;
+        Ok(None)
+    }
+
+    /// `[SENSe]:FUNCtion[:ON]` and its query: the measured trace, a quoted name.
+    fn function(&mut self, query: bool, params: &[&str]) -> Result<Option<Answer>, ScpiError> {
+        if query {
+            no_params(params)?;
+            let f = if self.misreport == Some(Setting::Function) {
+                if self.function == "S11" {
+                    "S22"
+                } else {
+                    "S11"
+                }
+            } else {
+                self.function
+            };
+            return Ok(Some(Answer::Text(format!("\"{f}\""))));
+        }
+        let p = one(params)?;
+        let name = p.trim_matches(|c| c == '"' || c == '\'');
+        self.function = FUNCTIONS
+            .into_iter()
+            .find(|f| *f == name)
+            .ok_or(ScpiError::ILLEGAL_VALUE)?;
         Ok(None)
     }
 
@@ -999,6 +1185,8 @@ pub struct ServerOptions {
     pub once: bool,
     /// Client count and deadlines.
     pub limits: ServerLimits,
+    /// For tests: the one setting whose read-back lies.
+    pub misreport: Option<Setting>,
 }
 
 /// Whether `--bind` names only this machine (a loopback address or `localhost`).
@@ -1047,7 +1235,11 @@ pub fn run_server(o: &ServerOptions) -> anyhow::Result<()> {
     if let Some(d) = &o.dump {
         std::fs::create_dir_all(d).with_context(|| format!("creating {}", d.display()))?;
     }
-    let inst = Instrument::new(scenario, seed, o.dump.clone())?;
+    let mut inst = Instrument::new(scenario, seed, o.dump.clone())?;
+    inst.misreport(o.misreport);
+    if let Some(m) = o.misreport {
+        eprintln!("warning: --misreport {m:?}: the read-back of this setting lies (for tests)");
+    }
     let listener = TcpListener::bind((o.bind.as_str(), o.port))
         .with_context(|| format!("listening on {}:{}", o.bind, o.port))?;
     let addr = listener.local_addr()?;
@@ -1106,6 +1298,30 @@ mod tests {
         assert_eq!(v.len(), ERROR_QUEUE_LEN);
         assert_eq!(v[0], ScpiError::UNDEFINED_HEADER);
         assert_eq!(v[ERROR_QUEUE_LEN - 1], ScpiError::QUEUE_OVERFLOW);
+    }
+
+    #[test]
+    fn bandwidth_power_and_trace_are_set_read_back_and_can_be_misreported() {
+        let mut i = Instrument::builtin(None).unwrap();
+        let ask = |i: &mut Instrument, q: &str| {
+            String::from_utf8(i.handle_line(q.as_bytes()).unwrap()).unwrap()
+        };
+        assert_eq!(
+            ask(&mut i, "SENS:BAND?;SOUR:POW?;FUNC?"),
+            "1E4;-1E1;\"S21\"\n"
+        );
+        i.handle_line(b"SENSe:BANDwidth:RESolution 1 KHZ;SOURce:POWer:LEVel:IMMediate:AMPLitude -20 DBM;SENS:FUNC \"S11\"");
+        assert_eq!(i.errors().count(), 0);
+        assert_eq!(ask(&mut i, "BAND?;SOUR:POW?;FUNC?"), "1E3;-2E1;\"S11\"\n");
+        i.handle_line(b"BAND 0.5;SOUR:POW 30;FUNC \"S33\"");
+        let codes: Vec<i32> = i.errors().map(|e| e.code).collect();
+        assert_eq!(codes, [-222, -222, -224]);
+        i.misreport(Some(Setting::Bandwidth));
+        assert_eq!(ask(&mut i, "BAND?;SOUR:POW?"), "2E3;-2E1\n");
+        i.misreport(Some(Setting::Function));
+        assert_eq!(ask(&mut i, "FUNC?"), "\"S22\"\n");
+        i.handle_line(b"*RST");
+        assert_eq!(ask(&mut i, "BAND?"), "1E4\n");
     }
 
     #[test]

@@ -1,6 +1,13 @@
 //! Live I/O: the SCPI client and acquisition, the simulated instrument server, preview
-//! sources.
+//! sources, the positioner's sample lines and clock fit, the positioner drive and the
+//! simulated turntable.
 
 pub mod acquire;
+pub mod clock;
+pub mod drive;
 pub mod instrument;
+pub mod lines;
+#[cfg(unix)]
+pub mod serial;
+pub mod turntable;
 pub mod view;
