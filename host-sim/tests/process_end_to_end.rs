@@ -132,12 +132,12 @@ fn manifest_of_touchstone_files_gives_the_replayed_pattern() {
     // round trip of the gate may move it by an ulp; both change f32 results by a few ulps.
     assert!(worst_db < 1e-3, "{worst_db} dB");
 
-    // Without a gate the manifest gates on the strongest impulse-response peak: the direct
+    // Without a gate the manifest's gate is chosen from the data, centered on the direct
     // path, 3 m / c (textbook: delay = distance / speed of light), to within two time
     // samples of the 1024-point response (1/(1024·20 MHz) = 48.8 ps each).
     let r = resolved(Input::Manifest(m), &dir.path().join("auto"));
     let p = process::process(&r).unwrap();
-    assert_eq!(p.gate_source, "strongest impulse-response peak");
+    assert_eq!(p.gate_source, "chosen from the data");
     let direct = 3.0 / 299_792_458.0;
     assert!(
         (p.gate.center_s - direct).abs() < 2.0 * 48.83e-12,
@@ -148,10 +148,7 @@ fn manifest_of_touchstone_files_gives_the_replayed_pattern() {
         &std::fs::read_to_string(dir.path().join("auto/summary.json")).unwrap(),
     )
     .unwrap();
-    assert_eq!(
-        summary["settings"]["gate_source"],
-        "strongest impulse-response peak"
-    );
+    assert_eq!(summary["settings"]["gate_source"], "chosen from the data");
 }
 
 fn write_recording(s: &Scenario, dir: &Path) -> (PathBuf, Recovered) {
@@ -296,7 +293,7 @@ fn the_command_writes_pattern_csv_at_grid_frequencies() {
 }
 
 #[test]
-fn a_recording_without_scenario_is_gated_on_its_impulse_response_peak() {
+fn a_recording_without_scenario_is_gated_with_the_gate_from_its_data() {
     use sweepgate_host::formats::recording::Writer;
     let (bytes, _) = simulate_to(&short_lab(), None, 1, Vec::new(), false).unwrap();
     let rec = recover(&bytes);
@@ -323,7 +320,7 @@ fn a_recording_without_scenario_is_gated_on_its_impulse_response_peak() {
     std::fs::write(&path, plain).unwrap();
     let r = resolved(Input::Recording(path), &dir.path().join("r"));
     let p = process::process(&r).unwrap();
-    assert_eq!(p.gate_source, "strongest impulse-response peak");
+    assert_eq!(p.gate_source, "chosen from the data");
     // Direct path 4 m (the demo lab's range; textbook delay = distance / c), to within two
     // samples of the 1024-point impulse response.
     let dt = 1.0 / (1024.0 * step_hz);

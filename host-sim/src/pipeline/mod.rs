@@ -3,6 +3,7 @@
 //! gating of saved sweeps, truth, simulation runs, the demo and link captures.
 
 pub mod capture;
+pub mod data_gate;
 pub mod demo;
 pub mod engine;
 pub mod manifest_bins;

@@ -102,6 +102,10 @@ pub struct Settings {
     pub gate: GateSettings,
     /// Where center and span came from.
     pub gate_source: String,
+    /// The gate chosen from the data: what its survey found (see
+    /// [`crate::pipeline::data_gate`]), when the data were surveyed.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub data_gate: Option<serde_json::Value>,
     /// Touchstone parameter (manifests).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub parameter: Option<String>,
@@ -142,6 +146,7 @@ impl Settings {
             },
             gate: GateSettings::of(&setup.gate, &setup.gate_rule),
             gate_source: setup.gate_source.clone(),
+            data_gate: setup.data.as_ref().map(|d| d.to_json(&setup.grid)),
             parameter: None,
             truth,
             seed: None,
@@ -169,6 +174,7 @@ impl Settings {
             mode: "step-and-stop",
             gate: GateSettings::of(&g.gate, &g.gate_rule),
             gate_source: g.gate_source.clone(),
+            data_gate: g.data.as_ref().map(|d| d.to_json(&g.gate.grid)),
             parameter: None,
             truth: "none".into(),
             seed: None,
