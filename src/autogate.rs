@@ -26,9 +26,9 @@
 //! 3. **Its delay and shape**: the delay τ of one impulse that fits h best over the direct
 //!    main lobe (least squares; golden-section search within ±1 sample of the peak), with
 //!    the template T(m) = Σₙ w\[n\]·e^(j2π·n·(m/M − Δf·τ)) (the inverse transform of a
-//!    band-windowed delay). Then the fit with three templates, the impulse's amplitude
-//!    constant, linear and quadratic over the band (uₙᵏ·w\[n\], uₙ = n/(K−1) − ½): an
-//!    antenna's smooth change over the band is absorbed; what is left, Σ|h − fit|² over Σ|h|²
+//!    band-windowed delay). Then the fit with two templates, the impulse's amplitude
+//!    constant and linear over the band (uₙᵏ·w\[n\], k = 0, 1, uₙ = n/(K−1) − ½): an
+//!    antenna's gain tilt over the band is absorbed; what is left, Σ|h − fit|² over Σ|h|²
 //!    across the main lobe, is large only when an echo lies inside the direct main lobe,
 //!    where no gate can reach it.
 //! 4. **Nearest echoes that matter**, after the direct path and before it (a late echo
@@ -36,7 +36,7 @@
 //!    path is within [`SurveyConfig::merged_direct_db`] of the reference, beyond the swing
 //!    window elsewhere; at least [`SurveyConfig::echo_floor_db`] relative to the direct
 //!    path and [`SurveyConfig::noise_floor_db`] relative to the reference; standing that
-//!    much above the three-template fit of the direct response at its delay; and with no
+//!    much above the two-template fit of the direct response at its delay; and with no
 //!    partner of like level as far on the other side (a ripple of the direct response over
 //!    the band gives such pairs, Wheeler's paired echoes).
 //!
@@ -374,10 +374,10 @@ impl<const M: usize> Response<'_, M> {
         (start_after, start_before): (usize, usize),
         floor: f32,
     ) -> (Arrival, Arrival) {
-        // What stands above the three-template fit of the direct response there.
+        // What stands above the two-template fit of the direct response there.
         let above_model = |m: usize, o: f64| {
-            let t = template3(band, (o - fit.offset) / M as f64).map(c64);
-            let model = fit.c[0] * t[0] + fit.c[1] * t[1] + fit.c[2] * t[2];
+            let t = template2(band, (o - fit.offset) / M as f64).map(c64);
+            let model = fit.c[0] * t[0] + fit.c[1] * t[1];
             (c64(self.h[m % M]) - model).norm_sqr() >= f64::from(floor)
         };
         // A partner of like level (within 6 dB) as far on the other side.
@@ -419,8 +419,8 @@ fn parabolic(a: f32, b: f32, c: f32) -> f64 {
 struct Fit {
     /// Offset of the fitted impulse from the peak sample, samples.
     offset: f64,
-    /// The three templates' amplitudes.
-    c: [num_complex::Complex64; 3],
+    /// The two templates' amplitudes.
+    c: [num_complex::Complex64; 2],
     peak_e: f32,
     residual_db: f32,
     residual_offset_samples: f64,
@@ -456,30 +456,30 @@ where
     let s = golden_max(gain, -1.0, 1.0, 22);
     let (num, den) = score(s);
     let a = if den > 0.0 { num / den } else { num };
-    // The residual from three templates (the impulse with its amplitude constant, linear
-    // and quadratic over the band): a smooth change of the direct response over the band
-    // (an antenna's gain tilt) is absorbed, an echo a ripple's cycle or more away is not.
-    let basis = |j: usize| template3(band, (j as f64 - half as f64 - s) / M as f64);
-    let mut g = [[num_complex::Complex64::new(0.0, 0.0); 3]; 3];
-    let mut b = [num_complex::Complex64::new(0.0, 0.0); 3];
+    // The residual from two templates (the impulse with its amplitude constant and
+    // linear over the band): a tilt of the direct response over the band (an antenna's gain
+    // growing with frequency) is absorbed, an echo half a ripple's cycle or more away is not.
+    let basis = |j: usize| template2(band, (j as f64 - half as f64 - s) / M as f64);
+    let mut g = [[num_complex::Complex64::new(0.0, 0.0); 2]; 2];
+    let mut b = [num_complex::Complex64::new(0.0, 0.0); 2];
     let mut total = 0.0f64;
     for j in 0..span {
         let v = c64(h[at(j)]);
         let t = basis(j).map(c64);
         total += v.norm_sqr();
-        for k in 0..3 {
+        for k in 0..2 {
             b[k] += t[k].conj() * v;
-            for l in 0..3 {
+            for l in 0..2 {
                 g[k][l] += t[k].conj() * t[l];
             }
         }
     }
-    let c = solve3(g, b);
+    let c = solve2(g, b);
     let mut worst = (half, 0.0f64);
     let mut left = 0.0f64;
     for j in 0..span {
         let t = basis(j).map(c64);
-        let fit = c[0] * t[0] + c[1] * t[1] + c[2] * t[2];
+        let fit = c[0] * t[0] + c[1] * t[1];
         let d = (c64(h[at(j)]) - fit).norm_sqr();
         left += d;
         if d > worst.1 {
@@ -526,10 +526,10 @@ fn c64(z: Complex32) -> num_complex::Complex64 {
     num_complex::Complex64::new(f64::from(z.re), f64::from(z.im))
 }
 
-/// Σₙ w\[n\]·uₙᵏ·e^(j2π·n·x) for k = 0, 1, 2, with uₙ = n/(K − 1) − ½.
-fn template3(band: &[f32], x_turns: f64) -> [Complex32; 3] {
+/// Σₙ w\[n\]·uₙᵏ·e^(j2π·n·x) for k = 0, 1, with uₙ = n/(K − 1) − ½.
+fn template2(band: &[f32], x_turns: f64) -> [Complex32; 2] {
     let step = ((x_turns - libm::floor(x_turns)) * 18_446_744_073_709_551_616.0) as u64;
-    let mut acc = [Complex32::new(0.0, 0.0); 3];
+    let mut acc = [Complex32::new(0.0, 0.0); 2];
     let mut turns = 0u64;
     let k1 = band.len().saturating_sub(1).max(1) as f32;
     for (n, &w) in band.iter().enumerate() {
@@ -538,51 +538,31 @@ fn template3(band: &[f32], x_turns: f64) -> [Complex32; 3] {
         let u = n as f32 / k1 - 0.5;
         acc[0] += z;
         acc[1] += z * u;
-        acc[2] += z * (u * u);
         turns = turns.wrapping_add(step);
     }
     acc
 }
 
-/// Solves the 3×3 Hermitian system g·c = b (Gaussian elimination with partial pivoting;
-/// a singular system gives zeros for what it cannot determine).
-fn solve3(
-    mut g: [[num_complex::Complex64; 3]; 3],
-    mut b: [num_complex::Complex64; 3],
-) -> [num_complex::Complex64; 3] {
+/// Solves the 2×2 Hermitian system g·c = b; a singular one falls back to the first
+/// template alone.
+fn solve2(
+    g: [[num_complex::Complex64; 2]; 2],
+    b: [num_complex::Complex64; 2],
+) -> [num_complex::Complex64; 2] {
     let zero = num_complex::Complex64::new(0.0, 0.0);
-    let scale = g[0][0].norm().max(g[1][1].norm()).max(g[2][2].norm());
-    for col in 0..3 {
-        let piv = (col..3)
-            .max_by(|&i, &j| g[i][col].norm().total_cmp(&g[j][col].norm()))
-            .unwrap_or(col);
-        g.swap(col, piv);
-        b.swap(col, piv);
-        if g[col][col].norm() <= 1e-12 * scale {
-            continue;
-        }
-        for row in col + 1..3 {
-            let f = g[row][col] / g[col][col];
-            let pivot_row = g[col];
-            for (x, v) in g[row].iter_mut().zip(pivot_row).skip(col) {
-                *x -= f * v;
-            }
-            let v = b[col];
-            b[row] -= f * v;
-        }
+    let det = g[0][0] * g[1][1] - g[0][1] * g[1][0];
+    let scale = g[0][0].norm() * g[1][1].norm();
+    if det.norm() > 1e-9 * scale {
+        return [
+            (b[0] * g[1][1] - g[0][1] * b[1]) / det,
+            (g[0][0] * b[1] - g[1][0] * b[0]) / det,
+        ];
     }
-    let mut c = [zero; 3];
-    for row in (0..3).rev() {
-        if g[row][row].norm() <= 1e-12 * scale {
-            continue;
-        }
-        let mut v = b[row];
-        for k in row + 1..3 {
-            v -= g[row][k] * c[k];
-        }
-        c[row] = v / g[row][row];
+    if g[0][0].norm() > 0.0 {
+        [b[0] / g[0][0], zero]
+    } else {
+        [zero, zero]
     }
-    c
 }
 
 /// One angle region's summary.

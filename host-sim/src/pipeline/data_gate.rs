@@ -62,7 +62,7 @@ pub fn data_gate(
     let sweeps = survey.regions().iter().map(|r| usize::from(r.looks)).sum();
     let by_angle = angles_deg.is_some();
     Ok(DataGate {
-        rule: rule(&choice, by_angle),
+        rule: rule(&choice, by_angle, survey.config().weak_direct_db),
         choice,
         survey,
         sweeps,
@@ -155,13 +155,14 @@ fn ns(s: f64) -> f64 {
 }
 
 /// The rule in words (also the terminal's line).
-fn rule(c: &Choice, by_angle: bool) -> String {
+fn rule(c: &Choice, by_angle: bool, weak_direct_db: f32) -> String {
     let mut t = format!(
-        "chosen from the data: center {:.3} ns, span {:.3} ns; direct path {:.3} to {:.3} ns (main lobe ±{:.3} ns)",
+        "chosen from the data: center {:.3} ns, span {:.3} ns; direct path {:.3} to {:.3} ns where within {:.0} dB of its strongest (main lobe ±{:.3} ns)",
         ns(c.center_s),
         ns(c.span_s),
         ns(c.direct_lo_s),
         ns(c.direct_hi_s),
+        -weak_direct_db,
         ns(c.half_lobe_s)
     );
     match (c.echo, c.margin_s) {
@@ -196,7 +197,7 @@ pub fn unseparable_warning(c: &Choice, grid: &Grid) -> Option<String> {
             angle_deg,
             needed_bandwidth_hz,
         } => format!(
-            "unseparable: an echo lies inside the direct path's main lobe (one-impulse fit leaves {residual_db:.1} dB, at {angle_deg:.0}°); no gate can remove it; a bandwidth of about {:.3} GHz would be needed (this sweep has {:.3} GHz); the least-bad gate keeps only the direct main lobe",
+            "unseparable: an echo lies inside the direct path's main lobe (a fit of the direct path alone leaves {residual_db:.1} dB of its main lobe, at {angle_deg:.0}°); no gate can remove it; a bandwidth of roughly {:.3} GHz or more would be needed (from where the fit residual peaks; this sweep has {:.3} GHz); the least-bad gate keeps only the direct main lobe",
             needed_bandwidth_hz / 1e9,
             b / 1e9
         ),
