@@ -12,6 +12,7 @@ pub mod outputs;
 pub mod plan;
 pub mod process;
 pub mod replay;
+pub mod self_error;
 pub mod setup;
 pub mod simulate;
 pub mod stream;

@@ -6,8 +6,17 @@ use sweepgate::gate::GateConfig;
 use sweepgate::grid::Grid;
 use sweepgate::scan::{ScanCounters, ScanMode};
 
+use crate::pipeline::data_gate::DataGate;
 use crate::pipeline::options::describe_window;
+use crate::pipeline::self_error::{self_errors, SelfError};
 use crate::pipeline::setup::{Gating, Setup};
+
+/// The direct path's earliest and latest delay seen in the data, s (none without data).
+fn direct_delays(data: &Option<DataGate>) -> Vec<f64> {
+    data.as_ref().map_or(Vec::new(), |d| {
+        vec![d.choice.direct_lo_s, d.choice.direct_hi_s]
+    })
+}
 
 /// The sweep grid.
 #[derive(Debug, Clone, Serialize)]
@@ -106,6 +115,10 @@ pub struct Settings {
     /// [`crate::pipeline::data_gate`]), when the data were surveyed.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub data_gate: Option<serde_json::Value>,
+    /// The gate's own error and the band-edge mark at each pattern frequency (see
+    /// [`crate::pipeline::self_error`]).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub gate_self_error: Option<Vec<SelfError>>,
     /// Touchstone parameter (manifests).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub parameter: Option<String>,
@@ -147,6 +160,7 @@ impl Settings {
             gate: GateSettings::of(&setup.gate, &setup.gate_rule),
             gate_source: setup.gate_source.clone(),
             data_gate: setup.data.as_ref().map(|d| d.to_json(&setup.grid)),
+            gate_self_error: self_errors(&setup.gate, &setup.indices, &direct_delays(&setup.data)),
             parameter: None,
             truth,
             seed: None,
@@ -175,6 +189,7 @@ impl Settings {
             gate: GateSettings::of(&g.gate, &g.gate_rule),
             gate_source: g.gate_source.clone(),
             data_gate: g.data.as_ref().map(|d| d.to_json(&g.gate.grid)),
+            gate_self_error: self_errors(&g.gate, &g.indices, &direct_delays(&g.data)),
             parameter: None,
             truth: "none".into(),
             seed: None,
