@@ -254,7 +254,7 @@ fn the_command_writes_pattern_csv_at_grid_frequencies() {
     let mut lines = csv.lines();
     assert_eq!(
         lines.next().unwrap(),
-        "angle_deg,frequency_hz,raw_db,gated_db,gated_phase_deg,raw_phase_deg,echo_db,sweeps,flags"
+        "angle_deg,frequency_hz,raw_db,gated_db,gated_phase_deg,raw_phase_deg,echo_db,sweeps,flags,near_band_edge"
     );
     let rows: Vec<Vec<&str>> = lines.map(|l| l.split(',').collect()).collect();
     assert_eq!(rows.len(), 7 * 2);
@@ -262,13 +262,30 @@ fn the_command_writes_pattern_csv_at_grid_frequencies() {
     freqs.sort_by(f64::total_cmp);
     freqs.dedup();
     assert_eq!(freqs, vec![6e9, 10e9]);
+    let summary = std::fs::read_to_string(out.join("summary.json")).unwrap();
+    let json: serde_json::Value = serde_json::from_str(&summary).unwrap();
+    // The band-edge column repeats summary.json's mark for the row's frequency.
+    let marks: Vec<(f64, bool)> = json["settings"]["gate_self_error"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|e| {
+            (
+                e["frequency_hz"].as_f64().unwrap(),
+                e["near_band_edge"].as_bool().unwrap(),
+            )
+        })
+        .collect();
+    assert_eq!(marks.len(), 2);
     for r in &rows {
-        assert_eq!(r.len(), 9);
+        assert_eq!(r.len(), 10);
         let g: f64 = r[3].parse().unwrap();
         assert!(g.is_finite() && g < 0.0, "gated level {g}");
         assert_eq!(r[7], "1");
+        let f: f64 = r[1].parse().unwrap();
+        let mark = marks.iter().find(|m| m.0 == f).unwrap().1;
+        assert_eq!(r[9], mark.to_string());
     }
-    let summary = std::fs::read_to_string(out.join("summary.json")).unwrap();
     assert!(
         summary.contains("\"gate_source\": \"command line\""),
         "{summary}"

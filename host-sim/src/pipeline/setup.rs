@@ -207,7 +207,9 @@ pub fn gating(
             Some(p)
         }
         Automatic::Data { sweeps, angles_deg } if need => {
-            let d = data_gate::data_gate(&grid, band_window, sweeps, angles_deg)?;
+            let d = data_gate::data_gate(&grid, band_window, sweeps, angles_deg).context(
+                "no gate was given and none could be chosen from the data; give --gate-center-ns and --gate-span-ns",
+            )?;
             remarks.extend(data_gate::unseparable_warning(&d.choice, &grid));
             let g = AutoGate {
                 center_s: d.choice.center_s,
