@@ -1002,6 +1002,25 @@ mod tests {
     }
 
     #[test]
+    fn a_late_echo_wrapped_round_the_alias_free_range_limits_the_gate_from_before() {
+        // Δf = 5 MHz: alias-free range 200 ns. An echo 196 ns after the direct path at 10 ns
+        // lands at 6 ns, 4 ns before it.
+        let g = gate();
+        let sl = peak_sidelobe_db(g.config().band_window);
+        let h = response(&g, &[(10e-9, 1.0), (206e-9, 0.3)]);
+        let reference = strongest_arrival(&g, &h).unwrap();
+        let l = look(&g, &h, sl, &SurveyConfig::DEFAULT, reference).unwrap();
+        let (t, _) = l.before.unwrap();
+        assert!((f64::from(t) + 4e-9).abs() < 0.05e-9, "{t}");
+        assert!(l.after.is_none());
+        let mut s = Survey::<4>::new(SurveyConfig::DEFAULT).unwrap();
+        s.add(0.0, &l);
+        let c = s.choose(&grid(), g.config().band_window, M).unwrap();
+        assert!(c.center_s - 0.5 * c.span_s >= 6e-9 + c.half_lobe_s - 1e-12, "{c:?}");
+        assert!(c.unseparable.is_none());
+    }
+
+    #[test]
     fn nothing_seen_is_an_error() {
         let s = Survey::<4>::new(SurveyConfig::DEFAULT).unwrap();
         assert_eq!(

@@ -206,6 +206,17 @@ fn the_gate_from_the_data_gives_the_free_space_pattern_or_says_it_cannot() {
         if info["separable"].as_bool().unwrap() {
             separable += 1;
             check_separable(name, &info, data, gate, room);
+            // The gate's own error on the direct path at the delays the data showed
+            // (settings.gate_self_error): at most 0.05 dB where the room allows a wide gate.
+            for e in settings["gate_self_error"].as_array().unwrap() {
+                let err = e["self_error_db"].as_f64().unwrap();
+                eprintln!(
+                    "{name} at {:.3} GHz: gate self-error {err:.5} dB, near a band edge: {}",
+                    e["frequency_hz"].as_f64().unwrap() / 1e9,
+                    e["near_band_edge"]
+                );
+                assert!(err <= 0.05, "{name}: {e}");
+            }
         } else {
             unseparable += 1;
             // Reported as such in summary.json (its own field and the warnings) and on the

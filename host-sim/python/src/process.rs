@@ -16,11 +16,11 @@ use pyo3::prelude::*;
 use pyo3::types::PyDict;
 use sweepgate::Complex32;
 use sweepgate_host::output::report::{self, ReportBin, ReportInput};
+use sweepgate_host::pipeline::data_gate as host_data_gate;
 use sweepgate_host::pipeline::options::{
     default_band_window, format_window, parse_window, GateOptions,
 };
 use sweepgate_host::pipeline::process::{self as host, Input, Options, Processed, Resolved};
-use sweepgate_host::pipeline::data_gate as host_data_gate;
 use sweepgate_host::pipeline::setup::peak_gate as host_peak_gate;
 
 use crate::{json_to_py, to_py_err};
