@@ -1016,7 +1016,10 @@ mod tests {
         let mut s = Survey::<4>::new(SurveyConfig::DEFAULT).unwrap();
         s.add(0.0, &l);
         let c = s.choose(&grid(), g.config().band_window, M).unwrap();
-        assert!(c.center_s - 0.5 * c.span_s >= 6e-9 + c.half_lobe_s - 1e-12, "{c:?}");
+        assert!(
+            c.center_s - 0.5 * c.span_s >= 6e-9 + c.half_lobe_s - 1e-12,
+            "{c:?}"
+        );
         assert!(c.unseparable.is_none());
     }
 
