@@ -32,12 +32,33 @@ fn demo_prints_the_two_path_table() {
     for needle in [
         "alias-free range",
         "resolution 1/B",
-        "ripple from the echo (dB)",
+        "ripple with the echo (dB)",
+        "ripple, direct path alone (dB)",
         "worst error vs direct path (dB)",
         "echo level in impulse response",
     ] {
         assert!(text.contains(needle), "missing {needle:?} in\n{text}");
     }
+}
+
+#[test]
+fn the_gate_alone_ripples_by_at_most_five_hundredths_of_a_db() {
+    // The two-path bench with the gate the demo uses, on the direct path alone (Friis
+    // free-space transmission, no echo): what is left is the gate's own ripple and error.
+    // Acceptance of issue 13: at most 0.05 dB.
+    let o = sweepgate_host::pipeline::demo::compute(-0.6, None).unwrap();
+    eprintln!(
+        "gated ripple with no echo {:.4} dB, error {:.4} dB; with the echo {:.4} dB",
+        o.ripple_alone_gated_db, o.error_alone_gated_db, o.ripple_gated_db
+    );
+    assert!(
+        o.ripple_alone_gated_db <= 0.05,
+        "{}",
+        o.ripple_alone_gated_db
+    );
+    assert!(o.error_alone_gated_db <= 0.05, "{}", o.error_alone_gated_db);
+    // The echo is gated away: with it, the gated ripple stays near the gate's own.
+    assert!(o.ripple_gated_db <= 0.05, "{}", o.ripple_gated_db);
 }
 
 #[test]

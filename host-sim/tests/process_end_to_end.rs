@@ -132,12 +132,12 @@ fn manifest_of_touchstone_files_gives_the_replayed_pattern() {
     // round trip of the gate may move it by an ulp; both change f32 results by a few ulps.
     assert!(worst_db < 1e-3, "{worst_db} dB");
 
-    // Without a gate the manifest gates on the strongest impulse-response peak: the direct
+    // Without a gate the manifest's gate is chosen from the data, centered on the direct
     // path, 3 m / c (textbook: delay = distance / speed of light), to within two time
     // samples of the 1024-point response (1/(1024·20 MHz) = 48.8 ps each).
     let r = resolved(Input::Manifest(m), &dir.path().join("auto"));
     let p = process::process(&r).unwrap();
-    assert_eq!(p.gate_source, "strongest impulse-response peak");
+    assert_eq!(p.gate_source, "chosen from the data");
     let direct = 3.0 / 299_792_458.0;
     assert!(
         (p.gate.center_s - direct).abs() < 2.0 * 48.83e-12,
@@ -148,10 +148,7 @@ fn manifest_of_touchstone_files_gives_the_replayed_pattern() {
         &std::fs::read_to_string(dir.path().join("auto/summary.json")).unwrap(),
     )
     .unwrap();
-    assert_eq!(
-        summary["settings"]["gate_source"],
-        "strongest impulse-response peak"
-    );
+    assert_eq!(summary["settings"]["gate_source"], "chosen from the data");
 }
 
 fn write_recording(s: &Scenario, dir: &Path) -> (PathBuf, Recovered) {
@@ -257,7 +254,7 @@ fn the_command_writes_pattern_csv_at_grid_frequencies() {
     let mut lines = csv.lines();
     assert_eq!(
         lines.next().unwrap(),
-        "angle_deg,frequency_hz,raw_db,gated_db,gated_phase_deg,raw_phase_deg,echo_db,sweeps,flags"
+        "angle_deg,frequency_hz,raw_db,gated_db,gated_phase_deg,raw_phase_deg,echo_db,sweeps,flags,near_band_edge"
     );
     let rows: Vec<Vec<&str>> = lines.map(|l| l.split(',').collect()).collect();
     assert_eq!(rows.len(), 7 * 2);
@@ -265,13 +262,30 @@ fn the_command_writes_pattern_csv_at_grid_frequencies() {
     freqs.sort_by(f64::total_cmp);
     freqs.dedup();
     assert_eq!(freqs, vec![6e9, 10e9]);
+    let summary = std::fs::read_to_string(out.join("summary.json")).unwrap();
+    let json: serde_json::Value = serde_json::from_str(&summary).unwrap();
+    // The band-edge column repeats summary.json's mark for the row's frequency.
+    let marks: Vec<(f64, bool)> = json["settings"]["gate_self_error"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|e| {
+            (
+                e["frequency_hz"].as_f64().unwrap(),
+                e["near_band_edge"].as_bool().unwrap(),
+            )
+        })
+        .collect();
+    assert_eq!(marks.len(), 2);
     for r in &rows {
-        assert_eq!(r.len(), 9);
+        assert_eq!(r.len(), 10);
         let g: f64 = r[3].parse().unwrap();
         assert!(g.is_finite() && g < 0.0, "gated level {g}");
         assert_eq!(r[7], "1");
+        let f: f64 = r[1].parse().unwrap();
+        let mark = marks.iter().find(|m| m.0 == f).unwrap().1;
+        assert_eq!(r[9], mark.to_string());
     }
-    let summary = std::fs::read_to_string(out.join("summary.json")).unwrap();
     assert!(
         summary.contains("\"gate_source\": \"command line\""),
         "{summary}"
@@ -296,7 +310,7 @@ fn the_command_writes_pattern_csv_at_grid_frequencies() {
 }
 
 #[test]
-fn a_recording_without_scenario_is_gated_on_its_impulse_response_peak() {
+fn a_recording_without_scenario_is_gated_with_the_gate_from_its_data() {
     use sweepgate_host::formats::recording::Writer;
     let (bytes, _) = simulate_to(&short_lab(), None, 1, Vec::new(), false).unwrap();
     let rec = recover(&bytes);
@@ -323,7 +337,7 @@ fn a_recording_without_scenario_is_gated_on_its_impulse_response_peak() {
     std::fs::write(&path, plain).unwrap();
     let r = resolved(Input::Recording(path), &dir.path().join("r"));
     let p = process::process(&r).unwrap();
-    assert_eq!(p.gate_source, "strongest impulse-response peak");
+    assert_eq!(p.gate_source, "chosen from the data");
     // Direct path 4 m (the demo lab's range; textbook delay = distance / c), to within two
     // samples of the 1024-point impulse response.
     let dt = 1.0 / (1024.0 * step_hz);

@@ -2,12 +2,14 @@
 //!
 //! Each boundary keeps its enum in its own file here and they are all re-exported.
 
+mod autogate;
 mod gate;
 mod plan;
 mod pump;
 mod scan;
 mod wire;
 
+pub use self::autogate::*;
 pub use self::gate::*;
 pub use self::plan::*;
 pub use self::pump::*;

@@ -16,6 +16,7 @@ use pyo3::prelude::*;
 use pyo3::types::PyDict;
 use sweepgate::Complex32;
 use sweepgate_host::output::report::{self, ReportBin, ReportInput};
+use sweepgate_host::pipeline::data_gate as host_data_gate;
 use sweepgate_host::pipeline::options::{
     default_band_window, format_window, parse_window, GateOptions,
 };
@@ -233,8 +234,8 @@ fn impulse_dict<'py>(py: Python<'py>, rep: &ReportInput) -> PyResult<Option<Boun
     Ok(Some(d))
 }
 
-/// The gate `sweepgate process` chooses when none is given: centred on the strongest
-/// impulse-response peak of the strongest sweep, four band-window main lobes wide. Returns
+/// The gate centred on the strongest impulse-response peak of the strongest sweep, four
+/// band-window main lobes wide (`sweepgate process` chooses [`data_gate`]'s). Returns
 /// (center_s, span_s, the rule in words, the row it came from).
 #[pyfunction]
 #[pyo3(signature = (sweeps, frequencies_hz, *, band_window=None))]
@@ -264,8 +265,48 @@ fn peak_gate(
     .map_err(to_py_err)
 }
 
+/// The gate `sweepgate process` chooses when none is given: chosen from the data of all
+/// sweeps (see `sweepgate_host::pipeline::data_gate`), in angle regions when `angles_deg`
+/// is given. Returns (center_s, span_s, the rule in words, the unseparable warning or
+/// None).
+#[pyfunction]
+#[pyo3(signature = (sweeps, frequencies_hz, *, angles_deg=None, band_window=None))]
+fn data_gate(
+    py: Python<'_>,
+    sweeps: PyReadonlyArray2<'_, Complex32>,
+    frequencies_hz: PyReadonlyArray1<'_, f64>,
+    angles_deg: Option<PyReadonlyArray1<'_, f64>>,
+    band_window: Option<String>,
+) -> PyResult<(f64, f64, String, Option<String>)> {
+    let f: Vec<f64> = frequencies_hz.as_array().iter().copied().collect();
+    let k = f.len();
+    let rows = crate::gate::rows_of(&sweeps, k).map_err(to_py_err)?;
+    let angles: Option<Vec<f64>> = angles_deg.map(|a| a.as_array().iter().copied().collect());
+    py.detach(|| -> anyhow::Result<(f64, f64, String, Option<String>)> {
+        let grid = crate::gate::grid_from_frequencies(&f)?;
+        let w = match &band_window {
+            Some(t) => parse_window(t).map_err(|e| anyhow!("band_window: {e}"))?,
+            None => default_band_window(),
+        };
+        let refs: Vec<&[Complex32]> = rows.chunks(k).collect();
+        if refs.is_empty() {
+            anyhow::bail!("sweeps: no sweeps to find a gate in");
+        }
+        if let Some(a) = &angles {
+            if a.len() != refs.len() {
+                anyhow::bail!("angles_deg: {} angles for {} sweeps", a.len(), refs.len());
+            }
+        }
+        let d = host_data_gate::data_gate(&grid, w, &refs, angles.as_deref())?;
+        let warning = host_data_gate::unseparable_warning(&d.choice, &grid);
+        Ok((d.choice.center_s, d.choice.span_s, d.rule, warning))
+    })
+    .map_err(to_py_err)
+}
+
 pub fn register(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(process, m)?)?;
     m.add_function(wrap_pyfunction!(peak_gate, m)?)?;
+    m.add_function(wrap_pyfunction!(data_gate, m)?)?;
     Ok(())
 }

@@ -131,13 +131,14 @@ def test_manifest_process_equals_the_command_and_the_gate(sweepgate_bin, manifes
     assert np.max(err[level > 1e-4]) < 0.2
 
 
-def test_manifest_automatic_gate_is_the_peak_gate(manifest):
+def test_manifest_automatic_gate_is_the_data_gate(manifest):
     path, x = manifest
     result = sweepgate.process(manifest=path)
+    d = sweepgate.data_gate(x, F, angles_deg=ANGLES)
+    assert result.gate["center_s"] == pytest.approx(d.center_s, rel=1e-12)
+    assert result.gate["span_s"] == pytest.approx(d.span_s, rel=1e-12)
+    assert result.gate["source"] == "chosen from the data"
     p = sweepgate.peak_gate(x, F)
-    assert result.gate["center_s"] == pytest.approx(p.center_s, rel=1e-12)
-    assert result.gate["span_s"] == pytest.approx(p.span_s, rel=1e-12)
-    assert result.gate["source"] == "strongest impulse-response peak"
     assert float(ANGLES[p.row]) == 0.0  # the strongest sweep is at boresight
     assert result.impulse is not None and result.impulse["angle_deg"] == 0.0
     t, h = sweepgate.impulse_response(x[p.row], F)

@@ -7,7 +7,7 @@ use crate::pipeline::options::GateOptions;
 #[derive(clap::Args, Debug, Clone, Default)]
 pub struct GateArgs {
     /// Gate center, ns from the VNA's time zero (default: the planner's from the scenario,
-    /// else centered on the strongest impulse-response peak).
+    /// else chosen from the data: holding the direct path, closing before the earliest echo).
     #[arg(long, allow_negative_numbers = true)]
     pub gate_center_ns: Option<f64>,
     /// Gate span (full width), ns (default: as for the center).

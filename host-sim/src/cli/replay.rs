@@ -64,6 +64,12 @@ pub fn run(a: Args) -> anyhow::Result<()> {
             arrays: a.export_arrays,
         },
     })?;
+    if let Some(d) = &o.setup.data {
+        eprintln!("gate {}", d.rule);
+        if let Some(w) = crate::pipeline::data_gate::unseparable_warning(&d.choice, &o.setup.grid) {
+            eprintln!("warning: {w}");
+        }
+    }
     eprintln!(
         "{} bins closed; report written to {}",
         o.counters.bins_closed,

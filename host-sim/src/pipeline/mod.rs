@@ -3,6 +3,7 @@
 //! gating of saved sweeps, truth, simulation runs, the demo and link captures.
 
 pub mod capture;
+pub mod data_gate;
 pub mod demo;
 pub mod engine;
 pub mod manifest_bins;
@@ -10,6 +11,7 @@ pub mod options;
 pub mod plan;
 pub mod process;
 pub mod replay;
+pub mod self_error;
 pub mod setup;
 pub mod simulate;
 pub mod stream;

@@ -36,8 +36,10 @@
 //!
 //! The set-up is [`crate::pipeline::setup`]'s, as for every command: a given center and
 //! span (command line or settings file) are used as they are; otherwise a recording with a
-//! scenario gets the planner's gate, and any other input the gate on the strongest
-//! impulse-response peak (`gate_source` in `summary.json` says which). The band window and
+//! scenario gets the planner's gate (compared with the gate from the data), and any other
+//! input the gate chosen from the data (`gate_source` in `summary.json` says which;
+//! `settings.data_gate` holds what the data showed, an `unseparable` warning when no gate
+//! can separate the direct path from an echo). The band window and
 //! gate shape defaults are [`crate::pipeline::options`]'s.
 
 use std::path::{Path, PathBuf};
@@ -296,9 +298,11 @@ pub struct Processed {
     pub report: ReportInput,
     /// The gate used.
     pub gate: GateConfig,
-    /// `"command line"`, `"settings file"`, `"planner"` or `"strongest impulse-response peak"`
-    /// (two joined when center and span came from different places).
+    /// `"command line"`, `"settings file"`, `"planner"` or `"chosen from the data"` (two
+    /// joined when center and span came from different places).
     pub gate_source: String,
+    /// What the gate from the data found, in words, when the data were surveyed.
+    pub data_gate: Option<String>,
     /// Every bin's whole band: always for a manifest, for a recording when exports are
     /// asked for.
     pub bands: Option<Bands>,
@@ -322,6 +326,7 @@ pub fn process_recording(r: &Resolved, path: &Path) -> anyhow::Result<Processed>
     stream::refuse_empty(&o)?;
     Ok(Processed {
         report: o.report,
+        data_gate: o.setup.data.as_ref().map(|d| d.rule.clone()),
         gate: o.setup.gate,
         gate_source: o.setup.gate_source,
         bands: o.bands,
@@ -357,7 +362,7 @@ pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> 
         .with_context(|| format!("{}: binning the manifest's angles", path.display()))?;
     let sweeps: Vec<&[Complex32]> = binned.sweeps.iter().map(|s| &s.values[..]).collect();
     let angles: Vec<f64> = binned.sweeps.iter().map(|s| s.angle_deg).collect();
-    let auto = Automatic::Peak {
+    let auto = Automatic::Data {
         sweeps: &sweeps,
         angles_deg: Some(&angles),
     };
@@ -408,6 +413,7 @@ pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> 
     };
     Ok(Processed {
         report,
+        data_gate: g.data.as_ref().map(|d| d.rule.clone()),
         gate: g.gate,
         gate_source: g.gate_source,
         bands: Some(bands),
@@ -554,6 +560,9 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
         .map_err(|_| anyhow::anyhow!("the processing thread failed"))??;
     for w in &p.report.warnings {
         eprintln!("warning: {w}");
+    }
+    if let Some(d) = &p.data_gate {
+        eprintln!("gate {d}");
     }
     eprintln!(
         "{} bins; gate center {:.3} ns, span {:.3} ns ({}); report written to {}",

@@ -4,8 +4,9 @@
 //! The set-up (grid, FFT size, pattern frequencies, bins, gate) comes from the recording's
 //! header and the options through [`crate::pipeline::setup`], the same as for `process`
 //! and `acquire`'s live engine; the streaming is [`crate::pipeline::stream`]. Without a
-//! scenario in the header the gate is found on the strongest impulse-response peak, as
-//! `process` does, unless `--gate-center-ns` and `--gate-span-ns` give it.
+//! scenario in the header the gate is chosen from the data
+//! ([`crate::pipeline::data_gate`]), as `process` does, unless `--gate-center-ns` and
+//! `--gate-span-ns` give it; the terminal says what the data showed.
 //!
 //! The pace is the record time divided by `--speed` (`--as-fast-as-possible`: no waiting).
 //! Every closed bin travels as preview frame bytes to the screen, which decodes them (so it

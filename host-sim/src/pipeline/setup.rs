@@ -26,10 +26,15 @@
 //!     center at the direct-path delay plus the cable delay, span 2·(first echo's excess
 //!     delay − half the band window's main lobe). With no separable echo: center at the
 //!     direct path, span four main lobes (at most half the alias-free range).
-//!   - `strongest impulse-response peak` (saved sweeps without a scenario): the sweep of
-//!     largest Σ|S|² is windowed with the band window and transformed; the gate is
-//!     centered on the sample of largest |h| and spans four band-window main lobes
-//!     (4·`mainlobe_width()`/(K·Δf)), at most half the alias-free range.
+//!     When the planner's gate is used and there are sweeps, the gate from the data is
+//!     worked out beside it and a disagreement is a remark.
+//!   - `chosen from the data` (saved sweeps without a scenario): every sweep's
+//!     band-windowed impulse response is surveyed ([`crate::pipeline::data_gate`], the
+//!     core's [`sweepgate::autogate`]): the gate holds the direct main lobe over its whole
+//!     delay swing and closes before the earliest echo that matters at any angle; when no
+//!     gate can, a remark says `unseparable` and the bandwidth that would be needed.
+//!     [`peak_gate`] (the strongest impulse-response peak, four band-window main lobes)
+//!     is kept for the Python binding.
 //!
 //! `gate_source` (in `summary.json`) says where center and span came from: `command line`,
 //! `settings file`, or the automatic gate's name; two joined when they differ.
@@ -47,6 +52,7 @@ use sweepgate::Complex32;
 use crate::formats::recording::{Header, SWEEP_FORMAT};
 use crate::limits::MAX_FREQUENCIES;
 use crate::model::scenario::{Mode, Scenario};
+use crate::pipeline::data_gate::{self, DataGate};
 use crate::pipeline::options::{
     default_band_window, parse_window, Choices, Origin, DEFAULT_GATE_SHAPE,
 };
@@ -70,11 +76,12 @@ pub struct AutoGate {
 #[derive(Debug, Clone)]
 pub enum Automatic<'a> {
     /// The core planner on a scenario's room (it runs even when both are given, for its
-    /// findings).
-    Planner(&'a Scenario),
-    /// The strongest impulse-response peak among sweeps of the grid's length; with
-    /// `angles_deg`, the rule names the chosen sweep's angle.
-    Peak {
+    /// findings); when its gate is used, the gate from the sweeps (may be empty) is
+    /// compared with it and a disagreement is a remark.
+    Planner(&'a Scenario, &'a [&'a [Complex32]]),
+    /// The gate chosen from the data ([`crate::pipeline::data_gate`]) of the sweeps of the
+    /// grid's length, in angle regions when `angles_deg` is given (else by sweep order).
+    Data {
         /// The sweeps.
         sweeps: &'a [&'a [Complex32]],
         /// Their angles, degrees, when known.
@@ -103,6 +110,8 @@ pub struct Gating {
     pub gate_source: String,
     /// Planner findings and other set-up remarks.
     pub remarks: Vec<String>,
+    /// The gate chosen from the data and what its survey found, when it was surveyed.
+    pub data: Option<DataGate>,
 }
 
 /// Everything a scan's engine is built from.
@@ -136,6 +145,8 @@ pub struct Setup {
     pub settle_us: u32,
     /// Top positioner speed of the scenario, deg/s.
     pub speed_deg_s: Option<f64>,
+    /// The gate chosen from the data and what its survey found, when it was surveyed.
+    pub data: Option<DataGate>,
 }
 
 impl Setup {
@@ -186,13 +197,31 @@ pub fn gating(
         None => snap_frequencies(&grid, recorded_hz, &mut remarks, false),
     };
     let need = choices.center_ns.is_none() || choices.span_ns.is_none();
+    let mut data = None;
     let auto = match auto {
-        Automatic::Planner(s) => Some(planned_gate(s, &grid, band_window, &mut remarks)?),
-        Automatic::Peak { sweeps, angles_deg } if need => {
-            Some(peak_gate(&grid, band_window, sweeps, angles_deg)?)
+        Automatic::Planner(s, sweeps) => {
+            let p = planned_gate(s, &grid, band_window, &mut remarks)?;
+            if need && !sweeps.is_empty() {
+                data = compare_with_data(&grid, band_window, sweeps, &p, &mut remarks);
+            }
+            Some(p)
+        }
+        Automatic::Data { sweeps, angles_deg } if need => {
+            let d = data_gate::data_gate(&grid, band_window, sweeps, angles_deg).context(
+                "no gate was given and none could be chosen from the data; give --gate-center-ns and --gate-span-ns",
+            )?;
+            remarks.extend(data_gate::unseparable_warning(&d.choice, &grid));
+            let g = AutoGate {
+                center_s: d.choice.center_s,
+                span_s: d.choice.span_s,
+                rule: d.rule.clone(),
+                source: data_gate::SOURCE,
+            };
+            data = Some(d);
+            Some(g)
         }
         Automatic::Fixed(g) => Some(g),
-        Automatic::Peak { .. } => None,
+        Automatic::Data { .. } => None,
     };
     let (center_s, span_s, rule, source) = choose_gate(choices, auto)?;
     Ok(Gating {
@@ -211,7 +240,32 @@ pub fn gating(
         gate_rule: rule,
         gate_source: source,
         remarks,
+        data,
     })
+}
+
+/// The gate from the data beside the planner's: a disagreement, or no gate from the
+/// data at all, is a remark.
+fn compare_with_data(
+    grid: &Grid,
+    band_window: WindowKind,
+    sweeps: &[&[Complex32]],
+    planned: &AutoGate,
+    remarks: &mut Vec<String>,
+) -> Option<DataGate> {
+    match data_gate::data_gate(grid, band_window, sweeps, None) {
+        Ok(d) => {
+            remarks.extend(d.disagreement(planned.source, planned.center_s, planned.span_s));
+            remarks.extend(data_gate::unseparable_warning(&d.choice, grid));
+            Some(d)
+        }
+        Err(e) => {
+            remarks.push(format!(
+                "no gate from the data to compare with the planner's: {e:#}"
+            ));
+            None
+        }
+    }
 }
 
 /// Center and span from the choices, the rest from the automatic gate; the rule in words
@@ -265,8 +319,8 @@ pub fn for_recording(
     }
     let scenario = h.scenario.as_ref();
     let auto = match scenario {
-        Some(s) => Automatic::Planner(s),
-        None => Automatic::Peak {
+        Some(s) => Automatic::Planner(s, sweeps),
+        None => Automatic::Data {
             sweeps,
             angles_deg: None,
         },
@@ -303,6 +357,7 @@ pub fn for_recording(
         mode,
         settle_us,
         speed_deg_s,
+        data: g.data,
     })
 }
 

@@ -6,8 +6,17 @@ use sweepgate::gate::GateConfig;
 use sweepgate::grid::Grid;
 use sweepgate::scan::{ScanCounters, ScanMode};
 
+use crate::pipeline::data_gate::DataGate;
 use crate::pipeline::options::describe_window;
+use crate::pipeline::self_error::{self_errors, SelfError};
 use crate::pipeline::setup::{Gating, Setup};
+
+/// The direct path's earliest and latest delay seen in the data, s (none without data).
+fn direct_delays(data: &Option<DataGate>) -> Vec<f64> {
+    data.as_ref().map_or(Vec::new(), |d| {
+        vec![d.choice.direct_lo_s, d.choice.direct_hi_s]
+    })
+}
 
 /// The sweep grid.
 #[derive(Debug, Clone, Serialize)]
@@ -102,6 +111,14 @@ pub struct Settings {
     pub gate: GateSettings,
     /// Where center and span came from.
     pub gate_source: String,
+    /// The gate chosen from the data: what its survey found (see
+    /// [`crate::pipeline::data_gate`]), when the data were surveyed.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub data_gate: Option<serde_json::Value>,
+    /// The gate's own error and the band-edge mark at each pattern frequency (see
+    /// [`crate::pipeline::self_error`]).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub gate_self_error: Option<Vec<SelfError>>,
     /// Touchstone parameter (manifests).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub parameter: Option<String>,
@@ -142,6 +159,8 @@ impl Settings {
             },
             gate: GateSettings::of(&setup.gate, &setup.gate_rule),
             gate_source: setup.gate_source.clone(),
+            data_gate: setup.data.as_ref().map(|d| d.to_json(&setup.grid)),
+            gate_self_error: self_errors(&setup.gate, &setup.indices, &direct_delays(&setup.data)),
             parameter: None,
             truth,
             seed: None,
@@ -169,6 +188,8 @@ impl Settings {
             mode: "step-and-stop",
             gate: GateSettings::of(&g.gate, &g.gate_rule),
             gate_source: g.gate_source.clone(),
+            data_gate: g.data.as_ref().map(|d| d.to_json(&g.gate.grid)),
+            gate_self_error: self_errors(&g.gate, &g.indices, &direct_delays(&g.data)),
             parameter: None,
             truth: "none".into(),
             seed: None,

@@ -9,7 +9,9 @@ and the command agree on the same data.
   levels, impulse responses and the time axis.
 - :func:`impulse_response` and :func:`time_s`: the windowed impulse response and its time
   axis.
-- :func:`peak_gate`: the gate ``sweepgate process`` chooses when none is given.
+- :func:`data_gate`: the gate ``sweepgate process`` chooses when none is given.
+- :func:`peak_gate`: the gate on the strongest impulse-response peak (the default of
+  :func:`gate` for single sweeps).
 - :func:`plan` / :func:`plan_text`: the planner, from a scenario or plan file or a dict.
 - :func:`process`: ``sweepgate process`` on a manifest or a recording, as arrays and the
   summary.
@@ -52,6 +54,8 @@ __all__ = [
     "make_gate",
     "parse_window",
     "peak_gate",
+    "data_gate",
+    "DataGate",
     "plan",
     "plan_text",
     "process",
@@ -108,10 +112,41 @@ class PeakGate(NamedTuple):
     row: int
 
 
+class DataGate(NamedTuple):
+    """The gate chosen from the data (see :func:`data_gate`)."""
+
+    center_s: float
+    span_s: float
+    rule: str
+    unseparable: Optional[str]
+
+
+def data_gate(
+    sweeps: Any,
+    frequencies_hz: Any,
+    *,
+    angles_deg: Any = None,
+    band_window: Optional[str] = None,
+) -> DataGate:
+    """The gate ``sweepgate process`` chooses when no centre or span is given.
+
+    Every sweep's impulse response is surveyed: the gate holds the direct path's main lobe
+    over its whole delay swing and closes before the nearest echo that matters at any angle
+    (in 30° regions of ``angles_deg`` when given, else by row order). Returns the centre
+    and span in seconds, the rule in words and, when no gate can separate the direct path
+    from an echo, the ``unseparable`` warning.
+    """
+    x, _ = _sweeps(sweeps)
+    f = _frequencies(frequencies_hz)
+    a = None if angles_deg is None else np.ascontiguousarray(angles_deg, dtype=np.float64)
+    return DataGate(*_native.data_gate(x, f, angles_deg=a, band_window=band_window))
+
+
 def peak_gate(
     sweeps: Any, frequencies_hz: Any, *, band_window: Optional[str] = None
 ) -> PeakGate:
-    """The gate ``sweepgate process`` chooses when no centre or span is given.
+    """The gate on the strongest impulse-response peak (``sweepgate process`` chooses
+    :func:`data_gate`'s).
 
     The strongest sweep (largest Σ|S|²) is windowed and transformed; the gate is centred on
     its impulse-response peak and spans four band-window main lobes (at most half the

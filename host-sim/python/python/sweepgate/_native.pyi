@@ -17,6 +17,7 @@ __all__ = [
     "plan",
     "process",
     "peak_gate",
+    "data_gate",
     "read_recording",
 ]
 
@@ -93,6 +94,13 @@ def peak_gate(
     *,
     band_window: Optional[str] = None,
 ) -> Tuple[float, float, str, int]: ...
+def data_gate(
+    sweeps: npt.NDArray[np.complex64],
+    frequencies_hz: npt.NDArray[np.float64],
+    *,
+    angles_deg: Optional[npt.NDArray[np.float64]] = None,
+    band_window: Optional[str] = None,
+) -> Tuple[float, float, str, Optional[str]]: ...
 def plan(
     path: Optional[str] = None,
     table_json: Optional[str] = None,

@@ -8,7 +8,9 @@
 //!
 //! - `pattern.csv`: a header row, then one row per bin and pattern frequency, bins in angle
 //!   order: `angle_deg,frequency_hz,raw_db,gated_db,gated_phase_deg,raw_phase_deg,echo_db,
-//!   sweeps,flags` and `truth_db` when the truth is known. `raw_db` and `gated_db` are
+//!   sweeps,flags`, `truth_db` when the truth is known, `gain_dbi` with gain by
+//!   substitution and `near_band_edge` (`true`/`false`) when the settings carry the gate's
+//!   band-edge marks (`settings.gate_self_error`). `raw_db` and `gated_db` are
 //!   20·log10|S21| (not normalized) to 6 decimals, `gated_phase_deg` and `raw_phase_deg` the
 //!   gated and raw values' arguments (−180…180) to 5 decimals (both together within 2e-7 of
 //!   the value, relative), `echo_db` the bin's echo
@@ -322,9 +324,18 @@ pub fn pattern_csv(input: &ReportInput) -> String {
     if input.gain.is_some() {
         s.push_str(",gain_dbi");
     }
+    // The band-edge mark of each pattern frequency, when the settings carry it.
+    let edges: Option<Vec<bool>> = input
+        .settings
+        .get("gate_self_error")
+        .and_then(Value::as_array)
+        .map(|a| a.iter().map(|e| e["near_band_edge"] == true).collect());
+    if edges.is_some() {
+        s.push_str(",near_band_edge");
+    }
     s.push('\n');
     for b in input.sorted_bins() {
-        for (v, f) in b.values.iter().zip(&input.frequencies_hz) {
+        for (fi, (v, f)) in b.values.iter().zip(&input.frequencies_hz).enumerate() {
             let _ = write!(
                 s,
                 "{:.3},{:.0},{:.6},{:.6},{:.5},{:.5},{},{},{}",
@@ -352,6 +363,9 @@ pub fn pattern_csv(input: &ReportInput) -> String {
                     ",{:.6}",
                     db(v.gated) + g.offset_db(fi).unwrap_or(f64::NAN)
                 );
+            }
+            if let Some(e) = &edges {
+                let _ = write!(s, ",{}", e.get(fi).copied().unwrap_or(false));
             }
             s.push('\n');
         }
