@@ -12,4 +12,5 @@ pub mod link;
 pub mod model;
 pub mod output;
 pub mod pipeline;
+pub mod threads;
 pub mod units;
