@@ -2,7 +2,7 @@
 """The host library's FFT-path gating against the same chain in numpy, same data, one run.
 
     python3 -m venv target/bench-venv && target/bench-venv/bin/pip install numpy scikit-rf
-    target/bench-venv/bin/python host-sim/bench/library_vs_numpy.py
+    target/bench-venv/bin/python host-sim/bench/library_vs_numpy.py [target/release/examples/gate_bench]
 
 Runs `cargo run --release -p sweepgate-host --example gate_bench -- --out FILE` (361 bins of
 an 8-12 GHz, 801-point sweep, M = 1024), which prints its own bins per second for each way
@@ -75,7 +75,7 @@ def numpy_gates(k, m, n, step, centre, span, band_beta, gate_beta, x, dtype):
     return per_bin, batched
 
 
-def best_rate(n, fn, passes=7):
+def best_rate(n, fn, passes=25):
     fn()
     best = float("inf")
     for _ in range(passes):
@@ -86,12 +86,14 @@ def best_rate(n, fn, passes=7):
 
 
 def main():
+    # An already built example may be named (skips cargo): library_vs_numpy.py PATH
+    command = sys.argv[1:2] or ["cargo", "run", "-q", "--release", "-p", "sweepgate-host",
+                                "--example", "gate_bench", "--"]
+    print("load average %.2f %.2f %.2f" % os.getloadavg())
     with tempfile.TemporaryDirectory() as tmp:
         path = os.path.join(tmp, "gate.bin")
-        run = subprocess.run(
-            ["cargo", "run", "-q", "--release", "-p", "sweepgate-host", "--example", "gate_bench",
-             "--", "--out", path],
-            cwd=ROOT, check=True, capture_output=True, text=True)
+        run = subprocess.run(command + ["--out", path],
+                             cwd=ROOT, check=True, capture_output=True, text=True)
         print(run.stdout.strip())
         ours = {m.group(1): float(m.group(2))
                 for m in re.finditer(r"^(.*): ([0-9.]+) bins/s", run.stdout, re.M)}

@@ -58,9 +58,15 @@ pub struct HostFft<const M: usize> {
 
 #[cfg(feature = "simd-fft")]
 impl<const M: usize> HostFft<M> {
-    /// Plans both directions at size M.
+    /// Plans both directions at size M; the plans are made once per process and shared
+    /// by every thread (each `HostFft` has its own scratch).
     pub fn new() -> Self {
-        let mut planner = rustfft::FftPlanner::<f32>::new();
+        static PLANNER: std::sync::OnceLock<std::sync::Mutex<rustfft::FftPlanner<f32>>> =
+            std::sync::OnceLock::new();
+        let mut planner = PLANNER
+            .get_or_init(|| std::sync::Mutex::new(rustfft::FftPlanner::new()))
+            .lock()
+            .unwrap_or_else(|e| e.into_inner());
         let forward = planner.plan_fft_forward(M);
         let inverse = planner.plan_fft_inverse(M);
         let len = forward
