@@ -21,6 +21,51 @@ pub trait Fft {
     fn inverse(&mut self);
 }
 
+/// An M-point FFT implementation with the conventions of [`Fft`] (forward unscaled, inverse
+/// scaled by 1/M), passed by the caller to the gate's `*_using` methods
+/// ([`Gate::apply_using`](crate::gate::Gate::apply_using),
+/// [`Gate::apply_many_using`](crate::gate::Gate::apply_many_using)).
+///
+/// The core's own is [`Microfft`]; a host brings a faster one (the `sweepgate` host crate
+/// plans rustfft's SIMD transforms) and gets the same chain, windows and gate around it.
+pub trait Transform<const M: usize> {
+    /// Forward transform of one buffer, unscaled.
+    fn forward(&mut self, buf: &mut [Complex32; M]);
+    /// Inverse transform of one buffer, scaled by 1/M.
+    fn inverse(&mut self, buf: &mut [Complex32; M]);
+    /// Forward transform of every buffer; one at a time unless the implementation batches.
+    fn forward_many(&mut self, bufs: &mut [[Complex32; M]]) {
+        for b in bufs {
+            self.forward(b);
+        }
+    }
+    /// Inverse transform of every buffer; one at a time unless the implementation batches.
+    fn inverse_many(&mut self, bufs: &mut [[Complex32; M]]) {
+        for b in bufs {
+            self.inverse(b);
+        }
+    }
+}
+
+/// The core's own transforms (microfft, through [`Fft`]); what [`Gate::apply`](crate::gate::Gate::apply)
+/// and the scan engine use.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Microfft;
+
+impl<const M: usize> Transform<M> for Microfft
+where
+    [Complex32; M]: Fft,
+{
+    #[inline]
+    fn forward(&mut self, buf: &mut [Complex32; M]) {
+        buf.forward();
+    }
+    #[inline]
+    fn inverse(&mut self, buf: &mut [Complex32; M]) {
+        buf.inverse();
+    }
+}
+
 macro_rules! impl_fft {
     ($feature:literal: $($n:literal => $f:ident, $i:ident;)*) => {$(
         #[cfg(feature = $feature)]

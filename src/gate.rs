@@ -27,7 +27,7 @@
 //! several sweeps is averaged first and gated once.
 
 use crate::error::GateError;
-use crate::fft::Fft;
+use crate::fft::{Fft, Microfft, Transform};
 use crate::grid::Grid;
 use crate::window::{cos_sin_turns, WindowKind};
 use crate::Complex32;
@@ -328,6 +328,16 @@ where
     /// Windowed, zero-padded impulse response of `raw[..K]`: sample m lies at
     /// `grid().time_s(M, m)`.
     pub fn impulse_response(&self, raw: &[Complex32; M], out: &mut [Complex32; M]) {
+        self.impulse_response_using(&mut Microfft, raw, out);
+    }
+
+    /// [`Gate::impulse_response`] with the caller's FFT.
+    pub fn impulse_response_using<T: Transform<M>>(
+        &self,
+        fft: &mut T,
+        raw: &[Complex32; M],
+        out: &mut [Complex32; M],
+    ) {
         for (n, ((o, x), &w)) in out
             .iter_mut()
             .zip(raw.iter())
@@ -336,7 +346,7 @@ where
         {
             *o = if n < self.points { *x * w } else { ZERO };
         }
-        out.inverse();
+        fft.inverse(out);
     }
 
     /// Echo level of an impulse response from [`Gate::impulse_response`]: energy outside the
@@ -406,8 +416,47 @@ where
     /// `out[..K]` (renormalized if configured; `out[K..]` is zeroed) and returns the echo
     /// level in dB.
     pub fn apply(&self, raw: &[Complex32; M], out: &mut [Complex32; M]) -> f32 {
-        self.impulse_response(raw, out);
-        self.gate_forward_renormalize(out)
+        self.apply_using(&mut Microfft, raw, out)
+    }
+
+    /// [`Gate::apply`] with the caller's FFT (the host's SIMD one, say); the same chain.
+    pub fn apply_using<T: Transform<M>>(
+        &self,
+        fft: &mut T,
+        raw: &[Complex32; M],
+        out: &mut [Complex32; M],
+    ) -> f32 {
+        self.impulse_response_using(fft, raw, out);
+        self.gate_forward_renormalize(fft, out)
+    }
+
+    /// FFT path over many sweeps at once, each buffer in place as in [`Gate::apply_in_place`]
+    /// with scale 1: `bufs[i][..K]` holds a sweep on entry and its gated spectrum on return
+    /// (`bufs[i][K..]` zeroed), `echo_db[i]` its echo level. The transforms of all buffers go
+    /// to the caller's FFT in one call each way ([`Transform::inverse_many`],
+    /// [`Transform::forward_many`]). Buffers beyond `echo_db`'s length are gated too; levels
+    /// beyond `bufs`' length are left alone. The results equal `apply_using` on each sweep.
+    pub fn apply_many_using<T: Transform<M>>(
+        &self,
+        fft: &mut T,
+        bufs: &mut [[Complex32; M]],
+        echo_db: &mut [f32],
+    ) {
+        for b in bufs.iter_mut() {
+            self.window(b, 1.0);
+        }
+        fft.inverse_many(bufs);
+        let mut levels = echo_db.iter_mut();
+        for b in bufs.iter_mut() {
+            let e = self.gate_and_measure(b);
+            if let Some(l) = levels.next() {
+                *l = e;
+            }
+        }
+        fft.forward_many(bufs);
+        for b in bufs.iter_mut() {
+            self.renormalize(b);
+        }
     }
 
     /// FFT path in place: `buf[..K]` holds the sweep on entry and the gated spectrum on
@@ -417,7 +466,7 @@ where
     pub fn apply_in_place(&self, buf: &mut [Complex32; M], scale: f32) -> f32 {
         self.window(buf, scale);
         buf.inverse();
-        self.gate_forward_renormalize(buf)
+        self.gate_forward_renormalize(&mut Microfft, buf)
     }
 
     /// [`Gate::apply_in_place`] that also checks the impulse response ([`Gate::check`])
@@ -426,13 +475,26 @@ where
         self.window(buf, scale);
         buf.inverse();
         let check = self.check(buf);
-        self.gate_forward_renormalize(buf);
+        self.gate_forward_renormalize(&mut Microfft, buf);
         check
     }
 
     /// Steps 3–5 on an impulse response: echo level and time gate in one pass, forward FFT,
     /// renormalization; returns the echo level.
-    fn gate_forward_renormalize(&self, buf: &mut [Complex32; M]) -> f32 {
+    fn gate_forward_renormalize<T: Transform<M>>(
+        &self,
+        fft: &mut T,
+        buf: &mut [Complex32; M],
+    ) -> f32 {
+        let echo_db = self.gate_and_measure(buf);
+        fft.forward(buf);
+        self.renormalize(buf);
+        echo_db
+    }
+
+    /// Step 3 with the echo level: time gate in place, energy outside the gate over the
+    /// total, in dB.
+    fn gate_and_measure(&self, buf: &mut [Complex32; M]) -> f32 {
         let (mut outside, mut total) = (0.0f32, 0.0f32);
         for (h, &g) in buf.iter_mut().zip(self.gate.iter()) {
             let e = h.norm_sqr();
@@ -442,8 +504,11 @@ where
             }
             *h *= g;
         }
-        buf.forward();
-        let echo_db = echo_db(outside, total);
+        echo_db(outside, total)
+    }
+
+    /// Step 5 in place: renormalization of `buf[..K]`, zeros beyond.
+    fn renormalize(&self, buf: &mut [Complex32; M]) {
         for (k, o) in buf.iter_mut().enumerate() {
             *o = if k < self.points {
                 *o * self.inv_renorm[k]
@@ -451,7 +516,6 @@ where
                 ZERO
             };
         }
-        echo_db
     }
 
     /// Kernel-path set-up for `F` pattern frequencies given as grid indices (each below K).

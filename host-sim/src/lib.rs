@@ -13,4 +13,5 @@ pub mod model;
 pub mod output;
 pub mod pipeline;
 pub mod quote;
+pub mod threads;
 pub mod units;

@@ -45,6 +45,7 @@ fn resolved(input: Input, out: &Path) -> Resolved {
         out: out.to_path_buf(),
         gain: None,
         exports: Default::default(),
+        threads: 2,
     }
 }
 

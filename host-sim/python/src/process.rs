@@ -133,6 +133,7 @@ fn process<'py>(
         gain_table,
         reference,
         exports: Default::default(),
+        threads: None,
     };
     let (p, r) = py
         .detach(|| -> anyhow::Result<(Processed, Resolved)> {

@@ -48,6 +48,10 @@ pub struct Args {
     /// archive (arrays `s21` of angles × frequencies × traces, `angle_deg`, `frequency_hz`, …).
     #[arg(long, value_name = "FILE.npz")]
     pub export_arrays: Option<PathBuf>,
+    /// Threads reading a manifest's files and gating its sweeps (default: every core); the
+    /// results are the same for any number.
+    #[arg(long, value_name = "N")]
+    pub threads: Option<usize>,
 }
 
 /// Runs the command.
@@ -67,5 +71,6 @@ pub fn run(a: Args) -> anyhow::Result<()> {
             touchstone_dir: a.export_touchstone,
             arrays: a.export_arrays,
         },
+        threads: a.threads,
     })
 }

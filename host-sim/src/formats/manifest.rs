@@ -337,34 +337,56 @@ impl Manifest {
         parameter: Option<Parameter>,
         spacing: Spacing,
     ) -> Result<ManifestScan, ManifestError> {
+        self.load_on(parameter, spacing, crate::threads::available())
+    }
+
+    /// [`Manifest::load`] with the files read on up to `threads` threads; the sweeps, the
+    /// warnings and the first error (in the manifest's order) are the same for any number.
+    pub fn load_on(
+        &self,
+        parameter: Option<Parameter>,
+        spacing: Spacing,
+        threads: usize,
+    ) -> Result<ManifestScan, ManifestError> {
+        let err = |row: &ManifestRow, kind| ManifestError {
+            file: self.name.clone(),
+            line: Some(row.line),
+            kind,
+        };
+        let read = crate::threads::map_blocks(
+            &self.rows,
+            threads,
+            8,
+            || (),
+            |_, rows| {
+                rows.iter()
+                    .map(|row| {
+                        let ts = Touchstone::read(&row.file)?;
+                        let p = parameter.unwrap_or_else(|| Parameter::default_for(ts.ports()));
+                        ts.to_sweep(p, spacing)
+                    })
+                    .collect()
+            },
+        );
         let mut first: Option<(Grid, &Path)> = None;
         let mut sweeps = Vec::with_capacity(self.rows.len());
         let mut warnings = Vec::new();
-        for row in &self.rows {
-            let err = |kind| ManifestError {
-                file: self.name.clone(),
-                line: Some(row.line),
-                kind,
-            };
-            let ts = Touchstone::read(&row.file)
-                .map_err(|e| err(ManifestErrorKind::Touchstone(Box::new(e))))?;
-            let p = parameter.unwrap_or_else(|| Parameter::default_for(ts.ports()));
-            let s = ts
-                .to_sweep(p, spacing)
-                .map_err(|e| err(ManifestErrorKind::Touchstone(Box::new(e))))?;
+        for (row, s) in self.rows.iter().zip(read) {
+            let s = s.map_err(|e| err(row, ManifestErrorKind::Touchstone(Box::new(e))))?;
             match first {
                 None => first = Some((s.grid, &row.file)),
                 Some((g, f)) => {
                     if !same_grid(&g, &s.grid) {
                         let parts = |g: &Grid| (g.start_hz(), g.step_hz(), g.points());
-                        return Err(err(ManifestErrorKind::DifferentGrid(Box::new(
-                            GridMismatch {
+                        return Err(err(
+                            row,
+                            ManifestErrorKind::DifferentGrid(Box::new(GridMismatch {
                                 file: row.file.clone(),
                                 grid: parts(&s.grid),
                                 first_file: f.to_path_buf(),
                                 first_grid: parts(&g),
-                            },
-                        ))));
+                            })),
+                        ));
                     }
                 }
             }

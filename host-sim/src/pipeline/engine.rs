@@ -26,7 +26,7 @@ use crate::limits::{MAX_BINS, MAX_FREQUENCIES};
 use crate::output::export::{BandRow, Bands};
 use crate::output::report::{ImpulseView, ReportBin, ReportValue};
 use crate::pipeline::setup::Setup;
-use crate::pipeline::transform::{self, c64, impulse_view, FftJob};
+use crate::pipeline::transform::{self, c64, impulse_view, FftJob, HostFft};
 
 /// A closed bin as a report bin (truth not yet known).
 pub fn report_bin<const F: usize>(r: &BinResult<F>, frequencies: usize) -> ReportBin {
@@ -71,12 +71,27 @@ pub struct GatedSweeps {
     pub impulse: Option<ImpulseView>,
 }
 
-/// Gates `sweeps` with `cfg` at the FFT size of its grid; with `impulse_of` = (index,
-/// angle), also the impulse view of that sweep.
+/// Gates `sweeps` with `cfg` at the FFT size of its grid on every core; with `impulse_of` =
+/// (index, angle), also the impulse view of that sweep. See [`gate_sweeps_on`].
 pub fn gate_sweeps(
     cfg: &GateConfig,
     sweeps: &[&[Complex32]],
     impulse_of: Option<(usize, f64)>,
+) -> anyhow::Result<GatedSweeps> {
+    gate_sweeps_on(cfg, sweeps, impulse_of, crate::threads::available())
+}
+
+/// Sweeps a thread gates in one batch ([`Gate::apply_many_using`]).
+const BATCH: usize = 16;
+
+/// [`gate_sweeps`] on up to `threads` threads, each gating batches of [`BATCH`] sweeps with
+/// its own [`HostFft`]. Every sweep is gated alone whatever the batch it falls in, so the
+/// results are the same bit for bit for any number of threads.
+pub fn gate_sweeps_on(
+    cfg: &GateConfig,
+    sweeps: &[&[Complex32]],
+    impulse_of: Option<(usize, f64)>,
+    threads: usize,
 ) -> anyhow::Result<GatedSweeps> {
     transform::run(
         transform::fft_size(cfg.grid.points())?,
@@ -84,6 +99,7 @@ pub fn gate_sweeps(
             cfg,
             sweeps,
             impulse_of,
+            threads,
         },
     )
 }
@@ -92,6 +108,7 @@ struct GateEach<'a> {
     cfg: &'a GateConfig,
     sweeps: &'a [&'a [Complex32]],
     impulse_of: Option<(usize, f64)>,
+    threads: usize,
 }
 
 impl FftJob for GateEach<'_> {
@@ -101,23 +118,36 @@ impl FftJob for GateEach<'_> {
         [Complex32; M]: Fft,
     {
         let gate = Box::new(Gate::<M>::new(self.cfg).context("gate")?);
-        let zero = Complex32::new(0.0, 0.0);
-        let mut raw: Box<[Complex32; M]> = Box::new([zero; M]);
-        let mut out: Box<[Complex32; M]> = Box::new([zero; M]);
         let k = self.cfg.grid.points().min(M);
+        let zero = Complex32::new(0.0, 0.0);
+        let init = || (HostFft::<M>::new(), vec![[zero; M]; BATCH]);
+        let gated = crate::threads::map_blocks(
+            self.sweeps,
+            self.threads,
+            BATCH,
+            init,
+            |(fft, bufs), block| {
+                let bufs = &mut bufs[..block.len()];
+                for (b, s) in bufs.iter_mut().zip(block) {
+                    b.fill(zero);
+                    for (d, v) in b.iter_mut().zip(s.iter()) {
+                        *d = *v;
+                    }
+                }
+                let mut echo_db = [0.0f32; BATCH];
+                gate.apply_many_using(fft, bufs, &mut echo_db);
+                bufs.iter()
+                    .zip(echo_db)
+                    .map(|(b, e)| (b[..k].to_vec(), e))
+                    .collect()
+            },
+        );
+        let (spectra, echo_db) = gated.into_iter().unzip();
         let mut g = GatedSweeps {
-            spectra: Vec::with_capacity(self.sweeps.len()),
-            echo_db: Vec::with_capacity(self.sweeps.len()),
+            spectra,
+            echo_db,
             impulse: None,
         };
-        for s in self.sweeps {
-            raw.fill(zero);
-            for (b, v) in raw.iter_mut().zip(s.iter()) {
-                *b = *v;
-            }
-            g.echo_db.push(gate.apply(&raw, &mut out));
-            g.spectra.push(out[..k].to_vec());
-        }
         if let Some((i, angle_deg)) = self.impulse_of {
             if let Some(s) = self.sweeps.get(i) {
                 g.impulse = Some(impulse_view(&gate, s, angle_deg, 1));

@@ -58,7 +58,7 @@ use crate::limits::MIN_REFERENCE_DB;
 use crate::model::scenario::toml_one_line;
 use crate::output::export::{self, BandRow, Bands, Exports};
 use crate::output::report::{self, ImpulseView, ReportBin, ReportInput, ReportValue};
-use crate::pipeline::engine::gate_sweeps;
+use crate::pipeline::engine::gate_sweeps_on;
 use crate::pipeline::manifest_bins;
 use crate::pipeline::options::{default_report_dir, window_option, Choices, GateOptions, Origin};
 use crate::pipeline::setup::{self, Automatic};
@@ -92,6 +92,9 @@ pub struct Options {
     pub reference: Option<PathBuf>,
     /// Full-band exports beside the report (see [`crate::output::export`]).
     pub exports: Exports,
+    /// Threads reading a manifest's files and gating its sweeps (`None`: every core). The
+    /// results do not depend on it.
+    pub threads: Option<usize>,
 }
 
 /// The keys a settings file may hold.
@@ -202,6 +205,8 @@ pub struct Resolved {
     pub gain: Option<(PathBuf, PathBuf)>,
     /// Full-band exports beside the report.
     pub exports: Exports,
+    /// Threads for a manifest (at least 1).
+    pub threads: usize,
 }
 
 /// A manifest when the file's first line starts with `angle_deg`, else a recording.
@@ -288,6 +293,11 @@ pub fn resolve(opts: &Options) -> anyhow::Result<Resolved> {
         out,
         gain: opts.gain_table.clone().zip(opts.reference.clone()),
         exports: opts.exports.clone(),
+        threads: match opts.threads {
+            Some(0) => bail!("--threads 0: give at least 1 (or leave it out for every core)"),
+            Some(n) => n,
+            None => crate::threads::available(),
+        },
     })
 }
 
@@ -352,7 +362,7 @@ fn covers_full_circle(angles_deg: &[f64]) -> bool {
 /// gated on the FFT path.
 pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> {
     let m = Manifest::read(path)?;
-    let scan = m.load(r.parameter, r.spacing)?;
+    let scan = m.load_on(r.parameter, r.spacing, r.threads)?;
     if scan.sweeps.is_empty() {
         bail!("{}: no sweeps", path.display());
     }
@@ -368,7 +378,13 @@ pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> 
     };
     let bw = setup::band_window(&r.choices, None)?;
     let g = setup::gating(scan.grid, &r.choices, bw, &[], auto)?;
-    let (bins, impulse, gated) = gate_each(&g.gate, &binned.sweeps, &binned.counts, &g.indices)?;
+    let (bins, impulse, gated) = gate_each(
+        &g.gate,
+        &binned.sweeps,
+        &binned.counts,
+        &g.indices,
+        r.threads,
+    )?;
     let bands = Bands {
         grid: scan.grid,
         rows: binned
@@ -424,12 +440,13 @@ pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> 
 type Gated = (Vec<ReportBin>, Option<ImpulseView>, Vec<Vec<Complex32>>);
 
 /// One bin per binned sweep (`counts` files each), gated on the FFT path, the impulse view
-/// of the sweep nearest 0°, and each bin's gated spectrum.
+/// of the sweep nearest 0°, and each bin's gated spectrum; on up to `threads` threads.
 fn gate_each(
     gate: &GateConfig,
     sweeps: &[AngleSweep],
     counts: &[usize],
     indices: &[usize],
+    threads: usize,
 ) -> anyhow::Result<Gated> {
     let values: Vec<&[Complex32]> = sweeps.iter().map(|s| &s.values[..]).collect();
     let near = sweeps
@@ -441,7 +458,7 @@ fn gate_each(
                 .total_cmp(&wrap_deg(b.angle_deg).abs())
         })
         .map(|(i, s)| (i, s.angle_deg));
-    let g = gate_sweeps(gate, &values, near)?;
+    let g = gate_sweeps_on(gate, &values, near, threads)?;
     let bins = sweeps
         .iter()
         .zip(counts)
@@ -521,7 +538,7 @@ fn gain_reference(
         values: sweep.values,
         file: reference.to_path_buf(),
     }];
-    let (bins, _, _) = gate_each(&p.gate, &one, &[1], &indices)?;
+    let (bins, _, _) = gate_each(&p.gate, &one, &[1], &indices, 1)?;
     let values = &bins.first().context("gating the reference")?.values;
     let mut per_frequency = Vec::new();
     for (f, v) in p.report.frequencies_hz.iter().zip(values) {

@@ -1,0 +1,178 @@
+#!/usr/bin/env python3
+"""`sweepgate process` on a manifest of Touchstone files against a plain scikit-rf script
+doing the same gating, in one run; and, with --scale, process's time and peak memory over
+files x points on one and two threads.
+
+    cargo build --release -p sweepgate-host --bin sweepgate
+    python3 -m venv target/bench-venv && target/bench-venv/bin/pip install numpy scikit-rf
+    target/bench-venv/bin/python host-sim/bench/process_vs_skrf.py            # 1,440 files
+    target/bench-venv/bin/python host-sim/bench/process_vs_skrf.py --scale    # the table
+
+The scan (made once, kept under target/bench-data/): FILES two-port Touchstone files (RI,
+Hz) of POINTS points over 8-12 GHz, one per angle over a full turn, S21 a direct path at 18 ns
+whose level follows the angle plus a wall echo at 24 ns and a little noise, the other three
+parameters small constants; and the manifest (`angle_deg,file`) listing them.
+
+scikit-rf, in this process (its import and the interpreter's start not counted): for each
+file, `skrf.Network(path)`, `ntwk.s21.time_gate(center=18, span=4, t_unit="ns")` (a Kaiser
+beta 6 gate, scikit-rf's default) and the gated values at the three pattern frequencies.
+
+sweepgate, as a program (its start, reading, gating and the whole report folder counted):
+`target/release/sweepgate process --manifest M --gate-center-ns 18 --gate-span-ns 4
+--band-window kaiser:6 --gate-shape kaiser:6 --frequencies-hz 9e9,10e9,11e9 --threads N`,
+best of REPEAT runs; its peak resident memory and CPU time from the kernel (wait4's
+ru_maxrss, ru_utime + ru_stime). On a shared machine the CPU times are the steadier figure.
+
+Prints each time, the ratio of scikit-rf's time over process's (default threads: every core)
+and process's speed-up from one thread to two, with the load average before each.
+"""
+import argparse
+import os
+import subprocess
+import sys
+import tempfile
+import time
+
+import numpy as np
+
+HERE = os.path.dirname(os.path.abspath(__file__))
+ROOT = os.path.dirname(os.path.dirname(HERE))
+CENTER_NS, SPAN_NS = 18.0, 4.0
+FREQS_HZ = [9e9, 10e9, 11e9]
+
+
+def make_scan(files, points):
+    """Writes the scan once; returns the manifest's path."""
+    folder = os.path.join(ROOT, "target", "bench-data", f"{files}x{points}")
+    manifest = os.path.join(folder, "scan.csv")
+    if os.path.exists(manifest):
+        return manifest
+    os.makedirs(folder, exist_ok=True)
+    rng = np.random.default_rng(19)
+    f = np.linspace(8e9, 12e9, points)
+    rows = ["angle_deg,file"]
+    for i in range(files):
+        angle = -180.0 + 360.0 * i / files
+        level = 0.1 + 0.9 * np.cos(np.radians(angle) / 2) ** 2
+        echo = 0.05 + 0.3 * np.sin(np.radians(angle)) ** 2
+        s21 = (level * np.exp(-2j * np.pi * f * 18e-9) + echo * np.exp(-2j * np.pi * f * 24e-9)
+               + 1e-3 * (rng.standard_normal(points) + 1j * rng.standard_normal(points)))
+        cols = np.column_stack([f, np.full(points, 0.1), np.zeros(points), s21.real, s21.imag,
+                                s21.real, s21.imag, np.full(points, 0.1), np.zeros(points)])
+        name = f"a{i:04d}.s2p"
+        np.savetxt(os.path.join(folder, name), cols, fmt="%.9g", header="Hz S RI R 50",
+                   comments="# ")
+        rows.append(f"{angle!r},{name}")
+    tmp = manifest + ".tmp"
+    with open(tmp, "w") as fh:
+        fh.write("\n".join(rows) + "\n")
+    os.replace(tmp, manifest)
+    return manifest
+
+
+def skrf_script(manifest):
+    """The plain scikit-rf script; returns its time in seconds and the gated values."""
+    import skrf
+
+    folder = os.path.dirname(manifest)
+    with open(manifest) as fh:
+        rows = [line.strip().split(",", 1) for line in fh.readlines()[1:] if line.strip()]
+    t = time.perf_counter()
+    cpu = time.process_time()
+    values = []
+    for _angle, name in rows:
+        ntwk = skrf.Network(os.path.join(folder, name))
+        gated = ntwk.s21.time_gate(center=CENTER_NS, span=SPAN_NS, t_unit="ns")
+        idx = [int(np.argmin(np.abs(ntwk.f - fz))) for fz in FREQS_HZ]
+        values.append(gated.s[idx, 0, 0])
+    return time.perf_counter() - t, time.process_time() - cpu, np.array(values)
+
+
+def sweepgate_run(binary, manifest, threads, out):
+    """One run of process; returns (seconds, peak resident MiB, CPU seconds)."""
+    args = [binary, "process", "--manifest", manifest, "--gate-center-ns", str(CENTER_NS),
+            "--gate-span-ns", str(SPAN_NS), "--band-window", "kaiser:6", "--gate-shape", "kaiser:6",
+            "--frequencies-hz", ",".join(repr(fz) for fz in FREQS_HZ), "--out", out]
+    if threads is not None:
+        args += ["--threads", str(threads)]
+    t = time.perf_counter()
+    p = subprocess.Popen(args, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    _, status, usage = os.wait4(p.pid, 0)
+    elapsed = time.perf_counter() - t
+    err = p.stderr.read().decode()
+    p.stderr.close()
+    p.returncode = os.waitstatus_to_exitcode(status)
+    if p.returncode != 0:
+        raise SystemExit(f"sweepgate process failed ({p.returncode}): {err}")
+    return elapsed, usage.ru_maxrss / 1024.0, usage.ru_utime + usage.ru_stime
+
+
+def best(binary, manifest, threads, repeat, tmp):
+    runs = [sweepgate_run(binary, manifest, threads, os.path.join(tmp, "report"))
+            for _ in range(repeat)]
+    return min(r[0] for r in runs), max(r[1] for r in runs), min(r[2] for r in runs)
+
+
+def load():
+    return "load average %.2f %.2f %.2f" % os.getloadavg()
+
+
+def compare(binary, files, points, repeat):
+    manifest = make_scan(files, points)
+    print(f"scan: {files} files of {points} points ({manifest})")
+    with tempfile.TemporaryDirectory() as tmp:
+        best(binary, manifest, None, 1, tmp)  # warm the file cache
+        print(load())
+        one = best(binary, manifest, 1, repeat, tmp)
+        print(f"sweepgate process, 1 thread: {one[0]:.3f} s, peak {one[1]:.0f} MiB, "
+              f"CPU {one[2]:.3f} s (best of {repeat})")
+        print(load())
+        two = best(binary, manifest, 2, repeat, tmp)
+        print(f"sweepgate process, 2 threads: {two[0]:.3f} s, peak {two[1]:.0f} MiB, "
+              f"CPU {two[2]:.3f} s (best of {repeat})")
+        print(load())
+        every = best(binary, manifest, None, repeat, tmp)
+        print(f"sweepgate process, default threads ({os.cpu_count()} cores): {every[0]:.3f} s")
+    print(load())
+    t_skrf, cpu_skrf, values = skrf_script(manifest)
+    print(f"scikit-rf script: {t_skrf:.2f} s, CPU {cpu_skrf:.2f} s "
+          f"({values.shape[0]} files, {values.shape[1]} frequencies)")
+    print(load())
+    print(f"ratio scikit-rf / process (default threads): {t_skrf / every[0]:.1f}x")
+    print(f"ratio scikit-rf / process (1 thread): {t_skrf / one[0]:.1f}x")
+    print(f"CPU-time ratio scikit-rf / process (1 thread): {cpu_skrf / one[2]:.1f}x")
+    print(f"process: 2 threads over 1 thread: {one[0] / two[0]:.2f}x")
+
+
+def scale(binary, repeat):
+    print("| files x points | 1 thread: time, peak memory | 2 threads: time, peak memory | speed-up |")
+    print("|---|---:|---:|---:|")
+    with tempfile.TemporaryDirectory() as tmp:
+        for files in (360, 1440):
+            for points in (201, 801, 1601):
+                manifest = make_scan(files, points)
+                best(binary, manifest, 1, 1, tmp)
+                one = best(binary, manifest, 1, repeat, tmp)
+                two = best(binary, manifest, 2, repeat, tmp)
+                print(f"| {files} x {points} | {one[0]:.3f} s, {one[1]:.0f} MiB | "
+                      f"{two[0]:.3f} s, {two[1]:.0f} MiB | {one[0] / two[0]:.2f}x |", flush=True)
+    print(load())
+
+
+def main():
+    ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    ap.add_argument("--binary", default=os.path.join(ROOT, "target", "release", "sweepgate"))
+    ap.add_argument("--files", type=int, default=1440)
+    ap.add_argument("--points", type=int, default=801)
+    ap.add_argument("--repeat", type=int, default=5)
+    ap.add_argument("--scale", action="store_true", help="the files x points table instead")
+    a = ap.parse_args()
+    if a.scale:
+        scale(a.binary, a.repeat)
+    else:
+        compare(a.binary, a.files, a.points, a.repeat)
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
