@@ -433,3 +433,66 @@ fn a_step_scan_over_a_serial_line() {
         );
     }
 }
+
+/// A continuous turn over the serial line: the same turntable on a pseudo-terminal, the
+/// scan recorded while it turns, the turntable stopped at the end, and the recording
+/// replayed.
+#[test]
+fn a_continuous_turn_over_a_serial_line() {
+    let inst = start("drive-serial-turn", &[]);
+    let mut child = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
+        .args(["positioner", "--serial"])
+        .stdout(Stdio::piped())
+        .stderr(Stdio::null())
+        .spawn()
+        .unwrap();
+    let mut line = String::new();
+    BufReader::new(child.stdout.take().unwrap())
+        .read_line(&mut line)
+        .unwrap();
+    let path = line.trim().strip_prefix("serial on ").unwrap().to_owned();
+    let dir = temp_dir("drive-serial-turn");
+    let out = dir.join("serial-turn.rec");
+    let o = acquire(
+        &[
+            "--instrument",
+            &inst.addr,
+            "--drive",
+            &path,
+            "--drive-baud",
+            "115200",
+            "--turn=-10:10:10",
+            "--gate-center-ns",
+            "3",
+            "--gate-span-ns",
+            "2",
+        ],
+        &out,
+    );
+    child.kill().ok();
+    child.wait().ok();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(o.status.success(), "{err}");
+    let (sw, pos, _, stop) = read(&out);
+    assert_eq!(stop, Stop::Complete);
+    assert!(sw.len() >= 20, "{} sweeps", sw.len());
+    // Every sweep inside the turn and the table moving forward across most of them.
+    let mut moving = 0;
+    for s in &sw {
+        let (b, a) = around(&pos, *s);
+        assert!((-10.05..10.0).contains(&b), "{b}");
+        assert!(a >= b - 1e-9, "{b} → {a}");
+        moving += usize::from(a > b);
+    }
+    assert!(
+        moving * 10 >= sw.len() * 9,
+        "{moving} of {} sweeps turned",
+        sw.len()
+    );
+    let r = replay(&out, &dir.join("serial-turn-report"));
+    let n = sw.len();
+    assert!(
+        r.contains(&format!("sweeps: {n} pushed, {n} binned")),
+        "{r}"
+    );
+}
