@@ -231,7 +231,7 @@ def test_the_exported_gated_sweeps_are_the_manifest_process_of_the_raw_export(sc
     """Processing the exported manifest with the first run's gate regates gated data; here
     instead the .npz raw traces of the step-and-stop scan, one sweep per bin, written as
     Touchstone by scikit-rf and processed with the recording's gate, give the exported gated
-    traces (the same gate on the same sweeps, file or recording)."""
+    traces (the same gate on the same sweeps, file or recording; the FFTs differ, see below)."""
     report, _, npz = scans["process"]
     d = scans["dir"] / "raw-ts"
     d.mkdir()
@@ -260,6 +260,15 @@ def test_the_exported_gated_sweeps_are_the_manifest_process_of_the_raw_export(sc
         with np.load(out / "again.npz") as y:
             assert np.array_equal(y["angle_deg"], ang)
             peak = np.max(np.abs(s21[:, :, 1]))
-            worst = np.max(np.abs(y["s21"][:, :, 1] - s21[:, :, 1])) / peak
-            print(f"raw export regated from scikit-rf files: within {worst:.2e} of the peak")
-            assert worst < 1e-6
+            err = np.abs(y["s21"][:, :, 1] - s21[:, :, 1]) / peak
+            worst = np.max(err)
+            k = err.shape[1]
+            inner = np.max(err[:, k // 10 : k - k // 10])
+            print(f"raw export regated from scikit-rf files: within {worst:.2e} of the peak, "
+                  f"{inner:.2e} over the central 80 % of the band")
+            # Files are gated with the host's FFT back end (rustfft), a recording through the
+            # board's engine (microfft): the two differ by single-precision rounding
+            # (tests/gate_transform.rs, rustfft as the reference, 1e-5), which the edge
+            # renormalization magnifies where it divides by a small |r|, at the band ends.
+            assert inner < 1e-6
+            assert worst < 3e-5
