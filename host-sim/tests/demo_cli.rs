@@ -35,7 +35,7 @@ fn demo_prints_the_two_path_table() {
         "ripple with the echo (dB)",
         "ripple, direct path alone (dB)",
         "worst error vs direct path (dB)",
-        "echo level in impulse response",
+        "energy outside the gate, of total",
     ] {
         assert!(text.contains(needle), "missing {needle:?} in\n{text}");
     }

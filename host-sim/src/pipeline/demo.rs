@@ -88,7 +88,8 @@ pub struct Outcome {
     pub ripple_alone_gated_db: f64,
     /// Largest error of the gated direct path alone against itself ungated, dB.
     pub error_alone_gated_db: f64,
-    /// Echo level from the impulse response, dB.
+    /// Energy of the impulse response outside the gate over its total energy, dB (an
+    /// energy share: never above 0 dB, whatever the echo's own level).
     pub echo_level_db: f32,
 }
 
@@ -258,7 +259,7 @@ fn print_table(o: &Outcome, floor_reflection: f64) {
         o.error_alone_gated_db
     );
     println!(
-        "  echo level in impulse response     {:>6.1} dB",
+        "  energy outside the gate, of total  {:>6.1} dB",
         o.echo_level_db
     );
     let expect = 20.0 * ((1.0 + o.echo_ratio.abs()) / (1.0 - o.echo_ratio.abs())).log10();
