@@ -388,17 +388,7 @@ fn the_turntable_clock_offset_and_drift_are_recovered() {
 #[test]
 fn a_step_scan_over_a_serial_line() {
     let inst = start("drive-serial", &[]);
-    let mut child = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
-        .args(["positioner", "--serial"])
-        .stdout(Stdio::piped())
-        .stderr(Stdio::null())
-        .spawn()
-        .unwrap();
-    let mut line = String::new();
-    BufReader::new(child.stdout.take().unwrap())
-        .read_line(&mut line)
-        .unwrap();
-    let path = line.trim().strip_prefix("serial on ").unwrap().to_owned();
+    let (mut child, path) = serial_turntable();
     let dir = temp_dir("drive-serial");
     let out = dir.join("serial.rec");
     let o = acquire(
@@ -440,17 +430,7 @@ fn a_step_scan_over_a_serial_line() {
 #[test]
 fn a_continuous_turn_over_a_serial_line() {
     let inst = start("drive-serial-turn", &[]);
-    let mut child = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
-        .args(["positioner", "--serial"])
-        .stdout(Stdio::piped())
-        .stderr(Stdio::null())
-        .spawn()
-        .unwrap();
-    let mut line = String::new();
-    BufReader::new(child.stdout.take().unwrap())
-        .read_line(&mut line)
-        .unwrap();
-    let path = line.trim().strip_prefix("serial on ").unwrap().to_owned();
+    let (mut child, path) = serial_turntable();
     let dir = temp_dir("drive-serial-turn");
     let out = dir.join("serial-turn.rec");
     let o = acquire(
@@ -495,4 +475,20 @@ fn a_continuous_turn_over_a_serial_line() {
         r.contains(&format!("sweeps: {n} pushed, {n} binned")),
         "{r}"
     );
+}
+
+/// The simulated turntable on a pseudo-terminal: the process and the terminal's path.
+fn serial_turntable() -> (std::process::Child, String) {
+    let mut child = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
+        .args(["positioner", "--serial"])
+        .stdout(Stdio::piped())
+        .stderr(Stdio::null())
+        .spawn()
+        .unwrap();
+    let mut line = String::new();
+    BufReader::new(child.stdout.take().unwrap())
+        .read_line(&mut line)
+        .unwrap();
+    let path = line.trim().strip_prefix("serial on ").unwrap().to_owned();
+    (child, path)
 }

@@ -81,7 +81,7 @@
 //! is replaced by -350.
 
 use std::collections::VecDeque;
-use std::io::{BufRead, BufReader, Write};
+use std::io::{BufReader, Write};
 use std::net::{TcpListener, TcpStream};
 use std::path::PathBuf;
 use std::sync::atomic::{AtomicUsize, Ordering};
@@ -93,6 +93,7 @@ use num_complex::Complex32;
 use sweepgate::grid::Grid;
 use sweepgate::wire::block::{self, ByteOrder, Format};
 
+use crate::link::lines::{read_bounded_line, LineRead};
 use crate::model::scenario::Scenario;
 use crate::model::simulator::Simulator;
 
@@ -1001,47 +1002,6 @@ impl Default for ServerLimits {
     }
 }
 
-/// How one line read ended.
-enum LineRead {
-    /// A whole line, without its newline, in the buffer.
-    Line,
-    /// A line longer than [`MAX_LINE_BYTES`], read to its newline and thrown away.
-    TooLong,
-    /// The client closed (mid-line or between lines).
-    Closed,
-}
-
-/// Reads one line of at most [`MAX_LINE_BYTES`] into `line`; a longer one is read to its
-/// newline in chunks and thrown away, so memory stays bounded whatever the client sends.
-fn read_line(r: &mut impl BufRead, line: &mut Vec<u8>) -> std::io::Result<LineRead> {
-    line.clear();
-    let mut too_long = false;
-    loop {
-        let chunk = r.fill_buf()?;
-        if chunk.is_empty() {
-            return Ok(LineRead::Closed);
-        }
-        let (take, done) = match chunk.iter().position(|&b| b == b'\n') {
-            Some(i) => (i, true),
-            None => (chunk.len(), false),
-        };
-        if !too_long && line.len() + take <= MAX_LINE_BYTES {
-            line.extend_from_slice(&chunk[..take]);
-        } else {
-            too_long = true;
-            line.clear();
-        }
-        r.consume(take + usize::from(done));
-        if done {
-            return Ok(if too_long {
-                LineRead::TooLong
-            } else {
-                LineRead::Line
-            });
-        }
-    }
-}
-
 /// Serves one client until it disconnects, goes idle past `limits.idle`, or has been
 /// connected `limits.total`. The shared lock is taken for one command at a time and never
 /// held across a socket read or write.
@@ -1065,7 +1025,7 @@ pub fn serve_client(
         }
         let wait = left.min(limits.idle).max(Duration::from_millis(1));
         reader.get_ref().set_read_timeout(Some(wait))?;
-        let response = match read_line(&mut reader, &mut line)? {
+        let response = match read_bounded_line(&mut reader, &mut line, MAX_LINE_BYTES)? {
             LineRead::Closed => return Ok(()),
             LineRead::TooLong => {
                 if let Ok(mut i) = inst.lock() {

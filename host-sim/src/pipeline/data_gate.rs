@@ -8,7 +8,7 @@ use anyhow::Context;
 use serde_json::json;
 use sweepgate::autogate::{self, Choice, Survey, SurveyConfig, Unseparable};
 use sweepgate::fft::Fft;
-use sweepgate::gate::{Gate, GateConfig};
+use sweepgate::gate::Gate;
 use sweepgate::grid::Grid;
 use sweepgate::window::WindowKind;
 use sweepgate::Complex32;
@@ -84,16 +84,7 @@ impl FftJob for Surveying<'_> {
     where
         [Complex32; M]: Fft,
     {
-        // Only the band window matters for the impulse response; the gate is a placeholder.
-        let provisional = GateConfig {
-            grid: *self.grid,
-            band_window: self.band_window,
-            center_s: 0.0,
-            span_s: 0.25 * self.grid.alias_free_s(),
-            shape: WindowKind::Rectangular,
-            renormalize: false,
-        };
-        let gate = Box::new(Gate::<M>::new(&provisional).context("provisional gate")?);
+        let gate = super::setup::provisional_gate::<M>(self.grid, self.band_window)?;
         let cfg = SurveyConfig::DEFAULT;
         let sidelobe_db = autogate::peak_sidelobe_db(self.band_window);
         let mut survey = Survey::<REGIONS>::new(cfg).context("the survey")?;
