@@ -84,7 +84,7 @@ impl FftJob for Surveying<'_> {
     where
         [Complex32; M]: Fft,
     {
-        let gate = super::setup::provisional_gate::<M>(self.grid, self.band_window)?;
+        let gate = transform::provisional_gate::<M>(self.grid, self.band_window)?;
         let cfg = SurveyConfig::DEFAULT;
         let sidelobe_db = autogate::peak_sidelobe_db(self.band_window);
         let mut survey = Survey::<REGIONS>::new(cfg).context("the survey")?;

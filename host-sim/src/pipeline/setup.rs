@@ -42,7 +42,7 @@
 use anyhow::{bail, Context};
 use sweepgate::bins::{BinLayout, RevisitPolicy};
 use sweepgate::fft::Fft;
-use sweepgate::gate::{Gate, GateConfig};
+use sweepgate::gate::GateConfig;
 use sweepgate::grid::Grid;
 use sweepgate::plan::{self, PlanInput};
 use sweepgate::scan::{ScanConfig, ScanMode};
@@ -642,7 +642,7 @@ impl FftJob for PeakSample<'_> {
     where
         [Complex32; M]: Fft,
     {
-        let gate = provisional_gate::<M>(self.grid, self.band_window)?;
+        let gate = transform::provisional_gate::<M>(self.grid, self.band_window)?;
         let view = impulse_view(&gate, self.sweep, 0.0, 1);
         let mut peak = (0usize, -1.0f64);
         for (m, h) in view.magnitude.iter().enumerate() {
@@ -655,26 +655,4 @@ impl FftJob for PeakSample<'_> {
         }
         Ok(peak.0)
     }
-}
-
-/// A gate for looking at impulse responses: only the band window matters for them, so the
-/// gate itself is a placeholder.
-pub(crate) fn provisional_gate<const M: usize>(
-    grid: &Grid,
-    band_window: WindowKind,
-) -> anyhow::Result<Box<Gate<M>>>
-where
-    [Complex32; M]: Fft,
-{
-    let provisional = GateConfig {
-        grid: *grid,
-        band_window,
-        center_s: 0.0,
-        span_s: 0.25 * grid.alias_free_s(),
-        shape: WindowKind::Rectangular,
-        renormalize: false,
-    };
-    Ok(Box::new(
-        Gate::<M>::new(&provisional).context("provisional gate")?,
-    ))
 }

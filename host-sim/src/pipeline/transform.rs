@@ -17,7 +17,9 @@ use anyhow::Context;
 use num_complex::Complex64;
 pub use sweepgate::fft::FftSize;
 use sweepgate::fft::{Fft, Transform};
-use sweepgate::gate::Gate;
+use sweepgate::gate::{Gate, GateConfig};
+use sweepgate::grid::Grid;
+use sweepgate::window::WindowKind;
 use sweepgate::Complex32;
 
 use crate::limits::MAX_POINTS;
@@ -172,6 +174,28 @@ where
         gate_start_ns: (cfg.center_s - 0.5 * cfg.span_s) * 1e9,
         gate_stop_ns: (cfg.center_s + 0.5 * cfg.span_s) * 1e9,
     }
+}
+
+/// A gate for looking at impulse responses: only the band window matters for them, so the
+/// gate itself is a placeholder.
+pub fn provisional_gate<const M: usize>(
+    grid: &Grid,
+    band_window: WindowKind,
+) -> anyhow::Result<Box<Gate<M>>>
+where
+    [Complex32; M]: Fft,
+{
+    let provisional = GateConfig {
+        grid: *grid,
+        band_window,
+        center_s: 0.0,
+        span_s: 0.25 * grid.alias_free_s(),
+        shape: WindowKind::Rectangular,
+        renormalize: false,
+    };
+    Ok(Box::new(
+        Gate::<M>::new(&provisional).context("provisional gate")?,
+    ))
 }
 
 #[cfg(test)]
