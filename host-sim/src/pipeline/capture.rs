@@ -9,6 +9,7 @@
 use crate::formats::recording::Record;
 use crate::pipeline::setup::Setup;
 use anyhow::{bail, Context};
+use sweepgate::bins::BinFlags;
 use sweepgate::fft::{Fft, FftSize};
 use sweepgate::pump::Pump;
 use sweepgate::scan::{EchoMode, ScanCounters};
@@ -165,6 +166,9 @@ pub struct Comparison {
     pub matched: usize,
     /// Largest relative difference of any raw or gated value.
     pub worst_relative: f64,
+    /// Bin records with [`BinFlags::ECHO_IN_GATE`] in each stream (the flags themselves
+    /// are compared record by record).
+    pub echo_in_gate: (usize, usize),
     /// One line per disagreement (at most 20).
     pub problems: Vec<String>,
 }
@@ -184,10 +188,16 @@ pub fn compare(a: &[u8], b: &[u8], tolerance: f64) -> Comparison {
         out
     };
     let (ra, rb) = (decode(a), decode(b));
+    let flagged = |r: &[sweepgate::wire::preview::BinRecord<F>]| {
+        r.iter()
+            .filter(|x| x.flags & BinFlags::ECHO_IN_GATE != 0)
+            .count()
+    };
     let mut c = Comparison {
         bins: (ra.len(), rb.len()),
         matched: 0,
         worst_relative: 0.0,
+        echo_in_gate: (flagged(&ra), flagged(&rb)),
         problems: Vec::new(),
     };
     if ra.len() != rb.len() {
@@ -238,4 +248,61 @@ pub fn compare(a: &[u8], b: &[u8], tolerance: f64) -> Comparison {
     }
     c.problems.truncate(20);
     c
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use sweepgate::wire::preview::{encode_frame, BinRecord, FreqValue, MAX_FRAME};
+
+    /// A preview stream of `n` bin records, every `flag_every`-th with the echo-in-gate flag.
+    fn stream(n: u16, flag_every: u16) -> Vec<u8> {
+        let mut out = Vec::new();
+        for bin in 0..n {
+            let mut values = heapless::Vec::new();
+            let v = Complex32::new(1.0 + f32::from(bin), -0.5);
+            values
+                .push(FreqValue {
+                    index: 3,
+                    raw: v,
+                    gated: v * 0.5,
+                })
+                .unwrap();
+            let rec = Preview::Bin(BinRecord::<F> {
+                bin,
+                flags: if bin % flag_every == 0 {
+                    BinFlags::ECHO_IN_GATE
+                } else {
+                    0
+                },
+                sweeps: 2,
+                nominal_deg: f32::from(bin),
+                mean_deg: f32::from(bin),
+                max_smear_deg: 0.1,
+                echo_db: -30.0,
+                values,
+            });
+            let mut frame = [0u8; MAX_FRAME];
+            let len = encode_frame(&rec, bin, &mut frame).unwrap();
+            out.extend_from_slice(&frame[..len]);
+        }
+        out
+    }
+
+    #[test]
+    fn flags_are_compared_and_counted() {
+        // Equal streams: every record matches; 4 of 10 records (0, 3, 6, 9) are flagged.
+        let a = stream(10, 3);
+        let same = compare(&a, &a, 1e-5);
+        assert_eq!(same.matched, 10, "{:?}", same.problems);
+        assert_eq!(same.echo_in_gate, (4, 4));
+        // The same values with the flag on every other record (0, 2, 4, 6, 8) instead: the
+        // records whose flags differ (2, 3, 4, 8, 9) fail.
+        let b = stream(10, 2);
+        let differ = compare(&a, &b, 1e-5);
+        assert_eq!(differ.echo_in_gate, (4, 5));
+        let mismatched = (0..10u16).filter(|i| (i % 3 == 0) != (i % 2 == 0)).count();
+        assert_eq!(differ.matched, 10 - mismatched, "{:?}", differ.problems);
+        assert!(mismatched > 0);
+    }
 }
