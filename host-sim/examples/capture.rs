@@ -72,8 +72,8 @@ fn run() -> anyhow::Result<()> {
                 c.bins.0, c.bins.1, c.worst_relative
             );
             println!(
-                "records with the echo-in-gate flag: board {}, host {}",
-                c.echo_in_gate.0, c.echo_in_gate.1
+                "records with the echo-in-gate flag: board {}, host {}; largest angle offset of a pattern frequency {:.4} deg",
+                c.echo_in_gate.0, c.echo_in_gate.1, c.largest_offset_deg
             );
             for p in &c.problems {
                 println!("  mismatch: {p}");

@@ -15,7 +15,7 @@ use sweepgate::pump::Pump;
 use sweepgate::scan::{EchoMode, ScanCounters};
 use sweepgate::wire::block::{emit, ByteOrder, Format};
 use sweepgate::wire::capture::{CaptureHeader, Entry, HEADER_LEN, MAX_ENTRY_LEN, MAX_PATTERN};
-use sweepgate::wire::preview::{Decoder, PreviewRecord as Preview};
+use sweepgate::wire::preview::{BinRecord, Decoder, PreviewRecord as Preview};
 use sweepgate::Complex32;
 
 /// FFT size of the board build (`examples/firmware-m4`); the host replays a capture with
@@ -157,6 +157,12 @@ where
     })
 }
 
+/// Largest difference of two angle offsets ([`FreqValue::angle_offset_deg`]) that
+/// [`compare`] accepts, degrees.
+///
+/// [`FreqValue::angle_offset_deg`]: sweepgate::wire::preview::FreqValue::angle_offset_deg
+pub const ANGLE_TOLERANCE_DEG: f32 = 1e-4;
+
 /// How two preview streams compare.
 #[derive(Debug)]
 pub struct Comparison {
@@ -169,13 +175,17 @@ pub struct Comparison {
     /// Bin records with [`BinFlags::ECHO_IN_GATE`] in each stream (the flags themselves
     /// are compared record by record).
     pub echo_in_gate: (usize, usize),
+    /// Largest |angle offset| of any value in the second stream, degrees (0 when every
+    /// sweep was taken still).
+    pub largest_offset_deg: f32,
     /// One line per disagreement (at most 20).
     pub problems: Vec<String>,
 }
 
 /// Decodes two preview streams and compares them record by record: the same bins, in the
-/// same order, with the same sweep counts and flags, and values within `tolerance`
-/// relative (to the larger magnitude of the record's values).
+/// same order, with the same sweep counts and flags, values within `tolerance` relative (to
+/// the larger magnitude of the record's values) and angle offsets within
+/// [`ANGLE_TOLERANCE_DEG`].
 pub fn compare(a: &[u8], b: &[u8], tolerance: f64) -> Comparison {
     let decode = |bytes: &[u8]| {
         let mut d: Decoder<F, 512> = Decoder::new();
@@ -188,7 +198,7 @@ pub fn compare(a: &[u8], b: &[u8], tolerance: f64) -> Comparison {
         out
     };
     let (ra, rb) = (decode(a), decode(b));
-    let flagged = |r: &[sweepgate::wire::preview::BinRecord<F>]| {
+    let flagged = |r: &[BinRecord<F>]| {
         r.iter()
             .filter(|x| x.flags & BinFlags::ECHO_IN_GATE != 0)
             .count()
@@ -198,6 +208,10 @@ pub fn compare(a: &[u8], b: &[u8], tolerance: f64) -> Comparison {
         matched: 0,
         worst_relative: 0.0,
         echo_in_gate: (flagged(&ra), flagged(&rb)),
+        largest_offset_deg: rb
+            .iter()
+            .flat_map(|x| x.values.iter().map(|v| v.angle_offset_deg.abs()))
+            .fold(0.0, f32::max),
         problems: Vec::new(),
     };
     if ra.len() != rb.len() {
@@ -221,27 +235,7 @@ pub fn compare(a: &[u8], b: &[u8], tolerance: f64) -> Comparison {
                 x.bin, x.echo_db, y.echo_db
             ));
         }
-        let scale = x
-            .values
-            .iter()
-            .flat_map(|v| [v.raw.norm(), v.gated.norm()])
-            .fold(0f32, f32::max)
-            .max(f32::MIN_POSITIVE) as f64;
-        for (u, v) in x.values.iter().zip(&y.values) {
-            for (p, q) in [(u.raw, v.raw), (u.gated, v.gated)] {
-                let rel = (p - q).norm() as f64 / scale;
-                c.worst_relative = c.worst_relative.max(rel);
-                if rel.is_nan() || rel > tolerance {
-                    ok = false;
-                    if c.problems.len() < 20 {
-                        c.problems.push(format!(
-                            "bin {}: {p} against {q} (relative {rel:.2e})",
-                            x.bin
-                        ));
-                    }
-                }
-            }
-        }
+        ok &= compare_values(x, y, tolerance, &mut c);
         if ok {
             c.matched += 1;
         }
@@ -250,10 +244,48 @@ pub fn compare(a: &[u8], b: &[u8], tolerance: f64) -> Comparison {
     c
 }
 
+/// Compares the values of two bin records (angle offsets within [`ANGLE_TOLERANCE_DEG`],
+/// raw and gated values within `tolerance` relative to the larger magnitude of `x`'s
+/// values), noting the worst relative difference and each disagreement in `c`.
+fn compare_values(x: &BinRecord<F>, y: &BinRecord<F>, tolerance: f64, c: &mut Comparison) -> bool {
+    let mut ok = true;
+    let scale = x
+        .values
+        .iter()
+        .flat_map(|v| [v.raw.norm(), v.gated.norm()])
+        .fold(0f32, f32::max)
+        .max(f32::MIN_POSITIVE) as f64;
+    for (u, v) in x.values.iter().zip(&y.values) {
+        if (u.angle_offset_deg - v.angle_offset_deg).abs() > ANGLE_TOLERANCE_DEG
+            || u.angle_offset_deg.is_nan() != v.angle_offset_deg.is_nan()
+        {
+            ok = false;
+            c.problems.push(format!(
+                "bin {}: angle offset {} deg against {} deg at grid index {}",
+                x.bin, u.angle_offset_deg, v.angle_offset_deg, u.index
+            ));
+        }
+        for (p, q) in [(u.raw, v.raw), (u.gated, v.gated)] {
+            let rel = (p - q).norm() as f64 / scale;
+            c.worst_relative = c.worst_relative.max(rel);
+            if rel.is_nan() || rel > tolerance {
+                ok = false;
+                if c.problems.len() < 20 {
+                    c.problems.push(format!(
+                        "bin {}: {p} against {q} (relative {rel:.2e})",
+                        x.bin
+                    ));
+                }
+            }
+        }
+    }
+    ok
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
-    use sweepgate::wire::preview::{encode_frame, BinRecord, FreqValue, MAX_FRAME};
+    use sweepgate::wire::preview::{encode_frame, FreqValue, MAX_FRAME};
 
     /// A preview stream of `n` bin records, every `flag_every`-th with the echo-in-gate flag.
     fn stream(n: u16, flag_every: u16) -> Vec<u8> {
@@ -266,6 +298,7 @@ mod tests {
                     index: 3,
                     raw: v,
                     gated: v * 0.5,
+                    angle_offset_deg: 0.01 * f32::from(bin),
                 })
                 .unwrap();
             let rec = Preview::Bin(BinRecord::<F> {
@@ -296,8 +329,9 @@ mod tests {
         let same = compare(&a, &a, 1e-5);
         assert_eq!(same.matched, 10, "{:?}", same.problems);
         assert_eq!(same.echo_in_gate, (4, 4));
-        // The same values with the flag on every other record (0, 2, 4, 6, 8) instead: the
-        // records whose flags differ (2, 3, 4, 8, 9) fail.
+        assert_eq!(same.largest_offset_deg, 0.01 * 9.0); // bin 9's offset
+                                                         // The same values with the flag on every other record (0, 2, 4, 6, 8) instead: the
+                                                         // records whose flags differ (2, 3, 4, 8, 9) fail.
         let b = stream(10, 2);
         let differ = compare(&a, &b, 1e-5);
         assert_eq!(differ.echo_in_gate, (4, 5));
