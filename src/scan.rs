@@ -714,10 +714,16 @@ where
         if sweep.direction == Direction::Still {
             return [0.0; F];
         }
-        let k_points = self.gate.points().max(1) as u128;
-        let duration = u128::from(end_us.saturating_sub(start_us));
+        let k_points = self.gate.points().max(1) as u64;
+        let duration = end_us.saturating_sub(start_us);
         self.kernels.indices().map(|k| {
-            let t_us = start_us.saturating_add((duration * k as u128 / k_points) as u64);
+            // k < K ≤ 65 535: the product overflows only for sweeps of over 8.9 years; then
+            // the coarser order of operations is used.
+            let k = k as u64;
+            let into_us = duration
+                .checked_mul(k)
+                .map_or((duration / k_points).saturating_mul(k), |p| p / k_points);
+            let t_us = start_us.saturating_add(into_us);
             self.tracker
                 .angle_at(t_us)
                 .map_or(0.0, |a| a.angle_deg - sweep.mid_deg)
