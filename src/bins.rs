@@ -361,6 +361,11 @@ impl<const M: usize, const B: usize> Bins<M, B> {
         self.open.map(|o| o.index)
     }
 
+    /// Sweeps in the open bin so far (0 when no bin is open).
+    pub fn open_sweeps(&self) -> u32 {
+        self.open.map_or(0, |o| o.count)
+    }
+
     /// Passes closed in bin `index` (saturating at 255; 0 outside the layout).
     pub fn visits(&self, index: u16) -> u8 {
         self.visits.get(usize::from(index)).copied().unwrap_or(0)

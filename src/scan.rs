@@ -12,6 +12,23 @@
 //! reversal within one sweep reads smaller). Its direction is the sign of that travel when
 //! it exceeds the settle tolerance, otherwise [`Direction::Still`].
 //!
+//! # Angle per pattern frequency
+//!
+//! A sweep's points are measured one after another: point k of K at
+//! `start + k·(end − start)/K` (evenly over the sweep, as the simulator and a stepped VNA
+//! sweep take them). While the positioner turns, each pattern frequency is therefore seen at
+//! its own angle, not at the sweep's mid-angle. The whole sweep still goes into one bin
+//! (gating needs all K points together, and the open bin holds one sum), but for each
+//! pattern frequency the engine takes the tracked angle at that frequency's instant and
+//! keeps, per open bin, the sum of its difference to the sweep's mid-angle. A closed bin
+//! reports the mean as [`BinResult::angle_offset_deg`]: the bin's values at pattern
+//! frequency i were measured, on average, at `mean_deg + angle_offset_deg[i]` (and belong at
+//! `nominal_deg + angle_offset_deg[i]` on the nominal axis). The gated value at a
+//! frequency mixes its neighbours (the gate smooths the spectrum), which were measured at
+//! nearly the same instant, so the frequency's own instant stands for it. A sweep whose net
+//! travel is within the settle tolerance (step-and-stop, or a stop) counts as still: its
+//! offsets are exactly zero. This is F angle look-ups and F additions per sweep; no buffer.
+//!
 //! Every input is counted. For sweeps, `binned + rejected() == pushed` always; the reasons
 //! are the [`SweepReject`] variants, checked in this order: engine not configured, scan
 //! finished, wrong point count, non-finite value, end before start, no angle yet, outside
@@ -35,10 +52,11 @@
 //!
 //! # Memory
 //!
-//! `size_of::<Scan<1024, 8, 361>>()` (history H = 64) is **34 448 bytes** (33.6 KiB) on
-//! x86-64 (printed and asserted ≤ 64 KiB by `tests/scan_memory.rs`; 34 440 on the
+//! `size_of::<Scan<1024, 8, 361>>()` (history H = 64) is **34 480 bytes** (33.7 KiB) on
+//! x86-64 (printed and asserted ≤ 64 KiB by `tests/scan_memory.rs`; 34 472 on the
 //! Cortex-M4F): the gate 24 KiB, the open-bin sum 8 KiB (gated in place when the bin
-//! closes, so no second buffer), the history 768 bytes, one byte per bin, and small state.
+//! closes, so no second buffer), the history 768 bytes, one byte per bin, the open bin's
+//! angle offset sums (4·F bytes) and small state.
 //! No heap. A board keeps it in static RAM, built in place ([`Scan::unconfigured`],
 //! [`Scan::configure`]), usually inside the board loop [`crate::pump::Pump`].
 //!
@@ -174,6 +192,10 @@ pub struct BinResult<const F: usize> {
     pub gated: [Complex32; F],
     /// Echo level in dB, if computed.
     pub echo_db: Option<f32>,
+    /// Per pattern frequency, the mean over the bin's sweeps of the angle at the instant
+    /// that frequency was measured minus the sweep's mid-time angle, degrees (see the
+    /// [module docs](self#angle-per-pattern-frequency)); 0 for sweeps taken still.
+    pub angle_offset_deg: [f32; F],
 }
 
 // `Complex32` has no `defmt::Format`: print the scalar fields and the values' parts.
@@ -202,9 +224,20 @@ impl<const F: usize> BinResult<F> {
     /// As a preview record.
     pub fn to_record(&self) -> BinRecord<F> {
         let mut values = heapless::Vec::new();
-        for ((&index, &raw), &gated) in self.indices.iter().zip(&self.raw).zip(&self.gated) {
+        for (((&index, &raw), &gated), &angle_offset_deg) in self
+            .indices
+            .iter()
+            .zip(&self.raw)
+            .zip(&self.gated)
+            .zip(&self.angle_offset_deg)
+        {
             // Cannot fail: F values into a Vec of capacity F.
-            let _ = values.push(FreqValue { index, raw, gated });
+            let _ = values.push(FreqValue {
+                index,
+                raw,
+                gated,
+                angle_offset_deg,
+            });
         }
         BinRecord {
             bin: self.index,
@@ -331,6 +364,8 @@ where
     kernels: Kernels<M, F>,
     tracker: Tracker<H>,
     bins: Bins<M, B>,
+    /// Per pattern frequency, the open bin's sum of angle offsets (see the module docs).
+    offset_sum_deg: [f32; F],
     counters: ScanCounters,
     finished: bool,
     stall_warned: bool,
@@ -402,6 +437,7 @@ where
             kernels: Kernels::unset(),
             tracker: Tracker::unconfigured(),
             bins: Bins::unconfigured(),
+            offset_sum_deg: [0.0; F],
             counters: ScanCounters::ZERO,
             finished: false,
             stall_warned: false,
@@ -436,6 +472,7 @@ where
         self.gate.configure(gate_cfg)?;
         self.kernels = self.gate.kernels(pattern_indices)?;
         self.cfg = cfg;
+        self.offset_sum_deg = [0.0; F];
         self.counters = ScanCounters::ZERO;
         self.finished = false;
         self.stall_warned = false;
@@ -584,9 +621,10 @@ where
 
     fn close_open(&mut self) -> Option<BinResult<F>> {
         let (gate, kernels, echo) = (&self.gate, &self.kernels, self.cfg.echo);
+        let offsets = &self.offset_sum_deg;
         let r = self
             .bins
-            .close(|cb, sum, inv| gate_bin(gate, kernels, echo, cb, sum, inv));
+            .close(|cb, sum, inv| gate_bin(gate, kernels, echo, offsets, cb, sum, inv));
         if r.is_some() {
             self.counters.bins_closed = self.counters.bins_closed.saturating_add(1);
         }
@@ -639,15 +677,25 @@ where
     ) -> Result<(), SweepReject> {
         self.check_sweep(start_us, end_us, points)?;
         let (index, sweep) = self.locate_sweep(start_us, end_us, ev)?;
+        let offsets = self.pattern_offsets(start_us, end_us, &sweep);
         let (gate, kernels, echo) = (&self.gate, &self.kernels, self.cfg.echo);
+        let sums = &self.offset_sum_deg;
         let (res, closed) = self.bins.add(index, &sweep, points, |cb, sum, inv| {
-            gate_bin(gate, kernels, echo, cb, sum, inv)
+            gate_bin(gate, kernels, echo, sums, cb, sum, inv)
         });
         if let Some(r) = closed {
             self.counters.bins_closed = self.counters.bins_closed.saturating_add(1);
             push_event(ev, Event::BinClosed(r));
         }
         res?;
+        // The sweep is in the open bin: its first sweep starts the sums afresh.
+        if self.bins.open_sweeps() <= 1 {
+            self.offset_sum_deg = offsets;
+        } else {
+            for (s, o) in self.offset_sum_deg.iter_mut().zip(offsets) {
+                *s += o;
+            }
+        }
         if sweep.moving {
             self.counters.sweeps_moving = self.counters.sweeps_moving.saturating_add(1);
             push_event(ev, Event::Warning(Warning::TakenWhileMoving));
@@ -657,6 +705,29 @@ where
             push_event(ev, Event::Warning(Warning::Extrapolated));
         }
         Ok(())
+    }
+
+    /// Per pattern frequency, the tracked angle at the instant its point was measured
+    /// (point k of K at `start + k·(end − start)/K`) minus the sweep's mid-time angle; all
+    /// zero for a sweep taken still (see the module docs).
+    fn pattern_offsets(&self, start_us: u64, end_us: u64, sweep: &SweepAngle) -> [f32; F] {
+        if sweep.direction == Direction::Still {
+            return [0.0; F];
+        }
+        let k_points = self.gate.points().max(1) as u64;
+        let duration = end_us.saturating_sub(start_us);
+        self.kernels.indices().map(|k| {
+            // k < K ≤ 65 535: the product overflows only for sweeps of over 8.9 years; then
+            // the coarser order of operations is used.
+            let k = k as u64;
+            let into_us = duration
+                .checked_mul(k)
+                .map_or((duration / k_points).saturating_mul(k), |p| p / k_points);
+            let t_us = start_us.saturating_add(into_us);
+            self.tracker
+                .angle_at(t_us)
+                .map_or(0.0, |a| a.angle_deg - sweep.mid_deg)
+        })
     }
 
     /// The checks that need no angle, in the order of the module docs.
@@ -764,6 +835,7 @@ fn gate_bin<const M: usize, const F: usize>(
     gate: &Gate<M>,
     kernels: &Kernels<M, F>,
     echo: EchoMode,
+    offset_sum_deg: &[f32; F],
     cb: &ClosedBin,
     sum: &mut [Complex32; M],
     inv_count: f32,
@@ -806,6 +878,7 @@ where
         raw,
         gated,
         echo_db,
+        angle_offset_deg: offset_sum_deg.map(|s| s * inv_count),
     }
 }
 
@@ -975,5 +1048,67 @@ mod tests {
             assert!((a - b).norm() <= 1e-4 * b.norm(), "{a} vs {b}");
             assert!(b.norm() > 0.1);
         }
+    }
+
+    /// Closed form: at a constant speed ω, pattern frequency at grid index k of K in a sweep
+    /// from t0 to t1 is measured at t0 + k·(t1 − t0)/K, so its offset from the mid-time angle
+    /// is ω·(k/K − ½)·(t1 − t0); the bin reports the mean over its sweeps. A still positioner
+    /// gives exactly zero.
+    #[test]
+    fn angle_offsets_follow_each_frequency_instant() {
+        let mut cfg = ScanConfig::new(BinLayout::sector(0.0, 10.0, 1.0).unwrap());
+        cfg.leave_close_us = None;
+        let idx = [0, 50, 100];
+        let mut s: Scan<128, 3, 11> = Scan::new(&gate_cfg(), idx, cfg).unwrap();
+        let sweep = [Complex32::new(1.0, 0.0); 101];
+        // 10°/s, a sample every 10 ms from 0.2° at t = 0; 40 ms sweeps every 50 ms.
+        let (speed, dur_us) = (10.0f64, 40_000u64);
+        let mut closed = None;
+        for i in 0..60u64 {
+            let t = i * 10_000;
+            s.push_angle(t, (0.2 + speed * t as f64 * 1e-6) as f32);
+            if i % 5 == 4 && i > 4 {
+                for e in s.push_sweep(t - dur_us, t, &sweep) {
+                    if let Event::BinClosed(r) = e {
+                        closed.get_or_insert(r);
+                    }
+                }
+            }
+        }
+        let r = closed.expect("a bin closed");
+        for (&k, &got) in idx.iter().zip(&r.angle_offset_deg) {
+            let want = speed * (k as f64 / 101.0 - 0.5) * dur_us as f64 * 1e-6;
+            assert!(
+                (f64::from(got) - want).abs() < 1e-4,
+                "k {k}: {got} against {want}"
+            );
+        }
+        assert!(r.angle_offset_deg[0] < -0.19 && r.angle_offset_deg[2] > 0.19);
+        // The preview record carries them.
+        let rec = r.to_record();
+        assert!(rec
+            .values
+            .iter()
+            .zip(&r.angle_offset_deg)
+            .all(|(v, o)| v.angle_offset_deg == *o));
+
+        // Still: the same sweeps with the positioner parked at 3.5°.
+        let mut s: Scan<128, 3, 11> = Scan::new(&gate_cfg(), idx, cfg).unwrap();
+        for i in 0..30u64 {
+            s.push_angle(i * 10_000, 3.5);
+            if i % 5 == 4 {
+                s.push_sweep(i * 10_000 - dur_us, i * 10_000, &sweep);
+            }
+        }
+        let fin = s.finish();
+        let r = fin
+            .iter()
+            .find_map(|e| match e {
+                Event::BinClosed(r) => Some(*r),
+                _ => None,
+            })
+            .expect("the bin closes at the end");
+        assert!(r.sweeps >= 5);
+        assert_eq!(r.angle_offset_deg, [0.0; 3]);
     }
 }

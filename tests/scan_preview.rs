@@ -56,6 +56,7 @@ fn bin_record(i: u32) -> BinRecord<8> {
                 index: (f * 100) as u16,
                 raw: Complex32::new(x * 0.01, -x * 0.02),
                 gated: Complex32::new(x * 0.003, x * 1e-5),
+                angle_offset_deg: x * 1e-3 - 0.2,
             })
             .unwrap();
     }
@@ -248,12 +249,12 @@ proptest! {
     fn bin_records_round_trip(
         bin in any::<u16>(), flags in any::<u16>(), sweeps in any::<u32>(),
         angles in prop::array::uniform4(-1e4f32..1e4),
-        vals in prop::collection::vec((any::<u16>(), prop::array::uniform4(-1e6f32..1e6)), 0..=8),
+        vals in prop::collection::vec((any::<u16>(), prop::array::uniform4(-1e6f32..1e6), -1.0f32..1.0), 0..=8),
         seq in any::<u16>(),
     ) {
         let mut values = heapless::Vec::<FreqValue, 8>::new();
-        for (index, v) in vals {
-            values.push(FreqValue { index, raw: Complex32::new(v[0], v[1]), gated: Complex32::new(v[2], v[3]) }).unwrap();
+        for (index, v, angle_offset_deg) in vals {
+            values.push(FreqValue { index, raw: Complex32::new(v[0], v[1]), gated: Complex32::new(v[2], v[3]), angle_offset_deg }).unwrap();
         }
         let rec: PreviewRecord<8> = PreviewRecord::Bin(BinRecord {
             bin, flags, sweeps, nominal_deg: angles[0], mean_deg: angles[1],
@@ -265,5 +266,28 @@ proptest! {
         let mut got = None;
         dec.feed(&frame[..n], |s, r| got = Some((s, r)));
         prop_assert_eq!(got, Some((seq, rec)));
+    }
+}
+
+/// A bin body in the layout from before the angle offsets (25 + 18·n bytes: the values
+/// block alone) is still read, with every offset 0; the current layout appends one f32 per
+/// frequency (25 + 22·n), and any other length is refused.
+#[test]
+fn bin_bodies_without_angle_offsets_are_read() {
+    let rec = bin_record(5); // 5 frequencies, offsets −0.16 … −0.156
+    let mut body = [0u8; 512];
+    let n = rec.emit(&mut body).unwrap();
+    assert_eq!(n, 25 + 22 * 5);
+    assert_eq!(BinRecord::<8>::parse(&body[..n]).unwrap(), rec);
+    // The older sender stops after the values block.
+    let old = BinRecord::<8>::parse(&body[..25 + 18 * 5]).unwrap();
+    let mut want = rec.clone();
+    for v in want.values.iter_mut() {
+        v.angle_offset_deg = 0.0;
+    }
+    assert_eq!(old, want);
+    assert!(rec.values.iter().all(|v| v.angle_offset_deg != 0.0));
+    for len in [25 + 18 * 5 + 4, 25 + 22 * 5 - 1, 25 + 22 * 5 + 1] {
+        assert!(BinRecord::<8>::parse(&body[..len]).is_err(), "{len}");
     }
 }

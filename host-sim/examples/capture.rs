@@ -1,20 +1,24 @@
 //! Link captures for the emulated board (see `sweepgate_host::pipeline::capture`).
 //!
 //! ```text
-//! cargo run --release -p sweepgate-host --example capture -- make REC CAPTURE [--echo never|every]
-//! cargo run --release -p sweepgate-host --example capture -- compare CAPTURE PREVIEW
+//! cargo run --release -p sweepgate-host --example capture -- make REC CAPTURE [--echo never|every] [--gate-span-ns NS]
+//! cargo run --release -p sweepgate-host --example capture -- compare CAPTURE PREVIEW [--expect-echo-in-gate]
 //! ```
 //!
 //! `make` turns a recording into the byte stream a board receives, with the set-up `replay` and
-//! `process` use for the recording (gate, pattern frequencies, bins). `compare` replays the capture through the core's
-//! board loop (`sweepgate::pump`, as the firmware does) and compares the preview records with
-//! PREVIEW (written by the firmware): the same bins, values within 1e-5 relative.
+//! `process` use for the recording (gate, pattern frequencies, bins); `--gate-span-ns` sets the
+//! gate span as `process --gate-span-ns` does (a span wide enough to hold an echo makes a
+//! capture whose bins carry the echo-in-gate flag). `compare` replays the capture through the
+//! core's board loop (`sweepgate::pump`, as the firmware does) and compares the preview records
+//! with PREVIEW (written by the firmware): the same bins and flags, values within 1e-5
+//! relative. With `--expect-echo-in-gate` it also fails unless some of the host's records carry
+//! the echo-in-gate flag.
 
 use anyhow::{bail, Context};
 use sweepgate::scan::EchoMode;
 use sweepgate_host::formats::recording::recover_file;
 use sweepgate_host::pipeline::capture;
-use sweepgate_host::pipeline::options::Choices;
+use sweepgate_host::pipeline::options::{Choices, Origin};
 use sweepgate_host::pipeline::setup;
 
 fn main() {
@@ -28,17 +32,13 @@ fn run() -> anyhow::Result<()> {
     let args: Vec<String> = std::env::args().skip(1).collect();
     match args.iter().map(String::as_str).collect::<Vec<_>>().as_slice() {
         ["make", rec, out, rest @ ..] => {
-            let echo = match rest {
-                [] | ["--echo", "every"] => EchoMode::EveryBin,
-                ["--echo", "never"] => EchoMode::Never,
-                other => bail!("unknown options {other:?}"),
-            };
+            let (echo, choices) = make_options(rest)?;
             let recovered = recover_file(rec.as_ref()).with_context(|| format!("reading {rec}"))?;
             let header = recovered
                 .header()
                 .with_context(|| format!("{rec}: no header record"))?;
             // The one set-up with every default, as `replay` and `process` build it.
-            let setup = setup::for_recording(header, &Choices::default(), &[])
+            let setup = setup::for_recording(header, &choices, &[])
                 .with_context(|| format!("{rec}: set-up"))?;
             let gate = setup.gate;
             let h = capture::header_for(&setup, echo)?;
@@ -53,7 +53,12 @@ fn run() -> anyhow::Result<()> {
             );
             Ok(())
         }
-        ["compare", cap, preview] => {
+        ["compare", cap, preview, rest @ ..] => {
+            let expect_echo = match rest {
+                [] => false,
+                ["--expect-echo-in-gate"] => true,
+                other => bail!("unknown options {other:?}"),
+            };
             let bytes = std::fs::read(cap).with_context(|| format!("reading {cap}"))?;
             let host = capture::replay(&bytes).with_context(|| cap.to_string())?;
             let board = std::fs::read(preview).with_context(|| format!("reading {preview}"))?;
@@ -66,6 +71,10 @@ fn run() -> anyhow::Result<()> {
                 "board: {} bin records, host: {} bin records; worst relative difference {:.2e}",
                 c.bins.0, c.bins.1, c.worst_relative
             );
+            println!(
+                "records with the echo-in-gate flag: board {}, host {}; largest angle offset of a pattern frequency {:.4} deg",
+                c.echo_in_gate.0, c.echo_in_gate.1, c.largest_offset_deg
+            );
             for p in &c.problems {
                 println!("  mismatch: {p}");
             }
@@ -74,8 +83,36 @@ fn run() -> anyhow::Result<()> {
             if failed > 0 || c.matched == 0 {
                 bail!("the board's preview records differ from the host's");
             }
+            if expect_echo && c.echo_in_gate.1 == 0 {
+                bail!("no record of the host's replay carries the echo-in-gate flag");
+            }
             Ok(())
         }
-        _ => bail!("usage: capture make REC CAPTURE [--echo never|every] | capture compare CAPTURE PREVIEW"),
+        _ => bail!("usage: capture make REC CAPTURE [--echo never|every] [--gate-span-ns NS] | capture compare CAPTURE PREVIEW [--expect-echo-in-gate]"),
     }
+}
+
+/// The options of `make`: the echo mode (every bin unless `--echo never`) and the set-up
+/// choices (every default, as `replay` and `process` build them, but for `--gate-span-ns`).
+fn make_options(mut rest: &[&str]) -> anyhow::Result<(EchoMode, Choices)> {
+    let mut echo = EchoMode::EveryBin;
+    let mut choices = Choices::default();
+    while let [name, value, tail @ ..] = rest {
+        match (*name, *value) {
+            ("--echo", "every") => echo = EchoMode::EveryBin,
+            ("--echo", "never") => echo = EchoMode::Never,
+            ("--gate-span-ns", v) => {
+                let span: f64 = v
+                    .parse()
+                    .with_context(|| format!("--gate-span-ns {v}: not a number"))?;
+                choices.span_ns = Some((span, Origin::CommandLine));
+            }
+            _ => bail!("unknown option {name} {value}"),
+        }
+        rest = tail;
+    }
+    if !rest.is_empty() {
+        bail!("unknown options {rest:?}");
+    }
+    Ok((echo, choices))
 }

@@ -40,6 +40,7 @@ fn bin(i: u16, deg: f32, level: f32) -> PreviewRecord<PREVIEW_F> {
             index: 100,
             raw: Complex32::new(level, 0.0),
             gated: Complex32::new(level * 0.9, 0.0),
+            angle_offset_deg: 0.0,
         })
         .unwrap();
     PreviewRecord::Bin(BinRecord {

@@ -29,6 +29,7 @@ fn input() -> ReportInput {
                     raw: truth + Complex64::new(0.002, 0.0),
                     gated: truth,
                     truth: Some(truth),
+                    angle_offset_deg: 0.0,
                 }],
             }
         })

@@ -17,7 +17,8 @@
 //!
 //! # PreviewRecord layouts (version 1)
 //!
-//! Kind 1, **bin** ([`BinRecord`]), body 25 + 18·n bytes:
+//! Kind 1, **bin** ([`BinRecord`]), body 25 + 22·n bytes (25 + 18·n from senders before the
+//! angle offsets were added: the table up to the values, read with every offset 0):
 //!
 //! | offset | size | type | field |
 //! |---:|---:|---|---|
@@ -34,6 +35,7 @@
 //! | 31 + 18·i | 4 | f32 | raw value, imaginary |
 //! | 35 + 18·i | 4 | f32 | gated value, real |
 //! | 39 + 18·i | 4 | f32 | gated value, imaginary |
+//! | 25 + 18·n + 4·i | 4 | f32 | angle offset of frequency i, deg ([`FreqValue::angle_offset_deg`]) |
 //!
 //! Kind 2, **status** ([`StatusRecord`]), body 42 bytes:
 //!
@@ -85,8 +87,11 @@ pub const HEADER_LEN: usize = 4;
 pub const CRC_LEN: usize = 4;
 /// Fixed part of a bin record body.
 pub const BIN_FIXED_LEN: usize = 25;
-/// Bytes per frequency in a bin record body.
-pub const BIN_PER_FREQ_LEN: usize = 18;
+/// Bytes per frequency in a bin record body: the value block (18) and its angle offset (4).
+pub const BIN_PER_FREQ_LEN: usize = BIN_VALUE_LEN + 4;
+/// Bytes per frequency in the value block (grid index, raw and gated value); a body of
+/// `BIN_FIXED_LEN + BIN_VALUE_LEN·n` bytes is a record without angle offsets.
+pub const BIN_VALUE_LEN: usize = 18;
 /// Length of a status record body.
 pub const STATUS_LEN: usize = 42;
 /// Longest payload (header, body, CRC) before COBS.
@@ -204,6 +209,9 @@ pub struct FreqValue {
     pub raw: Complex32,
     /// Gated S21 at this frequency.
     pub gated: Complex32,
+    /// Mean angle at which this frequency was measured, relative to the sweeps' mid-time
+    /// angles, deg ([`crate::scan::BinResult::angle_offset_deg`]).
+    pub angle_offset_deg: f32,
 }
 
 // `Complex32` has no `defmt::Format`; print its parts.
@@ -212,12 +220,13 @@ impl defmt::Format for FreqValue {
     fn format(&self, f: defmt::Formatter) {
         defmt::write!(
             f,
-            "FreqValue {{ index: {}, raw: ({}, {}), gated: ({}, {}) }}",
+            "FreqValue {{ index: {}, raw: ({}, {}), gated: ({}, {}), angle_offset_deg: {} }}",
             self.index,
             self.raw.re,
             self.raw.im,
             self.gated.re,
-            self.gated.im
+            self.gated.im,
+            self.angle_offset_deg
         )
     }
 }
@@ -359,12 +368,14 @@ impl<const F: usize> BinRecord<F> {
         put(buf, 20, &self.echo_db.to_le_bytes())?;
         put(buf, 24, &[n as u8])?;
         for (i, v) in self.values.iter().enumerate() {
-            let at = BIN_FIXED_LEN + BIN_PER_FREQ_LEN * i;
+            let at = BIN_FIXED_LEN + BIN_VALUE_LEN * i;
             put(buf, at, &v.index.to_le_bytes())?;
             put(buf, at + 2, &v.raw.re.to_le_bytes())?;
             put(buf, at + 6, &v.raw.im.to_le_bytes())?;
             put(buf, at + 10, &v.gated.re.to_le_bytes())?;
             put(buf, at + 14, &v.gated.im.to_le_bytes())?;
+            let off = BIN_FIXED_LEN + BIN_VALUE_LEN * n + 4 * i;
+            put(buf, off, &v.angle_offset_deg.to_le_bytes())?;
         }
         Ok(self.body_len())
     }
@@ -373,19 +384,29 @@ impl<const F: usize> BinRecord<F> {
     /// [`FrameError::BadField`].
     pub fn parse(body: &[u8]) -> Result<Self, FrameError> {
         let n = usize::from(*body.get(24).ok_or(FrameError::BadLength)?);
-        if body.len() != BIN_FIXED_LEN + BIN_PER_FREQ_LEN * n {
+        let offsets = if body.len() == BIN_FIXED_LEN + BIN_PER_FREQ_LEN * n {
+            true
+        } else if body.len() == BIN_FIXED_LEN + BIN_VALUE_LEN * n {
+            false
+        } else {
             return Err(FrameError::BadLength);
-        }
+        };
         if n > F || n > MAX_FREQUENCIES {
             return Err(FrameError::BadField);
         }
         let mut values = heapless::Vec::new();
         for i in 0..n {
-            let at = BIN_FIXED_LEN + BIN_PER_FREQ_LEN * i;
+            let at = BIN_FIXED_LEN + BIN_VALUE_LEN * i;
+            let angle_offset_deg = if offsets {
+                get_f32(body, BIN_FIXED_LEN + BIN_VALUE_LEN * n + 4 * i)?
+            } else {
+                0.0
+            };
             let v = FreqValue {
                 index: get_u16(body, at)?,
                 raw: Complex32::new(get_f32(body, at + 2)?, get_f32(body, at + 6)?),
                 gated: Complex32::new(get_f32(body, at + 10)?, get_f32(body, at + 14)?),
+                angle_offset_deg,
             };
             values.push(v).map_err(|_| FrameError::BadField)?;
         }

@@ -9,12 +9,13 @@
 use crate::formats::recording::Record;
 use crate::pipeline::setup::Setup;
 use anyhow::{bail, Context};
+use sweepgate::bins::BinFlags;
 use sweepgate::fft::{Fft, FftSize};
 use sweepgate::pump::Pump;
 use sweepgate::scan::{EchoMode, ScanCounters};
 use sweepgate::wire::block::{emit, ByteOrder, Format};
 use sweepgate::wire::capture::{CaptureHeader, Entry, HEADER_LEN, MAX_ENTRY_LEN, MAX_PATTERN};
-use sweepgate::wire::preview::{Decoder, PreviewRecord as Preview};
+use sweepgate::wire::preview::{BinRecord, Decoder, PreviewRecord as Preview};
 use sweepgate::Complex32;
 
 /// FFT size of the board build (`examples/firmware-m4`); the host replays a capture with
@@ -156,6 +157,12 @@ where
     })
 }
 
+/// Largest difference of two angle offsets ([`FreqValue::angle_offset_deg`]) that
+/// [`compare`] accepts, degrees.
+///
+/// [`FreqValue::angle_offset_deg`]: sweepgate::wire::preview::FreqValue::angle_offset_deg
+pub const ANGLE_TOLERANCE_DEG: f32 = 1e-4;
+
 /// How two preview streams compare.
 #[derive(Debug)]
 pub struct Comparison {
@@ -165,13 +172,20 @@ pub struct Comparison {
     pub matched: usize,
     /// Largest relative difference of any raw or gated value.
     pub worst_relative: f64,
+    /// Bin records with [`BinFlags::ECHO_IN_GATE`] in each stream (the flags themselves
+    /// are compared record by record).
+    pub echo_in_gate: (usize, usize),
+    /// Largest |angle offset| of any value in the second stream, degrees (0 when every
+    /// sweep was taken still).
+    pub largest_offset_deg: f32,
     /// One line per disagreement (at most 20).
     pub problems: Vec<String>,
 }
 
 /// Decodes two preview streams and compares them record by record: the same bins, in the
-/// same order, with the same sweep counts and flags, and values within `tolerance`
-/// relative (to the larger magnitude of the record's values).
+/// same order, with the same sweep counts and flags, values within `tolerance` relative (to
+/// the larger magnitude of the record's values) and angle offsets within
+/// [`ANGLE_TOLERANCE_DEG`].
 pub fn compare(a: &[u8], b: &[u8], tolerance: f64) -> Comparison {
     let decode = |bytes: &[u8]| {
         let mut d: Decoder<F, 512> = Decoder::new();
@@ -184,10 +198,20 @@ pub fn compare(a: &[u8], b: &[u8], tolerance: f64) -> Comparison {
         out
     };
     let (ra, rb) = (decode(a), decode(b));
+    let flagged = |r: &[BinRecord<F>]| {
+        r.iter()
+            .filter(|x| x.flags & BinFlags::ECHO_IN_GATE != 0)
+            .count()
+    };
     let mut c = Comparison {
         bins: (ra.len(), rb.len()),
         matched: 0,
         worst_relative: 0.0,
+        echo_in_gate: (flagged(&ra), flagged(&rb)),
+        largest_offset_deg: rb
+            .iter()
+            .flat_map(|x| x.values.iter().map(|v| v.angle_offset_deg.abs()))
+            .fold(0.0, f32::max),
         problems: Vec::new(),
     };
     if ra.len() != rb.len() {
@@ -211,31 +235,108 @@ pub fn compare(a: &[u8], b: &[u8], tolerance: f64) -> Comparison {
                 x.bin, x.echo_db, y.echo_db
             ));
         }
-        let scale = x
-            .values
-            .iter()
-            .flat_map(|v| [v.raw.norm(), v.gated.norm()])
-            .fold(0f32, f32::max)
-            .max(f32::MIN_POSITIVE) as f64;
-        for (u, v) in x.values.iter().zip(&y.values) {
-            for (p, q) in [(u.raw, v.raw), (u.gated, v.gated)] {
-                let rel = (p - q).norm() as f64 / scale;
-                c.worst_relative = c.worst_relative.max(rel);
-                if rel.is_nan() || rel > tolerance {
-                    ok = false;
-                    if c.problems.len() < 20 {
-                        c.problems.push(format!(
-                            "bin {}: {p} against {q} (relative {rel:.2e})",
-                            x.bin
-                        ));
-                    }
-                }
-            }
-        }
+        ok &= compare_values(x, y, tolerance, &mut c);
         if ok {
             c.matched += 1;
         }
     }
     c.problems.truncate(20);
     c
+}
+
+/// Compares the values of two bin records (angle offsets within [`ANGLE_TOLERANCE_DEG`],
+/// raw and gated values within `tolerance` relative to the larger magnitude of `x`'s
+/// values), noting the worst relative difference and each disagreement in `c`.
+fn compare_values(x: &BinRecord<F>, y: &BinRecord<F>, tolerance: f64, c: &mut Comparison) -> bool {
+    let mut ok = true;
+    let scale = x
+        .values
+        .iter()
+        .flat_map(|v| [v.raw.norm(), v.gated.norm()])
+        .fold(0f32, f32::max)
+        .max(f32::MIN_POSITIVE) as f64;
+    for (u, v) in x.values.iter().zip(&y.values) {
+        if (u.angle_offset_deg - v.angle_offset_deg).abs() > ANGLE_TOLERANCE_DEG
+            || u.angle_offset_deg.is_nan() != v.angle_offset_deg.is_nan()
+        {
+            ok = false;
+            c.problems.push(format!(
+                "bin {}: angle offset {} deg against {} deg at grid index {}",
+                x.bin, u.angle_offset_deg, v.angle_offset_deg, u.index
+            ));
+        }
+        for (p, q) in [(u.raw, v.raw), (u.gated, v.gated)] {
+            let rel = (p - q).norm() as f64 / scale;
+            c.worst_relative = c.worst_relative.max(rel);
+            if rel.is_nan() || rel > tolerance {
+                ok = false;
+                if c.problems.len() < 20 {
+                    c.problems.push(format!(
+                        "bin {}: {p} against {q} (relative {rel:.2e})",
+                        x.bin
+                    ));
+                }
+            }
+        }
+    }
+    ok
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use sweepgate::wire::preview::{encode_frame, FreqValue, MAX_FRAME};
+
+    /// A preview stream of `n` bin records, every `flag_every`-th with the echo-in-gate flag.
+    fn stream(n: u16, flag_every: u16) -> Vec<u8> {
+        let mut out = Vec::new();
+        for bin in 0..n {
+            let mut values = heapless::Vec::new();
+            let v = Complex32::new(1.0 + f32::from(bin), -0.5);
+            values
+                .push(FreqValue {
+                    index: 3,
+                    raw: v,
+                    gated: v * 0.5,
+                    angle_offset_deg: 0.01 * f32::from(bin),
+                })
+                .unwrap();
+            let rec = Preview::Bin(BinRecord::<F> {
+                bin,
+                flags: if bin % flag_every == 0 {
+                    BinFlags::ECHO_IN_GATE
+                } else {
+                    0
+                },
+                sweeps: 2,
+                nominal_deg: f32::from(bin),
+                mean_deg: f32::from(bin),
+                max_smear_deg: 0.1,
+                echo_db: -30.0,
+                values,
+            });
+            let mut frame = [0u8; MAX_FRAME];
+            let len = encode_frame(&rec, bin, &mut frame).unwrap();
+            out.extend_from_slice(&frame[..len]);
+        }
+        out
+    }
+
+    #[test]
+    fn flags_are_compared_and_counted() {
+        // Equal streams: every record matches; 4 of 10 records (0, 3, 6, 9) are flagged.
+        let a = stream(10, 3);
+        let same = compare(&a, &a, 1e-5);
+        assert_eq!(same.matched, 10, "{:?}", same.problems);
+        assert_eq!(same.echo_in_gate, (4, 4));
+        assert_eq!(same.largest_offset_deg, 0.01 * 9.0); // bin 9's offset
+                                                         // The same values with the flag on every other record (0, 2, 4, 6, 8) instead: the
+                                                         // records whose flags differ (2, 3, 4, 8, 9) fail.
+        let b = stream(10, 2);
+        let differ = compare(&a, &b, 1e-5);
+        assert_eq!(differ.echo_in_gate, (4, 5));
+        let mismatched = (0..10u16).filter(|i| (i % 3 == 0) != (i % 2 == 0)).count();
+        assert_eq!(differ.matched, 10 - mismatched, "{:?}", differ.problems);
+        assert!(mismatched > 0);
+    }
 }

@@ -35,6 +35,7 @@ pub fn report_bin<const F: usize>(r: &BinResult<F>, frequencies: usize) -> Repor
             raw: c64(r.raw[j]),
             gated: c64(r.gated[j]),
             truth: None,
+            angle_offset_deg: f64::from(r.angle_offset_deg[j]),
         })
         .collect();
     ReportBin {

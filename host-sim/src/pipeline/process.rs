@@ -475,6 +475,8 @@ fn gate_each(
                     raw: c64(s.values.get(i).copied().unwrap_or_default()),
                     gated: c64(gated.get(i).copied().unwrap_or_default()),
                     truth: None,
+                    // Files at given angles: no sweep timing, each taken still.
+                    angle_offset_deg: 0.0,
                 })
                 .collect(),
         })

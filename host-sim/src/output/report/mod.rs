@@ -53,6 +53,10 @@ pub struct ReportValue {
     pub gated: Complex64,
     /// Free-space S21, when known.
     pub truth: Option<Complex64>,
+    /// Where this frequency was measured relative to the bin's angle, degrees: the
+    /// engine's [`sweepgate::scan::BinResult::angle_offset_deg`] (0 for sweeps taken still
+    /// and for files at given angles).
+    pub angle_offset_deg: f64,
 }
 
 /// One angle bin.
@@ -159,8 +163,15 @@ pub fn flag_words(bits: u16) -> String {
 /// A cut at one pattern frequency: angles (increasing) and raw, gated and true values.
 #[derive(Debug, Clone, Default)]
 pub struct Cut {
-    /// Angles, degrees, strictly increasing (wrapped to −180…180 for a full circle).
+    /// Angles, degrees, strictly increasing (wrapped to −180…180 for a full circle): the
+    /// bins' angles, where the truth is known.
     pub angles_deg: Vec<f64>,
+    /// Angles at which the raw and gated values were measured: each bin's mean measured
+    /// angle (the mean of its sweeps' mid-time angles, [`ReportBin::mean_deg`]) plus its
+    /// angle offset at this frequency ([`ReportValue::angle_offset_deg`]), in the order of
+    /// `angles_deg` (added to the wrapped bin angle, not wrapped again). The pattern figures
+    /// of the raw and gated cuts are taken on these.
+    pub measured_deg: Vec<f64>,
     /// Raw level, dB.
     pub raw_db: Vec<f64>,
     /// Gated level, dB.
@@ -212,11 +223,13 @@ impl ReportInput {
         let mut truth = Vec::new();
         for b in self.sorted_bins() {
             let Some(v) = b.values.get(fi) else { continue };
-            c.angles_deg.push(if self.full_circle {
-                wrap_deg(b.angle_deg)
-            } else {
-                b.angle_deg
-            });
+            let wrap = |a: f64| if self.full_circle { wrap_deg(a) } else { a };
+            c.angles_deg.push(wrap(b.angle_deg));
+            // Not wrapped again: an offset must not move the first or last bin across the
+            // seam and out of order.
+            let mean = wrap_deg(b.mean_deg - b.angle_deg);
+            c.measured_deg
+                .push(wrap(b.angle_deg) + mean + v.angle_offset_deg);
             c.raw_db.push(db(v.raw));
             c.gated_db.push(db(v.gated));
             match v.truth {
@@ -412,8 +425,8 @@ pub fn summary_json(input: &ReportInput) -> Value {
         per_freq.push(json!({
             "frequency_hz": f,
             "absolute_gain": gain,
-            "gated": metrics_json(input.metrics(&c.angles_deg, &c.gated_norm())),
-            "raw": metrics_json(input.metrics(&c.angles_deg, &c.raw_norm())),
+            "gated": metrics_json(input.metrics(&c.measured_deg, &c.gated_norm())),
+            "raw": metrics_json(input.metrics(&c.measured_deg, &c.raw_norm())),
             "truth": truth,
             "error_vs_truth": err,
         }));
@@ -526,6 +539,7 @@ mod tests {
                 raw: Complex64::new(1.0, 0.0),
                 gated: Complex64::new(0.5, 0.0),
                 truth: None,
+                angle_offset_deg: 0.0,
             }],
         }
     }
