@@ -511,10 +511,47 @@ fn connect(addr: &str, timeout: Duration) -> anyhow::Result<TcpStream> {
     }
 }
 
+/// What carries the SCPI link: a byte stream whose reads can be given a timeout and made
+/// non-blocking. A raw SCPI socket (`TcpStream`) is one; another transport (a serial line, a
+/// USB-TMC device) is added by implementing this and calling [`Link::over`].
+pub trait Transport: Read + Write + Send {
+    /// Limits each following read to `timeout` (`None`: no limit).
+    fn set_read_timeout(&mut self, timeout: Option<Duration>) -> std::io::Result<()>;
+    /// Limits each following write to `timeout` (`None`: no limit).
+    fn set_write_timeout(&mut self, timeout: Option<Duration>) -> std::io::Result<()>;
+    /// Makes reads return at once (`WouldBlock`) when nothing is waiting.
+    fn set_nonblocking(&mut self, on: bool) -> std::io::Result<()>;
+}
+
+impl Transport for TcpStream {
+    fn set_read_timeout(&mut self, timeout: Option<Duration>) -> std::io::Result<()> {
+        TcpStream::set_read_timeout(self, timeout)
+    }
+    fn set_write_timeout(&mut self, timeout: Option<Duration>) -> std::io::Result<()> {
+        TcpStream::set_write_timeout(self, timeout)
+    }
+    fn set_nonblocking(&mut self, on: bool) -> std::io::Result<()> {
+        TcpStream::set_nonblocking(self, on)
+    }
+}
+
+#[cfg(unix)]
+impl Transport for std::os::unix::net::UnixStream {
+    fn set_read_timeout(&mut self, timeout: Option<Duration>) -> std::io::Result<()> {
+        std::os::unix::net::UnixStream::set_read_timeout(self, timeout)
+    }
+    fn set_write_timeout(&mut self, timeout: Option<Duration>) -> std::io::Result<()> {
+        std::os::unix::net::UnixStream::set_write_timeout(self, timeout)
+    }
+    fn set_nonblocking(&mut self, on: bool) -> std::io::Result<()> {
+        std::os::unix::net::UnixStream::set_nonblocking(self, on)
+    }
+}
+
 /// A line-oriented SCPI connection with its read buffer. Every answer has one deadline,
 /// `timeout_s` from the moment it is awaited, however the bytes trickle in.
 pub struct Link {
-    stream: TcpStream,
+    stream: Box<dyn Transport>,
     buf: Vec<u8>,
     start: usize,
     end: usize,
@@ -559,9 +596,15 @@ impl Link {
         let t = check_wait_s("timeout_s", timeout_s, true)?;
         let stream =
             connect(addr, t).with_context(|| format!("connecting to the instrument at {addr}"))?;
+        stream.set_nodelay(true).ok();
+        Self::over(Box::new(stream), timeout_s)
+    }
+
+    /// A link over any [`Transport`], with `timeout_s` for each answer and each write.
+    pub fn over(mut stream: Box<dyn Transport>, timeout_s: f64) -> anyhow::Result<Self> {
+        let t = check_wait_s("timeout_s", timeout_s, true)?;
         stream.set_read_timeout(Some(t))?;
         stream.set_write_timeout(Some(t))?;
-        stream.set_nodelay(true).ok();
         Ok(Self {
             stream,
             buf: vec![0; 64 * 1024],
@@ -2054,6 +2097,46 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
 
 #[cfg(test)]
 mod tests {
+
+    /// The link over a transport other than TCP (a Unix socket pair): a query is answered,
+    /// unasked bytes are seen, and a silent peer times out within the answer's deadline.
+    #[cfg(unix)]
+    #[test]
+    fn a_link_over_another_transport() {
+        use std::io::{BufRead, BufReader};
+        use std::os::unix::net::UnixStream;
+        let (ours, theirs) = UnixStream::pair().unwrap();
+        let peer = std::thread::spawn(move || {
+            let mut w = theirs.try_clone().unwrap();
+            let mut r = BufReader::new(theirs);
+            let mut line = String::new();
+            r.read_line(&mut line).unwrap();
+            assert_eq!(line, "*IDN?\n");
+            w.write_all(b"test,unix,0,1\n").unwrap();
+            line.clear();
+            r.read_line(&mut line).unwrap();
+            assert_eq!(line, "*OPC?\n");
+            // No answer: the link must time out on its own deadline.
+            std::thread::sleep(Duration::from_millis(600));
+            w.write_all(b"late\n").unwrap();
+        });
+        let mut link = Link::over(Box::new(ours), 0.2).unwrap();
+        assert_eq!(link.query("*IDN?").unwrap(), "test,unix,0,1");
+        let t = Instant::now();
+        let e = link.query("*OPC?").unwrap_err();
+        assert!(format!("{e:#}").contains("timeout"), "{e:#}");
+        assert!(
+            t.elapsed() < Duration::from_millis(500),
+            "{:?}",
+            t.elapsed()
+        );
+        peer.join().unwrap();
+        assert!(
+            link.unsolicited().unwrap(),
+            "the late answer is seen as unasked"
+        );
+    }
+
     use super::*;
 
     #[test]
