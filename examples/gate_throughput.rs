@@ -8,11 +8,9 @@
 //! outputs to FILE for `examples/numpy_compare.py`, which runs the same chain with numpy on
 //! the same data and reports the ratio.
 //!
-//! File layout (little-endian): magic `SGTP`, u32 K, u32 M, u32 N, f64 start_hz, f64 step_hz,
-//! f64 centre_s, f64 span_s, f64 band Kaiser β, f64 gate Kaiser β, then N·K complex f32 inputs
-//! (re, im), then N·K complex f32 gated outputs.
+//! The inputs and the file layout are in `examples/bench_data/`, shared with the host's
+//! `gate_bench` example.
 
-use std::io::Write;
 use std::time::Instant;
 use sweepgate::gate::{Gate, GateConfig};
 use sweepgate::grid::Grid;
@@ -21,6 +19,9 @@ use sweepgate::Complex32;
 
 const M: usize = 1024;
 const K: usize = 801;
+
+#[path = "bench_data/mod.rs"]
+mod bench_data;
 
 fn main() -> Result<(), Box<dyn std::error::Error>> {
     let mut out_path = None;
@@ -45,29 +46,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     };
     let gate = Gate::<M>::new(&cfg).map_err(|e| e.to_string())?;
 
-    // Inputs: amplitude and echo phase vary with the bin, as a turning AUT would make them.
-    let mut state = 0x2545_F491_4F6C_DD1Du64;
-    let mut noise = move || {
-        state ^= state << 13;
-        state ^= state >> 7;
-        state ^= state << 17;
-        ((state >> 40) as f32 / (1u64 << 24) as f32 - 0.5) * 1e-3
-    };
-    let mut inputs = vec![[Complex32::new(0.0, 0.0); M]; bins];
-    for (b, sweep) in inputs.iter_mut().enumerate() {
-        let a = 1.0 - 0.5 * (b as f64 / bins as f64);
-        for (n, v) in sweep.iter_mut().take(K).enumerate() {
-            let f = grid.frequency_hz(n);
-            let z = |amp: f64, t: f64| {
-                let ph = -2.0 * std::f64::consts::PI * f * t;
-                Complex32::new((amp * ph.cos()) as f32, (amp * ph.sin()) as f32)
-            };
-            *v = z(a, 18e-9)
-                + z(0.4, 21e-9 + b as f64 * 1e-12)
-                + z(0.2, 27e-9)
-                + Complex32::new(noise(), noise());
-        }
-    }
+    let inputs = bench_data::inputs::<M>(&grid, K, bins);
 
     let mut outputs = vec![[Complex32::new(0.0, 0.0); M]; bins];
     // Warm up once, then time several passes and keep the best.
@@ -89,30 +68,9 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     );
 
     if let Some(path) = out_path {
-        let mut f = std::io::BufWriter::new(std::fs::File::create(&path)?);
-        f.write_all(b"SGTP")?;
-        for v in [K as u32, M as u32, bins as u32] {
-            f.write_all(&v.to_le_bytes())?;
-        }
-        for v in [
-            grid.start_hz(),
-            grid.step_hz(),
-            cfg.center_s,
-            cfg.span_s,
-            band_beta as f64,
-            gate_beta as f64,
-        ] {
-            f.write_all(&v.to_le_bytes())?;
-        }
-        for set in [&inputs, &outputs] {
-            for sweep in set.iter() {
-                for z in &sweep[..K] {
-                    f.write_all(&z.re.to_le_bytes())?;
-                    f.write_all(&z.im.to_le_bytes())?;
-                }
-            }
-        }
-        f.flush()?;
+        let outs: Vec<&[Complex32]> = outputs.iter().map(|s| &s[..]).collect();
+        let betas = [f64::from(band_beta), f64::from(gate_beta)];
+        bench_data::write_data(&path, &cfg, betas, &inputs, &outs)?;
         println!("wrote inputs and gated outputs to {path}");
     }
     Ok(())

@@ -12,11 +12,9 @@
 //! renormalization, the FFT plans) is timed too, as the library call makes it each time.
 //!
 //! With `--out`, writes the inputs, the gate settings and the library call's outputs (one
-//! thread) to FILE, in `examples/gate_throughput.rs`'s layout: magic `SGTP`, u32 K, u32 M,
-//! u32 N, f64 start_hz, f64 step_hz, f64 centre_s, f64 span_s, f64 band Kaiser β, f64 gate
-//! Kaiser β, then N·K complex f32 inputs (re, im), then N·K complex f32 gated outputs.
+//! thread) to FILE; the inputs and the layout are in `examples/bench_data/` (one home,
+//! shared with the core's `gate_throughput` example).
 
-use std::io::Write;
 use std::time::Instant;
 
 use sweepgate::fft::Microfft;
@@ -31,32 +29,8 @@ const M: usize = 1024;
 const K: usize = 801;
 const ZERO: Complex32 = Complex32::new(0.0, 0.0);
 
-/// The inputs: amplitude and echo delay vary with the bin, as a turning antenna makes them.
-fn inputs(grid: &Grid, bins: usize) -> Vec<[Complex32; M]> {
-    let mut state = 0x2545_F491_4F6C_DD1Du64;
-    let mut noise = move || {
-        state ^= state << 13;
-        state ^= state >> 7;
-        state ^= state << 17;
-        ((state >> 40) as f32 / (1u64 << 24) as f32 - 0.5) * 1e-3
-    };
-    let mut inputs = vec![[ZERO; M]; bins];
-    for (b, sweep) in inputs.iter_mut().enumerate() {
-        let a = 1.0 - 0.5 * (b as f64 / bins as f64);
-        for (n, v) in sweep.iter_mut().take(K).enumerate() {
-            let f = grid.frequency_hz(n);
-            let z = |amp: f64, t: f64| {
-                let ph = -2.0 * std::f64::consts::PI * f * t;
-                Complex32::new((amp * ph.cos()) as f32, (amp * ph.sin()) as f32)
-            };
-            *v = z(a, 18e-9)
-                + z(0.4, 21e-9 + b as f64 * 1e-12)
-                + z(0.2, 27e-9)
-                + Complex32::new(noise(), noise());
-        }
-    }
-    inputs
-}
+#[path = "../../examples/bench_data/mod.rs"]
+mod bench_data;
 
 /// Timed passes of each figure; the best is kept (the machine may be shared).
 const PASSES: usize = 25;
@@ -75,39 +49,6 @@ fn rate(bins: usize, mut pass: impl FnMut()) -> f64 {
 
 fn report(what: &str, rate: f64) {
     println!("{what}: {rate:.0} bins/s ({:.2} µs per bin)", 1e6 / rate);
-}
-
-fn write_data(
-    path: &str,
-    cfg: &GateConfig,
-    betas: [f64; 2],
-    inputs: &[[Complex32; M]],
-    outputs: &[Vec<Complex32>],
-) -> std::io::Result<()> {
-    let mut f = std::io::BufWriter::new(std::fs::File::create(path)?);
-    f.write_all(b"SGTP")?;
-    for v in [K as u32, M as u32, inputs.len() as u32] {
-        f.write_all(&v.to_le_bytes())?;
-    }
-    let g = cfg.grid;
-    for v in [
-        g.start_hz(),
-        g.step_hz(),
-        cfg.center_s,
-        cfg.span_s,
-        betas[0],
-        betas[1],
-    ] {
-        f.write_all(&v.to_le_bytes())?;
-    }
-    let ins = inputs.iter().map(|s| &s[..K]);
-    for sweep in ins.chain(outputs.iter().map(|s| &s[..K])) {
-        for z in sweep {
-            f.write_all(&z.re.to_le_bytes())?;
-            f.write_all(&z.im.to_le_bytes())?;
-        }
-    }
-    f.flush()
 }
 
 /// `--out FILE` and `--bins N` (default 361).
@@ -149,7 +90,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     println!(
         "set-up: gate {gate_us:.0} µs, FFT plans {plan_us:.0} µs (first), {again_us:.0} µs (again)"
     );
-    let inputs = inputs(&grid, bins);
+    let inputs = bench_data::inputs::<M>(&grid, K, bins);
     let mut out = vec![[ZERO; M]; bins];
     let mut echo = vec![0.0f32; bins];
     println!("M = {M}, K = {K}, {bins} bins");
@@ -195,7 +136,8 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     }
     if let (Some(path), Some(spectra)) = (out_path, kept) {
         let betas = [f64::from(band_beta), f64::from(gate_beta)];
-        write_data(&path, &cfg, betas, &inputs, &spectra)?;
+        let outs: Vec<&[Complex32]> = spectra.iter().map(|s| &s[..]).collect();
+        bench_data::write_data(&path, &cfg, betas, &inputs, &outs)?;
         println!("wrote inputs and gated outputs to {path}");
     }
     Ok(())
