@@ -201,20 +201,7 @@ fn a_continuous_turn_is_recorded_while_turning_then_stopped_and_replays() {
     let (sw, pos, _, stop) = read(&out);
     assert_eq!(stop, Stop::Complete);
     assert!(sw.len() >= 20, "{} sweeps", sw.len());
-    // While turning: every sweep has the table past the start, not yet past the end,
-    // and moving forward across it.
-    let mut moving = 0;
-    for s in &sw {
-        let (b, a) = around(&pos, *s);
-        assert!((-10.05..10.0).contains(&b), "{b}");
-        assert!(a >= b - 1e-9, "{b} → {a}");
-        moving += usize::from(a > b);
-    }
-    assert!(
-        moving * 10 >= sw.len() * 9,
-        "{moving} of {} sweeps turned",
-        sw.len()
-    );
+    turned_across(&sw, &pos);
     let (angle, speed, state) = where_is(&t.addr);
     assert_eq!((speed, state.as_str()), (0.0, "HOLDING"), "stopped");
     // 10 °/s braked at 60 °/s² runs 0.83° (closed form v²/2a) past the angle where the
@@ -456,19 +443,7 @@ fn a_continuous_turn_over_a_serial_line() {
     let (sw, pos, _, stop) = read(&out);
     assert_eq!(stop, Stop::Complete);
     assert!(sw.len() >= 20, "{} sweeps", sw.len());
-    // Every sweep inside the turn and the table moving forward across most of them.
-    let mut moving = 0;
-    for s in &sw {
-        let (b, a) = around(&pos, *s);
-        assert!((-10.05..10.0).contains(&b), "{b}");
-        assert!(a >= b - 1e-9, "{b} → {a}");
-        moving += usize::from(a > b);
-    }
-    assert!(
-        moving * 10 >= sw.len() * 9,
-        "{moving} of {} sweeps turned",
-        sw.len()
-    );
+    turned_across(&sw, &pos);
     let r = replay(&out, &dir.join("serial-turn-report"));
     let n = sw.len();
     assert!(
@@ -491,4 +466,21 @@ fn serial_turntable() -> (std::process::Child, String) {
         .unwrap();
     let path = line.trim().strip_prefix("serial on ").unwrap().to_owned();
     (child, path)
+}
+
+/// The −10° to 10° turn: every sweep has the table past the start, not yet past the end,
+/// and moving forward across it (most of them; the first may start at rest).
+fn turned_across(sw: &[(u64, u64)], pos: &[(u64, f64)]) {
+    let mut moving = 0;
+    for s in sw {
+        let (b, a) = around(pos, *s);
+        assert!((-10.05..10.0).contains(&b), "{b}");
+        assert!(a >= b - 1e-9, "{b} → {a}");
+        moving += usize::from(a > b);
+    }
+    assert!(
+        moving * 10 >= sw.len() * 9,
+        "{moving} of {} sweeps turned",
+        sw.len()
+    );
 }
