@@ -120,3 +120,7 @@ pub const DEFAULT_MAX_DROPPED_IN_ROW: u32 = 8;
 /// Default of the profile's `max_resyncs_in_row`: times in a row one sweep is taken again
 /// because an answer was out of step before the scan stops.
 pub const DEFAULT_MAX_RESYNCS_IN_ROW: u32 = 4;
+
+/// Most worker threads `process --threads` may ask for: each has an 8 MiB stack and its own
+/// FFT buffers, and more threads than cores gain nothing.
+pub const MAX_THREADS: usize = 256;

@@ -1,6 +1,6 @@
 //! `process --threads N`: a manifest read and gated on one, two and three threads gives the
 //! same report bit for bit, and the library call behind it the same gated spectra and echo
-//! levels; `--threads 0` is refused.
+//! levels; `--threads 0` and a count over the limit are refused.
 
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
@@ -116,4 +116,15 @@ fn zero_threads_is_refused() {
     };
     let e = process::resolve(&opts).unwrap_err();
     assert!(format!("{e:#}").contains("--threads 0"), "{e:#}");
+}
+
+#[test]
+fn a_million_threads_is_refused_with_the_limit() {
+    let opts = Options {
+        manifest: Some(PathBuf::from("scan.csv")),
+        threads: Some(1_000_000),
+        ..Options::default()
+    };
+    let e = format!("{:#}", process::resolve(&opts).unwrap_err());
+    assert!(e.contains("--threads 1000000 is over 256"), "{e}");
 }

@@ -295,6 +295,10 @@ pub fn resolve(opts: &Options) -> anyhow::Result<Resolved> {
         exports: opts.exports.clone(),
         threads: match opts.threads {
             Some(0) => bail!("--threads 0: give at least 1 (or leave it out for every core)"),
+            Some(n) if n > crate::limits::MAX_THREADS => bail!(
+                "--threads {n} is over {} (each thread holds a Touchstone parse and an FFT's buffers)",
+                crate::limits::MAX_THREADS
+            ),
             Some(n) => n,
             None => crate::threads::available(),
         },
