@@ -351,6 +351,13 @@ impl<const M: usize, const B: usize> Bins<M, B> {
         Ok(())
     }
 
+    /// Starts a new cut: closes nothing (the caller closes the open bin first), forgets
+    /// the visits and the first direction.
+    pub(crate) fn start_cut(&mut self) {
+        self.visits.fill(0);
+        self.first_direction = Direction::Still;
+    }
+
     /// The layout.
     pub fn layout(&self) -> &BinLayout {
         &self.layout

@@ -505,6 +505,24 @@ where
         &self.bins
     }
 
+    /// The pattern-frequency kernels (for engines that gate further traces with the same
+    /// gate, [`crate::cuts`]).
+    pub(crate) fn kernels(&self) -> &Kernels<M, F> {
+        &self.kernels
+    }
+
+    /// Starts a new cut (a new turn at another second-axis value, [`crate::cuts`]): closes
+    /// the open bin (its result, if any, is in the events) and forgets which bins were
+    /// visited and the first direction, so the new cut's bins are first visits.
+    pub(crate) fn start_cut(&mut self) -> Events<F> {
+        let mut ev = Events::new();
+        if let Some(r) = self.close_open() {
+            push_event(&mut ev, Event::BinClosed(r));
+        }
+        self.bins.start_cut();
+        ev
+    }
+
     /// Counters.
     pub fn counters(&self) -> ScanCounters {
         let mut c = self.counters;
@@ -831,7 +849,7 @@ where
 /// bin is closed; the next one starts from zero). With an echo level the FFT path runs
 /// anyway, so the gated values are read from it; without, the sum is windowed in place
 /// (folding in 1/count) and the kernel path takes one dot product per frequency.
-fn gate_bin<const M: usize, const F: usize>(
+pub(crate) fn gate_bin<const M: usize, const F: usize>(
     gate: &Gate<M>,
     kernels: &Kernels<M, F>,
     echo: EchoMode,

@@ -30,3 +30,21 @@ fn board_loop_is_the_engine_and_one_sweep_buffer() {
     assert!(pump <= scan + 1024 * 8 + 512, "{pump}");
     assert!(!BOARD_LOOP.is_configured());
 }
+
+/// A scan of two traces (T = 1 + X, X = 1) over cuts of a second axis, at the sizes above.
+#[test]
+fn two_trace_cut_scan_is_the_engine_one_more_sum_and_a_second_history() {
+    use sweepgate::cuts::CutScan;
+    let two = core::mem::size_of::<CutScan<1024, 8, 361, 64, 1>>();
+    let one = core::mem::size_of::<Scan<1024, 8, 361>>();
+    let tracker = core::mem::size_of::<sweepgate::track::Tracker<64>>();
+    println!(
+        "size_of::<CutScan<1024, 8, 361, 64, 1>>() = {two} bytes (Scan {one}, Tracker<64> {tracker})"
+    );
+    // The one-trace engine, one more M-point sum (1024 × 8 bytes), the second axis's tracker
+    // and a little state (the cut layout, the second-axis sum, counters): nothing else
+    // (project requirement: memory bounded and stated).
+    assert!(two >= one + 1024 * 8 + tracker, "{two}");
+    assert!(two <= one + 1024 * 8 + tracker + 256, "{two}");
+    assert!(two <= 64 * 1024, "{two}");
+}

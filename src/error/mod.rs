@@ -3,6 +3,7 @@
 //! Each boundary keeps its enum in its own file here and they are all re-exported.
 
 mod autogate;
+mod cuts;
 mod gate;
 mod plan;
 mod pump;
@@ -10,6 +11,7 @@ mod scan;
 mod wire;
 
 pub use self::autogate::*;
+pub use self::cuts::*;
 pub use self::gate::*;
 pub use self::plan::*;
 pub use self::pump::*;

@@ -54,6 +54,27 @@
 //! | 34 | 4 | u32 | angle samples pushed |
 //! | 38 | 4 | u32 | angle samples rejected |
 //!
+//! Kind 4, **cut bin** ([`CutRecord`](super::cut_record::CutRecord), from
+//! [`crate::cuts`]), body 28 + 2·n + 16·t·n + 4·t bytes for t traces (1…4) of n pattern
+//! frequencies, at most the longest bin record body (729 bytes: e.g. two traces of up to 21
+//! frequencies):
+//!
+//! | offset | size | type | field |
+//! |---:|---:|---|---|
+//! | 0 | 2 | u16 | cut index |
+//! | 2 | 4 | f32 | the cut's nominal second-axis value, deg |
+//! | 6 | 4 | f32 | mean second-axis angle of the bin's sweeps, deg |
+//! | 10 | 2 | u16 | bin index (first axis) |
+//! | 12 | 2 | u16 | flags ([`crate::bins::BinFlags`] bits) |
+//! | 14 | 4 | u32 | sweeps averaged |
+//! | 18 | 4 | f32 | nominal first-axis angle, deg |
+//! | 22 | 4 | f32 | mean measured first-axis angle, deg |
+//! | 26 | 1 | u8 | t, traces |
+//! | 27 | 1 | u8 | n, pattern frequencies |
+//! | 28 + 2·i | 2 | u16 | grid index of frequency i |
+//! | 28 + 2·n + 16·(j·n + i) | 4 × 4 | f32 | trace j, frequency i: raw re, raw im, gated re, gated im |
+//! | 28 + 2·n + 16·t·n + 4·j | 4 | f32 | trace j's echo level, dB (NaN = not computed) |
+//!
 //! ```
 //! use sweepgate::wire::preview::{encode_frame, Decoder, PreviewRecord, StatusRecord, PositionerState, MAX_FRAME};
 //! let rec: PreviewRecord<4> = PreviewRecord::Status(StatusRecord {
@@ -70,6 +91,7 @@
 //! assert_eq!(dec.counters().good, 1);
 //! ```
 
+pub use super::cut_record::CutRecord;
 use crate::error::{EmitError, FrameError};
 use crate::Complex32;
 
@@ -79,6 +101,8 @@ pub const VERSION: u8 = 1;
 pub const KIND_BIN: u8 = 1;
 /// Kind byte of a [`StatusRecord`].
 pub const KIND_STATUS: u8 = 2;
+/// Kind byte of a [`CutRecord`] (a closed bin of a scan of cuts).
+pub const KIND_CUT: u8 = 4;
 /// Most pattern frequencies a bin record carries.
 pub const MAX_FREQUENCIES: usize = 32;
 /// Bytes of kind, version and seq.
@@ -318,6 +342,8 @@ pub enum PreviewRecord<const F: usize> {
     Bin(BinRecord<F>),
     /// Scan status.
     Status(StatusRecord),
+    /// A closed bin of a scan of cuts: its cut, both axes, every trace.
+    Cut(CutRecord<F>),
 }
 
 fn put(buf: &mut [u8], at: usize, bytes: &[u8]) -> Result<(), EmitError> {
@@ -472,6 +498,7 @@ impl<const F: usize> PreviewRecord<F> {
         match self {
             Self::Bin(_) => KIND_BIN,
             Self::Status(_) => KIND_STATUS,
+            Self::Cut(_) => KIND_CUT,
         }
     }
 
@@ -483,6 +510,7 @@ impl<const F: usize> PreviewRecord<F> {
         let n = match self {
             Self::Bin(b) => b.emit(body)?,
             Self::Status(s) => s.emit(body)?,
+            Self::Cut(c) => c.emit(body)?,
         };
         let end = HEADER_LEN + n;
         let crc = crc32(buf.get(..end).ok_or(EmitError::BufferFull)?);
@@ -509,6 +537,7 @@ impl<const F: usize> PreviewRecord<F> {
         let rec = match kind {
             KIND_BIN => Self::Bin(BinRecord::parse(body)?),
             KIND_STATUS => Self::Status(StatusRecord::parse(body)?),
+            KIND_CUT => Self::Cut(CutRecord::parse(body)?),
             k => return Err(FrameError::UnknownKind(k)),
         };
         Ok((seq, rec))

@@ -128,6 +128,8 @@ impl Screen {
                     .get_or_insert((s.time_us, s.sweeps_pushed));
                 self.status = Some(s);
             }
+            // One cut on screen: the first trace of the latest cut's bins.
+            PreviewRecord::Cut(c) => self.apply(PreviewRecord::Bin(c.first_trace_bin())),
         }
     }
 
