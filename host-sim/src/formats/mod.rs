@@ -9,3 +9,4 @@ pub mod manifest;
 pub mod npy;
 pub mod recording;
 pub mod touchstone;
+pub mod traces;

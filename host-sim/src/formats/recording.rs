@@ -25,6 +25,7 @@
 //! | 5 | end | u64 sweeps, u64 positions, u64 truths written: the writer finished cleanly |
 //! | 6 | header copy | the header record's payload again (see below) |
 //! | 7 | acquisition report | UTF-8 JSON written by `acquire` before its end record: the counts of what it met (dropped sweeps, answers out of step, link faults, positioner lines refused, the positioner clock fit) and `stopped_by`, the reason when a fault ended the scan; readers pass it through as an unknown kind |
+//! | 8 | traces and axes | a scan of several traces or axes (`formats::traces`): a sub-kind byte, then 0 = names (UTF-8 JSON `{"traces": [...], "axes": [...]}`), 1 = the further traces of sweep `index` (u32 index, u8 t, then t × (u32 K, K × (f32 re, f32 im))), 2 = the further axes of the position sample at `t_us` (u64 t_us, u8 n, n × f64 angle_deg); kinds 2 and 3 keep the first trace and the first axis, so readers that predate kind 8 read those (every cut as one long scan of the first axis) and pass these through as an unknown kind |
 //!
 //! Times are microseconds from the start of the scan.
 //!
@@ -128,6 +129,9 @@ pub mod kind {
     /// `acquire`'s report (JSON, read as [`super::Record::Unknown`]): what it met, why it
     /// stopped.
     pub const ACQUIRE_REPORT: u8 = 7;
+    /// Further traces and axes of a scan of cuts (`formats::traces`, read as
+    /// [`super::Record::Unknown`] here).
+    pub const TRACES_AXES: u8 = 8;
 }
 
 /// The frequency grid as stored in the header.
