@@ -46,6 +46,7 @@ fn resolved(input: Input, out: &Path) -> Resolved {
         gain: None,
         exports: Default::default(),
         threads: 2,
+        traces: None,
     }
 }
 

@@ -134,6 +134,8 @@ fn process<'py>(
         reference,
         exports: Default::default(),
         threads: None,
+        co: None,
+        cross: None,
     };
     let (p, r) = py
         .detach(|| -> anyhow::Result<(Processed, Resolved)> {

@@ -12,7 +12,8 @@ pub struct Args {
     /// Manifest or recording (kind detected from the content).
     #[arg(conflicts_with_all = ["manifest", "recording"])]
     pub input: Option<PathBuf>,
-    /// Manifest CSV (`angle_deg,file`) of per-angle Touchstone files.
+    /// Manifest CSV (`angle_deg,file`, or `theta_deg,phi_deg,file` for several cuts) of
+    /// per-angle Touchstone files.
     #[arg(long, conflicts_with = "recording")]
     pub manifest: Option<PathBuf>,
     /// Recording written by `simulate` or `acquire`.
@@ -52,6 +53,14 @@ pub struct Args {
     /// results are the same for any number.
     #[arg(long, value_name = "N")]
     pub threads: Option<usize>,
+    /// A scan of cuts: the co-polar trace's parameter in each file (e.g. S21; default the
+    /// `--parameter`, else S21).
+    #[arg(long, value_name = "SIJ")]
+    pub co: Option<String>,
+    /// A scan of cuts: the cross-polar trace's parameter in each file (e.g. S31 of a
+    /// 3-port file from a dual-polarised probe).
+    #[arg(long, value_name = "SIJ")]
+    pub cross: Option<String>,
 }
 
 /// Runs the command.
@@ -72,5 +81,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
             arrays: a.export_arrays,
         },
         threads: a.threads,
+        co: a.co,
+        cross: a.cross,
     })
 }

@@ -9,6 +9,10 @@
 //! 10,"sweeps/p010, second try.s2p"
 //! ```
 //!
+//! A scan of several cuts (a second positioner axis, or the sphere) gives both axes per file
+//! with the header `theta_deg,phi_deg,file` ([`HEADER_AXES`]): θ is the angle along the cut
+//! and φ the cut (see [`crate::pipeline::cuts`]); a pair may be given once.
+//!
 //! Paths are relative to the folder of the manifest (absolute paths are kept). Everything
 //! after the first comma is the file name, so names holding commas may be written plain or
 //! in double quotes (`""` inside quotes is one quote). Blank lines are skipped. Angles must
@@ -47,6 +51,8 @@ use crate::quote::clipped;
 
 /// The header line a manifest starts with.
 pub const HEADER: &str = "angle_deg,file";
+/// The header line of a manifest of several cuts: both axes per file.
+pub const HEADER_AXES: &str = "theta_deg,phi_deg,file";
 
 /// Manifest text for `(angle, file)` rows: the header, then one row per sweep, each angle in
 /// the shortest form that reads back to the same `f64`, names with a comma or a quote in
@@ -68,8 +74,10 @@ pub fn manifest_text(rows: &[(f64, String)]) -> String {
 pub struct ManifestRow {
     /// 1-based line in the manifest.
     pub line: usize,
-    /// Turntable angle of the sweep.
+    /// Turntable angle of the sweep (θ in a manifest of both axes).
     pub angle_deg: f64,
+    /// The second axis (φ, the cut) in a manifest of both axes ([`HEADER_AXES`]).
+    pub phi_deg: Option<f64>,
     /// The Touchstone file, resolved against the manifest's folder.
     pub file: PathBuf,
 }
@@ -113,6 +121,15 @@ pub enum ManifestErrorKind {
     BadAngle(String),
     /// An angle that is infinite or not a number.
     NonFiniteAngle(String),
+    /// A (θ, φ) pair given on an earlier row too (manifests of both axes).
+    DuplicatePair {
+        /// θ.
+        theta_deg: f64,
+        /// φ.
+        phi_deg: f64,
+        /// Line of the earlier row.
+        first_line: usize,
+    },
     /// An angle given on an earlier row too.
     DuplicateAngle {
         /// The angle.
@@ -149,7 +166,11 @@ impl fmt::Display for ManifestErrorKind {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
             Self::Io(e) => write!(f, "cannot read: {e}"),
-            Self::BadHeader(h) => write!(f, "header is `{}`, expected `{HEADER}`", clipped(h)),
+            Self::BadHeader(h) => write!(
+                f,
+                "header is `{}`, expected `{HEADER}` or `{HEADER_AXES}`",
+                clipped(h)
+            ),
             Self::MissingFileField => write!(f, "expected `angle_deg,file`, found no comma"),
             Self::EmptyFileName => write!(f, "empty file name"),
             Self::UnclosedQuote => write!(f, "file name opens a quote it does not close"),
@@ -159,6 +180,14 @@ impl fmt::Display for ManifestErrorKind {
                 angle_deg,
                 first_line,
             } => write!(f, "angle {angle_deg}° already given on line {first_line}"),
+            Self::DuplicatePair {
+                theta_deg,
+                phi_deg,
+                first_line,
+            } => write!(
+                f,
+                "θ {theta_deg}°, φ {phi_deg}° already given on line {first_line}"
+            ),
             Self::MissingFile(p) => write!(f, "file {} does not exist", p.display()),
             Self::FileIsAFolder(p) => write!(f, "{} is a folder, not a file", p.display()),
             Self::NoRows => write!(f, "no rows after the header"),
@@ -210,11 +239,8 @@ impl std::error::Error for ManifestError {
     }
 }
 
-/// One row's angle and file name, as written.
-fn parse_row(raw: &str) -> Result<(f64, String), ManifestErrorKind> {
-    let (angle, file) = raw
-        .split_once(',')
-        .ok_or(ManifestErrorKind::MissingFileField)?;
+/// An angle field: a finite number.
+fn parse_angle(angle: &str) -> Result<f64, ManifestErrorKind> {
     let angle = angle.trim();
     let angle_deg: f64 = angle
         .parse()
@@ -222,11 +248,37 @@ fn parse_row(raw: &str) -> Result<(f64, String), ManifestErrorKind> {
     if !angle_deg.is_finite() {
         return Err(ManifestErrorKind::NonFiniteAngle(angle.to_string()));
     }
+    Ok(angle_deg)
+}
+
+/// One row's angles (θ, and φ when `axes`) and file name, as written.
+fn parse_row(raw: &str, axes: bool) -> Result<(f64, Option<f64>, String), ManifestErrorKind> {
+    let (angle, rest) = raw
+        .split_once(',')
+        .ok_or(ManifestErrorKind::MissingFileField)?;
+    let angle_deg = parse_angle(angle)?;
+    let (phi_deg, file) = if axes {
+        let (phi, file) = rest
+            .split_once(',')
+            .ok_or(ManifestErrorKind::MissingFileField)?;
+        (Some(parse_angle(phi)?), file)
+    } else {
+        (None, rest)
+    };
     let file = unquote(file.trim())?;
     if file.is_empty() {
         return Err(ManifestErrorKind::EmptyFileName);
     }
-    Ok((angle_deg, file))
+    Ok((angle_deg, phi_deg, file))
+}
+
+/// The key a row's angles are told apart by (−0 counted as 0).
+fn angle_key(a: f64) -> u64 {
+    if a == 0.0 {
+        0
+    } else {
+        a.to_bits()
+    }
 }
 
 /// A parsed manifest.
@@ -264,35 +316,38 @@ impl Manifest {
             .find(|(_, l)| !l.trim().is_empty())
             .ok_or_else(|| err(None, ManifestErrorKind::NoRows))?;
         let normal: Vec<&str> = header.1.split(',').map(str::trim).collect();
-        if normal != ["angle_deg", "file"] {
+        let axes = normal == ["theta_deg", "phi_deg", "file"];
+        if normal != ["angle_deg", "file"] && !axes {
             return Err(err(
                 Some(header.0),
                 ManifestErrorKind::BadHeader(header.1.trim().to_string()),
             ));
         }
         let mut rows: Vec<ManifestRow> = Vec::new();
-        let mut seen: std::collections::HashMap<u64, usize> = std::collections::HashMap::new();
+        let mut seen: std::collections::HashMap<(u64, u64), usize> =
+            std::collections::HashMap::new();
         for (line, raw) in lines {
             if raw.trim().is_empty() {
                 continue;
             }
             let at = Some(line);
-            let (angle_deg, file) = parse_row(raw).map_err(|k| err(at, k))?;
-            // One look-up per row (a hash of the angle's bits, −0 counted as 0), so a
+            let (angle_deg, phi_deg, file) = parse_row(raw, axes).map_err(|k| err(at, k))?;
+            // One look-up per row (a hash of the angles' bits, −0 counted as 0), so a
             // manifest of a million rows is read in linear time.
-            let key = if angle_deg == 0.0 {
-                0
-            } else {
-                angle_deg.to_bits()
-            };
+            let key = (angle_key(angle_deg), phi_deg.map_or(0, angle_key));
             if let Some(&first_line) = seen.get(&key) {
-                return Err(err(
-                    at,
-                    ManifestErrorKind::DuplicateAngle {
+                let kind = match phi_deg {
+                    Some(phi_deg) => ManifestErrorKind::DuplicatePair {
+                        theta_deg: angle_deg,
+                        phi_deg,
+                        first_line,
+                    },
+                    None => ManifestErrorKind::DuplicateAngle {
                         angle_deg,
                         first_line,
                     },
-                ));
+                };
+                return Err(err(at, kind));
             }
             seen.insert(key, line);
             let path = base.join(&file);
@@ -305,6 +360,7 @@ impl Manifest {
             rows.push(ManifestRow {
                 line,
                 angle_deg,
+                phi_deg,
                 file: path,
             });
         }
@@ -325,6 +381,11 @@ impl Manifest {
     /// The rows, in file order.
     pub fn rows(&self) -> &[ManifestRow] {
         &self.rows
+    }
+
+    /// Whether the manifest gives both axes per file ([`HEADER_AXES`]).
+    pub fn has_axes(&self) -> bool {
+        self.rows.first().is_some_and(|r| r.phi_deg.is_some())
     }
 
     /// Reads every file and takes `parameter` from each (default: S21 from files of two or
@@ -414,7 +475,7 @@ impl Manifest {
     }
 }
 
-fn same_grid(a: &Grid, b: &Grid) -> bool {
+pub(crate) fn same_grid(a: &Grid, b: &Grid) -> bool {
     let tol = UNIFORM_TOLERANCE_OF_STEP * a.step_hz();
     a.points() == b.points()
         && (a.start_hz() - b.start_hz()).abs() <= tol

@@ -6,6 +6,7 @@ mod crc_span;
 pub mod files;
 pub mod gain_table;
 pub mod manifest;
+pub mod manifest_traces;
 pub mod npy;
 pub mod recording;
 pub mod touchstone;

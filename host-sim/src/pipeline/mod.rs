@@ -3,6 +3,8 @@
 //! gating of saved sweeps, truth, simulation runs, the demo and link captures.
 
 pub mod capture;
+pub mod cuts;
+pub mod cuts_report;
 pub mod data_gate;
 pub mod demo;
 pub mod engine;

@@ -58,6 +58,8 @@ use crate::limits::MIN_REFERENCE_DB;
 use crate::model::scenario::toml_one_line;
 use crate::output::export::{self, BandRow, Bands, Exports};
 use crate::output::report::{self, ImpulseView, ReportBin, ReportInput, ReportValue};
+use crate::pipeline::cuts::{self, CutTraces};
+use crate::pipeline::cuts_report;
 use crate::pipeline::engine::gate_sweeps_on;
 use crate::pipeline::manifest_bins;
 use crate::pipeline::options::{default_report_dir, window_option, Choices, GateOptions, Origin};
@@ -95,6 +97,10 @@ pub struct Options {
     /// Threads reading a manifest's files and gating its sweeps (`None`: every core). The
     /// results do not depend on it.
     pub threads: Option<usize>,
+    /// The co-polar trace's Touchstone parameter (a scan of cuts, [`crate::pipeline::cuts`]).
+    pub co: Option<String>,
+    /// The cross-polar trace's Touchstone parameter (a scan of cuts).
+    pub cross: Option<String>,
 }
 
 /// The keys a settings file may hold.
@@ -207,9 +213,13 @@ pub struct Resolved {
     pub exports: Exports,
     /// Threads for a manifest (at least 1).
     pub threads: usize,
+    /// The co- and cross-polar traces, when asked for (`--co`, `--cross`): the manifest is
+    /// processed as a scan of cuts ([`crate::pipeline::cuts`]).
+    pub traces: Option<CutTraces>,
 }
 
-/// A manifest when the file's first line starts with `angle_deg`, else a recording.
+/// A manifest when the file's first line starts with `angle_deg` or `theta_deg`, else a
+/// recording.
 pub fn detect(path: &Path) -> anyhow::Result<Input> {
     use std::io::Read;
     let mut head = [0u8; 64];
@@ -217,11 +227,13 @@ pub fn detect(path: &Path) -> anyhow::Result<Input> {
     let n = f.read(&mut head).unwrap_or(0);
     let text = String::from_utf8_lossy(head.get(..n).unwrap_or(&[]));
     let text = text.trim_start_matches('\u{feff}').trim_start();
-    Ok(if text.starts_with("angle_deg") {
-        Input::Manifest(path.to_path_buf())
-    } else {
-        Input::Recording(path.to_path_buf())
-    })
+    Ok(
+        if text.starts_with("angle_deg") || text.starts_with("theta_deg") {
+            Input::Manifest(path.to_path_buf())
+        } else {
+            Input::Recording(path.to_path_buf())
+        },
+    )
 }
 
 /// The one input the options name.
@@ -275,6 +287,7 @@ pub fn resolve(opts: &Options) -> anyhow::Result<Resolved> {
         ),
         None => None,
     };
+    let traces = cut_traces(opts, parameter)?;
     let spacing = if opts.resample || file.resample == Some(true) {
         Spacing::Resample
     } else {
@@ -302,7 +315,33 @@ pub fn resolve(opts: &Options) -> anyhow::Result<Resolved> {
             Some(n) => n,
             None => crate::threads::available(),
         },
+        traces,
     })
+}
+
+/// The traces of a scan of cuts: `--co` (else `--parameter`, else S21) and `--cross`, when
+/// either `--co` or `--cross` is given.
+fn cut_traces(opts: &Options, parameter: Option<Parameter>) -> anyhow::Result<Option<CutTraces>> {
+    if opts.co.is_none() && opts.cross.is_none() {
+        return Ok(None);
+    }
+    let parse = |flag: &str, t: &str| {
+        t.parse::<Parameter>()
+            .with_context(|| format!("{flag} `{}`", clipped(t)))
+    };
+    let co = match &opts.co {
+        Some(t) => parse("--co", t)?,
+        None => parameter.unwrap_or_else(|| Parameter::default_for(2)),
+    };
+    let cross = opts
+        .cross
+        .as_ref()
+        .map(|t| parse("--cross", t))
+        .transpose()?;
+    if cross == Some(co) {
+        bail!("--co and --cross both name {co}: give the cross-polar port's parameter");
+    }
+    Ok(Some(CutTraces { co, cross }))
 }
 
 /// A processed input, ready for the report.
@@ -488,8 +527,16 @@ fn gate_each(
     Ok((bins, g.impulse, g.spectra))
 }
 
-/// Processes the resolved input and writes the report folder.
+/// Processes the resolved input and writes the report folder. A scan of cuts (a manifest
+/// of both axes, or `--co`/`--cross`) has its own report: [`run_cuts`].
 pub fn process(r: &Resolved) -> anyhow::Result<Processed> {
+    if wants_cuts(r)? {
+        bail!(
+            "{}: a scan of cuts (`theta_deg,phi_deg,file`, or --co/--cross) is processed by \
+             pipeline::process::run_cuts",
+            r.input.path().display()
+        );
+    }
     let mut p = match &r.input {
         Input::Manifest(m) => process_manifest(r, m)?,
         Input::Recording(rec) => process_recording(r, rec)?,
@@ -573,6 +620,9 @@ fn gain_reference(
 /// engine) and says what was written.
 pub fn run(opts: &Options) -> anyhow::Result<()> {
     let r = resolve(opts)?;
+    if wants_cuts(&r)? {
+        return run_cuts(&r);
+    }
     let r2 = r.clone();
     let p = std::thread::Builder::new()
         .name("process".into())
@@ -604,5 +654,56 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
     if let Some(f) = &r.exports.arrays {
         eprintln!("array export written to {}", f.display());
     }
+    Ok(())
+}
+
+/// Whether `r` is a scan of cuts: a manifest of both axes, or co- and cross-polar traces
+/// asked for.
+pub fn wants_cuts(r: &Resolved) -> anyhow::Result<bool> {
+    let Input::Manifest(path) = &r.input else {
+        return Ok(false);
+    };
+    if r.traces.is_some() {
+        return Ok(true);
+    }
+    Ok(Manifest::read(path)?.has_axes())
+}
+
+/// Processes a scan of cuts ([`crate::pipeline::cuts`]) and writes its report folder
+/// ([`crate::pipeline::cuts_report`]); says what was written.
+pub fn run_cuts(r: &Resolved) -> anyhow::Result<()> {
+    let Input::Manifest(path) = &r.input else {
+        bail!(
+            "a scan of cuts is read from a manifest (`theta_deg,phi_deg,file` or `angle_deg,file`)"
+        );
+    };
+    if r.gain.is_some() || r.exports.any() {
+        bail!("gain by substitution and the full-band exports are not made for a scan of cuts yet; leave out --gain-table/--reference and --export-*");
+    }
+    let traces = r.traces.unwrap_or(CutTraces {
+        co: r.parameter.unwrap_or_else(|| Parameter::default_for(2)),
+        cross: None,
+    });
+    let job = cuts::CutJob {
+        choices: &r.choices,
+        spacing: r.spacing,
+        threads: r.threads,
+    };
+    let res = cuts::process_cuts(&job, path, traces)?;
+    cuts_report::write_cuts_report(&res, path, &r.out)
+        .with_context(|| format!("writing the report to {}", r.out.display()))?;
+    for w in &res.warnings {
+        eprintln!("warning: {w}");
+    }
+    let bins: usize = res.cuts.iter().map(|c| c.bins.len()).sum();
+    eprintln!(
+        "{} cuts, {bins} bins, traces {}; gate center {:.3} ns, span {:.3} ns ({}); report written to {}",
+        res.cuts.len(),
+        traces.parameters().iter().map(ToString::to_string).collect::<Vec<_>>().join(" and "),
+        res.gating.gate.center_s * 1e9,
+        res.gating.gate.span_s * 1e9,
+        res.gating.gate_source,
+        r.out.display()
+    );
     Ok(())
 }

@@ -1,0 +1,354 @@
+//! Offline processing of scans of several cuts and traces: a manifest of both axes
+//! (`theta_deg,phi_deg,file`, [`crate::formats::manifest`]) or of one, with a co-polar and
+//! optionally a cross-polar trace taken from each file (`--co S21 --cross S31` on 3-port
+//! files).
+//!
+//! # Axes
+//!
+//! θ is the angle along a cut (the first positioner axis: the turntable), φ the cut (the
+//! second axis: the roll or polarisation angle a cut is taken at), both as the manifest gives
+//! them; converting other positioner axes to (θ, φ), and the co- and cross-polar definitions
+//! the traces stand for, belong to the antenna coordinate model. Here the co-polar trace is
+//! the one named by `--co` and the cross-polar trace the one named by `--cross`: a
+//! dual-polarised probe's two ports, as measured.
+//!
+//! # What is done
+//!
+//! Each cut's files are binned along θ as a one-cut manifest is
+//! ([`crate::pipeline::manifest_bins`]: the cut's own θ step unless a bin width is given;
+//! files sharing a bin averaged and reported), the co- and cross-polar traces alike. One gate
+//! serves every cut and both traces, as the engine gates every trace of a bin with the same
+//! gate ([`sweepgate::cuts`]): the given one, else the gate chosen from the data of every
+//! cut's co-polar sweeps ([`crate::pipeline::setup`]). Each bin of each trace is gated on
+//! the FFT path.
+//!
+//! The results are the cuts ([`CutsResult::cuts`]) and the same values as one list of
+//! points on the sphere ([`CutsResult::sphere_points`], [`SpherePoint`]): the list the
+//! sphere analysis (directivity, cross-polar discrimination over the beam, 3D exports) takes.
+
+use std::path::Path;
+
+use anyhow::{bail, Context};
+use sweepgate::grid::Grid;
+use sweepgate::metrics::wrap_deg;
+use sweepgate::Complex32;
+
+use crate::formats::manifest::{AngleSweep, Manifest};
+use crate::formats::manifest_traces::{TraceSweep, TracesScan};
+use crate::formats::touchstone::{Parameter, Spacing};
+use crate::output::report::ImpulseView;
+use crate::pipeline::engine::gate_sweeps_on;
+use crate::pipeline::manifest_bins::{self, ManifestBins};
+use crate::pipeline::options::Choices;
+use crate::pipeline::setup::{self, Automatic, Gating};
+
+/// One point of a scan on the sphere at one pattern frequency: the gated co- and
+/// cross-polar values at (θ, φ). The sphere analysis takes a list of these.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SpherePoint {
+    /// θ, degrees (the angle along the cut).
+    pub theta_deg: f64,
+    /// φ, degrees (the cut).
+    pub phi_deg: f64,
+    /// The pattern frequency, Hz.
+    pub frequency_hz: f64,
+    /// Gated co-polar value.
+    pub co: Complex32,
+    /// Gated cross-polar value (zero when no cross-polar trace was given).
+    pub cross: Complex32,
+}
+
+/// The traces a cut scan takes from each file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct CutTraces {
+    /// The co-polar parameter.
+    pub co: Parameter,
+    /// The cross-polar parameter, if any.
+    pub cross: Option<Parameter>,
+}
+
+impl CutTraces {
+    /// The parameters in trace order: co-polar first.
+    pub fn parameters(&self) -> Vec<Parameter> {
+        std::iter::once(self.co).chain(self.cross).collect()
+    }
+}
+
+/// One trace of one bin: raw and gated values at the pattern frequencies, echo level.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TraceBin {
+    /// Averaged raw values at the pattern frequencies.
+    pub raw: Vec<Complex32>,
+    /// Gated values at the pattern frequencies.
+    pub gated: Vec<Complex32>,
+    /// Echo level (energy outside the gate), dB.
+    pub echo_db: f32,
+}
+
+/// One bin of one cut.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CutBin {
+    /// θ of the bin (the mean of its files' θ), degrees.
+    pub theta_deg: f64,
+    /// Files averaged.
+    pub files: usize,
+    /// The co-polar trace.
+    pub co: TraceBin,
+    /// The cross-polar trace, when given.
+    pub cross: Option<TraceBin>,
+}
+
+/// One cut: its φ and its bins in increasing θ.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CutPattern {
+    /// φ, degrees.
+    pub phi_deg: f64,
+    /// The cut's θ covers a full turn.
+    pub full_circle: bool,
+    /// The bin width used, degrees.
+    pub width_deg: f64,
+    /// The bins.
+    pub bins: Vec<CutBin>,
+}
+
+/// A processed scan of cuts.
+#[derive(Debug, Clone)]
+pub struct CutsResult {
+    /// The manifest's name.
+    pub name: String,
+    /// The traces taken.
+    pub traces: CutTraces,
+    /// The common grid.
+    pub grid: Grid,
+    /// The gate and pattern frequencies.
+    pub gating: Gating,
+    /// The cuts in increasing φ.
+    pub cuts: Vec<CutPattern>,
+    /// Files read.
+    pub files: usize,
+    /// The co-polar impulse response of the first cut's bin nearest θ = 0.
+    pub impulse: Option<ImpulseView>,
+    /// Warnings: resampled files, bins combining files, set-up remarks.
+    pub warnings: Vec<String>,
+}
+
+impl CutsResult {
+    /// Every bin of every cut at every pattern frequency, as points on the sphere.
+    pub fn sphere_points(&self) -> Vec<SpherePoint> {
+        let zero = Complex32::new(0.0, 0.0);
+        let mut out = Vec::new();
+        for c in &self.cuts {
+            for b in &c.bins {
+                for (i, &frequency_hz) in self.gating.frequencies_hz.iter().enumerate() {
+                    out.push(SpherePoint {
+                        theta_deg: b.theta_deg,
+                        phi_deg: c.phi_deg,
+                        frequency_hz,
+                        co: b.co.gated.get(i).copied().unwrap_or(zero),
+                        cross: b
+                            .cross
+                            .as_ref()
+                            .and_then(|x| x.gated.get(i).copied())
+                            .unwrap_or(zero),
+                    });
+                }
+            }
+        }
+        out
+    }
+}
+
+/// How a scan of cuts is processed: the user's choices (gate, frequencies, bin width),
+/// Touchstone spacing, threads.
+#[derive(Debug, Clone, Copy)]
+pub struct CutJob<'a> {
+    /// Gate and pattern choices.
+    pub choices: &'a Choices,
+    /// Uniform spacing required or resampling allowed.
+    pub spacing: Spacing,
+    /// Threads reading files and gating (at least 1).
+    pub threads: usize,
+}
+
+/// The manifest's files split into cuts by φ (increasing), each cut's files in manifest
+/// order.
+fn split_cuts(sweeps: &[TraceSweep]) -> Vec<(f64, Vec<&TraceSweep>)> {
+    let mut cuts: Vec<(f64, Vec<&TraceSweep>)> = Vec::new();
+    for s in sweeps {
+        match cuts.iter_mut().find(|(phi, _)| *phi == s.phi_deg) {
+            Some((_, v)) => v.push(s),
+            None => cuts.push((s.phi_deg, vec![s])),
+        }
+    }
+    cuts.sort_by(|a, b| a.0.total_cmp(&b.0));
+    cuts
+}
+
+/// Whether θ values cover a full turn (their span plus the smallest step).
+fn covers_full_circle(angles_deg: &[f64]) -> bool {
+    let mut sorted = angles_deg.to_vec();
+    sorted.sort_by(f64::total_cmp);
+    sorted.dedup();
+    let (Some(lo), Some(hi)) = (sorted.first(), sorted.last()) else {
+        return false;
+    };
+    let step = sorted
+        .windows(2)
+        .map(|w| w[1] - w[0])
+        .fold(f64::INFINITY, f64::min);
+    sorted.len() > 1 && hi - lo + step >= 360.0 - 1e-6
+}
+
+/// One cut's trace `t` binned along θ.
+fn bin_trace(
+    files: &[&TraceSweep],
+    t: usize,
+    width_deg: Option<f64>,
+    full_circle: bool,
+) -> anyhow::Result<ManifestBins> {
+    let sweeps: Vec<AngleSweep> = files
+        .iter()
+        .map(|s| AngleSweep {
+            angle_deg: s.theta_deg,
+            values: s.traces.get(t).cloned().unwrap_or_default(),
+            file: s.file.clone(),
+        })
+        .collect();
+    manifest_bins::bin_sweeps(&sweeps, width_deg, full_circle)
+}
+
+/// A cut binned: φ, full circle, and per trace its bins.
+struct BinnedCut {
+    phi_deg: f64,
+    full_circle: bool,
+    traces: Vec<ManifestBins>,
+}
+
+fn bin_cuts(scan: &TracesScan, width_deg: Option<f64>) -> anyhow::Result<Vec<BinnedCut>> {
+    let mut out = Vec::new();
+    for (phi_deg, files) in split_cuts(&scan.sweeps) {
+        let thetas: Vec<f64> = files.iter().map(|s| s.theta_deg).collect();
+        let full_circle = covers_full_circle(&thetas);
+        let traces = (0..scan.parameters.len())
+            .map(|t| bin_trace(&files, t, width_deg, full_circle))
+            .collect::<anyhow::Result<Vec<_>>>()
+            .with_context(|| format!("binning the θ angles of the cut at φ {phi_deg}°"))?;
+        out.push(BinnedCut {
+            phi_deg,
+            full_circle,
+            traces,
+        });
+    }
+    Ok(out)
+}
+
+/// The gate: as chosen, else from the data of every cut's co-polar bins.
+fn gate_for(job: &CutJob, grid: Grid, cuts: &[BinnedCut]) -> anyhow::Result<Gating> {
+    let co: Vec<&AngleSweep> = cuts.iter().flat_map(|c| &c.traces[0].sweeps).collect();
+    let sweeps: Vec<&[Complex32]> = co.iter().map(|s| &s.values[..]).collect();
+    let angles: Vec<f64> = co.iter().map(|s| s.angle_deg).collect();
+    let auto = Automatic::Data {
+        sweeps: &sweeps,
+        angles_deg: Some(&angles),
+    };
+    let bw = setup::band_window(job.choices, None)?;
+    setup::gating(grid, job.choices, bw, &[], auto)
+}
+
+/// Gates trace `t` of every cut's bins in one batch; per cut, its bins' traces.
+fn gate_trace(
+    job: &CutJob,
+    g: &Gating,
+    cuts: &[BinnedCut],
+    t: usize,
+    impulse: bool,
+) -> anyhow::Result<(Vec<Vec<TraceBin>>, Option<ImpulseView>)> {
+    let all: Vec<&AngleSweep> = cuts.iter().flat_map(|c| &c.traces[t].sweeps).collect();
+    let values: Vec<&[Complex32]> = all.iter().map(|s| &s.values[..]).collect();
+    // The first cut's bin nearest θ = 0 (the first cut's bins come first).
+    let first_len = cuts.first().map_or(0, |c| c.traces[t].sweeps.len());
+    let near = all[..first_len]
+        .iter()
+        .enumerate()
+        .min_by(|a, b| {
+            wrap_deg(a.1.angle_deg)
+                .abs()
+                .total_cmp(&wrap_deg(b.1.angle_deg).abs())
+        })
+        .map(|(i, s)| (i, s.angle_deg))
+        .filter(|_| impulse);
+    let gated = gate_sweeps_on(&g.gate, &values, near, job.threads)?;
+    let at = |v: &[Complex32], i: usize| v.get(i).copied().unwrap_or_default();
+    let mut bins = all
+        .iter()
+        .zip(gated.spectra.iter().zip(&gated.echo_db))
+        .map(|(s, (spec, &echo_db))| TraceBin {
+            raw: g.indices.iter().map(|&i| at(&s.values, i)).collect(),
+            gated: g.indices.iter().map(|&i| at(spec, i)).collect(),
+            echo_db,
+        });
+    let per_cut = cuts
+        .iter()
+        .map(|c| bins.by_ref().take(c.traces[t].sweeps.len()).collect())
+        .collect();
+    Ok((per_cut, gated.impulse))
+}
+
+/// Processes a manifest of cuts: reads both traces of every file, bins each cut along θ,
+/// gates every bin of both traces with one gate.
+pub fn process_cuts(job: &CutJob, path: &Path, traces: CutTraces) -> anyhow::Result<CutsResult> {
+    let m = Manifest::read(path)?;
+    let scan = m.load_traces_on(&traces.parameters(), job.spacing, job.threads)?;
+    if scan.sweeps.is_empty() {
+        bail!("{}: no sweeps", path.display());
+    }
+    let binned = bin_cuts(&scan, job.choices.bin_width_deg)
+        .with_context(|| format!("{}: binning", path.display()))?;
+    let gating = gate_for(job, scan.grid, &binned)?;
+    let (co, impulse) = gate_trace(job, &gating, &binned, 0, true)?;
+    let cross = match traces.cross {
+        Some(_) => Some(gate_trace(job, &gating, &binned, 1, false)?.0),
+        None => None,
+    };
+    let mut warnings = scan.warnings.clone();
+    let mut cuts = Vec::with_capacity(binned.len());
+    for (ci, (c, co_bins)) in binned.iter().zip(co).enumerate() {
+        let first = &c.traces[0];
+        warnings.extend(
+            first
+                .combined
+                .iter()
+                .map(|w| format!("φ {}°: {w}", c.phi_deg)),
+        );
+        let mut cross_bins = cross.as_ref().map(|x| x[ci].clone().into_iter());
+        let bins = first
+            .sweeps
+            .iter()
+            .zip(&first.counts)
+            .zip(co_bins)
+            .map(|((s, &files), co)| CutBin {
+                theta_deg: s.angle_deg,
+                files,
+                co,
+                cross: cross_bins.as_mut().and_then(|it| it.next()),
+            })
+            .collect();
+        cuts.push(CutPattern {
+            phi_deg: c.phi_deg,
+            full_circle: c.full_circle,
+            width_deg: first.width_deg,
+            bins,
+        });
+    }
+    warnings.extend(gating.remarks.iter().cloned());
+    Ok(CutsResult {
+        name: m.name().to_string(),
+        traces,
+        grid: scan.grid,
+        gating,
+        cuts,
+        files: scan.sweeps.len(),
+        impulse,
+        warnings,
+    })
+}

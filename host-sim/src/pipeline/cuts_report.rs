@@ -1,0 +1,279 @@
+//! The report folder of a scan of cuts ([`crate::pipeline::cuts`]).
+//!
+//! # Files
+//!
+//! - `pattern.csv`: a header row, then one row per cut, bin and pattern frequency, cuts in
+//!   increasing φ and bins in increasing θ. The first nine columns are those of a one-cut
+//!   report ([`crate::output::report`]) for the co-polar trace (`angle_deg` is θ, `sweeps`
+//!   the files averaged, `flags` empty), then `theta_deg`, `phi_deg`, `co_gated_db`,
+//!   `co_raw_db`, `cross_gated_db`, `cross_raw_db`, `cross_gated_phase_deg`,
+//!   `cross_raw_phase_deg`, `cross_echo_db` and `xpd_db` (co-polar minus cross-polar gated
+//!   level, dB). Levels are 20·log10|value|, not normalized. Without a cross-polar trace
+//!   its columns are empty.
+//! - `summary.json`: title, source, settings, counters, warnings, the traces, and per cut
+//!   and pattern frequency the co-polar peak (level and θ), the cross-polar peak and its
+//!   level relative to the co-polar peak, and the cross-polar discrimination on axis (at
+//!   the bin nearest θ = 0°, named with its θ) and at the co-polar peak; the folder of each
+//!   cut's own report; the number of points on the sphere.
+//! - `cut-phi<φ>/`: per cut, the one-cut report of its co-polar trace (pattern table,
+//!   summary with the pattern figures, plots; the first cut's with the impulse response).
+//!
+//! All files are made in memory and written as one set ([`write_set`]).
+
+use std::fmt::Write as _;
+use std::path::{Path, PathBuf};
+
+use anyhow::Context;
+use serde_json::{json, Value};
+use sweepgate::metrics::wrap_deg;
+use sweepgate::Complex32;
+
+use crate::formats::files::{check_output_dir, write_set, FileError};
+use crate::output::report::{report_files, ReportBin, ReportInput, ReportValue};
+use crate::pipeline::cuts::{CutPattern, CutsResult, TraceBin};
+use crate::pipeline::summary::Settings;
+use crate::pipeline::transform::c64;
+use crate::units::db;
+
+/// The folder name of cut `phi_deg`'s own report.
+pub fn cut_folder(phi_deg: f64) -> String {
+    format!("cut-phi{phi_deg}")
+}
+
+fn level(t: Option<&TraceBin>, fi: usize, gated: bool) -> Option<f64> {
+    let t = t?;
+    let v = if gated { &t.gated } else { &t.raw };
+    v.get(fi).map(|z| db(c64(*z)))
+}
+
+fn phase(t: Option<&TraceBin>, fi: usize, gated: bool) -> Option<f64> {
+    let t = t?;
+    let v = if gated { &t.gated } else { &t.raw };
+    v.get(fi).map(|z| f64::from(z.arg()).to_degrees())
+}
+
+fn opt(v: Option<f64>, decimals: usize) -> String {
+    v.map_or(String::new(), |x| format!("{x:.decimals$}"))
+}
+
+/// The table as text (columns in the module docs).
+pub fn pattern_csv(res: &CutsResult) -> String {
+    let mut s = String::from(
+        "angle_deg,frequency_hz,raw_db,gated_db,gated_phase_deg,raw_phase_deg,echo_db,sweeps,flags,\
+         theta_deg,phi_deg,co_gated_db,co_raw_db,cross_gated_db,cross_raw_db,\
+         cross_gated_phase_deg,cross_raw_phase_deg,cross_echo_db,xpd_db\n",
+    );
+    for c in &res.cuts {
+        for b in &c.bins {
+            for (fi, f) in res.gating.frequencies_hz.iter().enumerate() {
+                let co = Some(&b.co);
+                let x = b.cross.as_ref();
+                let (co_g, x_g) = (level(co, fi, true), level(x, fi, true));
+                let _ = writeln!(
+                    s,
+                    "{:.3},{:.0},{},{},{},{},{:.2},{},,{:.3},{:.3},{},{},{},{},{},{},{},{}",
+                    b.theta_deg,
+                    f,
+                    opt(level(co, fi, false), 6),
+                    opt(co_g, 6),
+                    opt(phase(co, fi, true), 5),
+                    opt(phase(co, fi, false), 5),
+                    b.co.echo_db,
+                    b.files,
+                    b.theta_deg,
+                    c.phi_deg,
+                    opt(co_g, 6),
+                    opt(level(co, fi, false), 6),
+                    opt(x_g, 6),
+                    opt(level(x, fi, false), 6),
+                    opt(phase(x, fi, true), 5),
+                    opt(phase(x, fi, false), 5),
+                    opt(x.map(|t| f64::from(t.echo_db)), 2),
+                    opt(co_g.zip(x_g).map(|(a, b)| a - b), 6),
+                );
+            }
+        }
+    }
+    s
+}
+
+/// Per pattern frequency of one cut: peaks and cross-polar discrimination.
+fn cut_figures(c: &CutPattern, fi: usize, frequency_hz: f64) -> Value {
+    let co: Vec<f64> = c
+        .bins
+        .iter()
+        .map(|b| level(Some(&b.co), fi, true).unwrap_or(f64::NAN))
+        .collect();
+    let cross: Vec<Option<f64>> = c
+        .bins
+        .iter()
+        .map(|b| level(b.cross.as_ref(), fi, true))
+        .collect();
+    let argmax = |v: &[f64]| {
+        v.iter()
+            .enumerate()
+            .max_by(|a, b| a.1.total_cmp(b.1))
+            .map(|(i, _)| i)
+    };
+    let Some(peak) = argmax(&co) else {
+        return Value::Null;
+    };
+    let on_axis = c
+        .bins
+        .iter()
+        .enumerate()
+        .min_by(|a, b| {
+            wrap_deg(a.1.theta_deg)
+                .abs()
+                .total_cmp(&wrap_deg(b.1.theta_deg).abs())
+        })
+        .map_or(peak, |(i, _)| i);
+    let xpd = |i: usize| cross[i].map(|x| co[i] - x);
+    let cross_levels: Vec<f64> = cross.iter().map(|x| x.unwrap_or(f64::NAN)).collect();
+    let cross_peak = cross
+        .iter()
+        .all(Option::is_some)
+        .then(|| argmax(&cross_levels))
+        .flatten();
+    json!({
+        "frequency_hz": frequency_hz,
+        "co_peak_db": co[peak],
+        "co_peak_theta_deg": c.bins[peak].theta_deg,
+        "cross_peak_db": cross_peak.map(|i| cross_levels[i]),
+        "cross_peak_theta_deg": cross_peak.map(|i| c.bins[i].theta_deg),
+        "cross_peak_relative_to_co_peak_db": cross_peak.map(|i| cross_levels[i] - co[peak]),
+        "on_axis_theta_deg": c.bins[on_axis].theta_deg,
+        "xpd_on_axis_db": xpd(on_axis),
+        "xpd_at_co_peak_db": xpd(peak),
+    })
+}
+
+/// The summary as JSON.
+pub fn summary_json(res: &CutsResult, source: &Path, settings: Value) -> Value {
+    let cuts: Vec<Value> = res
+        .cuts
+        .iter()
+        .map(|c| {
+            let per_frequency: Vec<Value> = res
+                .gating
+                .frequencies_hz
+                .iter()
+                .enumerate()
+                .map(|(fi, f)| cut_figures(c, fi, *f))
+                .collect();
+            json!({
+                "phi_deg": c.phi_deg,
+                "bins": c.bins.len(),
+                "full_circle": c.full_circle,
+                "bin_width_deg": c.width_deg,
+                "report": cut_folder(c.phi_deg),
+                "per_frequency": per_frequency,
+            })
+        })
+        .collect();
+    let bins: usize = res.cuts.iter().map(|c| c.bins.len()).sum();
+    json!({
+        "title": format!("manifest {}", res.name),
+        "source": source.display().to_string(),
+        "settings": settings,
+        "counters": {"files": res.files, "cuts": res.cuts.len(), "bins": bins},
+        "warnings": res.warnings,
+        "traces": {
+            "co": res.traces.co.to_string(),
+            "cross": res.traces.cross.map(|p| p.to_string()),
+        },
+        "cuts": cuts,
+        "sphere_points": res.sphere_points().len(),
+        "caution": "A transmitting antenna can exceed RF exposure limits near its aperture and a positioner is moving machinery: follow local regulations and the lab's licensed practice.",
+    })
+}
+
+/// The settings: the one-cut report's, with the traces and the cuts.
+pub fn settings_json(res: &CutsResult) -> Value {
+    let bins: usize = res.cuts.iter().map(|c| c.bins.len()).sum();
+    let full = res.cuts.iter().all(|c| c.full_circle);
+    let mut s = Settings::for_sweeps(&res.gating, bins, full);
+    s.bins.width_deg = res.cuts.first().map(|c| c.width_deg as f32);
+    s.parameter = Some(match res.traces.cross {
+        Some(x) => format!("co-polar {}, cross-polar {x}", res.traces.co),
+        None => format!("co-polar {}", res.traces.co),
+    });
+    let mut v = s.to_json();
+    if let Some(o) = v.as_object_mut() {
+        let phi: Vec<f64> = res.cuts.iter().map(|c| c.phi_deg).collect();
+        o.insert("cuts_phi_deg".into(), json!(phi));
+    }
+    v
+}
+
+/// Cut `c`'s co-polar trace as a one-cut report input.
+pub fn cut_report_input(res: &CutsResult, c: &CutPattern, settings: &Value) -> ReportInput {
+    let z = |v: &[Complex32], i: usize| c64(v.get(i).copied().unwrap_or_default());
+    let bins = c
+        .bins
+        .iter()
+        .map(|b| ReportBin {
+            angle_deg: b.theta_deg,
+            mean_deg: b.theta_deg,
+            sweeps: b.files as u32,
+            flags: 0,
+            echo_db: Some(f64::from(b.co.echo_db)),
+            values: (0..res.gating.frequencies_hz.len())
+                .map(|i| ReportValue {
+                    raw: z(&b.co.raw, i),
+                    gated: z(&b.co.gated, i),
+                    truth: None,
+                    angle_offset_deg: 0.0,
+                })
+                .collect(),
+        })
+        .collect();
+    let first = res.cuts.first().map(|f| f.phi_deg) == Some(c.phi_deg);
+    ReportInput {
+        title: format!(
+            "manifest {}, φ {}°, co-polar {}",
+            res.name, c.phi_deg, res.traces.co
+        ),
+        source: res.name.clone(),
+        frequencies_hz: res.gating.frequencies_hz.clone(),
+        full_circle: c.full_circle,
+        bins,
+        settings: settings.clone(),
+        counters: json!({"bins": c.bins.len()}),
+        warnings: Vec::new(),
+        impulse: if first { res.impulse.clone() } else { None },
+        gain: None,
+    }
+}
+
+/// Writes the report folder of a scan of cuts as one set; returns the files written.
+pub fn write_cuts_report(
+    res: &CutsResult,
+    source: &Path,
+    dir: &Path,
+) -> anyhow::Result<Vec<PathBuf>> {
+    let settings = settings_json(res);
+    let summary = serde_json::to_string_pretty(&summary_json(res, source, settings.clone()))
+        .context("making summary.json")?;
+    let mut set: Vec<(PathBuf, Vec<u8>)> = vec![
+        (dir.join("pattern.csv"), pattern_csv(res).into_bytes()),
+        (dir.join("summary.json"), (summary + "\n").into_bytes()),
+    ];
+    check_output_dir(dir)?;
+    for c in &res.cuts {
+        let sub = dir.join(cut_folder(c.phi_deg));
+        std::fs::create_dir_all(&sub).map_err(|source| FileError::Io {
+            action: "making the folder",
+            path: sub.clone(),
+            source,
+        })?;
+        let files = report_files(&cut_report_input(res, c, &settings))?;
+        set.extend(
+            files
+                .into_iter()
+                .map(|(name, bytes)| (sub.join(name), bytes)),
+        );
+    }
+    write_set(&set)?;
+    Ok(set.into_iter().map(|(p, _)| p).collect())
+}
