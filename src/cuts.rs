@@ -140,6 +140,16 @@ impl CutLayout {
         self.count
     }
 
+    /// Step between cuts, degrees.
+    pub fn step_deg(&self) -> f32 {
+        self.step_deg
+    }
+
+    /// How far from a cut's value a second-axis angle may be, degrees.
+    pub fn tolerance_deg(&self) -> f32 {
+        self.tolerance_deg
+    }
+
     /// The second-axis value of cut `index`.
     pub fn value_deg(&self, index: u16) -> f32 {
         self.start_deg + f32::from(index) * self.step_deg

@@ -9,6 +9,7 @@
 
 pub mod autogate;
 pub mod bins;
+pub mod cut_pump;
 pub mod cuts;
 pub mod error;
 pub mod fft;

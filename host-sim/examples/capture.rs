@@ -3,7 +3,15 @@
 //! ```text
 //! cargo run --release -p sweepgate-host --example capture -- make REC CAPTURE [--echo never|every] [--gate-span-ns NS]
 //! cargo run --release -p sweepgate-host --example capture -- compare CAPTURE PREVIEW [--expect-echo-in-gate]
+//! cargo run --release -p sweepgate-host --example capture -- make-cuts CAPTURE [--echo never|every]
+//! cargo run --release -p sweepgate-host --example capture -- compare-cuts CAPTURE PREVIEW
 //! ```
+//!
+//! `make-cuts` writes a capture of cuts (two traces per sweep, two cuts of a second axis; see
+//! `sweepgate_host::pipeline::cut_capture`) and `compare-cuts` replays it through the core's
+//! board loop of cuts (`sweepgate::cut_pump`, as the firmware does) and compares the cut-bin
+//! records with PREVIEW: the same cuts, bins, sweeps and flags, values within 1e-5 of their
+//! trace's largest.
 //!
 //! `make` turns a recording into the byte stream a board receives, with the set-up `replay` and
 //! `process` use for the recording (gate, pattern frequencies, bins); `--gate-span-ns` sets the
@@ -17,9 +25,9 @@
 use anyhow::{bail, Context};
 use sweepgate::scan::EchoMode;
 use sweepgate_host::formats::recording::recover_file;
-use sweepgate_host::pipeline::capture;
 use sweepgate_host::pipeline::options::{Choices, Origin};
 use sweepgate_host::pipeline::setup;
+use sweepgate_host::pipeline::{capture, cut_capture};
 
 fn main() {
     if let Err(e) = run() {
@@ -88,7 +96,19 @@ fn run() -> anyhow::Result<()> {
             }
             Ok(())
         }
-        _ => bail!("usage: capture make REC CAPTURE [--echo never|every] [--gate-span-ns NS] | capture compare CAPTURE PREVIEW [--expect-echo-in-gate]"),
+        ["make-cuts", out, rest @ ..] => {
+            let echo = match rest {
+                [] | ["--echo", "every"] => EchoMode::EveryBin,
+                ["--echo", "never"] => EchoMode::Never,
+                other => bail!("unknown options {other:?}"),
+            };
+            let bytes = cut_capture::model_capture(echo)?;
+            std::fs::write(out, &bytes).with_context(|| format!("writing {out}"))?;
+            println!("capture of cuts: {} bytes to {out}", bytes.len());
+            Ok(())
+        }
+        ["compare-cuts", cap, preview] => compare_cuts(cap, preview),
+        _ => bail!("usage: capture make REC CAPTURE [--echo never|every] [--gate-span-ns NS] | capture compare CAPTURE PREVIEW [--expect-echo-in-gate] | capture make-cuts CAPTURE [--echo never|every] | capture compare-cuts CAPTURE PREVIEW"),
     }
 }
 
@@ -115,4 +135,35 @@ fn make_options(mut rest: &[&str]) -> anyhow::Result<(EchoMode, Choices)> {
         bail!("unknown options {rest:?}");
     }
     Ok((echo, choices))
+}
+
+/// `compare-cuts`: the host's replay of a capture of cuts against the board's preview.
+fn compare_cuts(cap: &str, preview: &str) -> anyhow::Result<()> {
+    let bytes = std::fs::read(cap).with_context(|| format!("reading {cap}"))?;
+    let host = cut_capture::replay(&bytes).with_context(|| cap.to_string())?;
+    let board = std::fs::read(preview).with_context(|| format!("reading {preview}"))?;
+    let c = cut_capture::compare(&board, &host.preview, 1e-5);
+    println!(
+        "host: {} traces decoded, {} sweeps binned, {} cuts started, {} bins closed",
+        host.pump.traces_decoded,
+        host.counters.sweeps_binned(),
+        host.counters.cuts_started,
+        host.counters.scan.bins_closed
+    );
+    println!(
+        "board: {} cut-bin records, host: {}; cuts {:?}; worst relative difference {:.2e}",
+        c.records.0, c.records.1, c.cuts, c.worst_relative
+    );
+    for p in &c.problems {
+        println!("  mismatch: {p}");
+    }
+    let failed = c.records.0.max(c.records.1) - c.matched;
+    println!(
+        "firmware compare (cuts): {} passed, {} failed",
+        c.matched, failed
+    );
+    if failed > 0 || c.matched == 0 || c.cuts.len() < 2 {
+        bail!("the board's cut-bin records differ from the host's");
+    }
+    Ok(())
 }

@@ -206,6 +206,15 @@ pub enum CaptureError {
     UnknownEntry(u8),
     /// The echo mode code is not known.
     UnknownEchoMode(u8),
+    /// A capture of cuts names an invalid cut layout.
+    Cuts(crate::error::CutConfigError),
+    /// A capture of cuts carries another number of traces per sweep than the board loop.
+    TraceCount {
+        /// Traces per sweep in the capture.
+        capture: u8,
+        /// Traces per sweep of the board loop.
+        board: u8,
+    },
 }
 
 impl fmt::Display for CaptureError {
@@ -224,6 +233,11 @@ impl fmt::Display for CaptureError {
             Self::PatternIndex => f.write_str("pattern frequency index beyond the grid"),
             Self::UnknownEntry(c) => write!(f, "unknown capture entry kind {c}"),
             Self::UnknownEchoMode(c) => write!(f, "unknown echo mode {c}"),
+            Self::Cuts(e) => write!(f, "capture cuts: {e}"),
+            Self::TraceCount { capture, board } => write!(
+                f,
+                "capture has {capture} traces per sweep, the board loop takes {board}"
+            ),
         }
     }
 }

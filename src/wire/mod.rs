@@ -4,5 +4,6 @@
 pub mod ascii;
 pub mod block;
 pub mod capture;
+pub mod cut_capture;
 pub mod cut_record;
 pub mod preview;

@@ -18,6 +18,12 @@
 //! Every measured transform is also checked on the target (kernel path against FFT path); any
 //! mismatch or error exits with status 1.
 //!
+//! With the gate figures (the default image), a capture of cuts (`cuts.bin`, made by
+//! `capture make-cuts`: two traces per sweep, two cuts of a second axis) is then replayed,
+//! when present, through the core's board loop of cuts `sweepgate::cut_pump::CutPump<256, 8,
+//! 64, 64, 1>` (in a `static` too) into `cuts-preview.bin`, which `capture compare-cuts`
+//! compares with the host's replay.
+//!
 //! Only integers are printed: core float formatting would add ~12 KB of flash.
 #![no_std]
 #![no_main]
@@ -417,6 +423,44 @@ fn capture_case(c: &Counter) -> Result<(), Failure> {
         "board loop: add a sweep and close a bin, M=1024 F=8: kernel path {} | FFT path with echo level {}",
         per(kernel.close_instr, kernel.closes),
         per(fft.close_instr, fft.closes)
+    );
+    Ok(())
+}
+
+/// The board loop of cuts: two traces, M = 256, 8 pattern frequencies, 64 bins.
+#[cfg(feature = "gate-figures")]
+type BoardCutPump = sweepgate::cut_pump::CutPump<256, 8, 64, 64, 1>;
+
+/// Replays `cuts.bin`, when present, through the board loop of cuts into `cuts-preview.bin`.
+#[cfg(feature = "gate-figures")]
+fn cuts_case(c: &Counter) -> Result<(), Failure> {
+    let Some(mut r) = HostReader::open(b"cuts.bin\0") else {
+        hprintln!("capture of cuts: cuts.bin not in QEMU's working directory, not replayed");
+        return Ok(());
+    };
+    let pump: &'static mut BoardCutPump =
+        cortex_m::singleton!(: BoardCutPump = BoardCutPump::unconfigured())
+            .ok_or(Failure::Taken)?;
+    let out = host::open(b"cuts-preview.bin\0", host::WRITE).ok_or(Failure::NoCapture)?;
+    let mut w = HostWriter { fd: Some(out) };
+    let mut result = Ok(());
+    let n = c.measure(|| result = pump.replay(&mut r, &mut w));
+    host::close(out);
+    result?;
+    let k = pump.scan().counters();
+    hprintln!(
+        "capture of cuts: {} traces decoded, {} sweeps binned, {} rejected, {} cuts, {} bins closed, {} preview frames, {} instructions in all",
+        pump.counters().traces_decoded,
+        k.sweeps_binned(),
+        k.sweeps_rejected(),
+        k.cuts_started,
+        k.scan.bins_closed,
+        pump.counters().frames_sent,
+        n
+    );
+    hprintln!(
+        "memory: CutPump<256, 8, 64, 64, 1> {} bytes in static RAM",
+        core::mem::size_of::<BoardCutPump>()
     );
     Ok(())
 }
@@ -847,6 +891,8 @@ fn run(c: &Counter) -> Result<(), Failure> {
         stack::paint();
     }
     capture_case(c)?;
+    #[cfg(feature = "gate-figures")]
+    cuts_case(c)?;
     hprintln!(
         "memory: peak stack of the board loop {} bytes (Pump<1024, 8, 361> {} bytes and its engine Scan<1024, 8, 361> {} bytes in static RAM)",
         stack::peak(),

@@ -3,6 +3,7 @@
 //! gating of saved sweeps, truth, simulation runs, the demo and link captures.
 
 pub mod capture;
+pub mod cut_capture;
 pub mod cuts;
 pub mod cuts_report;
 pub mod data_gate;
