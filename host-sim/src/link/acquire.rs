@@ -106,11 +106,14 @@
 //! `--positioner HOST:PORT` connects to a TCP server sending one sample per line, in ASCII:
 //!
 //! ```text
-//! <t_us> <angle_deg>\n
+//! <t_us> <angle_deg> [<axis2_deg> …]\n
 //! ```
 //!
 //! `t_us`: an unsigned integer, microseconds on the positioner's own clock (any origin,
-//! increasing); `angle_deg`: a decimal number, degrees. The fields are separated by
+//! increasing); `angle_deg`: a decimal number, degrees. A positioner of several axes (a
+//! second axis that steps between cuts: elevation, roll, the polarisation angle) adds up to
+//! three further angles; they are recorded beside the position record as a kind 8 record
+//! ([`crate::formats::traces`]), the first axis as before. The fields are separated by
 //! spaces or tabs; a `\r` before the newline is ignored; empty lines and lines starting
 //! with `#` are skipped; other lines are counted as malformed and reported, as are lines
 //! that are not UTF-8 and lines longer than
@@ -1046,6 +1049,22 @@ impl Recorder {
         Ok(())
     }
 
+    /// A sample's further axes (a positioner of several axes), as a kind 8 record beside its
+    /// position record ([`crate::formats::traces`]); nothing for a one-axis sample.
+    fn further_axes(&mut self, t_us: u64, angles_deg: &[f64]) -> anyhow::Result<()> {
+        if angles_deg.is_empty() {
+            return Ok(());
+        }
+        let rec = crate::formats::traces::TracesRecord::Axes {
+            t_us,
+            angles_deg: angles_deg.to_vec(),
+        };
+        self.w
+            .write(&rec.to_record())
+            .with_context(|| format!("writing {}", self.path.display()))?;
+        Ok(())
+    }
+
     fn sweep(&mut self, start_us: u64, end_us: u64, s21: &[Complex32]) -> anyhow::Result<()> {
         self.w
             .write(&Record::Sweep {
@@ -1124,6 +1143,7 @@ impl Recorder {
             PosMsg::Sample(s) => {
                 let counts = (s.angle_deg / 360.0 * counts_per_turn).round() as i64;
                 self.position(s.t_us, counts, s.angle_deg)?;
+                self.further_axes(s.t_us, s.further_axes())?;
                 return Ok(false);
             }
             PosMsg::Ended(None) => return Ok(true),

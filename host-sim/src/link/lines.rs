@@ -1,4 +1,6 @@
-//! The positioner's sample lines (`<t_us> <angle_deg>`, see [`crate::link::acquire`]) read
+//! The positioner's sample lines (`<t_us> <angle_deg> [<axis2_deg> …]`, see
+//! [`crate::link::acquire`]; up to [`MAX_FURTHER_AXES`] further axes of a positioner of
+//! several axes, e.g. elevation or roll, each a finite angle) read
 //! on their own thread with every input bounded: a line is at most
 //! [`MAX_POSITIONER_LINE_BYTES`] (a longer one is read to its newline in chunks, thrown
 //! away and counted), a line that is not UTF-8 is counted, never taken for the end of the
@@ -37,6 +39,58 @@ pub struct AngleSample {
     pub t_us: u64,
     /// Angle, degrees.
     pub angle_deg: f64,
+    /// The further axes' angles, degrees (the first `further` are given).
+    pub further_deg: [f64; MAX_FURTHER_AXES],
+    /// How many further axes the line gave.
+    pub further: u8,
+}
+
+impl AngleSample {
+    /// The further axes the line gave, degrees.
+    pub fn further_axes(&self) -> &[f64] {
+        &self.further_deg[..usize::from(self.further).min(MAX_FURTHER_AXES)]
+    }
+}
+
+/// Most further axes a positioner line may give after the first.
+pub const MAX_FURTHER_AXES: usize = 3;
+
+/// Parses one line of the positioner protocol with optional further axes,
+/// `<t_us> <angle_deg> [<axis2_deg> …]`: `Ok(None)` for blank and comment lines, else the
+/// time, the first axis and the further ones (at most [`MAX_FURTHER_AXES`]).
+pub fn parse_axes_line(line: &str) -> Result<Option<(u64, f64, Vec<f64>)>, String> {
+    let line = line.trim_end_matches('\r').trim();
+    if line.is_empty() || line.starts_with('#') {
+        return Ok(None);
+    }
+    let mut it = line.split_whitespace();
+    let (Some(t), Some(a)) = (it.next(), it.next()) else {
+        return Err(format!(
+            "expected `<t_us> <angle_deg> [<axis2_deg> …]`, got {line:?}"
+        ));
+    };
+    let t: u64 = t.parse().map_err(|_| format!("bad t_us in {line:?}"))?;
+    let angle = |a: &str, what: &str| -> Result<f64, String> {
+        let v: f64 = a.parse().map_err(|_| format!("bad {what} in {line:?}"))?;
+        if v.is_finite() {
+            Ok(v)
+        } else {
+            Err(format!("{what} not finite in {line:?}"))
+        }
+    };
+    let first = angle(a, "angle_deg")?;
+    let further = it
+        .enumerate()
+        .map(|(i, a)| angle(a, &format!("axis{}_deg", i + 2)))
+        .collect::<Result<Vec<f64>, String>>()?;
+    if further.len() > MAX_FURTHER_AXES {
+        return Err(format!(
+            "{} axes in {line:?}; at most {}",
+            further.len() + 1,
+            MAX_FURTHER_AXES + 1
+        ));
+    }
+    Ok(Some((t, first, further)))
 }
 
 /// Parses one line of the positioner protocol: `Ok(None)` for blank and comment lines.
@@ -156,17 +210,26 @@ fn read_lines(
             Ok(LineRead::TooLong) => PosMsg::TooLong,
             Ok(LineRead::Line) => {
                 let arrival_us = epoch.elapsed().as_micros() as f64;
-                match std::str::from_utf8(&line).map(parse_angle_line) {
+                match std::str::from_utf8(&line).map(parse_axes_line) {
                     Err(_) => PosMsg::BadBytes,
                     Ok(Ok(None)) => continue,
                     Ok(Err(e)) => PosMsg::Malformed(e),
-                    Ok(Ok(Some((t, a)))) => {
+                    Ok(Ok(Some((t, a, more)))) => {
                         let Ok(mut fit) = clock.lock() else { return };
                         fit.add(t as f64, arrival_us);
                         // Never back in time when the fit moves.
                         let t_us = (fit.to_host_us(t as f64).max(0.0) as u64).max(last_t_us);
                         last_t_us = t_us;
-                        PosMsg::Sample(AngleSample { t_us, angle_deg: a })
+                        let mut further_deg = [0.0; MAX_FURTHER_AXES];
+                        for (d, v) in further_deg.iter_mut().zip(&more) {
+                            *d = *v;
+                        }
+                        PosMsg::Sample(AngleSample {
+                            t_us,
+                            angle_deg: a,
+                            further_deg,
+                            further: more.len() as u8,
+                        })
                     }
                 }
             }
@@ -186,6 +249,27 @@ fn read_lines(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn lines_of_several_axes() {
+        assert_eq!(parse_axes_line("12 -3.5"), Ok(Some((12, -3.5, vec![]))));
+        assert_eq!(
+            parse_axes_line("12 3 45.5\r"),
+            Ok(Some((12, 3.0, vec![45.5])))
+        );
+        assert_eq!(
+            parse_axes_line("1 2 3 4 5"),
+            Ok(Some((1, 2.0, vec![3.0, 4.0, 5.0])))
+        );
+        assert_eq!(parse_axes_line("# c"), Ok(None));
+        let e = parse_axes_line("1 2 3 4 5 6").unwrap_err();
+        assert!(e.contains("5 axes") && e.contains("at most 4"), "{e}");
+        let e = parse_axes_line("1 2 x").unwrap_err();
+        assert!(e.contains("bad axis2_deg"), "{e}");
+        let e = parse_axes_line("1 2 3 inf").unwrap_err();
+        assert!(e.contains("axis3_deg not finite"), "{e}");
+        assert!(parse_axes_line("12").is_err());
+    }
 
     #[test]
     fn angle_lines() {
