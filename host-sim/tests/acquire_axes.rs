@@ -121,3 +121,104 @@ fn a_second_axis_is_recorded_beside_each_position() {
     }
     let _ = std::fs::remove_dir_all(&d);
 }
+
+/// A fake instrument with a second trace: `D?` answers (1, −1), `E?` answers (0.25, 0.5).
+fn serve_two(s: TcpStream) {
+    let Ok(mut w) = s.try_clone() else { return };
+    let second = {
+        let mut body = Vec::new();
+        for _ in 0..POINTS {
+            body.extend_from_slice(&0.25f32.to_be_bytes());
+            body.extend_from_slice(&0.5f32.to_be_bytes());
+        }
+        let len = body.len().to_string();
+        let mut out = format!("#{}{len}", len.len()).into_bytes();
+        out.extend_from_slice(&body);
+        out.push(b'\n');
+        out
+    };
+    for line in BufReader::new(s).lines() {
+        let Ok(line) = line else { return };
+        let r = match line.trim() {
+            "*OPC?" => w.write_all(b"1\n"),
+            "D?" => w.write_all(&block()),
+            "E?" => w.write_all(&second),
+            _ => Ok(()),
+        };
+        if r.is_err() {
+            return;
+        }
+    }
+}
+
+#[test]
+fn a_profile_with_a_further_trace_records_both_traces_of_every_sweep() {
+    let d = std::env::temp_dir().join(format!("sweepgate-traces-{}", std::process::id()));
+    std::fs::create_dir_all(&d).unwrap();
+    let profile = d.join("two.toml");
+    std::fs::write(
+        &profile,
+        format!(
+            "name = \"two\"\ntimeout_s = 0.5\nwait = \"*OPC?\"\ndata = \"D?\"\n\
+             format = \"real32\"\nbyte_order = \"normal\"\nfirst_trace = \"S21\"\n\
+             [grid]\nstart_hz = 1e9\nstop_hz = 2e9\npoints = {POINTS}\n\
+             [[further_traces]]\nname = \"S31\"\ndata = \"E?\"\n"
+        ),
+    )
+    .unwrap();
+    let inst = listen(serve_two);
+    let out = d.join("two.rec");
+    let st = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
+        .args(["acquire", "--profile"])
+        .arg(&profile)
+        .args(["--instrument", &inst, "--sweeps", "6", "--out"])
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(
+        st.status.success(),
+        "{}",
+        String::from_utf8_lossy(&st.stderr)
+    );
+    let r = recover_file(&out).unwrap();
+    let t = Traces::collect(&r.records);
+    assert!(t.faults.is_empty());
+    assert_eq!(t.names.as_ref().unwrap().traces, ["S21", "S31"]);
+    let sweeps: Vec<u32> = r
+        .records
+        .iter()
+        .filter_map(|(_, rec)| match rec {
+            Record::Sweep { index, s21, .. } => {
+                assert!(s21
+                    .iter()
+                    .all(|v| *v == num_complex::Complex32::new(1.0, -1.0)));
+                Some(*index)
+            }
+            _ => None,
+        })
+        .collect();
+    assert_eq!(sweeps, (0..6).collect::<Vec<u32>>());
+    assert_eq!(t.further.keys().copied().collect::<Vec<u32>>(), sweeps);
+    for traces in t.further.values() {
+        assert_eq!(traces.len(), 1);
+        assert!(traces[0]
+            .iter()
+            .all(|v| *v == num_complex::Complex32::new(0.25, 0.5)));
+    }
+    // A profile naming a trace twice, or a further trace read by a command, is refused.
+    use sweepgate_host::link::acquire::Profile;
+    let base = "name = 'x'\ndata = 'D?'\nformat = 'real32'\n[grid]\nstart_hz = 1e9\nstop_hz = 2e9\npoints = 5\n";
+    let e = Profile::from_toml(&format!(
+        "{base}[[further_traces]]\nname = 'S21'\ndata = 'E?'\n"
+    ))
+    .unwrap_err()
+    .to_string();
+    assert!(e.contains("given twice"), "{e}");
+    let e = Profile::from_toml(&format!(
+        "{base}[[further_traces]]\nname = 'S31'\ndata = 'E'\n"
+    ))
+    .unwrap_err()
+    .to_string();
+    assert!(e.contains("must be a query"), "{e}");
+    let _ = std::fs::remove_dir_all(&d);
+}

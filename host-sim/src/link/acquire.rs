@@ -50,6 +50,22 @@
 //! points_query = "SENSe:SWEep:POINts?"     # or points = 201
 //! ```
 //!
+//! # Several traces per sweep
+//!
+//! A dual-polarised probe gives two traces per sweep (say S21 co-polar and S31
+//! cross-polar). `first_trace` names the one `data` reads (default `S21`), and each
+//! `[[further_traces]]` entry another, read by its own query right after `data`, in the same
+//! format and grid; a sweep is taken only when every trace's answer is good. The first trace
+//! is recorded as the sweep record, the others beside it as a kind 8 record, with the names
+//! once after the header ([`crate::formats::traces`]); the live engine gates the first.
+//!
+//! ```toml
+//! first_trace = "S21"
+//! [[further_traces]]
+//! name = "S31"
+//! data = "CALCulate2:DATA? SDATA"
+//! ```
+//!
 //! # Set-up, verified
 //!
 //! Each `[[settings]]` entry is set after `setup` (its `set`, when given) and then read
@@ -352,6 +368,54 @@ pub struct Profile {
     /// Settings made after `setup` and read back before the scan.
     #[serde(default)]
     pub settings: Vec<SettingSpec>,
+    /// The first trace's name (the one `data` reads), e.g. `S21`; recorded with the
+    /// further traces' names when there are any.
+    #[serde(default = "default_first_trace")]
+    pub first_trace: String,
+    /// Further traces of every sweep (`[[further_traces]]`: e.g. the cross-polar port of a
+    /// dual-polarised probe), each read by its own data query right after `data`, in the
+    /// same format and grid, and recorded beside the sweep as a kind 8 record
+    /// ([`crate::formats::traces`]).
+    #[serde(default)]
+    pub further_traces: Vec<TraceQuery>,
+}
+
+/// One `[[further_traces]]` entry: a further trace of every sweep.
+#[derive(Debug, Clone, PartialEq, serde::Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct TraceQuery {
+    /// Its name, e.g. `S31`.
+    pub name: String,
+    /// The query that reads it (answered like `data`).
+    pub data: String,
+}
+
+fn default_first_trace() -> String {
+    "S21".into()
+}
+
+/// Most further traces a profile may list.
+pub const MAX_FURTHER_TRACES: usize = 7;
+
+/// Checks the further traces: data queries that are queries, distinct names, not too many.
+fn check_traces(p: &Profile) -> anyhow::Result<()> {
+    if p.further_traces.len() > MAX_FURTHER_TRACES {
+        bail!(
+            "[[further_traces]]: at most {MAX_FURTHER_TRACES} (got {})",
+            p.further_traces.len()
+        );
+    }
+    let mut names = vec![p.first_trace.as_str()];
+    for t in &p.further_traces {
+        if !is_query(&t.data) {
+            bail!("[[further_traces]] {:?}: `data` must be a query", t.name);
+        }
+        if names.contains(&t.name.as_str()) {
+            bail!("[[further_traces]] {:?}: the name is given twice", t.name);
+        }
+        names.push(&t.name);
+    }
+    Ok(())
 }
 
 /// One `[[settings]]` entry: a setting the instrument must hold before the scan.
@@ -468,6 +532,7 @@ impl Profile {
         if p.retries > 16 {
             bail!("retries must be at most 16 (got {})", p.retries);
         }
+        check_traces(&p)?;
         let g = &p.grid;
         for (name, v, q) in [
             ("start", g.start_hz.is_some(), g.start_query.is_some()),
@@ -1065,6 +1130,21 @@ impl Recorder {
         Ok(())
     }
 
+    /// The further traces of the sweep just recorded (a kind 8 record beside it).
+    fn further_traces(&mut self, traces: &[Vec<Complex32>]) -> anyhow::Result<()> {
+        if traces.is_empty() {
+            return Ok(());
+        }
+        let rec = crate::formats::traces::TracesRecord::Traces {
+            index: self.sum.sweeps.saturating_sub(1) as u32,
+            traces: traces.to_vec(),
+        };
+        self.w
+            .write(&rec.to_record())
+            .with_context(|| format!("writing {}", self.path.display()))?;
+        Ok(())
+    }
+
     fn sweep(&mut self, start_us: u64, end_us: u64, s21: &[Complex32]) -> anyhow::Result<()> {
         self.w
             .write(&Record::Sweep {
@@ -1251,6 +1331,8 @@ struct Session<'a> {
     taken: u64,
     /// Sweeps dropped one after another.
     dropped_in_row: u32,
+    /// The further traces of the sweep being taken (one buffer each).
+    further: Vec<Vec<Complex32>>,
 }
 
 /// How one sweep went.
@@ -1300,6 +1382,18 @@ pub fn acquire(profile: &Profile, req: Request) -> anyhow::Result<Summary> {
         .with_context(|| format!("creating {}", req.out.display()))?;
     w.write(&Record::Header(Box::new(header)))
         .with_context(|| format!("writing {}", req.out.display()))?;
+    if !profile.further_traces.is_empty() {
+        let names = crate::formats::traces::TracesRecord::Names(crate::formats::traces::Names {
+            traces: std::iter::once(&profile.first_trace)
+                .chain(profile.further_traces.iter().map(|t| &t.name))
+                .cloned()
+                .collect(),
+            axes: vec!["axis 1".into()],
+        });
+        w.write(&names.to_record())
+            .with_context(|| format!("writing {}", req.out.display()))?;
+    }
+    let further = vec![vec![Complex32::new(0.0, 0.0); grid.points()]; profile.further_traces.len()];
     let mut s = Session {
         profile,
         instrument: &req.instrument,
@@ -1316,6 +1410,7 @@ pub fn acquire(profile: &Profile, req: Request) -> anyhow::Result<Summary> {
         },
         taken: 0,
         dropped_in_row: 0,
+        further,
     };
     let fatal = s.sweeps(req.max_sweeps);
     s.finish(fatal, req.linger_s, &req.out)
@@ -1583,7 +1678,8 @@ impl Session<'_> {
         let mut resyncs = 0u32;
         loop {
             let t_start = self.epoch.elapsed().as_micros() as u64;
-            let fault = match take_sweep(&mut self.link, &mut self.dec, sweep, self.profile) {
+            let (link, dec, further) = (&mut self.link, &mut self.dec, &mut self.further);
+            let fault = match take_sweep(link, dec, sweep, further, self.profile) {
                 Ok(Answered::Sweep) => {
                     self.dropped_in_row = 0;
                     return Took::Sweep(t_start);
@@ -1736,7 +1832,8 @@ impl Session<'_> {
             }
             Angles::None => (t_start, t_end),
         };
-        self.rec.sweep(start_us, end_us, sweep)
+        self.rec.sweep(start_us, end_us, sweep)?;
+        self.rec.further_traces(&self.further)
     }
 
     /// Ends the recording: on a fault it keeps the partial scan and returns the fault;
@@ -1965,6 +2062,7 @@ fn take_sweep(
     link: &mut Link,
     dec: &mut Decoder,
     sweep: &mut [Complex32],
+    further: &mut [Vec<Complex32>],
     profile: &Profile,
 ) -> anyhow::Result<Answered> {
     if link.unsolicited()? {
@@ -1986,23 +2084,20 @@ fn take_sweep(
             }
         }
     }
-    link.send(&profile.data)?;
-    let answered = match dec {
-        Decoder::Block(d) => match link.read_data(d, sweep, &profile.data)? {
-            DecodeEvent::Sweep { .. } => Answered::Sweep,
-            DecodeEvent::Rejected(e @ sweepgate::error::BlockError::NonFinite { .. }) => {
-                Answered::NonFinite(e.to_string())
+    let mut answered = read_answer(link, dec, sweep, &profile.data)?;
+    // The further traces, each by its own query, while the answers are good.
+    for (t, buf) in profile.further_traces.iter().zip(further.iter_mut()) {
+        if !matches!(answered, Answered::Sweep) {
+            break;
+        }
+        answered = match read_answer(link, dec, buf, &t.data)? {
+            Answered::NonFinite(why) => Answered::NonFinite(format!("trace {}: {why}", t.name)),
+            Answered::Unreadable(why) => {
+                Answered::Unreadable(format!("trace {} ({:?}): {why}", t.name, t.data))
             }
-            DecodeEvent::Rejected(e) => Answered::Unreadable(e.to_string()),
-        },
-        Decoder::Ascii(d) => match link.read_data(d, sweep, &profile.data)? {
-            DecodeEvent::Sweep { .. } => Answered::Sweep,
-            DecodeEvent::Rejected(e @ sweepgate::error::AsciiError::NonFinite { .. }) => {
-                Answered::NonFinite(e.to_string())
-            }
-            DecodeEvent::Rejected(e) => Answered::Unreadable(e.to_string()),
-        },
-    };
+            other => other,
+        };
+    }
     if let (Answered::Sweep, Some(q)) = (&answered, &profile.sync) {
         let a = link.query(q)?;
         if !same_answer(&a, &profile.sync_answer) {
@@ -2014,6 +2109,32 @@ fn take_sweep(
         }
     }
     Ok(answered)
+}
+
+/// Sends one data query and reads its answer into `buf`.
+fn read_answer(
+    link: &mut Link,
+    dec: &mut Decoder,
+    buf: &mut [Complex32],
+    query: &str,
+) -> anyhow::Result<Answered> {
+    link.send(query)?;
+    Ok(match dec {
+        Decoder::Block(d) => match link.read_data(d, buf, query)? {
+            DecodeEvent::Sweep { .. } => Answered::Sweep,
+            DecodeEvent::Rejected(e @ sweepgate::error::BlockError::NonFinite { .. }) => {
+                Answered::NonFinite(e.to_string())
+            }
+            DecodeEvent::Rejected(e) => Answered::Unreadable(e.to_string()),
+        },
+        Decoder::Ascii(d) => match link.read_data(d, buf, query)? {
+            DecodeEvent::Sweep { .. } => Answered::Sweep,
+            DecodeEvent::Rejected(e @ sweepgate::error::AsciiError::NonFinite { .. }) => {
+                Answered::NonFinite(e.to_string())
+            }
+            DecodeEvent::Rejected(e) => Answered::Unreadable(e.to_string()),
+        },
+    })
 }
 
 /// Whether an answer is the expected one: the same text (case aside) or the same number.
