@@ -272,3 +272,75 @@ fn co_and_cross_must_differ_and_parse() {
         ("S21".into(), "S31".into())
     );
 }
+
+/// A 2-port file holding one trace of the model as S21.
+fn s2p(theta: f64, phi: f64, cross_polar: bool) -> String {
+    let mut t = String::from("# Hz S RI R 50\n");
+    for n in 0..POINTS {
+        let (a, b) = s21_s31(theta, phi, n);
+        let v = if cross_polar { b } else { a };
+        let f = F0_HZ + n as f64 * STEP_HZ;
+        t.push_str(&format!("{f} 0 0 {:.12e} {:.12e} 0 0 0 0\n", v.re, v.im));
+    }
+    t
+}
+
+#[test]
+fn a_cross_polar_manifest_gives_the_same_report_as_a_second_port() {
+    let dir = scratch("xman");
+    let three = write_scan(&dir);
+    let (mut co, mut cross) = (
+        String::from("theta_deg,phi_deg,file\n"),
+        String::from("theta_deg,phi_deg,file\n"),
+    );
+    // The cross-polar manifest lists its rows in another order: rows are matched by (θ, φ).
+    for phi in PHIS {
+        for theta in (THETAS[0]..=THETAS[1]).step_by(5) {
+            let (c, x) = (format!("c{theta}_{phi}.s2p"), format!("x{theta}_{phi}.s2p"));
+            std::fs::write(dir.join(&c), s2p(f64::from(theta), phi, false)).unwrap();
+            std::fs::write(dir.join(&x), s2p(f64::from(theta), phi, true)).unwrap();
+            co.push_str(&format!("{theta},{phi},{c}\n"));
+            cross.insert_str(23, &format!("{theta},{phi},{x}\n"));
+        }
+    }
+    std::fs::write(dir.join("co.csv"), &co).unwrap();
+    std::fs::write(dir.join("cross.csv"), &cross).unwrap();
+    let run = |args: &[&str], out: &Path| {
+        let st = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
+            .arg("process")
+            .args(args)
+            .args(["--frequencies-hz", "10e9", "--out"])
+            .arg(out)
+            .output()
+            .unwrap();
+        (
+            st.status.success(),
+            String::from_utf8_lossy(&st.stderr).to_string(),
+        )
+    };
+    let (a, b) = (dir.join("a"), dir.join("b"));
+    let three = three.to_str().unwrap().to_string();
+    let (ok, err) = run(&["--co", "S21", "--cross", "S31", &three], &a);
+    assert!(ok, "{err}");
+    let co_path = dir.join("co.csv").display().to_string();
+    let x_path = dir.join("cross.csv").display().to_string();
+    let (ok, err) = run(&["--cross-manifest", &x_path, &co_path], &b);
+    assert!(ok, "{err}");
+    let table = |d: &Path| std::fs::read_to_string(d.join("pattern.csv")).unwrap();
+    assert_eq!(table(&a), table(&b));
+    // A cross-polar manifest missing a row is refused, naming the pair.
+    let short: String = cross
+        .lines()
+        .filter(|l| !l.starts_with("5,45,"))
+        .map(|l| format!("{l}\n"))
+        .collect();
+    std::fs::write(dir.join("short.csv"), short).unwrap();
+    let s_path = dir.join("short.csv").display().to_string();
+    let (ok, err) = run(&["--cross-manifest", &s_path, &co_path], &dir.join("c"));
+    assert!(!ok);
+    assert!(
+        err.contains("110 (θ, φ) pairs") && err.contains("111"),
+        "{err}"
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}

@@ -136,6 +136,7 @@ fn process<'py>(
         threads: None,
         co: None,
         cross: None,
+        cross_manifest: None,
     };
     let (p, r) = py
         .detach(|| -> anyhow::Result<(Processed, Resolved)> {

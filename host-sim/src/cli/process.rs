@@ -61,6 +61,10 @@ pub struct Args {
     /// 3-port file from a dual-polarised probe).
     #[arg(long, value_name = "SIJ")]
     pub cross: Option<String>,
+    /// A scan of cuts: a second manifest (the same rows) whose files hold the cross-polar
+    /// trace (their `--cross` parameter, else the co-polar one).
+    #[arg(long, value_name = "CSV")]
+    pub cross_manifest: Option<PathBuf>,
 }
 
 /// Runs the command.
@@ -83,5 +87,6 @@ pub fn run(a: Args) -> anyhow::Result<()> {
         threads: a.threads,
         co: a.co,
         cross: a.cross,
+        cross_manifest: a.cross_manifest,
     })
 }

@@ -59,12 +59,15 @@ pub struct SpherePoint {
 }
 
 /// The traces a cut scan takes from each file.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, PartialEq, Eq)]
 pub struct CutTraces {
     /// The co-polar parameter.
     pub co: Parameter,
     /// The cross-polar parameter, if any.
     pub cross: Option<Parameter>,
+    /// A second manifest whose files hold the cross-polar trace (the same (θ, φ) rows as
+    /// the first), instead of a second parameter of the same files.
+    pub cross_manifest: Option<std::path::PathBuf>,
 }
 
 impl CutTraces {
@@ -294,11 +297,72 @@ fn gate_trace(
     Ok((per_cut, gated.impulse))
 }
 
+/// The co-polar trace from `m`'s files and the cross-polar trace from the files of the
+/// manifest `cross`, matched by (θ, φ): both manifests must name the same pairs.
+fn with_cross_manifest(
+    job: &CutJob,
+    m: &Manifest,
+    traces: &CutTraces,
+    cross: &Path,
+) -> anyhow::Result<TracesScan> {
+    let mut scan = m.load_traces_on(&[traces.co], job.spacing, job.threads)?;
+    let xm = Manifest::read(cross)?;
+    let xp = traces.cross.unwrap_or(traces.co);
+    let xs = xm.load_traces_on(&[xp], job.spacing, job.threads)?;
+    if !crate::formats::manifest::same_grid(&scan.grid, &xs.grid) {
+        bail!(
+            "{}: its frequencies differ from {}'s",
+            cross.display(),
+            m.name()
+        );
+    }
+    let key = |t: f64, p: f64| (t.to_bits(), p.to_bits());
+    let mut by_pair: std::collections::HashMap<(u64, u64), Vec<Complex32>> = xs
+        .sweeps
+        .into_iter()
+        .map(|s| {
+            (
+                key(s.theta_deg, s.phi_deg),
+                s.traces.into_iter().next().unwrap_or_default(),
+            )
+        })
+        .collect();
+    if by_pair.len() != scan.sweeps.len() {
+        bail!(
+            "{} has {} (θ, φ) pairs, {} has {}: give the cross-polar file of every co-polar one",
+            cross.display(),
+            by_pair.len(),
+            m.name(),
+            scan.sweeps.len()
+        );
+    }
+    for s in &mut scan.sweeps {
+        let x = by_pair
+            .remove(&key(s.theta_deg, s.phi_deg))
+            .with_context(|| {
+                format!(
+                    "{} has no file at θ {}°, φ {}° ({} has)",
+                    cross.display(),
+                    s.theta_deg,
+                    s.phi_deg,
+                    m.name()
+                )
+            })?;
+        s.traces.push(x);
+    }
+    scan.parameters.push(xp);
+    scan.warnings.extend(xs.warnings);
+    Ok(scan)
+}
+
 /// Processes a manifest of cuts: reads both traces of every file, bins each cut along θ,
 /// gates every bin of both traces with one gate.
 pub fn process_cuts(job: &CutJob, path: &Path, traces: CutTraces) -> anyhow::Result<CutsResult> {
     let m = Manifest::read(path)?;
-    let scan = m.load_traces_on(&traces.parameters(), job.spacing, job.threads)?;
+    let scan = match &traces.cross_manifest {
+        None => m.load_traces_on(&traces.parameters(), job.spacing, job.threads)?,
+        Some(cross) => with_cross_manifest(job, &m, &traces, cross)?,
+    };
     if scan.sweeps.is_empty() {
         bail!("{}: no sweeps", path.display());
     }

@@ -101,6 +101,8 @@ pub struct Options {
     pub co: Option<String>,
     /// The cross-polar trace's Touchstone parameter (a scan of cuts).
     pub cross: Option<String>,
+    /// A second manifest whose files hold the cross-polar trace (a scan of cuts).
+    pub cross_manifest: Option<PathBuf>,
 }
 
 /// The keys a settings file may hold.
@@ -319,10 +321,10 @@ pub fn resolve(opts: &Options) -> anyhow::Result<Resolved> {
     })
 }
 
-/// The traces of a scan of cuts: `--co` (else `--parameter`, else S21) and `--cross`, when
-/// either `--co` or `--cross` is given.
+/// The traces of a scan of cuts: `--co` (else `--parameter`, else S21), `--cross` and
+/// `--cross-manifest`, when any of them is given.
 fn cut_traces(opts: &Options, parameter: Option<Parameter>) -> anyhow::Result<Option<CutTraces>> {
-    if opts.co.is_none() && opts.cross.is_none() {
+    if opts.co.is_none() && opts.cross.is_none() && opts.cross_manifest.is_none() {
         return Ok(None);
     }
     let parse = |flag: &str, t: &str| {
@@ -338,10 +340,15 @@ fn cut_traces(opts: &Options, parameter: Option<Parameter>) -> anyhow::Result<Op
         .as_ref()
         .map(|t| parse("--cross", t))
         .transpose()?;
-    if cross == Some(co) {
+    if cross == Some(co) && opts.cross_manifest.is_none() {
         bail!("--co and --cross both name {co}: give the cross-polar port's parameter");
     }
-    Ok(Some(CutTraces { co, cross }))
+    Ok(Some(CutTraces {
+        co,
+        // With a second manifest, its files' parameter: --cross, else the co-polar one.
+        cross: cross.or(opts.cross_manifest.as_ref().map(|_| co)),
+        cross_manifest: opts.cross_manifest.clone(),
+    }))
 }
 
 /// A processed input, ready for the report.
@@ -680,16 +687,17 @@ pub fn run_cuts(r: &Resolved) -> anyhow::Result<()> {
     if r.gain.is_some() || r.exports.any() {
         bail!("gain by substitution and the full-band exports are not made for a scan of cuts yet; leave out --gain-table/--reference and --export-*");
     }
-    let traces = r.traces.unwrap_or(CutTraces {
+    let traces = r.traces.clone().unwrap_or(CutTraces {
         co: r.parameter.unwrap_or_else(|| Parameter::default_for(2)),
         cross: None,
+        cross_manifest: None,
     });
     let job = cuts::CutJob {
         choices: &r.choices,
         spacing: r.spacing,
         threads: r.threads,
     };
-    let res = cuts::process_cuts(&job, path, traces)?;
+    let res = cuts::process_cuts(&job, path, traces.clone())?;
     cuts_report::write_cuts_report(&res, path, &r.out)
         .with_context(|| format!("writing the report to {}", r.out.display()))?;
     for w in &res.warnings {
