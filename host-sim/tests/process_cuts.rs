@@ -344,3 +344,150 @@ fn a_cross_polar_manifest_gives_the_same_report_as_a_second_port() {
     );
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// A recording of cuts as `acquire` writes one with a positioner of two axes and a profile
+/// of two traces: cut 0 turns forward from −23° to 23° at 10°/s with the second axis at 0°,
+/// the second axis moves to 90° at 30°/s, cut 1 turns back; a sample every 20 ms, a 10 ms
+/// sweep every 40 ms, each sweep's two traces from the model above.
+fn recording_of_cuts(path: &Path) {
+    use sweepgate_host::formats::recording::{GridInfo, Header, Record, Writer, SWEEP_FORMAT};
+    use sweepgate_host::formats::traces::{Names, TracesRecord};
+    let axes = |t: f64| {
+        if t <= 4.6 {
+            (-23.0 + 10.0 * t, 0.0)
+        } else if t <= 7.6 {
+            (23.0, 30.0 * (t - 4.6))
+        } else {
+            (23.0 - 10.0 * (t - 7.6), 90.0)
+        }
+    };
+    let mut w = Writer::new(Vec::new()).unwrap();
+    w.write(&Record::Header(Box::new(Header {
+        software: "test".into(),
+        source: "a model written for the test".into(),
+        scenario: None,
+        scenario_toml: None,
+        seed: None,
+        grid: GridInfo {
+            start_hz: F0_HZ,
+            step_hz: STEP_HZ,
+            points: POINTS,
+        },
+        sweep_format: SWEEP_FORMAT.into(),
+        pattern_frequencies_hz: vec![10e9],
+        bin_width_deg: Some(2.0),
+        counts_per_turn: None,
+    })))
+    .unwrap();
+    let names = Names {
+        traces: vec!["S21".into(), "S31".into()],
+        axes: vec!["azimuth".into(), "roll".into()],
+    };
+    w.write(&TracesRecord::Names(names).to_record()).unwrap();
+    let (mut next, mut index) = (5_000u64, 0u32);
+    let c32 = |z: Complex64| num_complex::Complex32::new(z.re as f32, z.im as f32);
+    for i in 0..=600u64 {
+        let t_us = i * 20_000;
+        let (a1, a2) = axes(t_us as f64 * 1e-6);
+        w.write(&Record::Position {
+            t_us,
+            counts: 0,
+            angle_deg: a1,
+        })
+        .unwrap();
+        let further = TracesRecord::Axes {
+            t_us,
+            angles_deg: vec![a2],
+        };
+        w.write(&further.to_record()).unwrap();
+        while next + 10_000 <= t_us {
+            let (th, ph) = axes((next + 5_000) as f64 * 1e-6);
+            let (co, cross): (Vec<_>, Vec<_>) = (0..POINTS)
+                .map(|n| {
+                    let (a, b) = s21_s31(th, ph, n);
+                    (c32(a), c32(b))
+                })
+                .unzip();
+            w.write(&Record::Sweep {
+                index,
+                start_us: next,
+                end_us: next + 10_000,
+                s21: co,
+            })
+            .unwrap();
+            let more = TracesRecord::Traces {
+                index,
+                traces: vec![cross],
+            };
+            w.write(&more.to_record()).unwrap();
+            (next, index) = (next + 40_000, index + 1);
+        }
+    }
+    std::fs::write(path, w.finish().unwrap().0).unwrap();
+}
+
+#[test]
+fn a_recording_of_cuts_goes_through_the_engine_of_cuts() {
+    let dir = scratch("rec");
+    let rec = dir.join("cuts.rec");
+    recording_of_cuts(&rec);
+    let out = dir.join("report");
+    let st = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
+        .args(["process", "--cross", "S31", "--out"])
+        .arg(&out)
+        .arg(&rec)
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&st.stderr);
+    assert!(st.status.success(), "{err}");
+    let s: Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    let cuts = s["cuts"].as_array().unwrap();
+    assert_eq!(cuts.len(), 2, "{s}");
+    assert_eq!(
+        (cuts[0]["phi_deg"].as_f64(), cuts[1]["phi_deg"].as_f64()),
+        (Some(0.0), Some(90.0))
+    );
+    let csv = std::fs::read_to_string(out.join("pattern.csv")).unwrap();
+    let mut lines = csv.lines();
+    let head: Vec<&str> = lines.next().unwrap().split(',').collect();
+    let col = |name: &str| head.iter().position(|h| *h == name).unwrap();
+    let (mut worst_co, mut worst_x, mut rows) = (0.0f64, 0.0f64, 0);
+    for l in lines {
+        let r: Vec<f64> = l
+            .split(',')
+            .map(|v| v.parse().unwrap_or(f64::NAN))
+            .collect();
+        // The recording's bins are a full circle: θ from 0° to 360°.
+        let (t, p) = (r[col("theta_deg")], r[col("phi_deg")]);
+        let t = (t + 180.0).rem_euclid(360.0) - 180.0;
+        if t.abs() > 20.0 {
+            continue;
+        }
+        rows += 1;
+        worst_co = worst_co.max((r[col("co_gated_db")] - db(co(t, p))).abs());
+        worst_x = worst_x.max((r[col("cross_gated_db")] - db(cross(t, p))).abs());
+    }
+    eprintln!("recording of cuts: {rows} bins, worst co-polar {worst_co:.3} dB, cross-polar {worst_x:.3} dB");
+    assert_eq!(rows, 42);
+    assert!(worst_co < 0.5, "{worst_co}");
+    assert!(worst_x < 1.0, "{worst_x}");
+    for (c, phi) in cuts.iter().zip([0.0, 90.0]) {
+        let got = c["per_frequency"][0]["xpd_on_axis_db"].as_f64().unwrap();
+        let want = db(co(0.0, phi)) - db(cross(0.0, phi));
+        assert!((got - want).abs() < 0.5, "φ {phi}: {got} against {want}");
+    }
+    // Without --co/--cross a recording is processed as one cut of its first trace.
+    let st = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
+        .args(["process", "--out"])
+        .arg(dir.join("one"))
+        .arg(&rec)
+        .output()
+        .unwrap();
+    assert!(
+        st.status.success(),
+        "{}",
+        String::from_utf8_lossy(&st.stderr)
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}

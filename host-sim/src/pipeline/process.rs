@@ -59,7 +59,6 @@ use crate::model::scenario::toml_one_line;
 use crate::output::export::{self, BandRow, Bands, Exports};
 use crate::output::report::{self, ImpulseView, ReportBin, ReportInput, ReportValue};
 use crate::pipeline::cuts::{self, CutTraces};
-use crate::pipeline::cuts_report;
 use crate::pipeline::engine::gate_sweeps_on;
 use crate::pipeline::manifest_bins;
 use crate::pipeline::options::{default_report_dir, window_option, Choices, GateOptions, Origin};
@@ -67,6 +66,7 @@ use crate::pipeline::setup::{self, Automatic};
 use crate::pipeline::stream::{self, Discard, Pacing};
 use crate::pipeline::summary::Settings;
 use crate::pipeline::transform::c64;
+use crate::pipeline::{cuts_report, cuts_stream};
 use crate::quote::{clip_quotes, clipped};
 
 /// Options of `sweepgate process`, as given (`cli/process.rs` spells them).
@@ -667,23 +667,19 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
 /// Whether `r` is a scan of cuts: a manifest of both axes, or co- and cross-polar traces
 /// asked for.
 pub fn wants_cuts(r: &Resolved) -> anyhow::Result<bool> {
-    let Input::Manifest(path) = &r.input else {
-        return Ok(false);
-    };
     if r.traces.is_some() {
         return Ok(true);
     }
+    let Input::Manifest(path) = &r.input else {
+        // A recording of cuts is asked for with --co/--cross (it is read once).
+        return Ok(false);
+    };
     Ok(Manifest::read(path)?.has_axes())
 }
 
 /// Processes a scan of cuts ([`crate::pipeline::cuts`]) and writes its report folder
 /// ([`crate::pipeline::cuts_report`]); says what was written.
 pub fn run_cuts(r: &Resolved) -> anyhow::Result<()> {
-    let Input::Manifest(path) = &r.input else {
-        bail!(
-            "a scan of cuts is read from a manifest (`theta_deg,phi_deg,file` or `angle_deg,file`)"
-        );
-    };
     if r.gain.is_some() || r.exports.any() {
         bail!("gain by substitution and the full-band exports are not made for a scan of cuts yet; leave out --gain-table/--reference and --export-*");
     }
@@ -697,7 +693,11 @@ pub fn run_cuts(r: &Resolved) -> anyhow::Result<()> {
         spacing: r.spacing,
         threads: r.threads,
     };
-    let res = cuts::process_cuts(&job, path, traces.clone())?;
+    let (res, path) = match &r.input {
+        Input::Manifest(path) => (cuts::process_cuts(&job, path, traces.clone())?, path),
+        Input::Recording(path) => (cuts_stream::process_cut_recording(&r.choices, path)?, path),
+    };
+    let traces = res.traces.clone();
     cuts_report::write_cuts_report(&res, path, &r.out)
         .with_context(|| format!("writing the report to {}", r.out.display()))?;
     for w in &res.warnings {
