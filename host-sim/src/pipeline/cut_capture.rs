@@ -279,4 +279,23 @@ mod tests {
         let c = compare(&bytes, &r.preview, 1e-5);
         assert_eq!(c.matched, 41);
     }
+
+    #[test]
+    fn a_capture_of_another_trace_count_or_cut_short_is_refused_by_place() {
+        let mut cap = model_capture(EchoMode::Never).unwrap();
+        // Three traces per sweep in the header: the board loop takes two.
+        let mut three = cap.clone();
+        three[26] = 3;
+        let e = format!("{:#}", replay(&three).unwrap_err());
+        assert!(e.contains("TraceCount"), "{e}");
+        // Cut short inside an answer: the entry is named by its byte.
+        cap.truncate(CUT_HEADER_LEN + 5_000);
+        let e = format!("{:#}", replay(&cap).unwrap_err());
+        assert!(e.contains("Truncated") && e.contains("at_byte"), "{e}");
+        // A bad cut layout (step 0 with two cuts) is refused in the header.
+        let mut bad = model_capture(EchoMode::Never).unwrap();
+        bad[12..16].copy_from_slice(&0f32.to_le_bytes());
+        let e = format!("{:#}", replay(&bad).unwrap_err());
+        assert!(e.contains("StepNotPositive"), "{e}");
+    }
 }
