@@ -117,7 +117,7 @@ pub struct CutPattern {
 /// A processed scan of cuts.
 #[derive(Debug, Clone)]
 pub struct CutsResult {
-    /// The manifest's name.
+    /// What was processed, as a title: `manifest NAME` or `recording PATH`.
     pub name: String,
     /// The traces taken.
     pub traces: CutTraces,
@@ -406,7 +406,7 @@ pub fn process_cuts(job: &CutJob, path: &Path, traces: CutTraces) -> anyhow::Res
     }
     warnings.extend(gating.remarks.iter().cloned());
     Ok(CutsResult {
-        name: m.name().to_string(),
+        name: format!("manifest {}", m.name()),
         traces,
         grid: scan.grid,
         gating,

@@ -173,7 +173,7 @@ pub fn summary_json(res: &CutsResult, source: &Path, settings: Value) -> Value {
         .collect();
     let bins: usize = res.cuts.iter().map(|c| c.bins.len()).sum();
     json!({
-        "title": format!("manifest {}", res.name),
+        "title": res.name,
         "source": source.display().to_string(),
         "settings": settings,
         "counters": {"files": res.files, "cuts": res.cuts.len(), "bins": bins},
@@ -230,10 +230,7 @@ pub fn cut_report_input(res: &CutsResult, c: &CutPattern, settings: &Value) -> R
         .collect();
     let first = res.cuts.first().map(|f| f.phi_deg) == Some(c.phi_deg);
     ReportInput {
-        title: format!(
-            "manifest {}, φ {}°, co-polar {}",
-            res.name, c.phi_deg, res.traces.co
-        ),
+        title: format!("{}, φ {}°, co-polar {}", res.name, c.phi_deg, res.traces.co),
         source: res.name.clone(),
         frequencies_hz: res.gating.frequencies_hz.clone(),
         full_circle: c.full_circle,

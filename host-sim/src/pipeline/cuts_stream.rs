@@ -228,7 +228,7 @@ pub fn process_cut_recording(choices: &Choices, path: &Path) -> anyhow::Result<C
     let full = setup.layout.is_full_circle();
     let width = f64::from(setup.layout.step_deg());
     Ok(CutsResult {
-        name: path.display().to_string(),
+        name: format!("recording {}", path.display()),
         traces: CutTraces {
             co: name(0, "S21"),
             cross: Some(name(1, "S31")),
