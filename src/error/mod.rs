@@ -6,6 +6,7 @@ mod autogate;
 mod gate;
 mod plan;
 mod pump;
+mod rcs;
 mod scan;
 mod wire;
 
@@ -13,5 +14,6 @@ pub use self::autogate::*;
 pub use self::gate::*;
 pub use self::plan::*;
 pub use self::pump::*;
+pub use self::rcs::*;
 pub use self::scan::*;
 pub use self::wire::*;
