@@ -10,6 +10,8 @@ pub mod manifest_bins;
 pub mod options;
 pub mod plan;
 pub mod process;
+pub mod rcs;
+pub mod rcs_input;
 pub mod replay;
 pub mod self_error;
 pub mod setup;
