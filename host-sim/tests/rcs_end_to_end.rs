@@ -16,6 +16,7 @@ use sweepgate::rcs::Zone;
 use sweepgate_host::model::rcs_targets::ReferenceTarget;
 use sweepgate_host::pipeline::options::{default_band_window, DEFAULT_GATE_SHAPE};
 use sweepgate_host::pipeline::rcs::{self, RcsGate, RcsInput, RcsResult, RcsSettings};
+use sweepgate_host::pipeline::rcs_image;
 use sweepgate_host::pipeline::rcs_input::{self, RcsFiles};
 
 struct Range {
@@ -134,6 +135,64 @@ fn calibrated_rcs_follows_the_truth_and_needs_background_and_gate() {
         assert!(
             err_gate > 2.0,
             "{scene}: without gate only {err_gate} dB off"
+        );
+    }
+}
+
+/// Local maxima of the image above `floor_db`, strongest first: (x, y, level).
+fn peaks(img: &rcs_image::Image, floor_db: f64) -> Vec<(f64, f64, f64)> {
+    let (nx, ny) = (img.x_m.len(), img.y_m.len());
+    let mut out = Vec::new();
+    for iy in 1..ny - 1 {
+        for ix in 1..nx - 1 {
+            let v = img.db[iy][ix];
+            let around = (0..9)
+                .filter(|&j| j != 4)
+                .all(|j| img.db[iy + j / 3 - 1][ix + j % 3 - 1] < v);
+            if v > floor_db && around {
+                out.push((img.x_m[ix], img.y_m[iy], v));
+            }
+        }
+    }
+    out.sort_by(|a, b| b.2.total_cmp(&a.2));
+    out
+}
+
+#[test]
+fn image_places_point_scatterers_within_a_resolution_cell() {
+    let r = range();
+    let result = rcs::process(&r.input("points", true), &settings(r.zone_gate())).unwrap();
+    let profiles = rcs_image::profiles(&result, 0.45);
+    let img = rcs_image::image(&result, &profiles, 0.3, 121);
+    // Nominal resolution (Mensa, High Resolution Radar Cross-Section Imaging): c/(2B) with
+    // B = 401 × 10 MHz → 37.4 mm; λc/(2Δθ) at 10 GHz over 24° → 35.8 mm.
+    assert!((img.down_range_resolution_m - 0.0374).abs() < 1e-3);
+    assert!((img.cross_range_resolution_m - 0.0358).abs() < 1e-3);
+    let text = std::fs::read_to_string(r.scene("points").join("scatterers.csv")).unwrap();
+    let truth: Vec<(f64, f64)> = text
+        .lines()
+        .skip(1)
+        .map(|l| {
+            let v: Vec<f64> = l.split(',').map(|x| x.parse().unwrap()).collect();
+            (v[0], v[1])
+        })
+        .collect();
+    let found = peaks(&img, -20.0);
+    println!(
+        "image peaks (x m, y m, dB): {:?}",
+        &found[..found.len().min(6)]
+    );
+    // One peak per scatterer and no ghost above −20 dB (the image's Kaiser windows keep
+    // sidelobes near −37 dB).
+    assert_eq!(found.len(), truth.len(), "{found:?}");
+    for &(x, y) in &truth {
+        let hit = found[..truth.len()].iter().any(|&(px, py, _)| {
+            (px - x).abs() <= img.down_range_resolution_m
+                && (py - y).abs() <= img.cross_range_resolution_m
+        });
+        assert!(
+            hit,
+            "no image peak within a resolution cell of ({x}, {y}): {found:?}"
         );
     }
 }
