@@ -39,6 +39,9 @@ enum Command {
     Replay(replay::Args),
     /// Gate saved sweeps (a manifest of Touchstone files or a recording) and write the report.
     Process(process::Args),
+    /// Radar cross section of a target on the turntable: background subtraction, a gate
+    /// around the target zone, calibration against a reference target; dBsm and images.
+    Rcs(sweepgate_host::cli::rcs::Args),
     /// Show a board's preview stream (TCP HOST:PORT, or a serial device or file).
     View(view::Args),
 }
@@ -56,6 +59,7 @@ fn main() {
         Command::Replay(a) => replay::run(a),
         Command::View(a) => view::run(a),
         Command::Process(a) => process::run(a),
+        Command::Rcs(a) => sweepgate_host::cli::rcs::run(a),
     };
     if let Err(e) = result {
         eprintln!("error: {e:#}");

@@ -8,6 +8,7 @@ pub mod instrument;
 pub mod plan;
 pub mod positioner;
 pub mod process;
+pub mod rcs;
 pub mod read_block;
 pub mod replay;
 pub mod simulate;

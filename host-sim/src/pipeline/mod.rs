@@ -11,6 +11,7 @@ pub mod options;
 pub mod plan;
 pub mod process;
 pub mod rcs;
+pub mod rcs_command;
 pub mod rcs_image;
 pub mod rcs_input;
 pub mod replay;
