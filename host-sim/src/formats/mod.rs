@@ -7,5 +7,6 @@ pub mod files;
 pub mod gain_table;
 pub mod manifest;
 pub mod npy;
+pub mod rcs_capture;
 pub mod recording;
 pub mod touchstone;
