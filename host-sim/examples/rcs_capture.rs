@@ -25,7 +25,7 @@ use sweepgate_host::formats::rcs_capture::{RcsAnswer, RcsCapture};
 use sweepgate_host::model::rcs_targets::ReferenceTarget;
 use sweepgate_host::pipeline::engine::gate_sweeps;
 use sweepgate_host::pipeline::options::DEFAULT_GATE_SHAPE;
-use sweepgate_host::pipeline::rcs::{choose_gate, BackgroundInput, RcsGate, RcsSettings};
+use sweepgate_host::pipeline::rcs::{choose_gate, BackgroundInput, RcsGate, RcsInput, RcsSettings};
 use sweepgate_host::pipeline::rcs_input::{self, RcsFiles};
 
 /// The band window of the capture: Kaiser for 50 dB sidelobes, the commands' default.
@@ -78,6 +78,26 @@ fn make(
         reference_background: Some(&rb),
     };
     let input = rcs_input::read(&files, sphere)?;
+    let gate = zone_gate(&num, &input)?;
+    let cap = capture(&input, &gate, sphere)?;
+    let bytes = cap.to_bytes()?;
+    std::fs::write(out, &bytes).with_context(|| format!("writing {}", out.display()))?;
+    println!(
+        "rcs capture: {} bytes to {} ({} angles, gate center {:.3} ns, span {:.3} ns)",
+        bytes.len(),
+        out.display(),
+        cap.angles.len(),
+        gate.center_s * 1e9,
+        gate.span_s * 1e9
+    );
+    Ok(())
+}
+
+/// The gate around the target zone of range.json, as `sweepgate rcs` makes it.
+fn zone_gate(
+    num: &dyn Fn(&str) -> anyhow::Result<f64>,
+    input: &RcsInput,
+) -> anyhow::Result<GateConfig> {
     let zone = Zone {
         time_zero_s: num("time_zero_s")?,
         distance_m: num("distance_m")?,
@@ -94,6 +114,16 @@ fn make(
         frequencies_hz: Vec::new(),
     };
     let gate = choose_gate(&settings, input.grid)?.context("no gate")?;
+    Ok(gate)
+}
+
+/// The capture of `input` with `gate`, four pattern frequencies and the reference's
+/// amplitude there.
+fn capture(
+    input: &RcsInput,
+    gate: &GateConfig,
+    sphere: ReferenceTarget,
+) -> anyhow::Result<RcsCapture> {
     let WindowKind::Tukey { alpha } = gate.shape else {
         bail!("the capture holds a Tukey gate shape");
     };
@@ -131,17 +161,7 @@ fn make(
         reference_background: input.reference_background.clone(),
         angles,
     };
-    let bytes = cap.to_bytes()?;
-    std::fs::write(out, &bytes).with_context(|| format!("writing {}", out.display()))?;
-    println!(
-        "rcs capture: {} bytes to {} ({} angles, gate center {:.3} ns, span {:.3} ns)",
-        bytes.len(),
-        out.display(),
-        cap.angles.len(),
-        gate.center_s * 1e9,
-        gate.span_s * 1e9
-    );
-    Ok(())
+    Ok(cap)
 }
 
 /// The host's answer: FFT path (rustfft), calibration in f64.
