@@ -12,4 +12,5 @@ pub mod rcs;
 pub mod read_block;
 pub mod replay;
 pub mod simulate;
+pub mod simulate_rcs;
 pub mod view;
