@@ -150,6 +150,105 @@ impl Zone {
     }
 }
 
+/// What a planned RCS set-up gives: the far-field condition for the zone, the down-range
+/// resolution, the zone's gate and its distance from the coupling and the mount, and the
+/// sweep those need. Every delay in s, every distance in m.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct RcsPlan {
+    /// Far-field distance of the zone at the top frequency, 2D²/λ (Federal Standard 1037C;
+    /// IEEE Std 149), D the zone's size.
+    pub far_field_m: f64,
+    /// The zone's distance is at least [`RcsPlan::far_field_m`].
+    pub in_far_field: bool,
+    /// Down-range resolution of the band, c/(2B) (Mensa, *High Resolution Radar
+    /// Cross-Section Imaging*).
+    pub down_range_resolution_m: f64,
+    /// Gate centre, s.
+    pub gate_center_s: f64,
+    /// Gate span, s.
+    pub gate_span_s: f64,
+    /// Time from the coupling's arrival to the gate's opening, less half the band window's
+    /// main lobe; below zero the coupling reaches into the gate.
+    pub coupling_clearance_s: f64,
+    /// Time from the gate's closing to the mount's echo, less half the main lobe (`None`
+    /// without a mount echo); below zero the mount reaches into the gate.
+    pub mount_clearance_s: Option<f64>,
+    /// Bandwidth at which the band window's main lobe just fits between the zone's edge and
+    /// the nearer of the coupling and the mount, Hz: the least bandwidth that separates them.
+    pub bandwidth_needed_hz: f64,
+    /// Alias-free range of the sweep, 1/Δf.
+    pub alias_free_s: f64,
+    /// Points of the same band whose alias-free range holds the gate's end and the mount
+    /// echo with a fifth to spare.
+    pub points_needed: u32,
+}
+
+/// Plans an RCS set-up (see [`RcsPlan`]); `mount_delay_s` is the mount's strongest echo.
+///
+/// ```
+/// use sweepgate::grid::Grid;
+/// use sweepgate::rcs::{plan, Zone};
+/// use sweepgate::window::WindowKind;
+/// let zone = Zone { time_zero_s: 0.0, distance_m: 10.0, size_m: 0.5, separation_m: 0.0 };
+/// let grid = Grid::from_start_stop(8e9, 12e9, 401).unwrap();
+/// let p = plan(&zone, &grid, WindowKind::Hann, None).unwrap();
+/// // 2·0.5²/λ at 12 GHz = 20.0 m: 10 m is too near for the whole zone.
+/// assert!((p.far_field_m - 20.01).abs() < 0.01 && !p.in_far_field);
+/// ```
+pub fn plan(
+    zone: &Zone,
+    grid: &Grid,
+    band_window: WindowKind,
+    mount_delay_s: Option<f64>,
+) -> Result<RcsPlan, RcsError> {
+    zone.check()?;
+    if mount_delay_s.is_some_and(|t| !t.is_finite()) {
+        return Err(RcsError::ZoneNotPositive);
+    }
+    let c = SPEED_OF_LIGHT_M_S;
+    let bandwidth_hz = grid.step_hz() * grid.points() as f64;
+    let lobe_factor = band_window.mainlobe_width();
+    let lobe_s = lobe_factor / bandwidth_hz;
+    let center = zone.delay_s();
+    let span = 2.0 * zone.size_m / c + lobe_s;
+    let coupling = zone.time_zero_s + zone.separation_m / c;
+    let coupling_clearance_s = (center - span / 2.0) - coupling - lobe_s / 2.0;
+    let mount_clearance_s = mount_delay_s.map(|t| t - (center + span / 2.0) - lobe_s / 2.0);
+    // The echo check holds when the gap between the zone's edge and the echo is at least
+    // one main lobe, lobe_factor/B.
+    let edge = zone.size_m / c;
+    let gap = match mount_delay_s {
+        Some(t) => libm::fmin(center - coupling, t - center),
+        None => center - coupling,
+    } - edge;
+    let bandwidth_needed_hz = if gap > 0.0 {
+        lobe_factor / gap
+    } else {
+        f64::INFINITY
+    };
+    let latest = match mount_delay_s {
+        Some(t) => libm::fmax(t, center + span / 2.0),
+        None => center + span / 2.0,
+    };
+    let step_needed = 1.0 / (1.2 * latest);
+    let points_needed = libm::ceil(bandwidth_hz / step_needed).min(u32::MAX as f64) as u32;
+    let lambda_top = c / grid.stop_hz();
+    let far_field_m = 2.0 * zone.size_m * zone.size_m / lambda_top;
+    Ok(RcsPlan {
+        far_field_m,
+        in_far_field: zone.distance_m >= far_field_m,
+        down_range_resolution_m: c / (2.0 * bandwidth_hz),
+        gate_center_s: center,
+        gate_span_s: span,
+        coupling_clearance_s,
+        mount_clearance_s,
+        bandwidth_needed_hz,
+        alias_free_s: grid.alias_free_s(),
+        points_needed: points_needed.max(2),
+    })
+}
+
 fn first_non_finite(values: &[Complex32]) -> Option<usize> {
     values
         .iter()
@@ -421,6 +520,53 @@ mod tests {
                 dbsm(x)
             );
         }
+    }
+
+    #[test]
+    fn plan_figures_follow_their_formulas() {
+        // Computed from the formulas (Federal Standard 1037C far field; c/(2B) down-range
+        // resolution, Mensa): zone 0.3 m at 6 m, 2–18 GHz, 801 points.
+        let zone = Zone {
+            time_zero_s: 1e-9,
+            distance_m: 6.0,
+            size_m: 0.3,
+            separation_m: 0.2,
+        };
+        let grid = Grid::from_start_stop(2e9, 18e9, 801).unwrap();
+        let mount = zone.delay_s() + 1.0 / C; // 0.5 m behind the centre
+        let p = plan(&zone, &grid, WindowKind::Hann, Some(mount)).unwrap();
+        // 2D²/λ = 2·0.09/(c/18 GHz) = 10.81 m: 6 m is too near.
+        assert!((p.far_field_m - 10.807).abs() < 1e-3 && !p.in_far_field);
+        let b = 20e6 * 801.0;
+        assert!((p.down_range_resolution_m - C / (2.0 * b)).abs() < 1e-12);
+        // Hann main lobe 4/B; the mount 0.5 m behind the centre, the zone's edge 0.15 m:
+        // clearance (0.5 − 0.15)·2/c − 4/B = 2.085 ns; bandwidth for one lobe in the gap
+        // 4/((0.35·2)/c) = 1.713 GHz.
+        let clearance = p.mount_clearance_s.unwrap();
+        assert!(
+            (clearance - (0.7 / C - 4.0 / b)).abs() < 1e-15,
+            "{clearance}"
+        );
+        assert!(
+            (p.bandwidth_needed_hz - 1.7131e9).abs() < 1e6,
+            "{}",
+            p.bandwidth_needed_hz
+        );
+        assert!(p.coupling_clearance_s > 30e-9);
+        // Alias-free 1/Δf = 50 ns against the mount at 44.4 ns with a fifth to spare: more
+        // points needed (853).
+        assert!((p.alias_free_s - 50e-9).abs() < 1e-15);
+        let latest = mount * 1.2;
+        assert_eq!(p.points_needed, libm::ceil(b * latest) as u32);
+        assert!(p.points_needed > 801);
+        // A zone that swallows the mount: negative clearance.
+        let wide = Zone {
+            size_m: 1.2,
+            ..zone
+        };
+        let q = plan(&wide, &grid, WindowKind::Hann, Some(mount)).unwrap();
+        assert!(q.mount_clearance_s.unwrap() < 0.0);
+        assert!(q.bandwidth_needed_hz.is_infinite());
     }
 
     #[test]

@@ -6,6 +6,7 @@ pub mod demo;
 pub mod gate;
 pub mod instrument;
 pub mod plan;
+pub mod plan_rcs;
 pub mod positioner;
 pub mod process;
 pub mod rcs;
