@@ -15,11 +15,14 @@ use sweepgate_host::pipeline::rcs_input::{self, RcsFiles};
 use sweepgate_host::pipeline::rcs_simulate;
 
 fn process(dir: &Path, scene: &RcsScene) -> RcsResult {
+    let ext = if dir.join("reference.s1p").exists() {
+        "s1p"
+    } else {
+        "s2p"
+    };
     let (t, b) = (dir.join("target.csv"), dir.join("background.csv"));
-    let (r, rb) = (
-        dir.join("reference.s2p"),
-        dir.join("reference_background.s2p"),
-    );
+    let r = dir.join(format!("reference.{ext}"));
+    let rb = dir.join(format!("reference_background.{ext}"));
     let files = RcsFiles {
         target: &t,
         background: Some(&b),
@@ -69,7 +72,7 @@ fn worst(result: &RcsResult, exact: impl Fn(f64, f64) -> f64) -> f64 {
 #[test]
 fn simulated_sphere_is_measured_within_half_a_db() {
     let dir = tempfile::tempdir().unwrap();
-    let scenario = Path::new(env!("CARGO_MANIFEST_DIR")).join("scenarios/rcs-range.toml");
+    let scenario = Path::new(env!("CARGO_MANIFEST_DIR")).join("scenarios/rcs/range.toml");
     rcs_simulate::run(&scenario, dir.path()).unwrap();
     let scene = rcs_simulate::read_scene(&scenario).unwrap();
     let result = process(dir.path(), &scene);
@@ -83,7 +86,7 @@ fn simulated_sphere_is_measured_within_half_a_db() {
 #[test]
 fn simulated_plate_follows_physical_optics() {
     let text = std::fs::read_to_string(
-        Path::new(env!("CARGO_MANIFEST_DIR")).join("scenarios/rcs-range.toml"),
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("scenarios/rcs/range.toml"),
     )
     .unwrap();
     let mut scene: RcsScene = toml::from_str(&text).unwrap();
@@ -121,7 +124,7 @@ fn simulated_plate_follows_physical_optics() {
 fn bad_scenes_are_refused_naming_the_file() {
     let dir = tempfile::tempdir().unwrap();
     let good = std::fs::read_to_string(
-        Path::new(env!("CARGO_MANIFEST_DIR")).join("scenarios/rcs-range.toml"),
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("scenarios/rcs/range.toml"),
     )
     .unwrap();
     for (what, text) in [
@@ -140,4 +143,60 @@ fn bad_scenes_are_refused_naming_the_file() {
         let err = format!("{:#}", rcs_simulate::read_scene(&p).unwrap_err());
         assert!(err.contains("scene.toml"), "{what}: {err}");
     }
+}
+
+/// One antenna (S11, 1-port files): the same measurements written as `.s1p` give the same
+/// RCS as the 2-port files' S21 (the reader takes S11 from 1-port files).
+#[test]
+fn one_port_files_give_the_same_rcs() {
+    let scenario = Path::new(env!("CARGO_MANIFEST_DIR")).join("scenarios/rcs/range.toml");
+    let mut scene = rcs_simulate::read_scene(&scenario).unwrap();
+    scene.separation_m = 0.0; // one antenna: its mismatch stands where the coupling was
+    let (two, one) = (tempfile::tempdir().unwrap(), tempfile::tempdir().unwrap());
+    for (name, bytes) in rcs_simulate::scan_files(&scene).unwrap() {
+        let p = two.path().join(&name);
+        std::fs::create_dir_all(p.parent().unwrap()).unwrap();
+        std::fs::write(&p, &bytes).unwrap();
+        let text = String::from_utf8(bytes).unwrap();
+        let (name, text) = if let Some(stem) = name.strip_suffix(".s2p") {
+            // f S11 S21 S12 S22 → f S11 with S11 := S21.
+            let lines: Vec<String> = text
+                .lines()
+                .map(|l| {
+                    let v: Vec<&str> = l.split_whitespace().collect();
+                    if l.starts_with(['!', '#']) || v.len() < 9 {
+                        l.to_string()
+                    } else {
+                        format!("{} {} {}", v[0], v[3], v[4])
+                    }
+                })
+                .collect();
+            (format!("{stem}.s1p"), lines.join("\n") + "\n")
+        } else {
+            (name, text.replace(".s2p", ".s1p"))
+        };
+        let p = one.path().join(name);
+        std::fs::create_dir_all(p.parent().unwrap()).unwrap();
+        std::fs::write(p, text).unwrap();
+    }
+    let read = |dir: &Path, ext: &str| {
+        let (t, b) = (dir.join("target.csv"), dir.join("background.csv"));
+        let r = dir.join(format!("reference.{ext}"));
+        let rb = dir.join(format!("reference_background.{ext}"));
+        let files = RcsFiles {
+            target: &t,
+            background: Some(&b),
+            reference: &r,
+            reference_background: Some(&rb),
+        };
+        let sphere = ReferenceTarget::Sphere { diameter_m: 0.3 };
+        rcs_input::read(&files, sphere).unwrap()
+    };
+    let (a, b) = (read(two.path(), "s2p"), read(one.path(), "s1p"));
+    assert_eq!(a, b);
+    let result = process(one.path(), &scene);
+    let sphere = ReferenceTarget::Sphere { diameter_m: 0.2 };
+    let err = worst(&result, |_, f| 10.0 * sphere.rcs_m2(f).unwrap().log10());
+    println!("one antenna, 1-port files: worst error {err:.3} dB");
+    assert!(err < 0.5, "{err}");
 }

@@ -6,7 +6,7 @@ use std::path::PathBuf;
 /// Options of `sweepgate simulate-rcs`.
 #[derive(clap::Args, Debug, Clone)]
 pub struct Args {
-    /// The RCS scene (TOML; see host-sim/scenarios/rcs-range.toml).
+    /// The RCS scene (TOML; see host-sim/scenarios/rcs/range.toml).
     #[arg(long)]
     pub scenario: PathBuf,
     /// Folder for the measurements (target.csv, background.csv, reference.s2p,
