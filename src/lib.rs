@@ -18,6 +18,7 @@ pub mod grid;
 pub mod metrics;
 pub mod plan;
 pub mod pump;
+pub mod rcs;
 pub mod scan;
 pub mod track;
 pub mod window;

@@ -39,6 +39,15 @@ enum Command {
     Replay(replay::Args),
     /// Gate saved sweeps (a manifest of Touchstone files or a recording) and write the report.
     Process(process::Args),
+    /// Radar cross section of a target on the turntable: background subtraction, a gate
+    /// around the target zone, calibration against a reference target; dBsm and images.
+    Rcs(sweepgate_host::cli::rcs::Args),
+    /// Plan an RCS measurement: far field of the target zone, down-range resolution, the
+    /// zone's gate and its clearance from the coupling and the mount.
+    PlanRcs(sweepgate_host::cli::plan_rcs::Args),
+    /// Simulate an RCS range (targets, mount, coupling, clutter, noise) and write the target,
+    /// background and reference measurements as Touchstone files with manifests.
+    SimulateRcs(sweepgate_host::cli::simulate_rcs::Args),
     /// Show a board's preview stream (TCP HOST:PORT, or a serial device or file).
     View(view::Args),
 }
@@ -56,6 +65,9 @@ fn main() {
         Command::Replay(a) => replay::run(a),
         Command::View(a) => view::run(a),
         Command::Process(a) => process::run(a),
+        Command::Rcs(a) => sweepgate_host::cli::rcs::run(a),
+        Command::PlanRcs(a) => sweepgate_host::cli::plan_rcs::run(a),
+        Command::SimulateRcs(a) => sweepgate_host::cli::simulate_rcs::run(a),
     };
     if let Err(e) = result {
         eprintln!("error: {e:#}");

@@ -7,6 +7,7 @@ mod cuts;
 mod gate;
 mod plan;
 mod pump;
+mod rcs;
 mod scan;
 mod wire;
 
@@ -15,5 +16,6 @@ pub use self::cuts::*;
 pub use self::gate::*;
 pub use self::plan::*;
 pub use self::pump::*;
+pub use self::rcs::*;
 pub use self::scan::*;
 pub use self::wire::*;

@@ -51,6 +51,9 @@ use sweepgate::{
     wire::block::{emit, BlockConfig, BlockDecoder, ByteOrder, DecodeEvent as BlockEvent, Format},
 };
 
+#[cfg(feature = "rcs-capture")]
+mod rcs;
+
 #[cfg(feature = "gate-figures")]
 const ZERO: Complex32 = Complex32::new(0.0, 0.0);
 
@@ -156,7 +159,10 @@ fn two_path<const M: usize>(grid: &Grid, raw: &mut [Complex32; M]) {
 enum Failure {
     Gate(sweepgate::error::GateError),
     Grid(sweepgate::error::GridError),
-    Mismatch { m: usize, f: usize },
+    Mismatch {
+        m: usize,
+        f: usize,
+    },
     NoCapture,
     CaptureEnds,
     Capture(CaptureError),
@@ -167,6 +173,12 @@ enum Failure {
     Taken,
     Decode,
     ScanCounts,
+    #[cfg(feature = "rcs-capture")]
+    RcsEnds,
+    #[cfg(feature = "rcs-capture")]
+    RcsFormat,
+    #[cfg(feature = "rcs-capture")]
+    Rcs(sweepgate::error::RcsError),
 }
 
 impl From<ReplayError<core::convert::Infallible, embedded_io::ErrorKind>> for Failure {
@@ -202,6 +214,12 @@ impl Failure {
             Failure::Taken => "the board loop's storage was already taken",
             Failure::Decode => "the block decoder did not return the sweep it was given",
             Failure::ScanCounts => "the scan measurement did not bin and close as planned",
+            #[cfg(feature = "rcs-capture")]
+            Failure::RcsEnds => "rcs.bin ends inside a field",
+            #[cfg(feature = "rcs-capture")]
+            Failure::RcsFormat => "rcs.bin is not an RCS capture for this board",
+            #[cfg(feature = "rcs-capture")]
+            Failure::Rcs(_) => "the RCS chain refused the capture's data",
         }
     }
 }
@@ -899,6 +917,8 @@ fn run(c: &Counter) -> Result<(), Failure> {
         core::mem::size_of::<BoardPump>(),
         core::mem::size_of::<sweepgate::scan::Scan<1024, 8, 361>>()
     );
+    #[cfg(feature = "rcs-capture")]
+    rcs::case(c)?;
     Ok(())
 }
 

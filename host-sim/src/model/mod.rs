@@ -7,6 +7,8 @@
 pub mod antennas;
 pub mod geometry;
 pub mod load;
+pub mod rcs_scene;
+pub mod rcs_targets;
 pub mod room;
 pub mod scenario;
 pub mod simulator;
