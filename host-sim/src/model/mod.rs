@@ -5,6 +5,7 @@
 //! the ones before it.
 
 pub mod antennas;
+pub mod coords;
 pub mod geometry;
 pub mod load;
 pub mod room;
