@@ -8,6 +8,7 @@ pub mod antennas;
 pub mod coords;
 pub mod geometry;
 pub mod load;
+pub mod polarised;
 pub mod room;
 pub mod scenario;
 pub mod simulator;

@@ -3,6 +3,7 @@
 //! gating of saved sweeps, truth, simulation runs, the demo and link captures.
 
 pub mod capture;
+pub mod cuts;
 pub mod data_gate;
 pub mod demo;
 pub mod engine;
@@ -14,6 +15,7 @@ pub mod replay;
 pub mod self_error;
 pub mod setup;
 pub mod simulate;
+pub mod sphere;
 pub mod stream;
 pub mod summary;
 pub mod transform;
