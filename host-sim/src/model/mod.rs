@@ -6,6 +6,7 @@
 
 pub mod antennas;
 pub mod coords;
+pub mod fresnel;
 pub mod geometry;
 pub mod load;
 pub mod polarised;
