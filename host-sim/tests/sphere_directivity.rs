@@ -5,7 +5,7 @@ use num_complex::Complex64;
 use sweepgate::plan::SPEED_OF_LIGHT_M_S;
 use sweepgate_host::model::polarised::PolarisedAntenna;
 use sweepgate_host::pipeline::cuts::SpherePoint;
-use sweepgate_host::pipeline::sphere::{Directivity, SphereGrid};
+use sweepgate_host::pipeline::sphere::{recommended_step_deg, Directivity, SphereGrid};
 
 const F_HZ: f64 = 10e9;
 
@@ -41,14 +41,9 @@ fn directivity(antenna: &PolarisedAntenna, step_deg: f64) -> Directivity {
         .unwrap()
 }
 
-/// The README's sampling: Δ ≤ λ/(4·r₀) radians, at most 10°, 180°/Δ a multiple of 4.
-fn recommended_step_deg(r0_m: f64) -> f64 {
-    let limit = (lambda_m() / (4.0 * r0_m)).to_degrees().min(10.0);
-    let mut n = 4;
-    while 180.0 / n as f64 > limit {
-        n += 4;
-    }
-    180.0 / n as f64
+/// The README's sampling (pipeline::sphere::recommended_step_deg) at the test frequency.
+fn recommended(r0_m: f64) -> f64 {
+    recommended_step_deg(r0_m, F_HZ)
 }
 
 #[test]
@@ -64,7 +59,7 @@ fn dipoles_match_balanis() {
         axis: [1.0, 0.0, 0.0],
     };
     // Each has r₀ ≤ λ/4: the recommended step is the 10° cap, 9° on the grid.
-    let step = recommended_step_deg(lambda_m() / 4.0);
+    let step = recommended(lambda_m() / 4.0);
     assert_eq!(step, 9.0);
     for (a, want, name) in [(short, 1.761, "short"), (half, 2.151, "half-wave")] {
         let d = directivity(&a, step);
@@ -92,7 +87,7 @@ fn a_large_uniform_aperture_matches_4_pi_a_b_over_lambda_squared() {
         cross_polar: Complex64::default(),
     };
     let want = 10.0 * (4.0 * std::f64::consts::PI * a * b / lambda_m().powi(2)).log10();
-    let step = recommended_step_deg(a.hypot(b) / 2.0);
+    let step = recommended(a.hypot(b) / 2.0);
     assert_eq!(step, 1.0);
     let d = directivity(&ant, step);
     let err = d.sampling_error_db.unwrap();

@@ -332,6 +332,30 @@ impl SphereGrid {
     }
 }
 
+/// The recommended sampling step (module notes) for an AUT inside a sphere of radius
+/// `r0_m` at `f_hz`: the largest 180°/N, N a multiple of 4, not above λ/(4·r₀) radians nor
+/// 10°.
+///
+/// ```
+/// use sweepgate_host::pipeline::sphere::recommended_step_deg;
+/// // A 20λ × 20λ aperture at 10 GHz (r₀ = 14.1λ): λ/(4r₀) = 1.01°, so 1°.
+/// let lambda = 299_792_458.0 / 10e9;
+/// assert_eq!(recommended_step_deg(20.0 * lambda * 2f64.sqrt() / 2.0, 10e9), 1.0);
+/// ```
+pub fn recommended_step_deg(r0_m: f64, f_hz: f64) -> f64 {
+    let lambda = sweepgate::plan::SPEED_OF_LIGHT_M_S / f_hz;
+    let limit = if r0_m > 0.0 {
+        (lambda / (4.0 * r0_m)).to_degrees().min(10.0)
+    } else {
+        10.0
+    };
+    let mut n = 4usize;
+    while 180.0 / n as f64 > limit && n < 180 * 64 {
+        n += 4;
+    }
+    180.0 / n as f64
+}
+
 /// The distinct frequencies of `points`, ascending.
 pub fn frequencies(points: &[SpherePoint]) -> Vec<f64> {
     let mut f: Vec<f64> = points.iter().map(|p| p.frequency_hz).collect();
@@ -405,6 +429,30 @@ pub fn cross_polar(points: &[SpherePoint], frequency_hz: f64) -> Option<CrossPol
         cross_peak_db: 10.0 * (cross_peak / co_peak).log10(),
         main_beam_samples: beam.len(),
     })
+}
+
+/// Cross-polar discrimination of each cut plane at `f_hz`: (φ of the plane in 0…180°, its
+/// figures), the plane holding the samples at φ and φ + 180°.
+pub fn cross_polar_per_cut(points: &[SpherePoint], f_hz: f64) -> Vec<(f64, CrossPolar)> {
+    let mut planes: Vec<f64> = points
+        .iter()
+        .map(|p| canonical(p.theta_deg, p.phi_deg).1.rem_euclid(180.0))
+        .collect();
+    planes = distinct(planes);
+    planes
+        .into_iter()
+        .filter_map(|plane| {
+            let cut: Vec<SpherePoint> = points
+                .iter()
+                .copied()
+                .filter(|p| {
+                    let phi = canonical(p.theta_deg, p.phi_deg).1.rem_euclid(180.0);
+                    (phi - plane).abs() < ANGLE_TOLERANCE_DEG
+                })
+                .collect();
+            cross_polar(&cut, f_hz).map(|x| (plane, x))
+        })
+        .collect()
 }
 
 /// Gain by substitution: the AUT's peak trace `aut_peak` against a reference antenna's
@@ -544,5 +592,19 @@ mod tests {
         assert_eq!(x.main_beam_samples, 46);
         assert!((x.cross_peak_db - (-40.0)).abs() < 1e-9);
         assert!(cross_polar(&pts, 1e9).is_none());
+        // Per cut: the same samples make one plane, φ = 0.
+        let cuts = cross_polar_per_cut(&pts, 3e9);
+        assert_eq!(cuts.len(), 1);
+        assert_eq!(cuts[0].0, 0.0);
+        assert_eq!(cuts[0].1, x);
+    }
+
+    #[test]
+    fn the_recommended_step_follows_the_aut_size() {
+        let lambda = sweepgate::plan::SPEED_OF_LIGHT_M_S / 10e9;
+        // λ/4 (a half-wave dipole): the 10° cap, 9° on the grid.
+        assert_eq!(recommended_step_deg(lambda / 4.0, 10e9), 9.0);
+        // r₀ = 2.5λ: λ/(4r₀) = 5.73°, so 180°/32 = 5.625° (5° is finer still).
+        assert_eq!(recommended_step_deg(2.5 * lambda, 10e9), 5.625);
     }
 }

@@ -8,7 +8,9 @@ use serde_json::{json, Value};
 
 use crate::output::report::sphere_plot::{colour_map_svg, cuts_svg, ColourMap, CutCurve};
 use crate::pipeline::cuts::SpherePoint;
-use crate::pipeline::sphere::{cross_polar, frequencies, SphereGrid, QUADRATURE};
+use crate::pipeline::sphere::{
+    cross_polar, cross_polar_per_cut, frequencies, SphereGrid, QUADRATURE,
+};
 use crate::units::{db, FLOOR_DB};
 
 /// Angles closer than this are the same, degrees.
@@ -180,7 +182,8 @@ fn finite_or_null(v: f64) -> Value {
 /// The sphere figures per frequency for `summary.json`: `directivity_dbi` (with the
 /// quadrature, steps, peak direction and `sampling_error_db`; `null` with the reason when
 /// the samples do not make a sphere grid) and the cross-polar discrimination
-/// (`xpd_on_axis_db`, `xpd_main_beam_db`, `cross_peak_db`; `null` when infinite).
+/// (`xpd_on_axis_db`, `xpd_main_beam_db`, `cross_peak_db`; `null` when infinite), over
+/// all samples and per cut plane (`cuts`).
 pub fn sphere_summary(points: &[SpherePoint]) -> Value {
     let rows: Vec<Value> = frequencies(points)
         .into_iter()
@@ -207,6 +210,17 @@ pub fn sphere_summary(points: &[SpherePoint]) -> Value {
                 row["xpd_main_beam_db"] = finite_or_null(x.main_beam_db);
                 row["cross_peak_db"] = finite_or_null(x.cross_peak_db);
             }
+            row["cuts"] = cross_polar_per_cut(points, f)
+                .into_iter()
+                .map(|(plane, x)| {
+                    json!({
+                        "phi_deg": plane,
+                        "xpd_on_axis_db": x.on_axis_db.map_or(Value::Null, finite_or_null),
+                        "xpd_main_beam_db": finite_or_null(x.main_beam_db),
+                        "cross_peak_db": finite_or_null(x.cross_peak_db),
+                    })
+                })
+                .collect();
             row
         })
         .collect();
