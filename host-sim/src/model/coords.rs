@@ -268,6 +268,54 @@ pub fn from_co_cross_third(
     (co * c[0] + cross * x[0], co * c[1] + cross * x[1])
 }
 
+/// The far field (E_θ, E_φ) from its (co, cross) components under `definition`, the
+/// inverse of [`co_cross`]; `None` where the definition's two vectors are parallel (the
+/// first definition on θ = 90°, where x̂ and ŷ both project onto φ̂).
+pub fn field_from_co_cross(
+    definition: Definition,
+    reference: Reference,
+    theta_deg: f64,
+    phi_deg: f64,
+    co: Complex64,
+    cross: Complex64,
+) -> Option<(Complex64, Complex64)> {
+    let (c, x) = co_cross_vectors(definition, reference, theta_deg, phi_deg);
+    let det = c[0] * x[1] - c[1] * x[0];
+    if det.abs() < 1e-12 {
+        return None;
+    }
+    Some((
+        (co * x[1] - cross * c[1]) / det,
+        (cross * c[0] - co * x[0]) / det,
+    ))
+}
+
+/// (co, cross) measured under one definition (e.g. Ludwig's second, what an
+/// azimuth-over-elevation positioner with a fixed probe measures natively) in another
+/// (e.g. the third, the report's default); `None` where `from` cannot be inverted.
+///
+/// ```
+/// use num_complex::Complex64;
+/// use sweepgate_host::model::coords::{convert, Definition, Reference};
+/// let (co, cross) = (Complex64::new(1.0, 0.0), Complex64::new(0.0, 0.0));
+/// // On the principal planes the second and third definitions agree.
+/// let (c3, x3) = convert(Definition::SecondElevationOverAzimuth, Definition::Third,
+///     Reference::X, 30.0, 0.0, co, cross).unwrap();
+/// assert!((c3 - co).norm() < 1e-12 && x3.norm() < 1e-12);
+/// ```
+pub fn convert(
+    from: Definition,
+    to: Definition,
+    reference: Reference,
+    theta_deg: f64,
+    phi_deg: f64,
+    co: Complex64,
+    cross: Complex64,
+) -> Option<(Complex64, Complex64)> {
+    let (et, ep) = field_from_co_cross(from, reference, theta_deg, phi_deg, co, cross)?;
+    Some(co_cross(to, reference, theta_deg, phi_deg, et, ep))
+}
+
 /// The angle in radians between two directions, atan2(|a × b|, a · b) (accurate near 0
 /// and π, where acos is not).
 pub fn angle_between(a: Vec3, b: Vec3) -> f64 {
@@ -381,5 +429,37 @@ mod tests {
         let (et, ep) = from_co_cross_third(Reference::X, 50.0, 70.0, one, two);
         let (co, cross) = co_cross(Definition::Third, Reference::X, 50.0, 70.0, et, ep);
         assert!((co - one).norm() < 1e-12 && (cross - two).norm() < 1e-12);
+    }
+
+    #[test]
+    fn every_definition_converts_into_every_other() {
+        let defs = [
+            Definition::First,
+            Definition::SecondAzimuthOverElevation,
+            Definition::SecondElevationOverAzimuth,
+            Definition::Third,
+        ];
+        let (et, ep) = (Complex64::new(0.4, -0.3), Complex64::new(-0.1, 0.8));
+        for &(t, p) in &[(20.0, 30.0), (70.0, 100.0), (130.0, 250.0)] {
+            for reference in [Reference::X, Reference::Y] {
+                for from in defs {
+                    let (c, x) = co_cross(from, reference, t, p, et, ep);
+                    let (bt, bp) = field_from_co_cross(from, reference, t, p, c, x).unwrap();
+                    assert!((bt - et).norm() < 1e-12 && (bp - ep).norm() < 1e-12);
+                    for to in defs {
+                        let want = co_cross(to, reference, t, p, et, ep);
+                        let got = convert(from, to, reference, t, p, c, x).unwrap();
+                        assert!((got.0 - want.0).norm() < 1e-12, "{from:?} → {to:?}");
+                        assert!((got.1 - want.1).norm() < 1e-12, "{from:?} → {to:?}");
+                    }
+                }
+            }
+        }
+        // The first definition degenerates on θ = 90° (x̂ and ŷ both project onto φ̂
+        // there, as cos θ = 0 removes their θ̂ parts).
+        let one = Complex64::new(1.0, 0.0);
+        assert!(
+            field_from_co_cross(Definition::First, Reference::X, 90.0, 45.0, one, one).is_none()
+        );
     }
 }
