@@ -10,7 +10,8 @@
 //! same gate (the cross-polar trace is gated with the co-polar trace's gate). The gated
 //! values make sphere samples for `pipeline::sphere`; they must follow the truth (co
 //! within 0.5 dB where it is at least −25 dB of its peak, cross within 1 dB where it is at
-//! least −30 dB of the co-polar peak) and give the directivity within 0.1 dB.
+//! least −30 dB of the co-polar peak) and give the directivity within 0.1 dB; with the
+//! model's reference antenna (a substitution measurement) they give its gain within 0.1 dB.
 //!
 //! Python: `SWEEPGATE_ROOMS_PYTHON` when set (CI's venv), else `python3` when it imports
 //! numpy, else a venv made under the target folder (`rooms-venv`, numpy from PyPI). When
@@ -24,7 +25,9 @@ use num_complex::Complex64;
 use sweepgate_host::pipeline::cuts::SpherePoint;
 use sweepgate_host::pipeline::options::GateOptions;
 use sweepgate_host::pipeline::process::{process_manifest, resolve, Options};
-use sweepgate_host::pipeline::sphere::{cross_polar, SphereGrid};
+use sweepgate_host::pipeline::sphere::{
+    cross_polar, efficiency, substitution_gain_dbi, SphereGrid,
+};
 use sweepgate_host::pipeline::sphere_report::sphere_files;
 
 fn target_dir() -> PathBuf {
@@ -226,7 +229,14 @@ fn gated_sphere_data_give_the_free_space_patterns_and_the_directivity() {
     assert_eq!(read_csv(&dir.path().join("manifest.csv")).len(), 36 * 72);
     let truth = read_truth(dir.path());
     check_patterns(&points, &raw, &truth);
-    check_directivity(&points, &truth, &truth_json);
+    let reference: HashMap<i64, Complex64> = read_csv(&dir.path().join("reference.csv"))
+        .iter()
+        .map(|r| {
+            let f = (num(r, "frequency_hz") / 1e6).round() as i64;
+            (f, Complex64::new(num(r, "re"), num(r, "im")))
+        })
+        .collect();
+    check_directivity(&points, &truth, &truth_json, &reference);
     // The report pieces take the same samples.
     let files = sphere_files(&points, "sphere room").unwrap();
     assert_eq!(files.len(), 1 + 2 * 3);
@@ -296,7 +306,12 @@ fn check_patterns(points: &[SpherePoint], raw: &[SpherePoint], truth: &Truth) {
     assert!(worst_cross < 1.0, "cross-polar worst {worst_cross} dB");
 }
 
-fn check_directivity(points: &[SpherePoint], truth: &Truth, truth_json: &serde_json::Value) {
+fn check_directivity(
+    points: &[SpherePoint],
+    truth: &Truth,
+    truth_json: &serde_json::Value,
+    reference: &HashMap<i64, Complex64>,
+) {
     let freqs = truth_json["frequencies_hz"].as_array().unwrap();
     let want = truth_json["directivity_dbi"].as_array().unwrap();
     for (f, w) in freqs.iter().zip(want) {
@@ -333,6 +348,46 @@ fn check_directivity(points: &[SpherePoint], truth: &Truth, truth_json: &serde_j
             x.main_beam_db
         );
         assert!((d.directivity_dbi - w).abs() < 0.1, "{f} Hz: {d:?} vs {w}");
+        check_gain(points, f, d.directivity_dbi, reference, truth_json);
         assert!((dt.directivity_dbi - w).abs() < d.sampling_error_db.unwrap().max(0.01));
     }
+}
+
+/// Gain by substitution from the gated boresight sample and the reference antenna's S21,
+/// against the model's gain; the efficiency G/D against the model's.
+fn check_gain(
+    points: &[SpherePoint],
+    f: f64,
+    directivity_dbi: f64,
+    reference: &HashMap<i64, Complex64>,
+    truth_json: &serde_json::Value,
+) {
+    let boresight = points
+        .iter()
+        .find(|p| p.theta_deg == 0.0 && (p.frequency_hz - f).abs() < 1.0)
+        .unwrap();
+    // Total (co and cross) at boresight, as one trace of the same magnitude.
+    let aut = Complex64::new(
+        (boresight.co.norm_sqr() + boresight.cross.norm_sqr()).sqrt(),
+        0.0,
+    );
+    let reference_gain = truth_json["reference_gain_dbi"].as_f64().unwrap();
+    let g = substitution_gain_dbi(aut, reference[&((f / 1e6).round() as i64)], reference_gain);
+    let want = truth_json["gain_dbi"].as_f64().unwrap();
+    let want_d = truth_json["directivity_dbi"][truth_json["frequencies_hz"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .position(|x| (x.as_f64().unwrap() - f).abs() < 1.0)
+        .unwrap()]
+    .as_f64()
+    .unwrap();
+    let eff = efficiency(g, directivity_dbi);
+    let want_eff = efficiency(want, want_d);
+    println!("{f} Hz: gain by substitution {g:.3} dBi (model {want:.3} dBi), efficiency {eff:.4} (model {want_eff:.4})");
+    assert!((g - want).abs() < 0.1, "{f} Hz: gain {g} vs {want}");
+    assert!(
+        (eff - want_eff).abs() < 0.03,
+        "{f} Hz: efficiency {eff} vs {want_eff}"
+    );
 }

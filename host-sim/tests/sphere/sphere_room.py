@@ -47,7 +47,10 @@ Writes into OUT:
 - `truth.csv` (`theta_deg,phi_deg,frequency_hz,co_re,co_im,cross_re,cross_im`): the direct
   path alone (free-space truth) at the pattern frequencies;
 - `truth.json`: the AUT's directivity at the pattern frequencies from its own pattern on a
-  fine grid (0.25 degree midpoint rule in theta and phi), and the sampling used.
+  fine grid (0.25 degree midpoint rule in theta and phi), its gain (the field is scaled to
+  EFFICIENCY times the 10 GHz directivity at boresight), and the sampling used;
+- `reference.csv` (`frequency_hz,re,im`): S21 of a reference antenna of REFERENCE_DBI gain
+  in the AUT's place, direct path alone (the substitution measurement).
 
 Usage: sphere_room.py OUT_DIR
 """
@@ -70,6 +73,13 @@ PLANES = [(2, 0.0, 4.0, 0.01), (1, 2.0, 6.0, 0.05), (0, -2.0, 3.0, 0.0)]
 F_START, F_STOP, POINTS = 8e9, 12e9, 101
 PATTERN_HZ = [9.6e9, 10e9, 10.4e9]
 STEP_DEG = 5.0
+# The AUT's field is scaled so that its boresight gain is EFFICIENCY times its directivity at
+# 10 GHz (the same scale at every frequency: its gain is then that value throughout).
+EFFICIENCY = 0.8
+# The reference antenna of the substitution measurement: gain REFERENCE_DBI at boresight,
+# co-polarised, measured on the direct path alone.
+REFERENCE_DBI = 15.0
+SCALE = [1.0]
 
 
 def aperture_ft(kx, ky):
@@ -108,7 +118,7 @@ def aut_field(d, f):
     kx = k * np.sin(theta) * np.cos(phi)
     ky = k * np.sin(theta) * np.sin(phi)
     fco, fcr = aperture_ft(kx, ky)
-    g = (1 + np.cos(theta)) / 2
+    g = SCALE[0] * (1 + np.cos(theta)) / 2
     return (g * fco)[..., None] * co + (g * fcr)[..., None] * cr
 
 
@@ -242,6 +252,9 @@ def directivity(f):
 def main():
     out = sys.argv[1]
     os.makedirs(os.path.join(out, "s3p"), exist_ok=True)
+    directivities = [directivity(x) for x in PATTERN_HZ]
+    gain = EFFICIENCY * 10 ** (directivities[PATTERN_HZ.index(10e9)] / 10)
+    SCALE[0] = np.sqrt(gain)  # boresight |E|^2 is 1 before scaling
     f = np.linspace(F_START, F_STOP, POINTS)
     cuts = np.arange(0.0, 180.0, STEP_DEG)
     angles = np.arange(-180.0 + STEP_DEG, 180.0 + 1e-9, STEP_DEG)
@@ -276,9 +289,22 @@ def main():
                     f"{theta:g},{phi:g},{fj:.0f},{tco[k, j].real:.10e},{tco[k, j].imag:.10e},"
                     f"{tcr[k, j].real:.10e},{tcr[k, j].imag:.10e}\n"
                 )
+    probe = PROBE - AUT
+    r = np.linalg.norm(probe)
+    with open(os.path.join(out, "reference.csv"), "w") as fh:
+        fh.write("frequency_hz,re,im\n")
+        for fj in PATTERN_HZ:
+            s21 = (
+                np.sqrt(10 ** (REFERENCE_DBI / 10))
+                * C / fj / (4 * np.pi * r)
+                * np.exp(-2j * np.pi * fj * r / C)
+            )
+            fh.write(f"{fj:.0f},{s21.real:.10e},{s21.imag:.10e}\n")
     truth = {
         "frequencies_hz": PATTERN_HZ,
-        "directivity_dbi": [directivity(x) for x in PATTERN_HZ],
+        "directivity_dbi": directivities,
+        "gain_dbi": 10 * np.log10(gain),
+        "reference_gain_dbi": REFERENCE_DBI,
         "step_deg": STEP_DEG,
         "cut_planes_deg": cuts.tolist(),
     }
