@@ -22,7 +22,7 @@ use std::path::{Path, PathBuf};
 use std::process::Command;
 
 use num_complex::Complex64;
-use sweepgate_host::pipeline::cuts::SpherePoint;
+use sweepgate_host::pipeline::cuts::{cut_samples, SpherePoint};
 use sweepgate_host::pipeline::options::GateOptions;
 use sweepgate_host::pipeline::process::{process_manifest, resolve, Options};
 use sweepgate_host::pipeline::sphere::{
@@ -166,38 +166,18 @@ fn gate_cut(manifest: &Path) -> CutValues {
     out
 }
 
-/// Sphere samples from a cut plane's gated values (the poles of each cut serve both
-/// halves of its plane).
+/// Sphere samples from a cut plane's gated values (`cuts::cut_samples`), and the raw
+/// co-polar values at the same (θ, φ).
 fn to_sphere(cut_deg: f64, gated: &CutValues, raw: &mut Vec<SpherePoint>) -> Vec<SpherePoint> {
     let mut v = Vec::new();
     for &(a, f, co, cross, raw_co) in gated {
-        let (theta_deg, phi_deg) = if a >= 0.0 {
-            (a, cut_deg)
-        } else {
-            (-a, cut_deg + 180.0)
-        };
-        raw.push(SpherePoint {
-            theta_deg,
-            phi_deg,
-            frequency_hz: f,
+        let points = cut_samples(cut_deg, a, f, co, cross);
+        raw.extend(points.iter().map(|p| SpherePoint {
             co: raw_co,
             cross: Complex64::default(),
-        });
-        let mut push = |theta_deg, phi_deg| {
-            v.push(SpherePoint {
-                theta_deg,
-                phi_deg,
-                frequency_hz: f,
-                co,
-                cross,
-            })
-        };
-        if a >= 0.0 {
-            push(a, cut_deg);
-        }
-        if a <= 0.0 || a >= 180.0 - 1e-9 {
-            push(a.abs(), cut_deg + 180.0);
-        }
+            ..*p
+        }));
+        v.extend(points);
     }
     v
 }
