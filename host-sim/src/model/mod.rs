@@ -5,8 +5,11 @@
 //! the ones before it.
 
 pub mod antennas;
+pub mod coords;
+pub mod fresnel;
 pub mod geometry;
 pub mod load;
+pub mod polarised;
 pub mod rcs_scene;
 pub mod rcs_targets;
 pub mod room;

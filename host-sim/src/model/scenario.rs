@@ -18,12 +18,12 @@
 //! | top level | `name`, `description` |
 //! | `[sweep]` | `start_hz`, `stop_hz`, `points`, `sweep_duration_s`, `sweep_gap_s`, `noise_db` |
 //! | `[range]` | `distance_m`, `aut_height_m`, `probe_height_m`, `cable_delay_s` |
-//! | `[[planes]]` | `name`, `axis` (`x`/`y`/`z`), `position_m`, `reflection` |
+//! | `[[planes]]` | `name`, `axis` (`x`/`y`/`z`), `position_m`, `reflection`, `material` (`relative_permittivity`, `conductivity_s_m`) |
 //! | `[[scatterers]]` | `name`, `position_m = [x, y, z]`, `rcs_m2` |
 //! | `[aut]`, `[probe]` | `kind` = `isotropic`, `aperture`, `dipole`, `cos_power`, `array`, and its fields |
 //! | `[positioner]` | `mode` = `continuous` or `step`, `start_deg`, `stop_deg`, `speed_deg_s`, `acceleration_deg_s2`, `step_deg`, `settle_s`, `sweeps_per_step`, `counts_per_turn`, `sample_interval_s`, `timing_jitter_s` |
 //! | `[pattern]` | `frequencies_hz`, `bin_width_deg` |
-//! | `[simulation]` | `second_order`, `seed` |
+//! | `[simulation]` | `second_order`, `seed`, `aut_polarisation_deg`, `probe_polarisation_deg` |
 //! | `[plan]` | `aut_size_m`, `aut_fractional_bandwidth`, `longest_path_m`, `band_window` (all optional; read by `sweepgate plan`) |
 
 use std::fmt;
@@ -170,8 +170,24 @@ pub struct PlaneSpec {
     pub axis: AxisName,
     /// Value of that coordinate, m.
     pub position_m: f64,
-    /// Field reflection coefficient, −1…1 (−1: bare metal).
+    /// Field reflection coefficient, −1…1 (−1: bare metal). The planner's figure; the
+    /// simulator's too unless `material` is given.
     pub reflection: f64,
+    /// The plane's material: the simulator then reflects each ray with the Fresnel TE and
+    /// TM coefficients of its incidence angle (see [`crate::model::fresnel`]).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub material: Option<Material>,
+}
+
+/// `material` of a plane: a homogeneous half-space.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Material {
+    /// Relative permittivity ε' (≥ 1; concrete about 5, dry ground 4…15).
+    pub relative_permittivity: f64,
+    /// Conductivity σ, S/m (≥ 0). Absent: 0.
+    #[serde(default)]
+    pub conductivity_s_m: f64,
 }
 
 impl PlaneSpec {
@@ -402,6 +418,16 @@ pub struct Simulation {
     /// Seed of the noise and jitter generator (the command line's `--seed` wins).
     #[serde(default)]
     pub seed: u64,
+    /// The AUT's polarisation angle in its aperture (its own y–z plane), degrees from
+    /// horizontal (0: along y, 90: along z); a dipole's is its wire. Setting this or
+    /// `probe_polarisation_deg`, or giving a plane a `material`, makes the simulator couple
+    /// field vectors (see [`crate::model::room`]). Absent: 0.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub aut_polarisation_deg: Option<f64>,
+    /// The probe's polarisation angle from horizontal (room y) in the plane across the
+    /// range, degrees (0: horizontal, 90: vertical). Absent: 0.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub probe_polarisation_deg: Option<f64>,
 }
 
 /// `[plan]`: figures only the planner (`sweepgate plan`) reads; every field is optional.
@@ -576,6 +602,20 @@ impl Scenario {
         self.check_range()?;
         self.check_planes()?;
         self.check_scatterers()?;
+        for (name, v) in [
+            (
+                "simulation.aut_polarisation_deg",
+                self.simulation.aut_polarisation_deg,
+            ),
+            (
+                "simulation.probe_polarisation_deg",
+                self.simulation.probe_polarisation_deg,
+            ),
+        ] {
+            if let Some(v) = v {
+                finite(name, v)?;
+            }
+        }
         self.aut.validate("aut")?;
         self.probe.validate("probe")?;
         self.plan.validate()?;
@@ -620,6 +660,19 @@ impl Scenario {
             let g = finite(&field("reflection"), pl.reflection)?;
             if !(-1.0..=1.0).contains(&g) {
                 return Err(bad(field("reflection"), "must be within −1…1"));
+            }
+            if let Some(m) = &pl.material {
+                let eps = finite(
+                    &field("material.relative_permittivity"),
+                    m.relative_permittivity,
+                )?;
+                if eps < 1.0 {
+                    return Err(bad(
+                        field("material.relative_permittivity"),
+                        "must be at least 1",
+                    ));
+                }
+                non_negative(&field("material.conductivity_s_m"), m.conductivity_s_m)?;
             }
             if pl.plane().bounce_point(&a, &p).is_none() {
                 return Err(bad(

@@ -29,6 +29,7 @@
 use std::path::Path;
 
 use anyhow::{bail, Context};
+use num_complex::Complex64;
 use sweepgate::grid::Grid;
 use sweepgate::metrics::wrap_deg;
 use sweepgate::Complex32;
@@ -41,22 +42,6 @@ use crate::pipeline::engine::gate_sweeps_on;
 use crate::pipeline::manifest_bins::{self, ManifestBins};
 use crate::pipeline::options::Choices;
 use crate::pipeline::setup::{self, Automatic, Gating};
-
-/// One point of a scan on the sphere at one pattern frequency: the gated co- and
-/// cross-polar values at (θ, φ). The sphere analysis takes a list of these.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct SpherePoint {
-    /// θ, degrees (the angle along the cut).
-    pub theta_deg: f64,
-    /// φ, degrees (the cut).
-    pub phi_deg: f64,
-    /// The pattern frequency, Hz.
-    pub frequency_hz: f64,
-    /// Gated co-polar value.
-    pub co: Complex32,
-    /// Gated cross-polar value (zero when no cross-polar trace was given).
-    pub cross: Complex32,
-}
 
 /// The traces a cut scan takes from each file.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -136,24 +121,28 @@ pub struct CutsResult {
 }
 
 impl CutsResult {
-    /// Every bin of every cut at every pattern frequency, as points on the sphere.
+    /// Every bin of every cut at every pattern frequency, as points on the sphere
+    /// ([`cut_samples`]: a signed angle along the cut, poles on both halves of its plane).
     pub fn sphere_points(&self) -> Vec<SpherePoint> {
+        let wide = |z: Complex32| Complex64::new(f64::from(z.re), f64::from(z.im));
         let zero = Complex32::new(0.0, 0.0);
         let mut out = Vec::new();
         for c in &self.cuts {
             for b in &c.bins {
                 for (i, &frequency_hz) in self.gating.frequencies_hz.iter().enumerate() {
-                    out.push(SpherePoint {
-                        theta_deg: b.theta_deg,
-                        phi_deg: c.phi_deg,
+                    let co = b.co.gated.get(i).copied().unwrap_or(zero);
+                    let cross = b
+                        .cross
+                        .as_ref()
+                        .and_then(|x| x.gated.get(i).copied())
+                        .unwrap_or(zero);
+                    out.extend(cut_samples(
+                        c.phi_deg,
+                        b.theta_deg,
                         frequency_hz,
-                        co: b.co.gated.get(i).copied().unwrap_or(zero),
-                        cross: b
-                            .cross
-                            .as_ref()
-                            .and_then(|x| x.gated.get(i).copied())
-                            .unwrap_or(zero),
-                    });
+                        wide(co),
+                        wide(cross),
+                    ));
                 }
             }
         }
@@ -415,4 +404,63 @@ pub fn process_cuts(job: &CutJob, path: &Path, traces: CutTraces) -> anyhow::Res
         impulse,
         warnings,
     })
+}
+
+// The input of the sphere analysis ([`crate::pipeline::sphere`]) and the report's sphere
+// pieces: one gated sample of both traces at one direction and frequency.
+
+/// One gated sample: direction (θ, φ) of the antenna frame (see
+/// [`crate::model::coords`]), frequency, and the co- and cross-polar traces (complex, the
+/// same scale for both, e.g. gated S21 and S31 of a dual-polarised probe).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SpherePoint {
+    /// Polar angle from boresight, degrees (0…180; negative values are read as the other
+    /// half of the same great circle, θ → −θ, φ → φ + 180°).
+    pub theta_deg: f64,
+    /// Azimuth about boresight, degrees.
+    pub phi_deg: f64,
+    /// Frequency, Hz.
+    pub frequency_hz: f64,
+    /// Co-polar trace.
+    pub co: Complex64,
+    /// Cross-polar trace.
+    pub cross: Complex64,
+}
+
+/// The sphere samples of one gated cut value: a cut in the plane `plane_deg` (0…180°) at
+/// signed angle `angle_deg` (−180…180°: positive θ at φ = plane, negative θ at φ = plane +
+/// 180°, as a roll-over-azimuth positioner or a turntable cut gives them). A pole (0° or
+/// 180°) lies on both halves of the plane and is returned for both, so that a set of cut
+/// planes fills a regular sphere grid.
+///
+/// ```
+/// /// use sweepgate_host::pipeline::cuts::cut_samples;
+/// let one = Complex64::new(1.0, 0.0);
+/// let p = cut_samples(30.0, -45.0, 1e9, one, one);
+/// assert_eq!((p.len(), p[0].theta_deg, p[0].phi_deg), (1, 45.0, 210.0));
+/// assert_eq!(cut_samples(30.0, 0.0, 1e9, one, one).len(), 2);
+/// ```
+pub fn cut_samples(
+    plane_deg: f64,
+    angle_deg: f64,
+    frequency_hz: f64,
+    co: Complex64,
+    cross: Complex64,
+) -> Vec<SpherePoint> {
+    const POLE_DEG: f64 = 1e-9;
+    let at = |theta_deg, phi_deg| SpherePoint {
+        theta_deg,
+        phi_deg,
+        frequency_hz,
+        co,
+        cross,
+    };
+    let mut v = Vec::with_capacity(2);
+    if angle_deg >= 0.0 {
+        v.push(at(angle_deg, plane_deg));
+    }
+    if angle_deg <= POLE_DEG || angle_deg >= 180.0 - POLE_DEG {
+        v.push(at(angle_deg.abs(), plane_deg + 180.0));
+    }
+    v
 }

@@ -14,7 +14,15 @@
 //!   and pattern frequency the co-polar peak (level and θ), the cross-polar peak and its
 //!   level relative to the co-polar peak, and the cross-polar discrimination on axis (at
 //!   the bin nearest θ = 0°, named with its θ) and at the co-polar peak; the folder of each
-//!   cut's own report; the number of points on the sphere.
+//!   cut's own report; the number of points on the sphere; `sphere`, per pattern
+//!   frequency, the directivity by quadrature (`directivity_dbi`, with its sampling error;
+//!   `null` with the reason when the cuts do not make a regular θ–φ grid) and the
+//!   cross-polar discrimination on axis and over the main beam
+//!   ([`crate::pipeline::sphere_report::sphere_summary`]).
+//! - `sphere.csv` (θ, φ, frequency, co- and cross-polar levels and complex values) and, per
+//!   pattern frequency, `sphere_map_<f>mhz.svg` (θ–φ colour map of the co-polar level) and
+//!   `sphere_cuts_<f>mhz.svg` (the cuts overlaid)
+//!   ([`crate::pipeline::sphere_report::sphere_files`]).
 //! - `cut-phi<φ>/`: per cut, the one-cut report of its co-polar trace (pattern table,
 //!   summary with the pattern figures, plots; the first cut's with the impulse response).
 //!
@@ -31,6 +39,7 @@ use sweepgate::Complex32;
 use crate::formats::files::{check_output_dir, write_set, FileError};
 use crate::output::report::{report_files, ReportBin, ReportInput, ReportValue};
 use crate::pipeline::cuts::{CutPattern, CutsResult, TraceBin};
+use crate::pipeline::sphere_report::{sphere_files, sphere_summary};
 use crate::pipeline::summary::Settings;
 use crate::pipeline::transform::c64;
 use crate::units::db;
@@ -172,6 +181,7 @@ pub fn summary_json(res: &CutsResult, source: &Path, settings: Value) -> Value {
         })
         .collect();
     let bins: usize = res.cuts.iter().map(|c| c.bins.len()).sum();
+    let points = res.sphere_points();
     json!({
         "title": res.name,
         "source": source.display().to_string(),
@@ -183,7 +193,8 @@ pub fn summary_json(res: &CutsResult, source: &Path, settings: Value) -> Value {
             "cross": res.traces.cross.map(|p| p.to_string()),
         },
         "cuts": cuts,
-        "sphere_points": res.sphere_points().len(),
+        "sphere_points": points.len(),
+        "sphere": sphere_summary(&points),
         "caution": "A transmitting antenna can exceed RF exposure limits near its aperture and a positioner is moving machinery: follow local regulations and the lab's licensed practice.",
     })
 }
@@ -256,6 +267,12 @@ pub fn write_cuts_report(
         (dir.join("pattern.csv"), pattern_csv(res).into_bytes()),
         (dir.join("summary.json"), (summary + "\n").into_bytes()),
     ];
+    let sphere = sphere_files(&res.sphere_points(), &res.name)?;
+    set.extend(
+        sphere
+            .into_iter()
+            .map(|(name, bytes)| (dir.join(name), bytes)),
+    );
     check_output_dir(dir)?;
     for c in &res.cuts {
         let sub = dir.join(cut_folder(c.phi_deg));

@@ -24,6 +24,8 @@ pub mod replay;
 pub mod self_error;
 pub mod setup;
 pub mod simulate;
+pub mod sphere;
+pub mod sphere_report;
 pub mod stream;
 pub mod summary;
 pub mod transform;

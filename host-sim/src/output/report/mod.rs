@@ -31,6 +31,7 @@
 //! elements, so no fonts are needed on the machine.
 
 mod plot;
+pub mod sphere_plot;
 
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
