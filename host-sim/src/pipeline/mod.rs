@@ -17,3 +17,4 @@ pub mod simulate;
 pub mod stream;
 pub mod summary;
 pub mod transform;
+pub mod web_feed;
