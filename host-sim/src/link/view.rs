@@ -8,7 +8,6 @@ use std::io::Read;
 use std::path::Path;
 use std::sync::atomic::{AtomicBool, AtomicU64, Ordering};
 use std::sync::{mpsc, Arc};
-use std::time::Duration;
 
 use anyhow::Context;
 
@@ -70,8 +69,7 @@ pub fn view(args: &Options) -> anyhow::Result<Screen> {
     screen.total_bins = args.bins;
     let quit = AtomicBool::new(false);
     if !args.no_preview && preview::have_terminal() {
-        preview::run_terminal(&rx, &mut screen, &quit, Duration::from_secs(3600))
-            .context("terminal preview")?;
+        preview::run_terminal(&rx, &mut screen, &quit, None).context("terminal preview")?;
     } else {
         preview::run_plain(&rx, &mut screen, args.bins.is_some());
     }

@@ -2,6 +2,7 @@
 //! the terminal screen and the plan's table.
 
 pub mod export;
+pub mod markers;
 pub mod plan_text;
 pub mod report;
 pub mod screen;

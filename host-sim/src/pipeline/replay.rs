@@ -315,8 +315,7 @@ fn show(
         preview::run_plain(rx, screen, true);
         return Ok(());
     }
-    preview::run_terminal(rx, screen, quit, Duration::from_millis(1500))
-        .context("terminal preview")?;
+    preview::run_terminal(rx, screen, quit, None).context("terminal preview")?;
     quit.store(true, Ordering::Relaxed);
     // Drain what is left so the worker can finish.
     while let Ok(f) = rx.recv() {
