@@ -4,4 +4,5 @@
 pub mod ascii;
 pub mod block;
 pub mod capture;
+pub mod impulse;
 pub mod preview;

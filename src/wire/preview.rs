@@ -54,6 +54,21 @@
 //! | 34 | 4 | u32 | angle samples pushed |
 //! | 38 | 4 | u32 | angle samples rejected |
 //!
+//! Kind 3, **impulse response** ([`ImpulseRecord`], [`crate::wire::impulse`]), body 19 + n
+//! bytes: a closed bin's impulse response around the gate (centre ± 2 spans), decimated to
+//! n ≤ 64 points, each the strongest sample of its group; sent for one closed bin in
+//! [`crate::scan::ScanConfig::impulse_every`] when the FFT path runs:
+//!
+//! | offset | size | type | field |
+//! |---:|---:|---|---|
+//! | 0 | 2 | u16 | bin index |
+//! | 2 | 4 | f32 | nominal angle, deg |
+//! | 6 | 4 | f32 | delay of the first point, ns |
+//! | 10 | 4 | f32 | delay between points, ns |
+//! | 14 | 4 | f32 | level of the strongest point, dB (20·log10 \|h\|) |
+//! | 18 | 1 | u8 | n, points (≤ 64) |
+//! | 19 + i | 1 | u8 | point i: dB below the strongest × 2 (255 = 127.5 dB or more below) |
+//!
 //! ```
 //! use sweepgate::wire::preview::{encode_frame, Decoder, PreviewRecord, StatusRecord, PositionerState, MAX_FRAME};
 //! let rec: PreviewRecord<4> = PreviewRecord::Status(StatusRecord {
@@ -79,6 +94,10 @@ pub const VERSION: u8 = 1;
 pub const KIND_BIN: u8 = 1;
 /// Kind byte of a [`StatusRecord`].
 pub const KIND_STATUS: u8 = 2;
+/// Kind byte of an [`ImpulseRecord`].
+pub const KIND_IMPULSE: u8 = 3;
+
+pub use crate::wire::impulse::ImpulseRecord;
 /// Most pattern frequencies a bin record carries.
 pub const MAX_FREQUENCIES: usize = 32;
 /// Bytes of kind, version and seq.
@@ -318,6 +337,8 @@ pub enum PreviewRecord<const F: usize> {
     Bin(BinRecord<F>),
     /// Scan status.
     Status(StatusRecord),
+    /// A closed bin's impulse response near the gate, decimated.
+    Impulse(ImpulseRecord),
 }
 
 fn put(buf: &mut [u8], at: usize, bytes: &[u8]) -> Result<(), EmitError> {
@@ -472,6 +493,7 @@ impl<const F: usize> PreviewRecord<F> {
         match self {
             Self::Bin(_) => KIND_BIN,
             Self::Status(_) => KIND_STATUS,
+            Self::Impulse(_) => KIND_IMPULSE,
         }
     }
 
@@ -483,6 +505,7 @@ impl<const F: usize> PreviewRecord<F> {
         let n = match self {
             Self::Bin(b) => b.emit(body)?,
             Self::Status(s) => s.emit(body)?,
+            Self::Impulse(r) => r.emit(body)?,
         };
         let end = HEADER_LEN + n;
         let crc = crc32(buf.get(..end).ok_or(EmitError::BufferFull)?);
@@ -509,6 +532,7 @@ impl<const F: usize> PreviewRecord<F> {
         let rec = match kind {
             KIND_BIN => Self::Bin(BinRecord::parse(body)?),
             KIND_STATUS => Self::Status(StatusRecord::parse(body)?),
+            KIND_IMPULSE => Self::Impulse(ImpulseRecord::parse(body)?),
             k => return Err(FrameError::UnknownKind(k)),
         };
         Ok((seq, rec))

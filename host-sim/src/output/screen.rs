@@ -145,6 +145,8 @@ impl Screen {
                     .get_or_insert((s.time_us, s.sweeps_pushed));
                 self.status = Some(s);
             }
+            // The map of impulse responses is the web view's; the terminal has no room.
+            PreviewRecord::Impulse(_) => {}
         }
     }
 

@@ -14,7 +14,9 @@ use std::sync::{Arc, Mutex, MutexGuard};
 use std::time::Duration;
 
 use serde_json::{json, Value};
-use sweepgate::wire::preview::{BinRecord, PositionerState, PreviewRecord, StatusRecord};
+use sweepgate::wire::preview::{
+    BinRecord, ImpulseRecord, PositionerState, PreviewRecord, StatusRecord,
+};
 
 use crate::output::screen::{PreviewDecoder, PREVIEW_F};
 
@@ -91,6 +93,7 @@ struct Inner {
     meta: Meta,
     decoder: PreviewDecoder,
     bins: BTreeMap<u16, Value>,
+    impulses: BTreeMap<u16, Value>,
     status: Option<Value>,
     ended: Option<Ended>,
     clients: Vec<Client>,
@@ -166,6 +169,21 @@ pub fn bin_json(b: &BinRecord<PREVIEW_F>) -> Value {
     })
 }
 
+/// An impulse-response record as the page reads it: levels in dB (null below the floor).
+pub fn impulse_json(r: &ImpulseRecord) -> Value {
+    let levels: Vec<Value> = (0..r.levels.len())
+        .map(|i| r.level_db(i).map_or(Value::Null, |l| json!(l)))
+        .collect();
+    json!({
+        "bin": r.bin,
+        "angle_deg": finite(r.nominal_deg),
+        "t0_ns": finite(r.first_ns),
+        "dt_ns": finite(r.step_ns),
+        "peak_db": finite(r.peak_db),
+        "levels_db": levels,
+    })
+}
+
 fn state_word(s: PositionerState) -> &'static str {
     match s {
         PositionerState::NoAngle => "no angle yet",
@@ -201,6 +219,7 @@ impl Hub {
                 meta,
                 decoder: PreviewDecoder::new(),
                 bins: BTreeMap::new(),
+                impulses: BTreeMap::new(),
                 status: None,
                 ended: None,
                 clients: Vec::new(),
@@ -241,6 +260,12 @@ impl Hub {
                     let v = status_json(&s);
                     let ev = event_text("status", &v);
                     g.status = Some(v);
+                    ev
+                }
+                PreviewRecord::Impulse(r) => {
+                    let v = impulse_json(&r);
+                    let ev = event_text("impulse", &v);
+                    g.impulses.insert(r.bin, v);
                     ev
                 }
             };
@@ -331,6 +356,7 @@ fn snapshot_of(g: &Inner) -> Value {
     json!({
         "meta": g.meta,
         "bins": g.bins.values().collect::<Vec<_>>(),
+        "impulses": g.impulses.values().collect::<Vec<_>>(),
         "status": g.status,
         "ended": g.ended,
         "counters": g.counters,

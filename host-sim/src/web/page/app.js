@@ -330,7 +330,7 @@ function drawMap() {
   for (const r of recs) {
     const x = X(wrapDeg(r.angle_deg)) - colW / 2;
     r.levels_db.forEach((lv, i) => {
-      g.fillStyle = heat(Math.max(0, Math.min(1, 1 + (lv - top) / range)));
+      g.fillStyle = lv === null ? heat(0) : heat(Math.max(0, Math.min(1, 1 + (lv - top) / range)));
       const ya = Y(r.t0_ns + i * r.dt_ns), yb = Y(r.t0_ns + (i + 1) * r.dt_ns);
       g.fillRect(x, yb, colW + 0.5, ya - yb + 0.5);
     });
