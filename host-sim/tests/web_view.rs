@@ -304,3 +304,73 @@ fn replay_web_binds_loopback_by_default_and_serves_the_page() {
     child.kill().unwrap();
     child.wait().unwrap();
 }
+
+#[test]
+fn view_web_serves_a_recorded_preview_stream_with_frequencies_from_the_grid() {
+    use std::sync::atomic::AtomicBool;
+    use sweepgate_host::formats::recording::recover;
+    use sweepgate_host::pipeline::replay::replay_records;
+    let (bytes, _) = simulate_to(&short_lab(), None, 3, Vec::new(), false).unwrap();
+    let rec = recover(&bytes);
+    let mut stream = Vec::new();
+    let o = replay_records(
+        &rec,
+        &Options::fast(std::path::Path::new("x.rec")),
+        &mut stream,
+        None,
+        &AtomicBool::new(false),
+    )
+    .unwrap();
+    let dir = tempfile::tempdir().unwrap();
+    let file = dir.path().join("preview.bin");
+    std::fs::write(&file, &stream).unwrap();
+    let mut child = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
+        .args([
+            "view",
+            "--no-preview",
+            "--web",
+            "0",
+            "--grid-hz",
+            "8e9:12e9:201",
+            "--from",
+        ])
+        .arg(&file)
+        .stdin(Stdio::null())
+        .stdout(Stdio::null())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    let (tx, rx) = mpsc::channel();
+    let err = child.stderr.take().unwrap();
+    std::thread::spawn(move || {
+        for line in BufReader::new(err).lines().map_while(Result::ok) {
+            let _ = tx.send(line);
+        }
+    });
+    let line = rx.recv_timeout(Duration::from_secs(60)).unwrap();
+    let addr: SocketAddr = line
+        .strip_prefix("web view on http://")
+        .unwrap_or_else(|| panic!("first line: {line}"))
+        .trim_end_matches('/')
+        .parse()
+        .unwrap();
+    assert!(addr.ip().is_loopback());
+    let deadline = Instant::now() + Duration::from_secs(60);
+    let v = loop {
+        let (_, body) = get(addr, "/state");
+        let v: serde_json::Value = serde_json::from_slice(&body).unwrap();
+        if !v["ended"].is_null() {
+            break v;
+        }
+        assert!(Instant::now() < deadline, "the stream never ended: {v}");
+        std::thread::sleep(Duration::from_millis(50));
+    };
+    child.kill().unwrap();
+    child.wait().unwrap();
+    assert_eq!(v["bins"].as_array().unwrap().len(), o.report.bins.len());
+    // The grid names the records' grid points: 8 GHz + 20 MHz per point.
+    assert_eq!(v["meta"]["grid_start_hz"], 8e9);
+    assert_eq!(v["meta"]["grid_step_hz"], 20e6);
+    // The engine's impulse-response records came through the stream too.
+    assert!(!v["impulses"].as_array().unwrap().is_empty());
+}

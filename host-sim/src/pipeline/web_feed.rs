@@ -17,6 +17,8 @@ pub fn meta_of(s: &Setup, source: &str) -> Meta {
         gate_span_ns: Some(s.gate.span_s * 1e9),
         gate_rule: Some(s.gate_rule.clone()),
         notes: s.remarks.clone(),
+        grid_start_hz: Some(s.grid.frequency_hz(0)),
+        grid_step_hz: Some(s.grid.frequency_hz(1) - s.grid.frequency_hz(0)),
     }
 }
 

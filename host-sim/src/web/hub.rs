@@ -61,6 +61,11 @@ pub struct Meta {
     pub gate_rule: Option<String>,
     /// Warnings from outside the stream (recording damage, set-up remarks).
     pub notes: Vec<String>,
+    /// First frequency of the sweep grid, Hz, when only the grid is known (the page then
+    /// names a record's grid point by its frequency).
+    pub grid_start_hz: Option<f64>,
+    /// Step of that grid, Hz.
+    pub grid_step_hz: Option<f64>,
 }
 
 /// Counts of the hub's own work.

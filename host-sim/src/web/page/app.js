@@ -98,22 +98,39 @@ function connect() {
 
 function fillFrequencies() {
   const sel = $("frequency");
-  const names = frequencyNames();
-  if (sel.options.length === names.length) return;
+  const slots = frequencySlots();
+  if (sel.options.length === slots.length) return;
   sel.innerHTML = "";
-  names.forEach((n, i) => {
+  for (const [slot, name] of slots) {
     const o = document.createElement("option");
-    o.value = String(i);
-    o.textContent = n;
+    o.value = String(slot);
+    o.textContent = name;
     sel.appendChild(o);
-  });
-  sel.value = String(Math.min(view.selected, Math.max(names.length - 1, 0)));
+  }
+  if (slots.length > 0 && !slots.some(([slot]) => slot === view.selected)) view.selected = slots[0][0];
+  sel.value = String(view.selected);
 }
 
-function frequencyNames() {
-  if (view.meta.frequencies_hz.length > 0) return view.meta.frequencies_hz.map(ghz);
+// The pattern frequencies as [value slot, name]: the set-up's when known, else the first
+// record's grid points (padding slots repeat one, shown once), in GHz when the grid is known.
+function frequencySlots() {
+  if (view.meta.frequencies_hz.length > 0) return view.meta.frequencies_hz.map((f, i) => [i, ghz(f)]);
   const first = view.bins.values().next().value;
-  return first ? first.values.map((v) => "grid point " + v.index) : [];
+  if (!first) return [];
+  const m = view.meta;
+  const name = (i) => (m.grid_start_hz !== null && m.grid_start_hz !== undefined && m.grid_step_hz
+    ? ghz(m.grid_start_hz + i * m.grid_step_hz) : "grid point " + i);
+  const seen = new Set();
+  const out = [];
+  first.values.forEach((v, slot) => {
+    if (!seen.has(v.index)) { seen.add(v.index); out.push([slot, name(v.index)]); }
+  });
+  return out;
+}
+
+function frequencyName(slot) {
+  const hit = frequencySlots().find(([s]) => s === slot);
+  return hit ? hit[1] : "–";
 }
 
 // ------------------------------------------------------------------ the pattern
@@ -371,7 +388,7 @@ function rows(id, list) {
 function drawPanels(P, mk, mkRaw) {
   const c = cursorDeg(), near = c === null ? null : nearest(P.pts, c);
   rows("marker-table", [
-    ["frequency", frequencyNames()[view.selected] || "–"],
+    ["frequency", frequencyName(view.selected)],
     ["peak, gated", mk ? `${fmt(mk.peakDb, 2)} dB at ${fmt(mk.peakDeg, 1)}°` : "–"],
     ["−3 dB points, gated", mk ? `${fmt(mk.left, 1)}° … ${fmt(mk.right, 1)}°` : "–"],
     ["−3 dB width, gated", mk ? `${fmt(mk.width, 1)}°` : "–"],
