@@ -301,8 +301,25 @@ fn replay_web_binds_loopback_by_default_and_serves_the_page() {
     let mut answer = String::new();
     post.read_to_string(&mut answer).unwrap();
     assert!(answer.starts_with("HTTP/1.1 405"), "{answer}");
-    child.kill().unwrap();
-    child.wait().unwrap();
+    // Ctrl-C (SIGINT) ends the command normally.
+    let pid = child.id().to_string();
+    assert!(Command::new("kill")
+        .args(["-INT", &pid])
+        .status()
+        .unwrap()
+        .success());
+    let t0 = Instant::now();
+    let status = loop {
+        if let Some(st) = child.try_wait().unwrap() {
+            break st;
+        }
+        assert!(
+            t0.elapsed() < Duration::from_secs(20),
+            "still up after SIGINT"
+        );
+        std::thread::sleep(Duration::from_millis(20));
+    };
+    assert!(status.success(), "{status}");
 }
 
 #[test]

@@ -93,7 +93,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
         );
     }
     if let Some(s) = &server {
-        crate::web::stay_up(s);
+        crate::web::stay_up(s)?;
     }
     Ok(())
 }

@@ -39,7 +39,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
         web: server.as_ref().map(|s| s.hub().clone()),
     })?;
     if let Some(s) = &server {
-        crate::web::stay_up(s);
+        crate::web::stay_up(s)?;
     }
     Ok(())
 }

@@ -29,13 +29,26 @@ pub fn start(spec: &str, meta: Meta) -> anyhow::Result<WebServer> {
     Ok(server)
 }
 
-/// Keeps the process (and so the page) up after the scan until the user stops it.
-pub fn stay_up(server: &WebServer) -> ! {
+/// Keeps the process (and so the page) up after the scan until the user stops it with
+/// Ctrl-C (SIGINT) or SIGTERM; then returns, so the command exits normally. (A driven
+/// acquisition has already taken those signals to stop the positioner, so they are caught
+/// here too rather than left to end the process.)
+pub fn stay_up(server: &WebServer) -> anyhow::Result<()> {
+    use std::sync::atomic::{AtomicBool, Ordering};
+    use std::sync::Arc;
+    let stop = Arc::new(AtomicBool::new(false));
+    for sig in [signal_hook::consts::SIGINT, signal_hook::consts::SIGTERM] {
+        anyhow::Context::context(
+            signal_hook::flag::register(sig, Arc::clone(&stop)),
+            "web view: setting up the stop on Ctrl-C",
+        )?;
+    }
     eprintln!(
         "the scan has ended; the web view stays up on {} until you stop this command (Ctrl-C)",
         server.url()
     );
-    loop {
-        std::thread::park();
+    while !stop.load(Ordering::Relaxed) {
+        std::thread::sleep(std::time::Duration::from_millis(100));
     }
+    Ok(())
 }

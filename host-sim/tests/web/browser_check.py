@@ -32,7 +32,7 @@ def start_replay(binary, recording, work):
     """Starts the replay, paced so that the scan takes some seconds; returns the process
     and the page's address (from the line the command prints)."""
     p = subprocess.Popen(
-        [binary, "replay", recording, "--speed", "10", "--no-preview", "--web", "0",
+        [binary, "replay", recording, "--speed", "5", "--no-preview", "--web", "0",
          "--out", os.path.join(work, "report")],
         stdin=subprocess.DEVNULL, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
     lines = []
@@ -100,7 +100,8 @@ def main():
             "return [...document.querySelectorAll('#report-plots img')].map(i => [i.alt, i.naturalWidth])")
         check("the report's plots loaded", len(imgs) >= 2 and all(w > 0 for _, w in imgs), str(imgs))
         impulses = d.execute_script("return view.impulses.size")
-        print(f"impulse-response records on the page: {impulses}")
+        check("the angle × delay map got impulse-response records (one bin in 4)",
+              total is not None and impulses == -(-total // 4), f"{impulses} records for {total} bins")
         # The cursor: move over the rectangular plot, the readout names an angle.
         d.execute_script(
             "const c=document.getElementById('rect'), b=c.getBoundingClientRect();"

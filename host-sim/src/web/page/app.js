@@ -166,9 +166,12 @@ function markers(pts, key, peak) {
   if (!isFinite(peak) || pts.length < 3) return null;
   const n = pts.length;
   const i0 = pts.findIndex((p) => p[key] === peak);
+  // Neighbours further apart than a few bins (a sector's two ends, a gap) end the walk.
+  const gap = 3 * 360 / Math.max(view.meta.total_bins || n, 1);
   const walk = (dir) => {
     for (let s = 1; s < n; s++) {
       const a = pts[(i0 + (s - 1) * dir + n) % n], b = pts[(i0 + s * dir + n) % n];
+      if (Math.abs(wrapDeg(b.deg - a.deg)) > Math.max(gap, 1e-9) || a[key] === null) return null;
       if (b[key] !== null && b[key] - peak <= -3) {
         const t = (peak - 3 - a[key]) / (b[key] - a[key]);
         let da = wrapDeg(b.deg - a.deg);
