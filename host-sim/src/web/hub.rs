@@ -75,6 +75,8 @@ pub struct HubCounters {
     pub records: u64,
     /// Events handed to browser queues.
     pub events_queued: u64,
+    /// Events written to browsers' sockets (snapshots not counted).
+    pub events_written: u64,
     /// Browsers dropped because their queue was full.
     pub dropped_slow: u64,
     /// Browsers that went away by themselves.
@@ -308,6 +310,11 @@ impl Hub {
     pub fn snapshot(&self) -> Value {
         let g = self.lock();
         snapshot_of(&g)
+    }
+
+    /// Counts an event written to a browser (the server calls it).
+    pub fn wrote(&self) {
+        self.lock().counters.events_written += 1;
     }
 
     /// The hub's counters.

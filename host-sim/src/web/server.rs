@@ -250,7 +250,10 @@ fn events(s: &mut TcpStream, hub: &Hub) -> std::io::Result<()> {
     s.write_all(sub.first.as_bytes())?;
     loop {
         match sub.rx.recv_timeout(KEEP_ALIVE) {
-            Ok(ev) => s.write_all(ev.as_bytes())?,
+            Ok(ev) => {
+                s.write_all(ev.as_bytes())?;
+                hub.wrote();
+            }
             Err(RecvTimeoutError::Timeout) => s.write_all(b": still here\n\n")?,
             // Dropped by the hub (queue full): the browser reconnects and starts afresh.
             Err(RecvTimeoutError::Disconnected) => return Ok(()),
