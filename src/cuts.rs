@@ -74,7 +74,9 @@ use crate::bins::{BinFlags, ClosedBin};
 use crate::error::{CutConfigError, CutReject, SampleReject};
 use crate::fft::Fft;
 use crate::gate::GateConfig;
-use crate::scan::{gate_bin, BinResult, Event, Events, Scan, ScanConfig, ScanCounters, Warning};
+use crate::scan::{
+    gate_bin, BinGate, BinResult, Event, Events, Scan, ScanConfig, ScanCounters, Warning,
+};
 use crate::track::{TrackConfig, TrackCounters, Tracker};
 use crate::wire::cut_record::{CutRecord, TraceRecord};
 use crate::Complex32;
@@ -662,7 +664,14 @@ where
             flags: BinFlags(0),
         }; X];
         for (sum, out) in self.sums.iter_mut().zip(more.iter_mut()) {
-            let r = gate_bin(gate, kernels, echo, &zero_offsets, &cb, sum, inv);
+            let g = BinGate {
+                gate,
+                kernels,
+                echo,
+                offset_sum_deg: &zero_offsets,
+                impulse: None,
+            };
+            let r = gate_bin(g, &cb, sum, inv);
             *out = TraceValues {
                 raw: r.raw,
                 gated: r.gated,

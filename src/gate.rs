@@ -472,9 +472,21 @@ where
     /// [`Gate::apply_in_place`] that also checks the impulse response ([`Gate::check`])
     /// before gating it; the check's `energy_outside_db` is what `apply_in_place` returns.
     pub fn apply_in_place_checked(&self, buf: &mut [Complex32; M], scale: f32) -> GateCheck {
+        self.apply_in_place_checked_then(buf, scale, |_| {})
+    }
+
+    /// [`Gate::apply_in_place_checked`] that also shows the impulse response to `look`
+    /// before it is gated (the engine samples it for the impulse-response preview record).
+    pub fn apply_in_place_checked_then(
+        &self,
+        buf: &mut [Complex32; M],
+        scale: f32,
+        look: impl FnOnce(&[Complex32; M]),
+    ) -> GateCheck {
         self.window(buf, scale);
         buf.inverse();
         let check = self.check(buf);
+        look(buf);
         self.gate_forward_renormalize(&mut Microfft, buf);
         check
     }

@@ -77,7 +77,7 @@ use embedded_io::{Read, ReadExactError, Write};
 use crate::error::{CaptureError, PumpError, ReplayError, ScanConfigError};
 use crate::fft::Fft;
 use crate::gate::GateConfig;
-use crate::scan::{EchoMode, Event, Events, Scan, ScanConfig};
+use crate::scan::{EchoMode, Event, Events, Scan, ScanConfig, IMPULSE_EVERY_DEFAULT};
 use crate::wire::block::{BlockConfig, BlockDecoder, ByteOrder, DecodeEvent as BlockEvent, Format};
 use crate::wire::capture::{CaptureHeader, Entry, HEADER_LEN, MAX_ENTRY_LEN};
 use crate::wire::preview::{write_frame, PreviewRecord, WriteFrameError};
@@ -109,6 +109,7 @@ impl<const F: usize> PumpConfig<F> {
     pub fn from_capture(h: &CaptureHeader) -> Self {
         let mut scan = ScanConfig::new(h.layout);
         scan.echo = h.echo;
+        scan.impulse_every = IMPULSE_EVERY_DEFAULT;
         Self {
             gate: h.gate,
             pattern_indices: h.pattern_indices::<F>(),
@@ -125,8 +126,10 @@ impl<const F: usize> PumpConfig<F> {
 pub struct PumpCounters {
     /// Sweeps the block decoder completed and handed to the engine.
     pub sweeps_decoded: u32,
-    /// Preview frames written (bin and status records).
+    /// Preview frames written (bin, status and impulse-response records).
     pub frames_sent: u32,
+    /// Of those, impulse-response records.
+    pub impulses_sent: u32,
 }
 
 /// One step of the board loop, as reported to a [`Meter`].
@@ -188,6 +191,7 @@ where
             counters: PumpCounters {
                 sweeps_decoded: 0,
                 frames_sent: 0,
+                impulses_sent: 0,
             },
         }
     }
@@ -412,6 +416,11 @@ where
                 self.write(&PreviewRecord::Bin(r.to_record()), out)?;
             }
         }
+        // A push closes at most one bin: its impulse response, when it was due.
+        if let Some(r) = self.scan.take_impulse().cloned() {
+            self.write(&PreviewRecord::Impulse(r), out)?;
+            self.counters.impulses_sent = self.counters.impulses_sent.saturating_add(1);
+        }
         Ok(())
     }
 
@@ -488,6 +497,7 @@ mod tests {
     use crate::window::WindowKind;
     use crate::wire::block::emit;
     use crate::wire::capture::MAX_PATTERN;
+    use crate::wire::impulse::ImpulseRecord;
     use crate::wire::preview::encode_frame;
     use crate::wire::preview::MAX_FRAME;
     use std::vec::Vec;
@@ -507,11 +517,12 @@ mod tests {
     }
 
     /// Settings for the tests; `leave_close_us` as in [`ScanConfig`] (a capture replays
-    /// with [`ScanConfig::new`]'s 100 ms).
+    /// with [`ScanConfig::new`]'s 100 ms, and impulse responses at a board's rate).
     fn config_with(echo: EchoMode, leave_close_us: Option<u32>) -> PumpConfig<2> {
         let mut scan = ScanConfig::new(BinLayout::sector(0.0, 10.0, 1.0).unwrap());
         scan.echo = echo;
         scan.leave_close_us = leave_close_us;
+        scan.impulse_every = IMPULSE_EVERY_DEFAULT;
         PumpConfig {
             gate: gate_cfg(),
             pattern_indices: [10, 60],
@@ -580,34 +591,43 @@ mod tests {
         let mut out = Vec::new();
         let mut seq = 0u16;
         let mut closing_sweeps = 0;
-        let mut take = |ev: Events<2>| {
+        let mut take = |ev: Events<2>, impulse: Option<ImpulseRecord>| {
             let mut closed = false;
+            let mut put = |r: &PreviewRecord<2>| {
+                let mut frame = [0u8; MAX_FRAME];
+                let n = encode_frame(r, seq, &mut frame).unwrap();
+                out.extend_from_slice(&frame[..n]);
+                seq += 1;
+            };
             for e in ev {
                 if let Event::BinClosed(r) = e {
-                    let mut frame = [0u8; MAX_FRAME];
-                    let n =
-                        encode_frame(&PreviewRecord::Bin(r.to_record()), seq, &mut frame).unwrap();
-                    out.extend_from_slice(&frame[..n]);
-                    seq += 1;
+                    put(&PreviewRecord::Bin(r.to_record()));
                     closed = true;
                 }
+            }
+            // The impulse response of the bin just closed, when it was one of every 4.
+            if let Some(r) = impulse {
+                put(&PreviewRecord::Impulse(r));
             }
             closed
         };
         for input in inputs() {
             match input {
                 Input::Angle(t, a) => {
-                    take(scan.push_angle(t, a));
+                    let ev = scan.push_angle(t, a);
+                    take(ev, scan.take_impulse().cloned());
                 }
                 Input::Sweep(s, e, _) => {
                     let i = (e + 40_000) / 100_000;
-                    if take(scan.push_sweep(s, e, &sweep(i))) {
+                    let ev = scan.push_sweep(s, e, &sweep(i));
+                    if take(ev, scan.take_impulse().cloned()) {
                         closing_sweeps += 1;
                     }
                 }
             }
         }
-        take(scan.finish());
+        let ev = scan.finish();
+        take(ev, scan.take_impulse().cloned());
         (out, closing_sweeps)
     }
 
@@ -641,7 +661,16 @@ mod tests {
                 let k = pump.scan().counters();
                 assert_eq!(pump.counters().sweeps_decoded, 13);
                 assert_eq!(k.sweeps_pushed, 13);
-                assert_eq!(k.bins_closed, pump.counters().frames_sent);
+                // A frame per closed bin, and an impulse response for one bin in 4 when the
+                // FFT path runs.
+                let c = pump.counters();
+                assert_eq!(k.bins_closed + c.impulses_sent, c.frames_sent);
+                let every = u32::from(IMPULSE_EVERY_DEFAULT);
+                let impulses = match echo {
+                    EchoMode::Never => 0,
+                    EchoMode::EveryBin => k.bins_closed.div_ceil(every),
+                };
+                assert_eq!(c.impulses_sent, impulses);
                 let d = pump.decoder().unwrap().counters();
                 assert_eq!((d.accepted, d.rejected()), (13, 1));
             }

@@ -101,6 +101,7 @@ use crate::error::{SampleReject, ScanConfigError, SweepReject};
 use crate::fft::Fft;
 use crate::gate::{Gate, GateConfig, Kernels};
 use crate::track::{Accepted, Direction, EncoderConfig, TrackConfig, TrackCounters, Tracker};
+use crate::wire::impulse::ImpulseRecord;
 use crate::wire::preview::{BinRecord, FreqValue, PositionerState, StatusRecord};
 use crate::Complex32;
 
@@ -150,7 +151,14 @@ pub struct ScanConfig {
     /// Close the open bin once the positioner has been seen outside it for this long, µs
     /// (`None`: close only when a sweep lands elsewhere, or at the end).
     pub leave_close_us: Option<u32>,
+    /// Keep the impulse response near the gate ([`crate::wire::impulse`]) of every this-many-th
+    /// closed bin, for [`Scan::take_impulse`] (0: never). Only the FFT path
+    /// ([`EchoMode::EveryBin`]) has one; [`IMPULSE_EVERY_DEFAULT`] is a board's rate.
+    pub impulse_every: u16,
 }
+
+/// The rate at which a board sends impulse-response records: one closed bin in 4.
+pub const IMPULSE_EVERY_DEFAULT: u16 = 4;
 
 impl ScanConfig {
     /// Continuous scan over `layout` with default tracking, replace-on-revisit, echo level
@@ -165,6 +173,7 @@ impl ScanConfig {
             echo: EchoMode::EveryBin,
             min_sweeps: 1,
             leave_close_us: Some(100_000),
+            impulse_every: 0,
         }
     }
 }
@@ -370,6 +379,9 @@ where
     finished: bool,
     stall_warned: bool,
     configured: bool,
+    /// The latest sampled impulse response, and whether it is yet to be taken.
+    impulse: ImpulseRecord,
+    impulse_fresh: bool,
 }
 
 fn push_event<const F: usize>(ev: &mut Events<F>, e: Event<F>) {
@@ -432,6 +444,7 @@ where
                 echo: EchoMode::Never,
                 min_sweeps: 0,
                 leave_close_us: None,
+                impulse_every: 0,
             },
             gate: Gate::unconfigured(),
             kernels: Kernels::unset(),
@@ -442,6 +455,8 @@ where
             finished: false,
             stall_warned: false,
             configured: false,
+            impulse: ImpulseRecord::empty(),
+            impulse_fresh: false,
         }
     }
 
@@ -638,15 +653,35 @@ where
     }
 
     fn close_open(&mut self) -> Option<BinResult<F>> {
-        let (gate, kernels, echo) = (&self.gate, &self.kernels, self.cfg.echo);
-        let offsets = &self.offset_sum_deg;
-        let r = self
-            .bins
-            .close(|cb, sum, inv| gate_bin(gate, kernels, echo, offsets, cb, sum, inv));
+        let due = self.impulse_due();
+        let g = BinGate {
+            gate: &self.gate,
+            kernels: &self.kernels,
+            echo: self.cfg.echo,
+            offset_sum_deg: &self.offset_sum_deg,
+            impulse: due.then_some(&mut self.impulse),
+        };
+        let r = self.bins.close(|cb, sum, inv| gate_bin(g, cb, sum, inv));
         if r.is_some() {
             self.counters.bins_closed = self.counters.bins_closed.saturating_add(1);
+            self.impulse_fresh |= due;
         }
         r
+    }
+
+    /// True when the next bin to close is one whose impulse response is kept.
+    fn impulse_due(&self) -> bool {
+        let n = self.cfg.impulse_every;
+        n > 0
+            && self.cfg.echo == EchoMode::EveryBin
+            && self.counters.bins_closed % u32::from(n) == 0
+    }
+
+    /// The impulse response near the gate of the latest closed bin, once, when that bin was
+    /// one of every [`ScanConfig::impulse_every`]: call after each push that closed a bin.
+    pub fn take_impulse(&mut self) -> Option<&ImpulseRecord> {
+        let fresh = core::mem::take(&mut self.impulse_fresh);
+        fresh.then_some(&self.impulse)
     }
 
     fn reject(&mut self, ev: &mut Events<F>, reason: SweepReject) {
@@ -696,13 +731,20 @@ where
         self.check_sweep(start_us, end_us, points)?;
         let (index, sweep) = self.locate_sweep(start_us, end_us, ev)?;
         let offsets = self.pattern_offsets(start_us, end_us, &sweep);
-        let (gate, kernels, echo) = (&self.gate, &self.kernels, self.cfg.echo);
-        let sums = &self.offset_sum_deg;
+        let due = self.impulse_due();
+        let g = BinGate {
+            gate: &self.gate,
+            kernels: &self.kernels,
+            echo: self.cfg.echo,
+            offset_sum_deg: &self.offset_sum_deg,
+            impulse: due.then_some(&mut self.impulse),
+        };
         let (res, closed) = self.bins.add(index, &sweep, points, |cb, sum, inv| {
-            gate_bin(gate, kernels, echo, sums, cb, sum, inv)
+            gate_bin(g, cb, sum, inv)
         });
         if let Some(r) = closed {
             self.counters.bins_closed = self.counters.bins_closed.saturating_add(1);
+            self.impulse_fresh |= due;
             push_event(ev, Event::BinClosed(r));
         }
         res?;
@@ -845,15 +887,25 @@ where
     }
 }
 
+/// What gating a closed bin needs besides the bin itself.
+pub(crate) struct BinGate<'a, const M: usize, const F: usize>
+where
+    [Complex32; M]: Fft,
+{
+    pub(crate) gate: &'a Gate<M>,
+    pub(crate) kernels: &'a Kernels<M, F>,
+    pub(crate) echo: EchoMode,
+    pub(crate) offset_sum_deg: &'a [f32; F],
+    /// Where to keep the bin's impulse response near the gate, when it is due.
+    pub(crate) impulse: Option<&'a mut ImpulseRecord>,
+}
+
 /// Gates a closed bin from its sum of sweeps and 1/count, in the sum's own storage (the
 /// bin is closed; the next one starts from zero). With an echo level the FFT path runs
 /// anyway, so the gated values are read from it; without, the sum is windowed in place
 /// (folding in 1/count) and the kernel path takes one dot product per frequency.
 pub(crate) fn gate_bin<const M: usize, const F: usize>(
-    gate: &Gate<M>,
-    kernels: &Kernels<M, F>,
-    echo: EchoMode,
-    offset_sum_deg: &[f32; F],
+    g: BinGate<'_, M, F>,
     cb: &ClosedBin,
     sum: &mut [Complex32; M],
     inv_count: f32,
@@ -861,6 +913,13 @@ pub(crate) fn gate_bin<const M: usize, const F: usize>(
 where
     [Complex32; M]: Fft,
 {
+    let BinGate {
+        gate,
+        kernels,
+        echo,
+        offset_sum_deg,
+        impulse,
+    } = g;
     let idx = kernels.indices();
     let at = |buf: &[Complex32; M], i: usize| buf.get(i).copied().unwrap_or_default();
     // The raw values first: gating overwrites the sum.
@@ -874,7 +933,15 @@ where
             None
         }
         EchoMode::EveryBin => {
-            let check = gate.apply_in_place_checked(sum, inv_count);
+            // One gating path whether or not the impulse response is kept (one copy in flash).
+            let check = gate.apply_in_place_checked_then(sum, inv_count, |h| {
+                if let Some(rec) = impulse {
+                    let c = gate.config();
+                    rec.sample(h, c.grid.time_step_s(M), c.center_s, c.span_s);
+                    rec.bin = cb.index;
+                    rec.nominal_deg = cb.nominal_deg;
+                }
+            });
             gated = idx.map(|i| at(sum, i));
             if check.echo_in_gate {
                 flags.0 |= BinFlags::ECHO_IN_GATE;

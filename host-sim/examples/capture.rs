@@ -83,11 +83,16 @@ fn run() -> anyhow::Result<()> {
                 "records with the echo-in-gate flag: board {}, host {}; largest angle offset of a pattern frequency {:.4} deg",
                 c.echo_in_gate.0, c.echo_in_gate.1, c.largest_offset_deg
             );
+            println!(
+                "impulse-response records: board {}, host {}, {} alike",
+                c.impulses.0, c.impulses.1, c.impulses_matched
+            );
             for p in &c.problems {
                 println!("  mismatch: {p}");
             }
-            let failed = c.bins.0.max(c.bins.1) - c.matched;
-            println!("firmware compare: {} passed, {} failed", c.matched, failed);
+            let passed = c.matched + c.impulses_matched;
+            let failed = c.bins.0.max(c.bins.1) + c.impulses.0.max(c.impulses.1) - passed;
+            println!("firmware compare: {passed} passed, {failed} failed");
             if failed > 0 || c.matched == 0 {
                 bail!("the board's preview records differ from the host's");
             }

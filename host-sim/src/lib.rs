@@ -15,3 +15,4 @@ pub mod pipeline;
 pub mod quote;
 pub mod threads;
 pub mod units;
+pub mod web;

@@ -115,6 +115,7 @@ fn acquire_scan(
         linger_s: 0.0,
         choices,
         out: out.to_path_buf(),
+        web: None,
     };
     let sum = big_stack(move || acquire(&profile, req).unwrap());
     drop(inst);

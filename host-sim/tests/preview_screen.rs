@@ -93,15 +93,15 @@ fn screen_shows_title_axes_and_bins_filled() {
     term.draw(|f| draw(f, &screen)).unwrap();
     let text = text_of(&term);
     for needle in [
-        "sweepgate preview: test room",
-        "angle (deg)",
-        "|S21| dB at 10.000 GHz",
+        "sweepgate: test room",
+        "dB below peak, deg",
+        "10.000 GHz ── raw",
         "bins filled  3 / 360",
         "-17.5 dB",
         "sweeps/s     20.0",
         "3 bins smeared",
         "1 damaged",
-        "q: quit",
+        "q quit",
     ] {
         assert!(text.contains(needle), "missing {needle:?} in\n{text}");
     }

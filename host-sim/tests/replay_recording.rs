@@ -148,6 +148,8 @@ fn view_reads_a_stream_from_a_file_and_over_tcp() {
         from: file.display().to_string(),
         no_preview: true,
         bins: Some(20),
+        grid: None,
+        web: None,
     };
     assert_eq!(view::view(&args).unwrap().bins.len(), n);
 
@@ -162,6 +164,8 @@ fn view_reads_a_stream_from_a_file_and_over_tcp() {
         from: addr.to_string(),
         no_preview: true,
         bins: None,
+        grid: None,
+        web: None,
     };
     let screen = view::view(&args).unwrap();
     server.join().unwrap();

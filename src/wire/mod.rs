@@ -6,4 +6,5 @@ pub mod block;
 pub mod capture;
 pub mod cut_capture;
 pub mod cut_record;
+pub mod impulse;
 pub mod preview;

@@ -54,6 +54,20 @@
 //! | 34 | 4 | u32 | angle samples pushed |
 //! | 38 | 4 | u32 | angle samples rejected |
 //!
+//! Kind 3, **impulse response** ([`ImpulseRecord`], [`crate::wire::impulse`]), body 19 + n
+//! bytes: a closed bin's impulse response around the gate (centre ± 2 spans), decimated to
+//! n ≤ 64 points, each the strongest sample of its group; sent for one closed bin in
+//! [`crate::scan::ScanConfig::impulse_every`] when the FFT path runs:
+//!
+//! | offset | size | type | field |
+//! |---:|---:|---|---|
+//! | 0 | 2 | u16 | bin index |
+//! | 2 | 4 | f32 | nominal angle, deg |
+//! | 6 | 4 | f32 | delay of the first point, ns |
+//! | 10 | 4 | f32 | delay between points, ns |
+//! | 14 | 4 | f32 | level of the strongest point, dB (20·log10 \|h\|) |
+//! | 18 | 1 | u8 | n, points (≤ 64) |
+//! | 19 + i | 1 | u8 | point i: dB below the strongest × 2 (255 = 127.5 dB or more below) |
 //! Kind 4, **cut bin** ([`CutRecord`](super::cut_record::CutRecord), from
 //! [`crate::cuts`]), body 28 + 2·n + 16·t·n + 4·t bytes for t traces (1…4) of n pattern
 //! frequencies, at most the longest bin record body (729 bytes: e.g. two traces of up to 21
@@ -101,6 +115,10 @@ pub const VERSION: u8 = 1;
 pub const KIND_BIN: u8 = 1;
 /// Kind byte of a [`StatusRecord`].
 pub const KIND_STATUS: u8 = 2;
+/// Kind byte of an [`ImpulseRecord`].
+pub const KIND_IMPULSE: u8 = 3;
+
+pub use crate::wire::impulse::ImpulseRecord;
 /// Kind byte of a [`CutRecord`] (a closed bin of a scan of cuts).
 pub const KIND_CUT: u8 = 4;
 /// Most pattern frequencies a bin record carries.
@@ -342,6 +360,8 @@ pub enum PreviewRecord<const F: usize> {
     Bin(BinRecord<F>),
     /// Scan status.
     Status(StatusRecord),
+    /// A closed bin's impulse response near the gate, decimated.
+    Impulse(ImpulseRecord),
     /// A closed bin of a scan of cuts: its cut, both axes, every trace.
     Cut(CutRecord<F>),
 }
@@ -498,6 +518,7 @@ impl<const F: usize> PreviewRecord<F> {
         match self {
             Self::Bin(_) => KIND_BIN,
             Self::Status(_) => KIND_STATUS,
+            Self::Impulse(_) => KIND_IMPULSE,
             Self::Cut(_) => KIND_CUT,
         }
     }
@@ -510,6 +531,7 @@ impl<const F: usize> PreviewRecord<F> {
         let n = match self {
             Self::Bin(b) => b.emit(body)?,
             Self::Status(s) => s.emit(body)?,
+            Self::Impulse(r) => r.emit(body)?,
             Self::Cut(c) => c.emit(body)?,
         };
         let end = HEADER_LEN + n;
@@ -537,6 +559,7 @@ impl<const F: usize> PreviewRecord<F> {
         let rec = match kind {
             KIND_BIN => Self::Bin(BinRecord::parse(body)?),
             KIND_STATUS => Self::Status(StatusRecord::parse(body)?),
+            KIND_IMPULSE => Self::Impulse(ImpulseRecord::parse(body)?),
             KIND_CUT => Self::Cut(CutRecord::parse(body)?),
             k => return Err(FrameError::UnknownKind(k)),
         };

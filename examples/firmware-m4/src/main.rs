@@ -38,6 +38,12 @@ use sweepgate::error::{CaptureError, PumpError, ReplayError};
 use sweepgate::pump::{Meter, Pump, Step};
 use sweepgate::scan::EchoMode;
 #[cfg(feature = "gate-figures")]
+use sweepgate::scan::IMPULSE_EVERY_DEFAULT;
+#[cfg(feature = "gate-figures")]
+use sweepgate::wire::impulse::ImpulseRecord;
+#[cfg(feature = "gate-figures")]
+use sweepgate::wire::preview::{encode_frame, PreviewRecord, MAX_FRAME};
+#[cfg(feature = "gate-figures")]
 use sweepgate::Complex32;
 #[cfg(feature = "gate-figures")]
 use sweepgate::{
@@ -389,7 +395,7 @@ fn stream(
     pump.replay(&mut r, &mut w, echo, &mut timing)?;
     let k = pump.scan().counters();
     hprintln!(
-        "capture ({}): {} sweeps decoded ({} blocks rejected), {} binned, {} rejected, {} bins closed, {} preview frames",
+        "capture ({}): {} sweeps decoded ({} blocks rejected), {} binned, {} rejected, {} bins closed, {} preview frames ({} impulse-response records)",
         match pump.scan().config().echo {
             EchoMode::Never => "kernel path",
             EchoMode::EveryBin => "FFT path with echo level",
@@ -399,7 +405,8 @@ fn stream(
         k.sweeps_binned,
         k.sweeps_rejected(),
         k.bins_closed,
-        pump.counters().frames_sent
+        pump.counters().frames_sent,
+        pump.counters().impulses_sent
     );
     Ok(timing.pass)
 }
@@ -582,6 +589,41 @@ fn bench_gate(points: usize) -> Result<GateConfig, Failure> {
     })
 }
 
+/// The impulse-response preview record's cost on the board: sampling an M-point impulse
+/// response near the gate (what the engine does for one closed bin in
+/// `IMPULSE_EVERY_DEFAULT`, between the inverse FFT and the gating) and framing it.
+#[cfg(feature = "gate-figures")]
+#[inline(never)]
+fn impulse_figures<const M: usize>(
+    c: &Counter,
+    gate: &Gate<M>,
+    raw: &[Complex32; M],
+    h: &mut [Complex32; M],
+) where
+    [Complex32; M]: Fft,
+{
+    gate.impulse_response(raw, h);
+    let cfg = gate.config();
+    let mut rec = ImpulseRecord::empty();
+    let dt_s = cfg.grid.time_step_s(M);
+    let sample = c.measure(|| rec.sample(h, dt_s, cfg.center_s, cfg.span_s));
+    let points = rec.levels.len();
+    let record: PreviewRecord<8> = PreviewRecord::Impulse(rec);
+    let mut frame = [0u8; MAX_FRAME];
+    let mut n = 0;
+    let framing = c.measure(|| n = encode_frame(&record, 0, &mut frame).unwrap_or(0));
+    let every = u32::from(IMPULSE_EVERY_DEFAULT);
+    hprintln!(
+        "  impulse record ({} points, {} bytes framed): sample {} | frame {} | per closed bin at 1 in {}: {}",
+        points,
+        n,
+        sample,
+        framing,
+        every,
+        (sample + framing) / every
+    );
+}
+
 #[cfg(feature = "gate-figures")]
 #[inline(never)]
 fn gate_case<const M: usize>(c: &Counter, points: usize) -> Result<[KernelFigures; 3], Failure>
@@ -601,6 +643,7 @@ where
     let mut out = [ZERO; M];
     let mut echo_db = 0.0;
     let fft_path = c.measure(|| echo_db = gate.apply(&raw, &mut out));
+    impulse_figures(c, gate, &raw, &mut out);
     let f1 = kernel_case::<M, 1>(c, gate, &raw, &mut out)?;
     let f4 = kernel_case::<M, 4>(c, gate, &raw, &mut out)?;
     let f8 = kernel_case::<M, 8>(c, gate, &raw, &mut out)?;

@@ -97,6 +97,10 @@ pub struct Args {
     /// Angle bin width for the live engine, degrees (default: the scenario's, else 1).
     #[arg(long)]
     pub bin_width_deg: Option<f64>,
+    /// Also serve the live engine's view to a browser on [ADDR:]PORT (a bare port is on
+    /// 127.0.0.1); the page stays up after the scan until the command is stopped (Ctrl-C).
+    #[arg(long, value_name = "[ADDR:]PORT")]
+    pub web: Option<String>,
 }
 
 /// Runs the command.
@@ -120,6 +124,10 @@ pub fn run(a: Args) -> anyhow::Result<()> {
             settle_timeout_s: a.settle_timeout_s,
         }),
     };
+    let server = match &a.web {
+        Some(spec) => Some(crate::web::start(spec, crate::web::Meta::default())?),
+        None => None,
+    };
     acquire::run(&Options {
         drive,
         profile: a.profile,
@@ -133,5 +141,10 @@ pub fn run(a: Args) -> anyhow::Result<()> {
         out: a.out,
         gate: a.gate.into(),
         bin_width_deg: a.bin_width_deg,
-    })
+        web: server.as_ref().map(|s| s.hub().clone()),
+    })?;
+    if let Some(s) = &server {
+        crate::web::stay_up(s)?;
+    }
+    Ok(())
 }

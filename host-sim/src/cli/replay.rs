@@ -29,6 +29,10 @@ pub struct Args {
     /// Also serve the preview byte stream on 127.0.0.1:PORT.
     #[arg(long)]
     pub serve: Option<u16>,
+    /// Also serve the live view to a browser on [ADDR:]PORT (a bare port is on 127.0.0.1);
+    /// the page stays up after the scan until the command is stopped (Ctrl-C).
+    #[arg(long, value_name = "[ADDR:]PORT")]
+    pub web: Option<String>,
     /// Also write the records as they are replayed to this recording (crash-safe, with the
     /// same flush and sync policy as `simulate`): a clean copy of what was recovered.
     #[arg(long)]
@@ -49,6 +53,10 @@ pub struct Args {
 /// Runs the command.
 pub fn run(a: Args) -> anyhow::Result<()> {
     let a_rec = a.rec.clone();
+    let server = match &a.web {
+        Some(spec) => Some(crate::web::start(spec, crate::web::Meta::default())?),
+        None => None,
+    };
     let (o, dir) = replay::replay_file(&Options {
         rec: a.rec,
         speed: a.speed,
@@ -63,6 +71,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
             touchstone_dir: a.export_touchstone,
             arrays: a.export_arrays,
         },
+        web: server.as_ref().map(|s| s.hub().clone()),
     })?;
     if let Some(d) = &o.setup.data {
         eprintln!("gate {}", d.rule);
@@ -82,6 +91,9 @@ pub fn run(a: Args) -> anyhow::Result<()> {
             a_rec.display(),
             dir.display()
         );
+    }
+    if let Some(s) = &server {
+        crate::web::stay_up(s)?;
     }
     Ok(())
 }

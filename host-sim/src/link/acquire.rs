@@ -234,6 +234,7 @@ use crate::formats::block::{parse_format, parse_order};
 use crate::formats::files::{check_output_dir, refuse_if_same_file};
 use crate::formats::recording::{kind, GridInfo, Header, Record, SyncPolicy, Writer, SWEEP_FORMAT};
 use crate::limits::{self, MAX_FREQUENCIES};
+use crate::link::acquire_web::{self, WebFeed};
 use crate::link::clock::{ClockEstimate, ClockFit};
 use crate::link::drive::{Drive, DriveOptions, DriveStatus, Kept, LineDrive, Motion, Plan};
 use crate::link::lines::{self, PosMsg, Positioner};
@@ -245,6 +246,7 @@ use crate::pipeline::options::{describe_window, Choices, GateOptions};
 use crate::pipeline::setup::{self, Setup};
 use crate::pipeline::transform::c64;
 use crate::units::db;
+use crate::web::Hub;
 
 /// The default profile, for `sweepgate instrument`.
 pub const SIMULATED_PROFILE: &str = include_str!("../../profiles/simulated.toml");
@@ -279,6 +281,8 @@ pub struct Options {
     pub bin_width_deg: Option<f64>,
     /// Drive a positioner through a plan (instead of `positioner`).
     pub drive: Option<DriveOptions>,
+    /// The web view to feed from the live engine (`--web`), already serving.
+    pub web: Option<Hub>,
 }
 
 /// `[grid]` of a profile.
@@ -921,6 +925,8 @@ pub struct Request {
     pub choices: Choices,
     /// Recording to write.
     pub out: PathBuf,
+    /// The web view to feed from the live engine (`--web`), already serving.
+    pub web: Option<Hub>,
 }
 
 /// Angle samples on their way in.
@@ -1032,6 +1038,7 @@ struct LiveEngine {
     frequencies_hz: Vec<f64>,
     shown: BTreeSet<String>,
     closed: u64,
+    web: Option<WebFeed>,
 }
 
 impl LiveEngine {
@@ -1110,6 +1117,9 @@ impl Recorder {
         if let Some(e) = &mut self.engine {
             let ev = e.engine.angle(t_us, angle_deg);
             e.print(&ev);
+            if let Some(w) = &mut e.web {
+                w.events(&mut e.engine, &ev, Some(t_us));
+            }
         }
         Ok(())
     }
@@ -1377,7 +1387,22 @@ pub fn acquire(profile: &Profile, req: Request) -> anyhow::Result<Summary> {
     let timeout = Duration::from_secs_f64(profile.timeout_s);
     let (angles, scenario) = start_angles(req.positioner, epoch, timeout, profile)?;
     let mut header = header_for(profile, &req.instrument, idn, &grid, scenario);
-    let engine = live_engine(&mut header, &req.choices)?;
+    let mut engine = live_engine(&mut header, &req.choices)?;
+    if let Some(h) = &req.web {
+        match &mut engine {
+            Some(e) => {
+                e.web = Some(WebFeed::new(
+                    h.clone(),
+                    &e.setup,
+                    &format!("acquisition from {}", req.instrument),
+                ));
+            }
+            None => h.note(
+                "no live scan engine: give --scenario, or --gate-center-ns and --gate-span-ns, \
+                 for bins on this page",
+            ),
+        }
+    }
     let mut w = Writer::create(&req.out, SyncPolicy::default())
         .with_context(|| format!("creating {}", req.out.display()))?;
     w.write(&Record::Header(Box::new(header)))
@@ -1631,6 +1656,7 @@ fn live_engine(header: &mut Header, choices: &Choices) -> anyhow::Result<Option<
         setup,
         shown: BTreeSet::new(),
         closed: 0,
+        web: None,
     }))
 }
 
@@ -1892,6 +1918,9 @@ impl Session<'_> {
         if let Some(mut e) = engine {
             let ev = e.engine.finish(false);
             e.print(&ev);
+            if let Some(w) = &mut e.web {
+                w.events(&mut e.engine, &ev, None);
+            }
             sum.bins_closed = e.closed;
             sum.bins = e.engine.bins().values().cloned().collect();
             sum.setup = Some(e.setup);
@@ -2217,8 +2246,15 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
         linger_s: opts.linger_s,
         choices,
         out: opts.out.clone(),
+        web: opts.web.clone(),
     };
     let sum = acquire(&profile, req)?;
+    if let Some(h) = &opts.web {
+        acquire_web::ended(
+            h,
+            format!("wrote {} sweeps to {}", sum.sweeps, opts.out.display()),
+        );
+    }
     eprintln!(
         "wrote {} sweeps and {} angle samples to {} ({} sweeps dropped, {} malformed positioner lines, {} link faults, {} reconnections)",
         sum.sweeps,

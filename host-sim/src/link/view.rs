@@ -8,11 +8,13 @@ use std::io::Read;
 use std::path::Path;
 use std::sync::atomic::{AtomicBool, AtomicU64, Ordering};
 use std::sync::{mpsc, Arc};
-use std::time::Duration;
 
 use anyhow::Context;
 
+use sweepgate::grid::Grid;
+
 use crate::output::screen::{self as preview, Screen, ScreenInput};
+use crate::web::{Ended, Hub, Meta};
 
 /// Options of `sweepgate view`.
 #[derive(Debug, Clone)]
@@ -23,6 +25,40 @@ pub struct Options {
     pub no_preview: bool,
     /// Number of bins of the scan, for the "filled" count (unknown otherwise).
     pub bins: Option<u16>,
+    /// The sweep grid, to name the pattern frequencies in GHz (grid points otherwise).
+    pub grid: Option<Grid>,
+    /// The web view to feed (`--web`), already serving.
+    pub web: Option<Hub>,
+}
+
+/// `START:STOP:POINTS` in Hz (`8e9:12e9:801`) as a grid, for `view --grid-hz`.
+pub fn parse_grid(spec: &str) -> anyhow::Result<Grid> {
+    let bad = || {
+        format!(
+            "--grid-hz {}: expected START:STOP:POINTS in Hz, e.g. 8e9:12e9:801",
+            crate::quote::clipped(spec)
+        )
+    };
+    let parts: Vec<&str> = spec.split(':').collect();
+    let [a, b, n] = parts[..] else {
+        anyhow::bail!(bad());
+    };
+    let start: f64 = a.trim().parse().with_context(bad)?;
+    let stop: f64 = b.trim().parse().with_context(bad)?;
+    let points: usize = n.trim().parse().with_context(bad)?;
+    Grid::from_start_stop(start, stop, points).with_context(bad)
+}
+
+/// The web view's names for a stream read by `view`.
+fn web_meta(args: &Options) -> Meta {
+    Meta {
+        title: format!("stream from {}", args.from),
+        source: format!("preview stream from {}", args.from),
+        total_bins: args.bins,
+        grid_start_hz: args.grid.map(|g| g.frequency_hz(0)),
+        grid_step_hz: args.grid.map(|g| g.frequency_hz(1) - g.frequency_hz(0)),
+        ..Meta::default()
+    }
 }
 
 /// Feed messages in flight between the reader thread and the screen: the reader waits
@@ -51,6 +87,10 @@ pub fn view(args: &Options) -> anyhow::Result<Screen> {
     let (tx, rx) = mpsc::sync_channel(FEED_DEPTH);
     let read = Arc::new(AtomicU64::new(0));
     let counted = Arc::clone(&read);
+    let web = args.web.clone();
+    if let Some(h) = &web {
+        h.set_meta(web_meta(args));
+    }
     std::thread::spawn(move || {
         let mut buf = [0u8; 4096];
         loop {
@@ -58,6 +98,10 @@ pub fn view(args: &Options) -> anyhow::Result<Screen> {
                 Ok(0) | Err(_) => break,
                 Ok(n) => {
                     counted.fetch_add(n as u64, Ordering::Relaxed);
+                    if let Some(h) = &web {
+                        // Never waits: a browser that cannot keep up is dropped.
+                        h.publish(&buf[..n]);
+                    }
                     if tx.send(ScreenInput::Bytes(buf[..n].to_vec())).is_err() {
                         break;
                     }
@@ -65,13 +109,22 @@ pub fn view(args: &Options) -> anyhow::Result<Screen> {
             }
         }
         let _ = tx.send(ScreenInput::End);
+        if let Some(h) = &web {
+            h.end(
+                None,
+                Ended {
+                    files: Vec::new(),
+                    summary: "the preview stream has ended".into(),
+                },
+            );
+        }
     });
     let mut screen = Screen::new(format!("stream from {}", args.from));
     screen.total_bins = args.bins;
+    screen.grid = args.grid;
     let quit = AtomicBool::new(false);
     if !args.no_preview && preview::have_terminal() {
-        preview::run_terminal(&rx, &mut screen, &quit, Duration::from_secs(3600))
-            .context("terminal preview")?;
+        preview::run_terminal(&rx, &mut screen, &quit, None).context("terminal preview")?;
     } else {
         preview::run_plain(&rx, &mut screen, args.bins.is_some());
     }

@@ -3,6 +3,7 @@
 
 pub mod colour_map;
 pub mod export;
+pub mod markers;
 pub mod plan_text;
 pub mod report;
 pub mod screen;

@@ -5,12 +5,17 @@
 //!
 //! The same model serves `sweepgate replay` (fed by the replayed scan engine) and
 //! `sweepgate view` (fed by a board's byte stream), so what the screen shows is exactly what
-//! the records carry: raw and gated |S21| in dB at each pattern frequency against angle, bins
-//! filled, the last echo level, the scan's sweeps per second (from status records), counters and
-//! warnings.
+//! the records carry: raw and gated |S21| at each pattern frequency against angle, each in dB
+//! below its own peak, as a rectangular or a polar plot; markers (the gated peak, its −3 dB
+//! points and width, and a cursor); the gate's self-check flags; bins filled, the last echo
+//! level, the scan's sweeps per second (from status records), counters and warnings. The
+//! legend sits in the plot's border and the level labels outside the plot, so neither covers
+//! a trace at any size (`host-sim/tests/screen_render.rs`, 80 × 24 and 160 × 48).
 //!
 //! Keys: `q` or Esc quits (the terminal is restored), `f`/Tab/→ shows the next pattern
-//! frequency, `F`/← the previous one.
+//! frequency, `F`/← the previous one, `p` switches between the rectangular and the polar
+//! plot, `[` and `]` move the cursor a bin down or up. With a terminal the screen stays
+//! open after the stream ends until `q`.
 
 use std::collections::BTreeMap;
 use std::io::IsTerminal;
@@ -21,7 +26,8 @@ use std::time::{Duration, Instant};
 use ratatui::layout::{Constraint, Direction, Layout, Rect};
 use ratatui::style::{Color, Style};
 use ratatui::symbols::Marker;
-use ratatui::text::Line;
+use ratatui::text::{Line, Span};
+use ratatui::widgets::canvas::{Canvas, Circle, Line as CanvasLine, Points};
 use ratatui::widgets::{Axis, Block, Borders, Chart, Dataset, GraphType, Paragraph};
 use ratatui::Frame;
 use sweepgate::bins::BinFlags;
@@ -29,6 +35,11 @@ use sweepgate::grid::Grid;
 use sweepgate::wire::preview::{
     BinRecord, Decoder, DecoderCounters, PositionerState, PreviewRecord, StatusRecord,
 };
+
+use crate::output::markers::{markers, Markers};
+
+/// Levels shown below each trace's peak, dB.
+pub const RANGE_DB: f64 = 40.0;
 
 /// Pattern frequencies a preview record may carry here (unused slots are padded).
 pub const PREVIEW_F: usize = crate::limits::MAX_FREQUENCIES;
@@ -75,6 +86,10 @@ pub struct Screen {
     pub notes: Vec<String>,
     /// The stream has ended.
     pub ended: bool,
+    /// The polar plot instead of the rectangular one.
+    pub polar: bool,
+    /// The cursor's angle, deg (`None`: no cursor).
+    pub cursor_deg: Option<f64>,
     decoder: PreviewDecoder,
     first_status: Option<(u64, u32)>,
 }
@@ -94,6 +109,8 @@ impl Screen {
             selected: 0,
             notes: Vec::new(),
             ended: false,
+            polar: false,
+            cursor_deg: None,
             decoder: PreviewDecoder::new(),
             first_status: None,
         }
@@ -130,6 +147,8 @@ impl Screen {
             }
             // One cut on screen: the first trace of the latest cut's bins.
             PreviewRecord::Cut(c) => self.apply(PreviewRecord::Bin(c.first_trace_bin())),
+            // The map of impulse responses is the web view's; the terminal has no room.
+            PreviewRecord::Impulse(_) => {}
         }
     }
 
@@ -195,6 +214,50 @@ impl Screen {
             .collect();
         v.sort_by(|a, b| a.0.total_cmp(&b.0));
         v
+    }
+
+    /// [`Self::pattern_points`] with each trace in dB below its own peak.
+    pub fn normalised_points(&self) -> Vec<(f64, f64, f64)> {
+        let pts = self.pattern_points();
+        let peak =
+            |k: fn(&(f64, f64, f64)) -> f64| pts.iter().map(k).fold(f64::NEG_INFINITY, f64::max);
+        let (raw_peak, gated_peak) = (peak(|p| p.1), peak(|p| p.2));
+        pts.iter()
+            .map(|p| (p.0, p.1 - raw_peak, p.2 - gated_peak))
+            .collect()
+    }
+
+    /// Markers of the gated trace (absolute levels) at the shown frequency.
+    pub fn gated_markers(&self) -> Option<Markers> {
+        let cut: Vec<(f64, f64)> = self.pattern_points().iter().map(|p| (p.0, p.2)).collect();
+        markers(&cut)
+    }
+
+    /// The bin nearest the cursor: (angle, raw and gated dB below their peaks).
+    pub fn cursor_point(&self) -> Option<(f64, f64, f64)> {
+        let c = self.cursor_deg?;
+        self.normalised_points()
+            .into_iter()
+            .min_by(|a, b| (a.0 - c).abs().total_cmp(&(b.0 - c).abs()))
+    }
+
+    /// Moves the cursor `step` bins up (1) or down (−1); the first move puts it on the peak.
+    pub fn move_cursor(&mut self, step: isize) {
+        let pts = self.pattern_points();
+        if pts.is_empty() {
+            return;
+        }
+        let Some(c) = self.cursor_deg else {
+            self.cursor_deg = self.gated_markers().map(|m| m.peak_deg);
+            return;
+        };
+        let i = pts
+            .iter()
+            .enumerate()
+            .min_by(|a, b| (a.1 .0 - c).abs().total_cmp(&(b.1 .0 - c).abs()))
+            .map_or(0, |(i, _)| i);
+        let j = (i as isize + step).rem_euclid(pts.len() as isize) as usize;
+        self.cursor_deg = Some(pts[j].0);
     }
 
     /// Bins whose latest record has `flag` set.
@@ -299,76 +362,210 @@ fn state_word(s: PositionerState) -> &'static str {
 /// `ratatui::backend::TestBackend`.
 pub fn draw(frame: &mut Frame, screen: &Screen) {
     let area = frame.area();
+    let panel = if area.width >= 120 { 52 } else { 40 };
     let cols = Layout::default()
         .direction(Direction::Horizontal)
-        .constraints([Constraint::Min(40), Constraint::Length(44)])
+        .constraints([Constraint::Min(30), Constraint::Length(panel)])
         .split(area);
     let freqs = screen.frequency_indices();
     let freq_text = freqs
         .get(screen.selected)
         .map(|&i| screen.frequency_label(i))
         .unwrap_or_else(|| "waiting for bins".into());
-    draw_pattern(frame, cols[0], screen, &freq_text);
+    if screen.polar {
+        draw_polar(frame, cols[0], screen, &freq_text);
+    } else {
+        draw_pattern(frame, cols[0], screen, &freq_text);
+    }
     let lines = scan_lines(screen, &freq_text, freqs.len());
-    let info = Paragraph::new(lines).block(Block::default().borders(Borders::ALL).title("scan"));
+    let info = Paragraph::new(lines).block(
+        Block::default()
+            .borders(Borders::ALL)
+            .title(format!("sweepgate: {}", screen.title))
+            .title_bottom("f freq  p polar  [ ] cursor  q quit"),
+    );
     frame.render_widget(info, cols[1]);
 }
 
-/// The chart of raw and gated |S21| against angle at the selected frequency, its level
-/// axis spanning 60 dB under the highest point (rounded up to 10 dB).
-fn draw_pattern(frame: &mut Frame, area: Rect, screen: &Screen, freq_text: &str) {
-    let pts = screen.pattern_points();
-    let raw: Vec<(f64, f64)> = pts.iter().map(|p| (p.0, p.1)).collect();
-    let gated: Vec<(f64, f64)> = pts.iter().map(|p| (p.0, p.2)).collect();
-    let top = pts
-        .iter()
-        .flat_map(|p| [p.1, p.2])
-        .fold(f64::NEG_INFINITY, f64::max);
-    let (y0, y1) = if top.is_finite() {
-        let hi = (top / 10.0).ceil() * 10.0;
-        (hi - 60.0, hi)
+/// The plot's title: the frequency and the legend, in the border, never over a trace.
+fn legend_title(freq_text: &str) -> Line<'static> {
+    Line::from(vec![
+        Span::raw(format!("{freq_text} ")),
+        Span::styled("── raw", Style::default().fg(Color::Yellow)),
+        Span::raw(" "),
+        Span::styled("── gated", Style::default().fg(Color::Cyan)),
+        Span::raw(" "),
+    ])
+}
+
+/// A trace in dB below its peak, held at the bottom of the range.
+fn clamp_db(v: f64) -> f64 {
+    if v.is_finite() {
+        v.max(-RANGE_DB)
     } else {
-        (-100.0, 0.0)
-    };
-    let line = |name: &'static str, colour: Color, data| {
+        -RANGE_DB
+    }
+}
+
+/// The chart of raw and gated |S21| against angle at the selected frequency, each in dB
+/// below its peak, labelled every 10 dB; the cursor as a vertical line.
+fn draw_pattern(frame: &mut Frame, area: Rect, screen: &Screen, freq_text: &str) {
+    let pts = screen.normalised_points();
+    let raw: Vec<(f64, f64)> = pts.iter().map(|p| (p.0, clamp_db(p.1))).collect();
+    let gated: Vec<(f64, f64)> = pts.iter().map(|p| (p.0, clamp_db(p.2))).collect();
+    let cursor: Vec<(f64, f64)> = screen
+        .cursor_deg
+        .map(|c| vec![(c, -RANGE_DB), (c, 0.0)])
+        .unwrap_or_default();
+    let line = |colour: Color, data| {
         Dataset::default()
-            .name(name)
             .marker(Marker::Braille)
             .graph_type(GraphType::Line)
             .style(Style::default().fg(colour))
             .data(data)
     };
     let datasets = vec![
-        line("raw", Color::Yellow, &raw),
-        line("gated", Color::Cyan, &gated),
+        line(Color::Yellow, &raw),
+        line(Color::Cyan, &gated),
+        line(Color::Magenta, &cursor),
     ];
+    let steps = (RANGE_DB / 10.0) as i32;
+    let y_labels: Vec<String> = (0..=steps)
+        .map(|k| {
+            let v = -RANGE_DB + 10.0 * f64::from(k);
+            if k == 0 || k == steps {
+                format!("{v:.0} dB")
+            } else {
+                format!("{v:.0}")
+            }
+        })
+        .collect();
     let chart = Chart::new(datasets)
+        .legend_position(None)
         .block(
             Block::default()
                 .borders(Borders::ALL)
-                .title(format!("sweepgate preview: {}", screen.title)),
+                .title(legend_title(freq_text))
+                .title_bottom("dB below peak, deg"),
         )
         .x_axis(
             Axis::default()
-                .title("angle (deg)")
                 .bounds([-180.0, 180.0])
                 .labels(["-180", "-90", "0", "90", "180"]),
         )
-        .y_axis(
-            Axis::default()
-                .title(format!("|S21| dB at {freq_text}"))
-                .bounds([y0, y1])
-                .labels([
-                    format!("{y0:.0}"),
-                    format!("{:.0}", 0.5 * (y0 + y1)),
-                    format!("{y1:.0}"),
-                ]),
-        );
+        .y_axis(Axis::default().bounds([-RANGE_DB, 0.0]).labels(y_labels));
     frame.render_widget(chart, area);
 }
 
-/// The scan panel: frequency, bins, echo level, rates, positioner and counters, warnings,
-/// and the keys.
+/// The polar plot: 0° up, angles clockwise, rings every 10 dB down to [`RANGE_DB`] below
+/// each trace's peak; the ring levels are named in the border, not over the traces.
+fn draw_polar(frame: &mut Frame, area: Rect, screen: &Screen, freq_text: &str) {
+    let pts = screen.normalised_points();
+    let xy = |deg: f64, db: f64| {
+        let r = 1.0 + clamp_db(db) / RANGE_DB;
+        let t = deg.to_radians();
+        (r * t.sin(), r * t.cos())
+    };
+    let raw: Vec<(f64, f64)> = pts.iter().map(|p| xy(p.0, p.1)).collect();
+    let gated: Vec<(f64, f64)> = pts.iter().map(|p| xy(p.0, p.2)).collect();
+    // Cells are about twice as tall as wide: widen x so that circles stay round.
+    let inner_h = f64::from(area.height.saturating_sub(2).max(1));
+    let inner_w = f64::from(area.width.saturating_sub(2).max(1));
+    let half_x = 1.05 * inner_w / (2.0 * inner_h);
+    let cursor = screen.cursor_deg;
+    let canvas = Canvas::default()
+        .block(
+            Block::default()
+                .borders(Borders::ALL)
+                .title(legend_title(freq_text))
+                .title_bottom(format!("0° up, rings 10 dB to -{RANGE_DB:.0}")),
+        )
+        .marker(Marker::Braille)
+        .x_bounds([-half_x, half_x])
+        .y_bounds([-1.05, 1.05])
+        .paint(move |ctx| {
+            for k in 1..=(RANGE_DB / 10.0) as i32 {
+                let radius = f64::from(k) * 10.0 / RANGE_DB;
+                ctx.draw(&Circle {
+                    x: 0.0,
+                    y: 0.0,
+                    radius,
+                    color: Color::DarkGray,
+                });
+            }
+            if let Some(c) = cursor {
+                let (x, y) = xy(c, 0.0);
+                ctx.draw(&CanvasLine::new(0.0, 0.0, x, y, Color::Magenta));
+            }
+            ctx.layer();
+            ctx.draw(&Points {
+                coords: &raw,
+                color: Color::Yellow,
+            });
+            ctx.layer();
+            ctx.draw(&Points {
+                coords: &gated,
+                color: Color::Cyan,
+            });
+        });
+    frame.render_widget(canvas, area);
+}
+
+/// The markers of the shown frequency: the gated peak, its −3 dB points and width, the
+/// cursor's bin.
+fn marker_lines(screen: &Screen) -> Vec<Line<'static>> {
+    let mut lines = Vec::new();
+    match screen.gated_markers() {
+        Some(m) => {
+            lines.push(Line::from(format!(
+                "peak         {:.1} dB at {:.1} deg",
+                m.peak_db, m.peak_deg
+            )));
+            let a = |x: Option<f64>| x.map_or("-".into(), |v| format!("{v:.1}"));
+            lines.push(Line::from(format!(
+                "-3 dB        {}..{} ({} deg)",
+                a(m.left_deg),
+                a(m.right_deg),
+                a(m.width_deg)
+            )));
+        }
+        None => lines.push(Line::from("peak         -")),
+    }
+    if let Some((deg, raw, gated)) = screen.cursor_point() {
+        let magenta = Style::default().fg(Color::Magenta);
+        lines.push(Line::styled(format!("cursor       {deg:.1} deg"), magenta));
+        lines.push(Line::styled(
+            format!("  level      {gated:.1} gated, {raw:.1} raw"),
+            magenta,
+        ));
+    }
+    let echo_in = screen.bins_flagged(BinFlags::ECHO_IN_GATE);
+    let outside = screen.bins_flagged(BinFlags::DIRECT_OUTSIDE_GATE);
+    let style = if echo_in + outside > 0 {
+        Style::default().fg(Color::LightRed)
+    } else {
+        Style::default()
+    };
+    let bins = |n: usize| {
+        if n == 1 {
+            "1 bin".to_owned()
+        } else {
+            format!("{n} bins")
+        }
+    };
+    lines.push(Line::styled(
+        format!("echo in gate {}", bins(echo_in)),
+        style,
+    ));
+    lines.push(Line::styled(
+        format!("direct path  {} outside the gate", bins(outside)),
+        style,
+    ));
+    lines
+}
+
+/// The scan panel: frequency, bins, markers, gate flags, echo level, rates, positioner and
+/// counters, warnings.
 fn scan_lines(screen: &Screen, freq_text: &str, n_freqs: usize) -> Vec<Line<'static>> {
     let mut lines: Vec<Line> = vec![
         Line::from(format!(
@@ -377,21 +574,27 @@ fn scan_lines(screen: &Screen, freq_text: &str, n_freqs: usize) -> Vec<Line<'sta
             n_freqs
         )),
         Line::from(format!("bins filled  {}", screen.bins_filled_text())),
-        Line::from(format!(
-            "echo level   {}",
-            screen
-                .last_echo_db
-                .map_or("-".into(), |e| format!("{e:.1} dB (last bin)"))
-        )),
-        Line::from(format!(
-            "sweeps/s     {}",
-            screen
-                .sweeps_per_s
-                .map_or("-".into(), |r| format!("{r:.1}"))
-        )),
     ];
+    lines.extend(marker_lines(screen));
+    lines.push(Line::from(format!(
+        "echo level   {}",
+        screen
+            .last_echo_db
+            .map_or("-".into(), |e| format!("{e:.1} dB (last bin)"))
+    )));
+    lines.push(Line::from(format!(
+        "sweeps/s     {}",
+        screen
+            .sweeps_per_s
+            .map_or("-".into(), |r| format!("{r:.1}"))
+    )));
     lines.extend(counter_lines(screen));
-    lines.push(Line::from(""));
+    if screen.ended {
+        lines.push(Line::styled(
+            "stream ended: q quits",
+            Style::default().fg(Color::Green),
+        ));
+    }
     let warns = screen.warnings();
     if warns.is_empty() {
         lines.push(Line::from("no warnings"));
@@ -404,11 +607,6 @@ fn scan_lines(screen: &Screen, freq_text: &str, n_freqs: usize) -> Vec<Line<'sta
             ));
         }
     }
-    lines.push(Line::from(""));
-    if screen.ended {
-        lines.push(Line::from("stream ended"));
-    }
-    lines.push(Line::from("f: next frequency  q: quit"));
     lines
 }
 
@@ -445,13 +643,14 @@ pub fn have_terminal() -> bool {
     std::io::stdout().is_terminal()
 }
 
-/// Shows the full-screen preview until the feed ends (then `linger` longer) or `q` is
-/// pressed, which sets `quit`. The terminal is restored on every exit path.
+/// Shows the full-screen preview until `q` is pressed, which sets `quit`; with `linger`
+/// given, also until that long after the feed ends (`None`: the screen stays open after
+/// the end until `q`). The terminal is restored on every exit path.
 pub fn run_terminal(
     rx: &Receiver<ScreenInput>,
     screen: &mut Screen,
     quit: &AtomicBool,
-    linger: Duration,
+    linger: Option<Duration>,
 ) -> std::io::Result<()> {
     let mut term = ratatui::try_init()?;
     let r = terminal_loop(&mut term, rx, screen, quit, linger);
@@ -459,14 +658,46 @@ pub fn run_terminal(
     r
 }
 
+/// What a key does on the screen.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum KeyAction {
+    /// Leave the screen.
+    Quit,
+    /// Redraw (the key changed the view, or did nothing).
+    Stay,
+}
+
+impl Screen {
+    /// Applies a key press: `q`/Esc quit, `f`/Tab/→ and `F`/BackTab/← the frequency, `p` the
+    /// polar plot, `[` and `]` the cursor.
+    pub fn key(&mut self, code: ratatui::crossterm::event::KeyCode) -> KeyAction {
+        use ratatui::crossterm::event::KeyCode;
+        match code {
+            KeyCode::Char('q') | KeyCode::Esc => return KeyAction::Quit,
+            KeyCode::Char('f') | KeyCode::Tab | KeyCode::Right => self.cycle(1),
+            KeyCode::Char('F') | KeyCode::BackTab | KeyCode::Left => self.cycle(-1),
+            KeyCode::Char('p') => self.polar = !self.polar,
+            KeyCode::Char(']') => self.move_cursor(1),
+            KeyCode::Char('[') => self.move_cursor(-1),
+            _ => {}
+        }
+        KeyAction::Stay
+    }
+}
+
+/// True when the screen closes by itself: only with a `linger`, that long after the end.
+pub fn closes_by_itself(ended_at: Option<Instant>, linger: Option<Duration>) -> bool {
+    matches!((ended_at, linger), (Some(t), Some(l)) if t.elapsed() >= l)
+}
+
 fn terminal_loop(
     term: &mut ratatui::DefaultTerminal,
     rx: &Receiver<ScreenInput>,
     screen: &mut Screen,
     quit: &AtomicBool,
-    linger: Duration,
+    linger: Option<Duration>,
 ) -> std::io::Result<()> {
-    use ratatui::crossterm::event::{self, Event, KeyCode, KeyEventKind};
+    use ratatui::crossterm::event::{self, Event, KeyEventKind};
     let mut ended_at: Option<Instant> = None;
     loop {
         loop {
@@ -483,21 +714,14 @@ fn terminal_loop(
             ended_at = Some(Instant::now());
         }
         term.draw(|f| draw(f, screen))?;
-        if ended_at.is_some_and(|t| t.elapsed() >= linger) {
+        if closes_by_itself(ended_at, linger) {
             return Ok(());
         }
         if event::poll(Duration::from_millis(50))? {
             if let Event::Key(k) = event::read()? {
-                if k.kind == KeyEventKind::Press {
-                    match k.code {
-                        KeyCode::Char('q') | KeyCode::Esc => {
-                            quit.store(true, Ordering::Relaxed);
-                            return Ok(());
-                        }
-                        KeyCode::Char('f') | KeyCode::Tab | KeyCode::Right => screen.cycle(1),
-                        KeyCode::Char('F') | KeyCode::BackTab | KeyCode::Left => screen.cycle(-1),
-                        _ => {}
-                    }
+                if k.kind == KeyEventKind::Press && screen.key(k.code) == KeyAction::Quit {
+                    quit.store(true, Ordering::Relaxed);
+                    return Ok(());
                 }
             }
         }

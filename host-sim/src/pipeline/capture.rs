@@ -15,7 +15,7 @@ use sweepgate::pump::Pump;
 use sweepgate::scan::{EchoMode, ScanCounters};
 use sweepgate::wire::block::{emit, ByteOrder, Format};
 use sweepgate::wire::capture::{CaptureHeader, Entry, HEADER_LEN, MAX_ENTRY_LEN, MAX_PATTERN};
-use sweepgate::wire::preview::{BinRecord, Decoder, PreviewRecord as Preview};
+use sweepgate::wire::preview::{BinRecord, Decoder, ImpulseRecord, PreviewRecord as Preview};
 use sweepgate::Complex32;
 
 /// FFT size of the board build (`examples/firmware-m4`); the host replays a capture with
@@ -178,8 +178,46 @@ pub struct Comparison {
     /// Largest |angle offset| of any value in the second stream, degrees (0 when every
     /// sweep was taken still).
     pub largest_offset_deg: f32,
+    /// Impulse-response records in each stream.
+    pub impulses: (usize, usize),
+    /// Of those, pairs with the same bin and levels within one 0.5 dB step.
+    pub impulses_matched: usize,
     /// One line per disagreement (at most 20).
     pub problems: Vec<String>,
+}
+
+/// Compares the impulse-response records of two streams pairwise: the same bins, delays
+/// and levels within one step (the board's and the host's f32 arithmetic may round a
+/// level to the neighbouring step).
+fn compare_impulses(a: &[ImpulseRecord], b: &[ImpulseRecord], c: &mut Comparison) {
+    c.impulses = (a.len(), b.len());
+    if a.len() != b.len() {
+        c.problems.push(format!(
+            "{} impulse-response records against {}",
+            a.len(),
+            b.len()
+        ));
+    }
+    for (x, y) in a.iter().zip(b) {
+        let levels_ok = x.levels.len() == y.levels.len()
+            && x.levels
+                .iter()
+                .zip(&y.levels)
+                .all(|(p, q)| p.abs_diff(*q) <= 1);
+        let ok = x.bin == y.bin
+            && (x.first_ns - y.first_ns).abs() <= 1e-3
+            && (x.step_ns - y.step_ns).abs() <= 1e-4
+            && (x.peak_db - y.peak_db).abs() <= 0.01
+            && levels_ok;
+        if ok {
+            c.impulses_matched += 1;
+        } else {
+            c.problems.push(format!(
+                "impulse response of bin {} against bin {}",
+                x.bin, y.bin
+            ));
+        }
+    }
 }
 
 /// Decodes two preview streams and compares them record by record: the same bins, in the
@@ -189,15 +227,16 @@ pub struct Comparison {
 pub fn compare(a: &[u8], b: &[u8], tolerance: f64) -> Comparison {
     let decode = |bytes: &[u8]| {
         let mut d: Decoder<F, 512> = Decoder::new();
-        let mut out = Vec::new();
-        d.feed(bytes, |_, r| {
-            if let Preview::Bin(b) = r {
-                out.push(b)
-            }
+        let (mut out, mut imp) = (Vec::new(), Vec::new());
+        d.feed(bytes, |_, r| match r {
+            Preview::Bin(b) => out.push(b),
+            Preview::Impulse(i) => imp.push(i),
+            // Cut records have their own comparison (cut_capture.rs).
+            Preview::Status(_) | Preview::Cut(_) => {}
         });
-        out
+        (out, imp)
     };
-    let (ra, rb) = (decode(a), decode(b));
+    let ((ra, ia), (rb, ib)) = (decode(a), decode(b));
     let flagged = |r: &[BinRecord<F>]| {
         r.iter()
             .filter(|x| x.flags & BinFlags::ECHO_IN_GATE != 0)
@@ -212,8 +251,11 @@ pub fn compare(a: &[u8], b: &[u8], tolerance: f64) -> Comparison {
             .iter()
             .flat_map(|x| x.values.iter().map(|v| v.angle_offset_deg.abs()))
             .fold(0.0, f32::max),
+        impulses: (0, 0),
+        impulses_matched: 0,
         problems: Vec::new(),
     };
+    compare_impulses(&ia, &ib, &mut c);
     if ra.len() != rb.len() {
         c.problems
             .push(format!("{} bin records against {}", ra.len(), rb.len()));

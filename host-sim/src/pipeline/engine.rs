@@ -19,7 +19,7 @@ use sweepgate::bins::BinLayout;
 use sweepgate::fft::Fft;
 use sweepgate::gate::{Gate, GateConfig};
 use sweepgate::scan::{BinResult, Event, Events, Scan, ScanCounters, Warning};
-use sweepgate::wire::preview::StatusRecord;
+use sweepgate::wire::preview::{ImpulseRecord, StatusRecord};
 use sweepgate::Complex32;
 
 use crate::limits::{MAX_BINS, MAX_FREQUENCIES};
@@ -176,6 +176,7 @@ trait AnyScan {
     fn angle_at(&self, t_us: u64) -> Option<f32>;
     fn impulse(&self, sweep: &[Complex32], angle_deg: f64, sweeps: u32) -> ImpulseView;
     fn gate_band(&self, sum: &[Complex32], inv_count: f32) -> Vec<Complex32>;
+    fn take_impulse(&mut self) -> Option<ImpulseRecord>;
 }
 
 impl<const M: usize> AnyScan for HostScan<M>
@@ -217,7 +218,13 @@ where
         self.gate().apply_in_place(&mut buf, inv_count);
         buf[..sum.len().min(M)].to_vec()
     }
+    fn take_impulse(&mut self) -> Option<ImpulseRecord> {
+        Scan::take_impulse(self).cloned()
+    }
 }
+
+/// Impulse-response records waiting to be sent; older ones are dropped past this many.
+const MAX_PENDING_IMPULSES: usize = 256;
 
 /// Builds the engine of a set-up at its FFT size.
 struct Build<'a>(&'a Setup);
@@ -274,6 +281,7 @@ pub struct Engine {
     boresight: Boresight,
     grid: sweepgate::grid::Grid,
     bands: Option<BandKeeper>,
+    impulses: VecDeque<ImpulseRecord>,
 }
 
 impl Engine {
@@ -297,6 +305,7 @@ impl Engine {
             },
             grid: setup.grid,
             bands: None,
+            impulses: VecDeque::new(),
         })
     }
 
@@ -481,5 +490,17 @@ impl Engine {
             }
             out.push(e);
         }
+        if let Some(r) = self.scan.take_impulse() {
+            if self.impulses.len() >= MAX_PENDING_IMPULSES {
+                self.impulses.pop_front();
+            }
+            self.impulses.push_back(r);
+        }
+    }
+
+    /// The impulse-response records of the bins closed since the last call (the engine
+    /// keeps one closed bin in [`sweepgate::scan::IMPULSE_EVERY_DEFAULT`]).
+    pub fn take_impulses(&mut self) -> Vec<ImpulseRecord> {
+        self.impulses.drain(..).collect()
     }
 }

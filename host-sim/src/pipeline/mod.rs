@@ -29,3 +29,4 @@ pub mod sphere_report;
 pub mod stream;
 pub mod summary;
 pub mod transform;
+pub mod web_feed;

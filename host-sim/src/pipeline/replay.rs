@@ -32,6 +32,8 @@ use crate::output::screen::{self as preview, Screen, ScreenInput};
 use crate::pipeline::options::{default_report_dir, GateOptions};
 use crate::pipeline::setup::{self, Setup};
 use crate::pipeline::stream::{self, Outcome, Pacing, Sink};
+use crate::pipeline::web_feed;
+use crate::web::Hub;
 
 /// Range of `--speed`: from a thousandth of the recorded pace (a 1 s scan takes 17 min)
 /// to a million times it (beyond which the waits are below the timer's resolution).
@@ -60,6 +62,8 @@ pub struct Options {
     pub progress_lines: bool,
     /// Full-band exports beside the report (see [`crate::output::export`]).
     pub exports: Exports,
+    /// The web view to feed (`--web`), already serving.
+    pub web: Option<Hub>,
 }
 
 impl Options {
@@ -76,6 +80,7 @@ impl Options {
             record: None,
             progress_lines: false,
             exports: Exports::default(),
+            web: None,
         }
     }
 
@@ -126,6 +131,7 @@ pub fn replay_records(
 struct ChannelSink {
     tx: Sender<ScreenInput>,
     clients: Option<Clients>,
+    web: Option<Hub>,
 }
 
 type Clients = Arc<Mutex<Vec<TcpStream>>>;
@@ -133,6 +139,10 @@ type Clients = Arc<Mutex<Vec<TcpStream>>>;
 impl Sink for ChannelSink {
     fn send(&mut self, bytes: &[u8]) {
         let _ = self.tx.send(ScreenInput::Bytes(bytes.to_vec()));
+        if let Some(h) = &self.web {
+            // Never waits: a browser that cannot keep up is dropped by the hub.
+            h.publish(bytes);
+        }
         if let Some(c) = &self.clients {
             if let Ok(mut v) = c.lock() {
                 // Non-blocking: a full socket buffer is an error and drops the viewer.
@@ -161,6 +171,11 @@ pub fn replay_file(opts: &Options) -> anyhow::Result<(Outcome, PathBuf)> {
     }
     let s = setup(&rec, opts)?;
     let mut screen = screen_for(&s, &rec);
+    if let Some(h) = &opts.web {
+        let mut meta = web_feed::meta_of(&s, &format!("replay of {}", opts.rec.display()));
+        meta.notes.extend(screen.notes.iter().cloned());
+        h.set_meta(meta);
+    }
     let clients = match opts.serve {
         Some(port) => Some(serve(port)?),
         None => None,
@@ -170,6 +185,7 @@ pub fn replay_file(opts: &Options) -> anyhow::Result<(Outcome, PathBuf)> {
     let sink = ChannelSink {
         tx,
         clients: clients.clone(),
+        web: opts.web.clone(),
     };
     let pacing = Pacing {
         pace,
@@ -189,9 +205,17 @@ pub fn replay_file(opts: &Options) -> anyhow::Result<(Outcome, PathBuf)> {
         eprintln!("{line}");
     }
     stream::refuse_empty(&outcome)?;
-    report::write_report(&outcome.report, &out_dir)
+    let files = report::write_report(&outcome.report, &out_dir)
         .with_context(|| format!("writing the report to {}", out_dir.display()))?;
     export::write_exports(&outcome.report, outcome.bands.as_ref(), &opts.exports)?;
+    if let Some(h) = &opts.web {
+        let summary = format!(
+            "{} bins closed; report written to {}",
+            outcome.counters.bins_closed,
+            out_dir.display()
+        );
+        web_feed::report_written(h, &out_dir, &files, summary);
+    }
     Ok((outcome, out_dir))
 }
 
@@ -291,8 +315,7 @@ fn show(
         preview::run_plain(rx, screen, true);
         return Ok(());
     }
-    preview::run_terminal(rx, screen, quit, Duration::from_millis(1500))
-        .context("terminal preview")?;
+    preview::run_terminal(rx, screen, quit, None).context("terminal preview")?;
     quit.store(true, Ordering::Relaxed);
     // Drain what is left so the worker can finish.
     while let Ok(f) = rx.recv() {

@@ -157,6 +157,8 @@ impl Setup {
         cfg.mode = self.mode;
         cfg.revisit = RevisitPolicy::Replace;
         cfg.track.settle_time_us = self.settle_us;
+        // The impulse responses near the gate at a board's rate, for the web view's map.
+        cfg.impulse_every = sweepgate::scan::IMPULSE_EVERY_DEFAULT;
         if let Some(v) = self.speed_deg_s {
             cfg.track.max_speed_deg_s = cfg.track.max_speed_deg_s.max((3.0 * v) as f32);
         }

@@ -138,6 +138,12 @@ impl Frames<'_> {
         self.seq = self.seq.wrapping_add(1);
     }
 
+    fn impulses(&mut self, engine: &mut Engine) {
+        for r in engine.take_impulses() {
+            self.emit(&PreviewRecord::Impulse(r));
+        }
+    }
+
     fn bins(&mut self, events: &[Event<MAX_FREQUENCIES>]) {
         for e in events {
             if let Event::BinClosed(r) = e {
@@ -257,6 +263,7 @@ pub fn stream_keeping_bands(
     }
     let ev = engine.finish(interrupted);
     frames.bins(&ev);
+    frames.impulses(&mut engine);
     frames.emit(&PreviewRecord::Status(engine.status()));
     if let Some((w, path)) = copy {
         w.finish()
@@ -349,6 +356,7 @@ fn feed(engine: &mut Engine, r: &Record, frames: &mut Frames) {
         } => {
             let ev = engine.angle(*t_us, *angle_deg);
             frames.bins(&ev);
+            frames.impulses(engine);
         }
         Record::Sweep {
             start_us,
