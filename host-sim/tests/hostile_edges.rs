@@ -242,7 +242,8 @@ fn absurd_scenario_sizes_are_refused_with_field_value_and_range() {
     for e in scenario_edits() {
         let (name, words) = (e.name, e.words.clone());
         let text = edited(&e);
-        let started = Instant::now();
+        // `within` is the deadline: a scenario that made the simulator allocate or loop
+        // without bound would miss it.
         let result = within(20, name, move || {
             Scenario::from_toml(&text).map_err(|e| format!("{e:#}"))
         });
@@ -257,11 +258,6 @@ fn absurd_scenario_sizes_are_refused_with_field_value_and_range() {
                 assert!(!e.contains('\n'), "case {name}: {e}");
             }
         }
-        assert!(
-            started.elapsed() < Duration::from_secs(5),
-            "case {name}: {:?}",
-            started.elapsed()
-        );
         count += 1;
     }
     // The command line names the file and the field, and makes no recording.
@@ -843,8 +839,9 @@ fn a_long_manifest_is_checked_for_repeated_angles_in_linear_time() {
     let d = temp("long");
     std::fs::write(d.join("a.s1p"), good_s1p(0.5)).unwrap();
     // 300 000 distinct angles, then one repeated: refused naming both lines. A pairwise
-    // check makes 4.5e10 comparisons (minutes); one hash look-up per row takes well under
-    // the 10 s allowed here.
+    // check makes 4.5e10 comparisons (many minutes); one hash look-up per row takes a few
+    // seconds in a debug build. The deadline below only catches the quadratic check: it is
+    // not a benchmark, and is wide enough for a loaded machine.
     let n = 300_000usize;
     let mut text = String::from("angle_deg,file\n");
     for i in 0..n {
@@ -852,15 +849,9 @@ fn a_long_manifest_is_checked_for_repeated_angles_in_linear_time() {
     }
     text.push_str("-0,a.s1p\n");
     let dir = d.clone();
-    let started = Instant::now();
-    let e = within(30, "long manifest", move || {
+    let e = within(120, "long manifest", move || {
         Manifest::parse_str(&text, "long.csv", &dir).unwrap_err()
     });
-    assert!(
-        started.elapsed() < Duration::from_secs(10),
-        "{:?}",
-        started.elapsed()
-    );
     // −0 repeats the 0 of line 2 (equal angles, whatever the sign of zero).
     assert_eq!(e.line, Some(n + 2));
     assert!(

@@ -167,19 +167,24 @@ fn kill_many(what: &str, kills: usize, d: &Path, cmd: &dyn Fn(&Path) -> Command)
         attempts += 1;
         let path = d.join(format!("kill-{k}.rec"));
         let _ = std::fs::remove_file(&path);
-        // From the first record to the end of the run (shortened whenever a run ends
-        // before its kill).
-        let wait_ms = first_ms + rng.next() % (hi_ms - first_ms).max(1);
+        // From the child's first reported record (so that a slow start on a loaded machine
+        // does not push the kills before it) to the end of the run (shortened whenever a
+        // run ends before its kill).
+        let wait_ms = rng.next() % (hi_ms - first_ms).max(1);
         let mut child = simulate(&path).spawn().unwrap();
         let stdout = child.stdout.take().unwrap();
+        let (first_tx, first_rx) = std::sync::mpsc::channel();
         let reader = std::thread::spawn(move || {
             let mut last = None;
             for l in BufReader::new(stdout).lines() {
                 let Ok(l) = l else { break };
                 last = Some(parse_line(&l));
+                let _ = first_tx.send(());
             }
             last
         });
+        // A deadline on the wait: a child that reports nothing within a minute is killed.
+        let _ = first_rx.recv_timeout(Duration::from_secs(60));
         std::thread::sleep(Duration::from_millis(wait_ms));
         child.kill().unwrap(); // SIGKILL on Unix
         let status = child.wait().unwrap();

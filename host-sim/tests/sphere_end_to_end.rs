@@ -222,6 +222,91 @@ fn gated_sphere_data_give_the_free_space_patterns_and_the_directivity() {
     assert_eq!(files.len(), 1 + 2 * 3);
     let csv = String::from_utf8(files[0].1.clone()).unwrap();
     assert_eq!(csv.lines().count(), 1 + points.len());
+    // The same through the command an engineer runs: the manifest of both axes, 3-port
+    // files, `--co S21 --cross S31`, one gate chosen from the data for every cut.
+    check_command(dir.path(), &truth, &truth_json);
+}
+
+/// `sweepgate process manifest.csv --co S21 --cross S31`: the report's gated co- and
+/// cross-polar columns against the model's truth (same limits as above), and its
+/// `summary.json` directivity per frequency within 0.1 dB of the model's.
+fn check_command(dir: &Path, truth: &Truth, truth_json: &serde_json::Value) {
+    let out_dir = dir.join("report");
+    let out = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
+        .arg("process")
+        .arg(dir.join("manifest.csv"))
+        .args([
+            "--co",
+            "S21",
+            "--cross",
+            "S31",
+            "--frequencies-hz",
+            FREQUENCIES,
+        ])
+        .arg("--out")
+        .arg(&out_dir)
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "process: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let level = |c: Complex64| 20.0 * c.norm().log10();
+    let mut peak: HashMap<i64, f64> = HashMap::new();
+    for (k, (co, _)) in truth {
+        let p = peak.entry(k.2).or_insert(f64::MIN);
+        *p = p.max(level(*co));
+    }
+    let (mut worst_co, mut worst_cross, mut n) = (0.0f64, 0.0f64, 0);
+    for r in read_csv(&out_dir.join("pattern.csv")) {
+        let k = key(
+            num(&r, "theta_deg"),
+            num(&r, "phi_deg"),
+            num(&r, "frequency_hz"),
+        );
+        let (tco, tcross) = truth[&k];
+        let pk = peak[&k.2];
+        if level(tco) >= pk - 25.0 {
+            worst_co = worst_co.max((num(&r, "co_gated_db") - level(tco)).abs());
+            n += 1;
+        }
+        if level(tcross) >= pk - 30.0 {
+            worst_cross = worst_cross.max((num(&r, "cross_gated_db") - level(tcross)).abs());
+        }
+    }
+    println!(
+        "process: co worst {worst_co:.4} dB over {n} samples, cross worst {worst_cross:.4} dB"
+    );
+    assert!(n > 300, "{n}");
+    assert!(
+        worst_co < 0.5 && worst_cross < 1.0,
+        "{worst_co} {worst_cross}"
+    );
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out_dir.join("summary.json")).unwrap())
+            .unwrap();
+    let want = truth_json["directivity_dbi"].as_array().unwrap();
+    let rows = summary["sphere"].as_array().unwrap();
+    assert_eq!(rows.len(), want.len());
+    for (row, w) in rows.iter().zip(want) {
+        let (d, w) = (
+            row["directivity_dbi"].as_f64().unwrap(),
+            w.as_f64().unwrap(),
+        );
+        println!(
+            "process: {} Hz directivity {d:.3} dBi (model {w:.3}), sampling error {:.3} dB",
+            row["frequency_hz"], row["sampling_error_db"]
+        );
+        assert!((d - w).abs() < 0.1, "{d} vs {w}");
+    }
+    for name in [
+        "sphere.csv",
+        "sphere_map_10000mhz.svg",
+        "sphere_cuts_10000mhz.svg",
+    ] {
+        assert!(out_dir.join(name).is_file(), "{name} not written");
+    }
 }
 
 type Truth = HashMap<(i64, i64, i64), (Complex64, Complex64)>;
