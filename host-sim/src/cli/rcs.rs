@@ -15,14 +15,15 @@ use crate::pipeline::rcs_command::{self, RcsOptions, ZoneOptions};
 )))]
 pub struct Args {
     /// The target on the turntable: a manifest CSV (`angle_deg,file`) of per-angle 1- or
-    /// 2-port Touchstone files (S11 or S21).
+    /// 2-port Touchstone files (S11 or S21), or a recording (each sweep at the angle of
+    /// its position records).
     pub target: PathBuf,
     /// The empty zone, mount in place: one Touchstone file for every angle, or a manifest
-    /// with a sweep at each of the target's angles.
+    /// or recording with a sweep at each of the target's angles.
     #[arg(long)]
     pub background: PathBuf,
-    /// The reference target measured in the zone (Touchstone file, or a manifest whose
-    /// sweep nearest 0° is taken).
+    /// The reference target measured in the zone (Touchstone file, or a manifest or
+    /// recording whose sweep nearest 0° is taken).
     #[arg(long)]
     pub reference: PathBuf,
     /// The background of the reference measurement (default: the background's sweep

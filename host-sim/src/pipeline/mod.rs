@@ -19,6 +19,7 @@ pub mod rcs_command;
 pub mod rcs_image;
 pub mod rcs_input;
 pub mod rcs_plan;
+pub mod rcs_recording;
 pub mod rcs_simulate;
 pub mod replay;
 pub mod self_error;

@@ -44,9 +44,9 @@ pub struct ZoneOptions {
 /// What `sweepgate rcs` was asked to do.
 #[derive(Debug, Clone, PartialEq)]
 pub struct RcsOptions {
-    /// Manifest of the target's per-angle Touchstone files.
+    /// Manifest of the target's per-angle Touchstone files, or a recording.
     pub target: PathBuf,
-    /// Background: one Touchstone file or a manifest.
+    /// Background: one Touchstone file, a manifest or a recording.
     pub background: PathBuf,
     /// The reference target's measurement.
     pub reference: PathBuf,
