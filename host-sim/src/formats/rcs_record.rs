@@ -49,6 +49,18 @@ impl Measurement {
     ];
 }
 
+impl std::str::FromStr for Measurement {
+    type Err = String;
+    fn from_str(s: &str) -> Result<Self, String> {
+        Self::ALL
+            .into_iter()
+            .find(|m| m.word() == s)
+            .ok_or_else(|| {
+                format!("{s:?}: one of target, background, reference, reference_background")
+            })
+    }
+}
+
 /// The content of a kind 9 record.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct RcsNote {
@@ -98,6 +110,7 @@ mod tests {
             assert_eq!(RcsNote::from_record(&back).unwrap().unwrap(), note);
             let text = String::from_utf8(rec.payload()).unwrap();
             assert!(text.contains(&format!("\"{}\"", m.word())), "{text}");
+            assert_eq!(m.word().parse::<Measurement>(), Ok(m));
         }
     }
 
@@ -114,5 +127,6 @@ mod tests {
             payload: b"{\"measurement\": \"sideways\"}".to_vec(),
         };
         assert!(RcsNote::from_record(&bad).unwrap().is_err());
+        assert!("sideways".parse::<Measurement>().is_err());
     }
 }

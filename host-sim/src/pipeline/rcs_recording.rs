@@ -7,7 +7,10 @@
 //! at the middle of the sweep, interpolated linearly between the position records either
 //! side of it (held at the first or last sample outside them); sweeps at the same angle
 //! (within a millionth of a degree) are averaged coherently, so a stepped turntable that
-//! takes several sweeps per step gives one sweep per angle.
+//! takes several sweeps per step gives one sweep per angle. When the header gives a bin
+//! width (`acquire --bin-width-deg`), each angle is first taken to the nearest multiple of
+//! it: a turntable settles near, never exactly on, its step, and the target and background
+//! runs must meet at the same angles.
 
 use std::io::Read;
 use std::path::Path;
@@ -126,6 +129,10 @@ pub fn read_scan(path: &Path) -> anyhow::Result<RecordedScan> {
                 "{}: no position records, so no sweep has an angle",
                 path.display()
             );
+        };
+        let angle = match h.bin_width_deg {
+            Some(w) if w > 0.0 => (angle / w).round() * w,
+            _ => angle,
         };
         add(&mut sums, angle, s21);
     }

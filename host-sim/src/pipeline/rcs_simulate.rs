@@ -45,8 +45,23 @@ pub fn read_scene(path: &Path) -> anyhow::Result<RcsScene> {
     Ok(scene)
 }
 
+/// What is in the zone for each measurement: the mount always; the target for the target
+/// run; the reference sphere at the turntable axis for the reference run.
+pub fn items(scene: &RcsScene, what: Measurement) -> Vec<Scatterer> {
+    let mut all = scene.mount.clone();
+    match what {
+        Measurement::Target => all.extend(scene.target.iter().cloned()),
+        Measurement::Reference => all.push(Scatterer::Sphere {
+            at_m: [0.0; 3],
+            diameter_m: scene.reference_sphere_m,
+        }),
+        Measurement::Background | Measurement::ReferenceBackground => {}
+    }
+    all
+}
+
 /// One measurement: the fixed part, `items` at `angle_deg`, and noise.
-fn measure(
+pub fn measure(
     scene: &RcsScene,
     items: &[Scatterer],
     angle_deg: f64,
@@ -83,18 +98,13 @@ pub struct Measurements {
 /// its background, each with its own noise from the scene's seed, in that order.
 pub fn measure_scan(scene: &RcsScene) -> anyhow::Result<Measurements> {
     let mut noise = Noise::new(scene.seed);
-    let with_target: Vec<Scatterer> = scene.mount.iter().chain(&scene.target).cloned().collect();
+    let with_target = items(scene, Measurement::Target);
     let (mut target, mut background) = (Vec::new(), Vec::new());
     for a in scene.angles() {
         target.push((a, measure(scene, &with_target, a, &mut noise)?));
         background.push((a, measure(scene, &scene.mount, a, &mut noise)?));
     }
-    let sphere = Scatterer::Sphere {
-        at_m: [0.0; 3],
-        diameter_m: scene.reference_sphere_m,
-    };
-    let mut reference_items = scene.mount.clone();
-    reference_items.push(sphere);
+    let reference_items = items(scene, Measurement::Reference);
     let reference = measure(scene, &reference_items, 0.0, &mut noise)?;
     let reference_background = measure(scene, &scene.mount, 0.0, &mut noise)?;
     Ok(Measurements {
