@@ -65,6 +65,11 @@ pub struct Args {
     /// Report folder (default: `<target stem>-rcs/` next to the target manifest).
     #[arg(long)]
     pub out: Option<PathBuf>,
+    /// Also write this copy of the target's recording (the target must be one) carrying
+    /// the calibration, the gate and the background (recording kind 9): `replay` shows it
+    /// in dBsm.
+    #[arg(long)]
+    pub calibrated_recording: Option<PathBuf>,
 }
 
 /// The reference target the options name.
@@ -108,6 +113,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
             mount_distance_m: a.mount_distance_m,
         },
         out,
+        calibrated_recording: a.calibrated_recording,
     })?;
     for p in written {
         println!("wrote {}", p.display());

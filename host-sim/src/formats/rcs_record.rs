@@ -2,13 +2,20 @@
 //! measurement is, as UTF-8 JSON, written once after the header.
 //!
 //! ```json
-//! {"measurement": "target", "scene": "range.toml"}
+//! {"measurement": "target", "scene": "range.toml", "calibration": {...}}
 //! ```
 //!
 //! `measurement` is one of `target` (the target on the turntable), `background` (the zone
 //! empty, mount in place), `reference` (the reference target in the zone) and
 //! `reference_background` (the reference run's background); `scene` names where the
-//! measurement came from, when known. Readers that predate kind 9 pass it through as an
+//! measurement came from, when known. `calibration` (written by `rcs
+//! --calibrated-recording` into a copy of the target's recording) makes the recording an
+//! RCS scan `replay` shows in dBsm: the gate it was calibrated with (`gate_center_ns`,
+//! `gate_span_ns`, `band_window`, `gate_shape` spelled as on the command line), the angle
+//! `bin_width_deg`, the pattern `frequencies_hz`, and per frequency the calibration
+//! `factor` (m per unit of S, `[re, im]`); `background` lists, per angle, the background's
+//! `raw` and `gated` values at those frequencies (`[re, im]` each). A bin's RCS amplitude is
+//! factor × (gated − gated background at the nearest angle). Readers that predate kind 9 pass it through as an
 //! unknown kind and read the sweeps and positions as any scan.
 
 use serde::{Deserialize, Serialize};
@@ -69,6 +76,41 @@ pub struct RcsNote {
     /// Where it came from (a scene file's name), when known.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub scene: Option<String>,
+    /// The calibration, in a target recording marked by `rcs --calibrated-recording`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub calibration: Option<RcsCalibration>,
+}
+
+/// What `replay` needs to show a target recording in dBsm (see the module notes).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct RcsCalibration {
+    /// Gate centre, ns.
+    pub gate_center_ns: f64,
+    /// Gate span, ns.
+    pub gate_span_ns: f64,
+    /// Band window, as `--band-window` spells it.
+    pub band_window: String,
+    /// Gate shape, as `--gate-shape` spells it.
+    pub gate_shape: String,
+    /// Angle bin width, degrees (the target's angle step).
+    pub bin_width_deg: f64,
+    /// Pattern frequencies, Hz.
+    pub frequencies_hz: Vec<f64>,
+    /// Calibration factor per pattern frequency, m per unit of S, `[re, im]`.
+    pub factor: Vec<[f64; 2]>,
+    /// The background per angle.
+    pub background: Vec<BackgroundAt>,
+}
+
+/// The background at one angle, at the pattern frequencies.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct BackgroundAt {
+    /// Angle, degrees.
+    pub angle_deg: f64,
+    /// Raw values, `[re, im]`.
+    pub raw: Vec<[f64; 2]>,
+    /// Gated values, `[re, im]`.
+    pub gated: Vec<[f64; 2]>,
 }
 
 impl RcsNote {
@@ -101,6 +143,7 @@ mod tests {
             let note = RcsNote {
                 measurement: m,
                 scene: Some("range.toml".into()),
+                calibration: None,
             };
             let rec = note.to_record();
             assert_eq!(rec.kind(), 9);

@@ -75,6 +75,8 @@ pub struct Screen {
     pub notes: Vec<String>,
     /// The stream has ended.
     pub ended: bool,
+    /// The level axis' label (`None`: `|S21| dB`; an RCS scan: `RCS dBsm`).
+    pub level_label: Option<String>,
     decoder: PreviewDecoder,
     first_status: Option<(u64, u32)>,
 }
@@ -94,6 +96,7 @@ impl Screen {
             selected: 0,
             notes: Vec::new(),
             ended: false,
+            level_label: None,
             decoder: PreviewDecoder::new(),
             first_status: None,
         }
@@ -356,7 +359,10 @@ fn draw_pattern(frame: &mut Frame, area: Rect, screen: &Screen, freq_text: &str)
         )
         .y_axis(
             Axis::default()
-                .title(format!("|S21| dB at {freq_text}"))
+                .title(format!(
+                    "{} at {freq_text}",
+                    screen.level_label.as_deref().unwrap_or("|S21| dB")
+                ))
                 .bounds([y0, y1])
                 .labels([
                     format!("{y0:.0}"),

@@ -173,7 +173,12 @@ pub fn measurement_bytes(
         counts_per_turn: Some(COUNTS_PER_TURN),
     };
     w.write(&Record::Header(Box::new(header)))?;
-    w.write(&RcsNote { measurement, scene }.to_record())?;
+    let note = RcsNote {
+        measurement,
+        scene,
+        calibration: None,
+    };
+    w.write(&note.to_record())?;
     for (i, (angle_deg, values)) in rows.iter().enumerate() {
         let t0 = i as u64 * STEP_US;
         let counts = (angle_deg * f64::from(COUNTS_PER_TURN) / 360.0).round() as i64;

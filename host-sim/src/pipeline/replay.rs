@@ -30,6 +30,7 @@ use crate::output::export::{self, Exports};
 use crate::output::report;
 use crate::output::screen::{self as preview, Screen, ScreenInput};
 use crate::pipeline::options::{default_report_dir, GateOptions};
+use crate::pipeline::replay_rcs;
 use crate::pipeline::setup::{self, Setup};
 use crate::pipeline::stream::{self, Outcome, Pacing, Sink};
 
@@ -102,7 +103,11 @@ pub fn setup(rec: &Recovered, opts: &Options) -> anyhow::Result<Setup> {
     let h = rec
         .header()
         .context("the recording has no intact header record")?;
-    setup::for_recording(h, &opts.gate.choices()?, &stream::sweeps_of(rec))
+    let mut choices = opts.gate.choices()?;
+    if let Some(cal) = replay_rcs::calibration_of(rec)? {
+        replay_rcs::fill(&mut choices, &cal)?;
+    }
+    setup::for_recording(h, &choices, &stream::sweeps_of(rec))
 }
 
 /// Replays recovered records through the scan engine, sending preview frames to `sink`.
@@ -126,13 +131,19 @@ pub fn replay_records(
 struct ChannelSink {
     tx: Sender<ScreenInput>,
     clients: Option<Clients>,
+    /// An RCS scan: the screen's bins in dBsm (the TCP clients get the plain stream).
+    rcs: Option<replay_rcs::Calibrator>,
 }
 
 type Clients = Arc<Mutex<Vec<TcpStream>>>;
 
 impl Sink for ChannelSink {
     fn send(&mut self, bytes: &[u8]) {
-        let _ = self.tx.send(ScreenInput::Bytes(bytes.to_vec()));
+        let shown = match &mut self.rcs {
+            Some(c) => c.frames(bytes),
+            None => bytes.to_vec(),
+        };
+        let _ = self.tx.send(ScreenInput::Bytes(shown));
         if let Some(c) = &self.clients {
             if let Ok(mut v) = c.lock() {
                 // Non-blocking: a full socket buffer is an error and drops the viewer.
@@ -161,6 +172,10 @@ pub fn replay_file(opts: &Options) -> anyhow::Result<(Outcome, PathBuf)> {
     }
     let s = setup(&rec, opts)?;
     let mut screen = screen_for(&s, &rec);
+    let rcs = replay_rcs::calibration_of(&rec)?;
+    if rcs.is_some() {
+        screen.level_label = Some(replay_rcs::LEVEL_LABEL.into());
+    }
     let clients = match opts.serve {
         Some(port) => Some(serve(port)?),
         None => None,
@@ -170,6 +185,7 @@ pub fn replay_file(opts: &Options) -> anyhow::Result<(Outcome, PathBuf)> {
     let sink = ChannelSink {
         tx,
         clients: clients.clone(),
+        rcs: rcs.clone().map(replay_rcs::Calibrator::new),
     };
     let pacing = Pacing {
         pace,
@@ -187,6 +203,11 @@ pub fn replay_file(opts: &Options) -> anyhow::Result<(Outcome, PathBuf)> {
     }
     for line in screen.summary_lines() {
         eprintln!("{line}");
+    }
+    if let Some(cal) = &rcs {
+        for line in replay_rcs::summary_lines(&outcome.report, cal) {
+            eprintln!("{line}");
+        }
     }
     stream::refuse_empty(&outcome)?;
     report::write_report(&outcome.report, &out_dir)
