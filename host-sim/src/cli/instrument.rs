@@ -1,11 +1,13 @@
 //! `sweepgate instrument [--port 5025] [--bind 127.0.0.1] [--scenario FILE] [--seed N]
-//! [--dump DIR] [--once]`: runs the simulated VNA of [`crate::link::instrument`].
+//! [--dump DIR] [--once] [--rcs-scenario FILE --measurement WHAT [--turntable ADDR]]`: runs
+//! the simulated VNA of [`crate::link::instrument`].
 
 use std::path::PathBuf;
 
 use std::time::Duration;
 
-use crate::link::instrument::{run_server, ServerLimits, ServerOptions, Setting};
+use crate::formats::rcs_record::Measurement;
+use crate::link::instrument::{run_server, RcsServe, ServerLimits, ServerOptions, Setting};
 
 /// Options of `sweepgate instrument`.
 #[derive(clap::Args, Debug)]
@@ -43,6 +45,18 @@ pub struct Args {
     /// bandwidth, power, function, format, order).
     #[arg(long, hide = true)]
     pub misreport: Option<Setting>,
+    /// Serve an RCS range instead (an RCS scene, see host-sim/scenarios/rcs/range.toml):
+    /// each sweep measures it as `simulate-rcs` does.
+    #[arg(long, requires = "measurement", conflicts_with = "scenario")]
+    pub rcs_scenario: Option<PathBuf>,
+    /// Which measurement of the RCS scan to serve: target, background, reference or
+    /// reference_background.
+    #[arg(long, requires = "rcs_scenario")]
+    pub measurement: Option<Measurement>,
+    /// The turntable (turntable line protocol, HOST:PORT) whose angle each RCS sweep is
+    /// measured at (default: the scene's angles in turn).
+    #[arg(long, requires = "rcs_scenario")]
+    pub turntable: Option<String>,
 }
 
 /// Runs the command.
@@ -60,5 +74,13 @@ pub fn run(args: Args) -> anyhow::Result<()> {
             total: Duration::from_secs(u64::from(args.session_limit_s)),
         },
         misreport: args.misreport,
+        rcs: match (args.rcs_scenario, args.measurement) {
+            (Some(scene), Some(measurement)) => Some(RcsServe {
+                scene,
+                measurement,
+                turntable: args.turntable,
+            }),
+            _ => None,
+        },
     })
 }

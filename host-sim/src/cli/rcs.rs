@@ -15,14 +15,15 @@ use crate::pipeline::rcs_command::{self, RcsOptions, ZoneOptions};
 )))]
 pub struct Args {
     /// The target on the turntable: a manifest CSV (`angle_deg,file`) of per-angle 1- or
-    /// 2-port Touchstone files (S11 or S21).
+    /// 2-port Touchstone files (S11 or S21), or a recording (each sweep at the angle of
+    /// its position records).
     pub target: PathBuf,
     /// The empty zone, mount in place: one Touchstone file for every angle, or a manifest
-    /// with a sweep at each of the target's angles.
+    /// or recording with a sweep at each of the target's angles.
     #[arg(long)]
     pub background: PathBuf,
-    /// The reference target measured in the zone (Touchstone file, or a manifest whose
-    /// sweep nearest 0° is taken).
+    /// The reference target measured in the zone (Touchstone file, or a manifest or
+    /// recording whose sweep nearest 0° is taken).
     #[arg(long)]
     pub reference: PathBuf,
     /// The background of the reference measurement (default: the background's sweep
@@ -64,6 +65,11 @@ pub struct Args {
     /// Report folder (default: `<target stem>-rcs/` next to the target manifest).
     #[arg(long)]
     pub out: Option<PathBuf>,
+    /// Also write this copy of the target's recording (the target must be one) carrying
+    /// the calibration, the gate and the background (recording kind 9): `replay` shows it
+    /// in dBsm.
+    #[arg(long)]
+    pub calibrated_recording: Option<PathBuf>,
 }
 
 /// The reference target the options name.
@@ -107,6 +113,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
             mount_distance_m: a.mount_distance_m,
         },
         out,
+        calibrated_recording: a.calibrated_recording,
     })?;
     for p in written {
         println!("wrote {}", p.display());

@@ -13,11 +13,20 @@ pub struct Args {
     /// reference_background.s2p, sweeps/).
     #[arg(long)]
     pub out: PathBuf,
+    /// Write the measurements as recordings instead, one per measurement (target.rec,
+    /// background.rec, reference.rec, reference_background.rec), the angles in their
+    /// position records.
+    #[arg(long)]
+    pub recording: bool,
 }
 
 /// Runs the command.
 pub fn run(a: Args) -> anyhow::Result<()> {
-    let written = crate::pipeline::rcs_simulate::run(&a.scenario, &a.out)?;
+    let written = if a.recording {
+        crate::pipeline::rcs_simulate::run_recordings(&a.scenario, &a.out)?
+    } else {
+        crate::pipeline::rcs_simulate::run(&a.scenario, &a.out)?
+    };
     println!("wrote {} files to {}", written.len(), a.out.display());
     Ok(())
 }

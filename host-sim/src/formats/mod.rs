@@ -9,6 +9,7 @@ pub mod manifest;
 pub mod manifest_traces;
 pub mod npy;
 pub mod rcs_capture;
+pub mod rcs_record;
 pub mod recording;
 pub mod touchstone;
 pub mod traces;

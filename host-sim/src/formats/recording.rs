@@ -26,6 +26,7 @@
 //! | 6 | header copy | the header record's payload again (see below) |
 //! | 7 | acquisition report | UTF-8 JSON written by `acquire` before its end record: the counts of what it met (dropped sweeps, answers out of step, link faults, positioner lines refused, the positioner clock fit) and `stopped_by`, the reason when a fault ended the scan; readers pass it through as an unknown kind |
 //! | 8 | traces and axes | a scan of several traces or axes (`formats::traces`): a sub-kind byte, then 0 = names (UTF-8 JSON `{"traces": [...], "axes": [...]}`), 1 = the further traces of sweep `index` (u32 index, u8 t, then t × (u32 K, K × (f32 re, f32 im))), 2 = the further axes of the position sample at `t_us` (u64 t_us, u8 n, n × f64 angle_deg); kinds 2 and 3 keep the first trace and the first axis, so readers that predate kind 8 read those (every cut as one long scan of the first axis) and pass these through as an unknown kind |
+//! | 9 | RCS measurement | UTF-8 JSON (`formats::rcs_record`): which measurement of an RCS scan the recording holds (`target`, `background`, `reference`, `reference_background`) and the scene it came from, and in a copy of a target recording written by `rcs --calibrated-recording` the calibration `replay` shows it in dBsm with (the gate, bin width, pattern frequencies, calibration factors and the background per angle); each sweep's angle comes from the position records; readers that predate kind 9 pass it through as an unknown kind |
 //!
 //! Times are microseconds from the start of the scan.
 //!
@@ -132,6 +133,9 @@ pub mod kind {
     /// Further traces and axes of a scan of cuts (`formats::traces`, read as
     /// [`super::Record::Unknown`] here).
     pub const TRACES_AXES: u8 = 8;
+    /// What an RCS measurement is (`formats::rcs_record`, read as
+    /// [`super::Record::Unknown`] here).
+    pub const RCS: u8 = 9;
 }
 
 /// The frequency grid as stored in the header.

@@ -28,6 +28,14 @@
 //! last sweep of the scan the next one starts the scan again. `*RST` restarts the scan at
 //! sweep 0. Changing the frequency range or point count re-simulates on the new grid.
 //!
+//! With `--rcs-scenario FILE --measurement target|background|reference|reference_background
+//! [--turntable HOST:PORT]` it serves one measurement of an RCS range instead
+//! ([`crate::link::rcs_source`]): the scene's grid, each `INITiate` the scene measured at
+//! the turntable's angle (asked with `WHERE`; without `--turntable`, the scene's angles in
+//! turn). A turntable that does not answer queues -240 and the reason goes to standard
+//! error. The turntable is asked while the instrument state is locked (one short
+//! question on a local link).
+//!
 //! A test-only option, `--misreport SETTING` (hidden from `--help`), makes one read-back
 //! lie: the query of `start`, `stop`, `points`, `bandwidth`, `power`, `function`,
 //! `format` or `order` answers a value other than the one set (numbers doubled, names
@@ -75,7 +83,7 @@
 //! type error, -108 parameter not allowed, -109 missing parameter, -113 undefined header,
 //! -131 invalid suffix, -221 settings conflict (start not below stop), -222 data out of
 //! range, -224 illegal parameter value, -230 data corrupt or stale (data query before any
-//! INITiate), -223 too much data (a line whose answers would pass
+//! INITiate), -240 hardware error (the RCS range's turntable did not answer), -223 too much data (a line whose answers would pass
 //! [`MAX_ANSWER_BYTES`]), -350 queue overflow, -363 input buffer overrun (a line longer
 //! than [`MAX_LINE_BYTES`]). The queue holds 10 entries; when it is full the newest
 //! is replaced by -350.
@@ -94,6 +102,7 @@ use sweepgate::grid::Grid;
 use sweepgate::wire::block::{self, ByteOrder, Format};
 
 use crate::link::lines::{read_bounded_line, LineRead};
+use crate::link::rcs_source::RcsSource;
 use crate::model::scenario::Scenario;
 use crate::model::simulator::Simulator;
 
@@ -152,6 +161,7 @@ scpi_errors! {
     OUT_OF_RANGE = -222, "Data out of range";
     ILLEGAL_VALUE = -224, "Illegal parameter value";
     STALE = -230, "Data corrupt or stale";
+    HARDWARE = -240, "Hardware error";
     TOO_MUCH_DATA = -223, "Too much data";
     QUEUE_OVERFLOW = -350, "Queue overflow";
     INPUT_OVERRUN = -363, "Input buffer overrun";
@@ -193,6 +203,7 @@ pub struct Instrument {
     power_dbm: f64,
     function: &'static str,
     misreport: Option<Setting>,
+    rcs: Option<RcsSource>,
 }
 
 /// A setting whose read-back can be made to lie (`--misreport`, for tests).
@@ -395,6 +406,7 @@ impl Instrument {
             power_dbm: -10.0,
             function: "S21",
             misreport: None,
+            rcs: None,
         };
         me.reset();
         Ok(me)
@@ -405,6 +417,24 @@ impl Instrument {
         let s = Scenario::from_toml(DEMO_SCENARIO)?;
         let seed = seed.unwrap_or(s.simulation.seed);
         Self::new(s, seed, None)
+    }
+
+    /// Serves the sweeps of an RCS measurement instead of the scenario's scan, on its
+    /// grid (which `*RST` then restores).
+    pub fn serve_rcs(&mut self, src: RcsSource) -> anyhow::Result<()> {
+        let (start_hz, stop_hz, points) = src.grid();
+        let mut s = self.scenario.clone();
+        s.sweep.start_hz = start_hz;
+        s.sweep.stop_hz = stop_hz;
+        s.sweep.points = points;
+        s.validate().context("the RCS scene's grid")?;
+        s.grid().context("the RCS scene's grid")?;
+        self.sim = Simulator::new(&s, self.seed);
+        self.original = s.sweep.clone();
+        self.scenario = s;
+        self.rcs = Some(src);
+        self.reset();
+        Ok(())
     }
 
     /// The scenario (with the grid as currently set).
@@ -431,6 +461,11 @@ impl Instrument {
         self.order = ByteOrder::Normal;
         self.next_sweep = 0;
         self.sweep = None;
+        if let Some(r) = &mut self.rcs {
+            let g = &self.original;
+            r.set_grid(g.start_hz, g.stop_hz, g.points);
+            r.restart();
+        }
         self.bandwidth_hz = 10e3;
         self.power_dbm = -10.0;
         self.function = "S21";
@@ -479,34 +514,52 @@ impl Instrument {
         s.validate().map_err(|_| ScpiError::OUT_OF_RANGE)?;
         self.sim = Simulator::new(&s, self.seed);
         self.scenario = s;
+        if let Some(r) = &mut self.rcs {
+            r.set_grid(start_hz, stop_hz, points);
+        }
         Ok(())
     }
 
     fn initiate(&mut self) {
+        if let Some(r) = &mut self.rcs {
+            match r.next_sweep() {
+                Ok((index, s21)) => self.took(index, s21),
+                Err(e) => {
+                    eprintln!("RCS measurement: {e:#}");
+                    self.push_error(ScpiError::HARDWARE);
+                }
+            }
+            return;
+        }
         let n = self.sim.timeline().sweep_starts_s().len();
         if self.next_sweep >= n {
             self.next_sweep = 0;
         }
         if let Some(sw) = self.sim.sweep(self.next_sweep) {
-            if let Some(dir) = &self.dump {
-                let g = &self.scenario.sweep;
-                let json = serde_json::json!({
-                    "index": sw.index,
-                    "start_hz": g.start_hz,
-                    "stop_hz": g.stop_hz,
-                    "points": sw.s21.len(),
-                    "re": sw.s21.iter().map(|c| c.re).collect::<Vec<_>>(),
-                    "im": sw.s21.iter().map(|c| c.im).collect::<Vec<_>>(),
-                });
-                let path = dir.join(format!("sweep-{}.json", self.taken));
-                if let Err(e) = std::fs::write(&path, json.to_string()) {
-                    eprintln!("warning: cannot write {}: {e}", path.display());
-                }
-            }
-            self.sweep = Some((sw.index, sw.s21));
-            self.taken += 1;
+            self.took(sw.index, sw.s21);
         }
         self.next_sweep += 1;
+    }
+
+    /// Keeps sweep `index` as the last one taken, and dumps it when asked to.
+    fn took(&mut self, index: u32, s21: Vec<Complex32>) {
+        if let Some(dir) = &self.dump {
+            let g = &self.scenario.sweep;
+            let json = serde_json::json!({
+                "index": index,
+                "start_hz": g.start_hz,
+                "stop_hz": g.stop_hz,
+                "points": s21.len(),
+                "re": s21.iter().map(|c| c.re).collect::<Vec<_>>(),
+                "im": s21.iter().map(|c| c.im).collect::<Vec<_>>(),
+            });
+            let path = dir.join(format!("sweep-{}.json", self.taken));
+            if let Err(e) = std::fs::write(&path, json.to_string()) {
+                eprintln!("warning: cannot write {}: {e}", path.display());
+            }
+        }
+        self.sweep = Some((index, s21));
+        self.taken += 1;
     }
 
     /// Handles one program message line (without its newline); returns the response
@@ -1147,6 +1200,20 @@ pub struct ServerOptions {
     pub limits: ServerLimits,
     /// For tests: the one setting whose read-back lies.
     pub misreport: Option<Setting>,
+    /// Serve an RCS measurement instead of the scenario's scan.
+    pub rcs: Option<RcsServe>,
+}
+
+/// What `--rcs-scenario`, `--measurement` and `--turntable` ask for.
+#[derive(Debug, Clone)]
+pub struct RcsServe {
+    /// The RCS scene (see `host-sim/scenarios/rcs/range.toml`).
+    pub scene: PathBuf,
+    /// Which measurement of the scan to serve.
+    pub measurement: crate::formats::rcs_record::Measurement,
+    /// The turntable whose angle each sweep is measured at (`None`: the scene's angles
+    /// in turn).
+    pub turntable: Option<String>,
 }
 
 /// Whether `--bind` names only this machine (a loopback address or `localhost`).
@@ -1197,6 +1264,15 @@ pub fn run_server(o: &ServerOptions) -> anyhow::Result<()> {
     }
     let mut inst = Instrument::new(scenario, seed, o.dump.clone())?;
     inst.misreport(o.misreport);
+    if let Some(r) = &o.rcs {
+        let scene = crate::pipeline::rcs_simulate::read_scene(&r.scene)?;
+        inst.serve_rcs(RcsSource::new(scene, r.measurement, r.turntable.clone()))?;
+        eprintln!(
+            "simulated VNA: the {} measurement of the RCS scene {}",
+            r.measurement.word(),
+            r.scene.display()
+        );
+    }
     if let Some(m) = o.misreport {
         eprintln!("warning: --misreport {m:?}: the read-back of this setting lies (for tests)");
     }
@@ -1205,12 +1281,14 @@ pub fn run_server(o: &ServerOptions) -> anyhow::Result<()> {
     let addr = listener.local_addr()?;
     println!("listening on {addr}");
     std::io::stdout().flush()?;
-    eprintln!(
-        "simulated VNA: {} sweeps of {} points per scan of {:?}",
-        inst.sim.timeline().sweep_starts_s().len(),
-        inst.scenario.sweep.points,
-        inst.scenario.name
-    );
+    if o.rcs.is_none() {
+        eprintln!(
+            "simulated VNA: {} sweeps of {} points per scan of {:?}",
+            inst.sim.timeline().sweep_starts_s().len(),
+            inst.scenario.sweep.points,
+            inst.scenario.name
+        );
+    }
     serve(listener, inst, o.once, o.limits)
 }
 

@@ -8,6 +8,7 @@ pub mod clock;
 pub mod drive;
 pub mod instrument;
 pub mod lines;
+pub mod rcs_source;
 #[cfg(unix)]
 pub mod serial;
 pub mod turntable;

@@ -90,6 +90,8 @@ pub struct Screen {
     pub polar: bool,
     /// The cursor's angle, deg (`None`: no cursor).
     pub cursor_deg: Option<f64>,
+    /// What the levels are, named under the plot (`None`: `|S21|`; an RCS scan: `RCS dBsm`).
+    pub level_label: Option<String>,
     decoder: PreviewDecoder,
     first_status: Option<(u64, u32)>,
 }
@@ -111,6 +113,7 @@ impl Screen {
             ended: false,
             polar: false,
             cursor_deg: None,
+            level_label: None,
             decoder: PreviewDecoder::new(),
             first_status: None,
         }
@@ -446,7 +449,10 @@ fn draw_pattern(frame: &mut Frame, area: Rect, screen: &Screen, freq_text: &str)
             Block::default()
                 .borders(Borders::ALL)
                 .title(legend_title(freq_text))
-                .title_bottom("dB below peak, deg"),
+                .title_bottom(format!(
+                    "{} at {freq_text}, dB below peak; deg",
+                    screen.level_label.as_deref().unwrap_or("|S21|")
+                )),
         )
         .x_axis(
             Axis::default()

@@ -169,6 +169,9 @@ pub enum Origin {
     CommandLine,
     /// A settings file (`sweepgate process --settings`).
     SettingsFile,
+    /// The RCS calibration a recording carries (recording kind 9, `rcs
+    /// --calibrated-recording`).
+    RcsRecord,
 }
 
 impl Origin {
@@ -177,6 +180,7 @@ impl Origin {
         match self {
             Origin::CommandLine => "command line",
             Origin::SettingsFile => "settings file",
+            Origin::RcsRecord => "the recording's RCS calibration",
         }
     }
 
@@ -185,6 +189,7 @@ impl Origin {
         match self {
             Origin::CommandLine => format!("--{option}"),
             Origin::SettingsFile => format!("`{}` in the settings file", option.replace('-', "_")),
+            Origin::RcsRecord => format!("the {option} of the recording's RCS calibration"),
         }
     }
 }

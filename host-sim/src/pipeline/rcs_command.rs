@@ -21,6 +21,7 @@ use crate::pipeline::options::{
 use crate::pipeline::rcs::{self, BackgroundInput, RcsGate, RcsResult, RcsSettings};
 use crate::pipeline::rcs_image::{self, Image, Profiles};
 use crate::pipeline::rcs_input::{self, RcsFiles};
+use crate::pipeline::rcs_mark;
 
 /// Pixels per side of the image.
 pub const IMAGE_PIXELS: usize = 81;
@@ -44,9 +45,9 @@ pub struct ZoneOptions {
 /// What `sweepgate rcs` was asked to do.
 #[derive(Debug, Clone, PartialEq)]
 pub struct RcsOptions {
-    /// Manifest of the target's per-angle Touchstone files.
+    /// Manifest of the target's per-angle Touchstone files, or a recording.
     pub target: PathBuf,
-    /// Background: one Touchstone file or a manifest.
+    /// Background: one Touchstone file, a manifest or a recording.
     pub background: PathBuf,
     /// The reference target's measurement.
     pub reference: PathBuf,
@@ -60,6 +61,9 @@ pub struct RcsOptions {
     pub zone: ZoneOptions,
     /// Report folder.
     pub out: PathBuf,
+    /// Also write a copy of the target's recording carrying the calibration (kind 9), for
+    /// `replay` in dBsm.
+    pub calibrated_recording: Option<PathBuf>,
 }
 
 fn ns(s: f64) -> f64 {
@@ -141,7 +145,13 @@ pub fn run(opts: &RcsOptions) -> anyhow::Result<Vec<PathBuf>> {
         .map(|(n, b)| (opts.out.join(n), b))
         .collect();
     write_set(&set)?;
-    Ok(set.into_iter().map(|(p, _)| p).collect())
+    let mut written: Vec<PathBuf> = set.into_iter().map(|(p, _)| p).collect();
+    if let Some(path) = &opts.calibrated_recording {
+        let cal = rcs_mark::calibration(&input, &settings, &result)?;
+        rcs_mark::write(&opts.target, cal, path)?;
+        written.push(path.clone());
+    }
+    Ok(written)
 }
 
 /// Everything the report is made from.

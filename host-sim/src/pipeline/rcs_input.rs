@@ -2,6 +2,10 @@
 //! per-angle Touchstone files (1-port: S11, 2-port: S21), the background as one Touchstone
 //! file or a manifest, the reference and its background as Touchstone files (or manifests,
 //! whose sweep nearest 0° is taken). Every sweep must lie on the target's grid.
+//!
+//! Each of them may instead be a recording (`simulate-rcs --recording`, `acquire`): its
+//! sweeps at the angles of its position records ([`crate::pipeline::rcs_recording`]), read
+//! as a manifest of the same angles would be, and processed by the same chain.
 
 use std::path::Path;
 
@@ -14,6 +18,7 @@ use crate::formats::touchstone::Parameter;
 use crate::formats::touchstone::{Spacing, Touchstone};
 use crate::model::rcs_targets::ReferenceTarget;
 use crate::pipeline::rcs::{BackgroundInput, RcsInput};
+use crate::pipeline::rcs_recording;
 
 /// Whether `path` names a manifest (a `.csv` file) rather than a Touchstone file.
 fn is_manifest(path: &Path) -> bool {
@@ -54,17 +59,34 @@ fn on_grid(grid: &Grid, got: &Grid, path: &Path) -> anyhow::Result<()> {
     }
 }
 
-/// One sweep from a Touchstone file, or a manifest's sweep nearest 0°.
+/// Sweeps with their angles, degrees.
+pub type AngleSweeps = Vec<(f64, Vec<Complex32>)>;
+
+/// Every sweep of a manifest or a recording with its angle, and their grid.
+pub fn read_many(path: &Path) -> anyhow::Result<(Grid, AngleSweeps)> {
+    if rcs_recording::is_recording(path) {
+        let scan = rcs_recording::read_scan(path)?;
+        return Ok((scan.grid, scan.sweeps));
+    }
+    let scan = read_manifest(path)?;
+    let sweeps = scan
+        .sweeps
+        .into_iter()
+        .map(|s| (s.angle_deg, s.values))
+        .collect();
+    Ok((scan.grid, sweeps))
+}
+
+/// One sweep from a Touchstone file, or a manifest's or recording's sweep nearest 0°.
 pub fn read_one(path: &Path, grid: &Grid) -> anyhow::Result<Vec<Complex32>> {
-    if is_manifest(path) {
-        let scan = read_manifest(path)?;
-        on_grid(grid, &scan.grid, path)?;
-        let nearest = scan
-            .sweeps
+    if is_manifest(path) || rcs_recording::is_recording(path) {
+        let (got, sweeps) = read_many(path)?;
+        on_grid(grid, &got, path)?;
+        let nearest = sweeps
             .into_iter()
-            .min_by(|a, b| a.angle_deg.abs().total_cmp(&b.angle_deg.abs()))
+            .min_by(|a, b| a.0.abs().total_cmp(&b.0.abs()))
             .with_context(|| format!("{}: no sweeps", path.display()))?;
-        return Ok(nearest.values);
+        return Ok(nearest.1);
     }
     let ts = Touchstone::read(path).with_context(|| format!("{}", path.display()))?;
     let p = Parameter::default_for(ts.ports());
@@ -78,9 +100,10 @@ pub fn read_one(path: &Path, grid: &Grid) -> anyhow::Result<Vec<Complex32>> {
 /// Where the measurements of an RCS scan are.
 #[derive(Debug, Clone)]
 pub struct RcsFiles<'a> {
-    /// The target: a manifest of per-angle Touchstone files.
+    /// The target: a manifest of per-angle Touchstone files, or a recording.
     pub target: &'a Path,
-    /// The background: one Touchstone file or a manifest (`None`: no subtraction).
+    /// The background: one Touchstone file, a manifest or a recording (`None`: no
+    /// subtraction).
     pub background: Option<&'a Path>,
     /// The reference target's measurement.
     pub reference: &'a Path,
@@ -90,24 +113,13 @@ pub struct RcsFiles<'a> {
 
 /// Reads every file of an RCS scan.
 pub fn read(files: &RcsFiles, reference_target: ReferenceTarget) -> anyhow::Result<RcsInput> {
-    let scan = read_manifest(files.target)?;
-    let grid = scan.grid;
-    let target: Vec<(f64, Vec<Complex32>)> = scan
-        .sweeps
-        .into_iter()
-        .map(|s| (s.angle_deg, s.values))
-        .collect();
+    let (grid, target) = read_many(files.target)?;
     let background = match files.background {
         None => BackgroundInput::Off,
-        Some(p) if is_manifest(p) => {
-            let bg = read_manifest(p)?;
-            on_grid(&grid, &bg.grid, p)?;
-            BackgroundInput::PerAngle(
-                bg.sweeps
-                    .into_iter()
-                    .map(|s| (s.angle_deg, s.values))
-                    .collect(),
-            )
+        Some(p) if is_manifest(p) || rcs_recording::is_recording(p) => {
+            let (got, sweeps) = read_many(p)?;
+            on_grid(&grid, &got, p)?;
+            BackgroundInput::PerAngle(sweeps)
         }
         Some(p) => BackgroundInput::One(read_one(p, &grid)?),
     };

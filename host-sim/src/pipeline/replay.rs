@@ -30,6 +30,7 @@ use crate::output::export::{self, Exports};
 use crate::output::report;
 use crate::output::screen::{self as preview, Screen, ScreenInput};
 use crate::pipeline::options::{default_report_dir, GateOptions};
+use crate::pipeline::replay_rcs;
 use crate::pipeline::setup::{self, Setup};
 use crate::pipeline::stream::{self, Outcome, Pacing, Sink};
 use crate::pipeline::web_feed;
@@ -107,7 +108,11 @@ pub fn setup(rec: &Recovered, opts: &Options) -> anyhow::Result<Setup> {
     let h = rec
         .header()
         .context("the recording has no intact header record")?;
-    setup::for_recording(h, &opts.gate.choices()?, &stream::sweeps_of(rec))
+    let mut choices = opts.gate.choices()?;
+    if let Some(cal) = replay_rcs::calibration_of(rec)? {
+        replay_rcs::fill(&mut choices, &cal)?;
+    }
+    setup::for_recording(h, &choices, &stream::sweeps_of(rec))
 }
 
 /// Replays recovered records through the scan engine, sending preview frames to `sink`.
@@ -132,13 +137,20 @@ struct ChannelSink {
     tx: Sender<ScreenInput>,
     clients: Option<Clients>,
     web: Option<Hub>,
+    /// An RCS scan: the screen's bins in dBsm (the TCP clients and the browser get the
+    /// plain stream).
+    rcs: Option<replay_rcs::Calibrator>,
 }
 
 type Clients = Arc<Mutex<Vec<TcpStream>>>;
 
 impl Sink for ChannelSink {
     fn send(&mut self, bytes: &[u8]) {
-        let _ = self.tx.send(ScreenInput::Bytes(bytes.to_vec()));
+        let shown = match &mut self.rcs {
+            Some(c) => c.frames(bytes),
+            None => bytes.to_vec(),
+        };
+        let _ = self.tx.send(ScreenInput::Bytes(shown));
         if let Some(h) = &self.web {
             // Never waits: a browser that cannot keep up is dropped by the hub.
             h.publish(bytes);
@@ -171,6 +183,10 @@ pub fn replay_file(opts: &Options) -> anyhow::Result<(Outcome, PathBuf)> {
     }
     let s = setup(&rec, opts)?;
     let mut screen = screen_for(&s, &rec);
+    let rcs = replay_rcs::calibration_of(&rec)?;
+    if rcs.is_some() {
+        screen.level_label = Some(replay_rcs::LEVEL_LABEL.into());
+    }
     if let Some(h) = &opts.web {
         let mut meta = web_feed::meta_of(&s, &format!("replay of {}", opts.rec.display()));
         meta.notes.extend(screen.notes.iter().cloned());
@@ -186,6 +202,7 @@ pub fn replay_file(opts: &Options) -> anyhow::Result<(Outcome, PathBuf)> {
         tx,
         clients: clients.clone(),
         web: opts.web.clone(),
+        rcs: rcs.clone().map(replay_rcs::Calibrator::new),
     };
     let pacing = Pacing {
         pace,
@@ -203,6 +220,11 @@ pub fn replay_file(opts: &Options) -> anyhow::Result<(Outcome, PathBuf)> {
     }
     for line in screen.summary_lines() {
         eprintln!("{line}");
+    }
+    if let Some(cal) = &rcs {
+        for line in replay_rcs::summary_lines(&outcome.report, cal) {
+            eprintln!("{line}");
+        }
     }
     stream::refuse_empty(&outcome)?;
     let files = report::write_report(&outcome.report, &out_dir)
