@@ -434,7 +434,8 @@ pub struct SpherePoint {
 /// planes fills a regular sphere grid.
 ///
 /// ```
-/// /// use sweepgate_host::pipeline::cuts::cut_samples;
+/// use num_complex::Complex64;
+/// use sweepgate_host::pipeline::cuts::cut_samples;
 /// let one = Complex64::new(1.0, 0.0);
 /// let p = cut_samples(30.0, -45.0, 1e9, one, one);
 /// assert_eq!((p.len(), p[0].theta_deg, p[0].phi_deg), (1, 45.0, 210.0));
