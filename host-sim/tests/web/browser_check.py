@@ -32,7 +32,7 @@ def start_replay(binary, recording, work):
     """Starts the replay, paced so that the scan takes some seconds; returns the process
     and the page's address (from the line the command prints)."""
     p = subprocess.Popen(
-        [binary, "replay", recording, "--speed", "5", "--no-preview", "--web", "0",
+        [binary, "replay", recording, "--speed", "2", "--no-preview", "--web", "0",
          "--out", os.path.join(work, "report")],
         stdin=subprocess.DEVNULL, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
     lines = []
