@@ -90,7 +90,8 @@ pub struct Screen {
     pub polar: bool,
     /// The cursor's angle, deg (`None`: no cursor).
     pub cursor_deg: Option<f64>,
-    /// What the levels are, named under the plot (`None`: `|S21|`; an RCS scan: `RCS dBsm`).
+    /// What the levels are, named under the plot (`None`: |S21|, not named; an RCS scan:
+    /// `RCS dBsm`).
     pub level_label: Option<String>,
     decoder: PreviewDecoder,
     first_status: Option<(u64, u32)>,
@@ -449,10 +450,10 @@ fn draw_pattern(frame: &mut Frame, area: Rect, screen: &Screen, freq_text: &str)
             Block::default()
                 .borders(Borders::ALL)
                 .title(legend_title(freq_text))
-                .title_bottom(format!(
-                    "{} at {freq_text}, dB below peak; deg",
-                    screen.level_label.as_deref().unwrap_or("|S21|")
-                )),
+                .title_bottom(match screen.level_label.as_deref() {
+                    Some(l) => format!("{l} at {freq_text}: dB below peak, deg"),
+                    None => "dB below peak, deg".to_string(),
+                }),
         )
         .x_axis(
             Axis::default()
