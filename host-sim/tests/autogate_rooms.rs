@@ -13,82 +13,9 @@ use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
-/// The target folder: `CARGO_TARGET_DIR`, else the workspace's `target/`.
-fn target_dir() -> PathBuf {
-    std::env::var_os("CARGO_TARGET_DIR")
-        .map(PathBuf::from)
-        .unwrap_or_else(|| Path::new(env!("CARGO_MANIFEST_DIR")).join("../target"))
-}
-
-fn imports_numpy(python: &Path) -> bool {
-    Command::new(python)
-        .args(["-c", "import numpy"])
-        .output()
-        .is_ok_and(|o| o.status.success())
-}
-
-/// A Python that imports numpy (see the module notes).
-fn python() -> PathBuf {
-    if let Some(p) = std::env::var_os("SWEEPGATE_ROOMS_PYTHON") {
-        let p = PathBuf::from(p);
-        assert!(
-            imports_numpy(&p),
-            "SWEEPGATE_ROOMS_PYTHON={} does not import numpy",
-            p.display()
-        );
-        return p;
-    }
-    let system = PathBuf::from("python3");
-    if imports_numpy(&system) {
-        return system;
-    }
-    let venv = target_dir().join("rooms-venv");
-    let python = venv.join("bin/python");
-    if imports_numpy(&python) {
-        return python;
-    }
-    let made = Command::new("python3")
-        .args(["-m", "venv"])
-        .arg(&venv)
-        .status()
-        .is_ok_and(|s| s.success());
-    let pip = made
-        && Command::new(venv.join("bin/pip"))
-            .args(["install", "-q", "numpy"])
-            .status()
-            .is_ok_and(|s| s.success());
-    assert!(
-        pip && imports_numpy(&python),
-        "no Python with numpy: python3 does not import it and making {} (python3 -m venv, pip install numpy) failed; set SWEEPGATE_ROOMS_PYTHON to a python that imports numpy",
-        venv.display()
-    );
-    python
-}
-
-fn read_csv(path: &Path) -> Vec<HashMap<String, String>> {
-    let text = std::fs::read_to_string(path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
-    let mut lines = text.lines();
-    let header: Vec<String> = lines
-        .next()
-        .unwrap()
-        .split(',')
-        .map(str::to_string)
-        .collect();
-    lines
-        .filter(|l| !l.is_empty())
-        .map(|l| {
-            header
-                .iter()
-                .cloned()
-                .zip(l.split(',').map(str::to_string))
-                .collect()
-        })
-        .collect()
-}
-
-fn num(row: &HashMap<String, String>, key: &str) -> f64 {
-    row[key].parse().unwrap()
-}
+#[path = "support/models.rs"]
+mod models;
+use models::{num, python, read_csv};
 
 /// Angle in whole degrees within [−180, 180).
 fn whole_deg(a: f64) -> i64 {

@@ -6,7 +6,7 @@
 //! 20 dB of its peak, and without the background subtraction or without the gate it must
 //! not.
 
-#[path = "rcs/python.rs"]
+#[path = "support/models.rs"]
 mod python;
 
 use std::collections::HashMap;

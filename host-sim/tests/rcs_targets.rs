@@ -3,7 +3,7 @@
 //! functions (`tests/rcs/mie_scipy.py`), against the Rayleigh and optical limits and the
 //! resonance peak quoted in the literature, and the closed forms against worked values.
 
-#[path = "rcs/python.rs"]
+#[path = "support/models.rs"]
 mod python;
 
 use std::f64::consts::PI;

@@ -18,7 +18,7 @@
 //! none works the test fails with a message; it never skips.
 
 use std::collections::HashMap;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::process::Command;
 
 use num_complex::Complex64;
@@ -30,81 +30,9 @@ use sweepgate_host::pipeline::sphere::{
 };
 use sweepgate_host::pipeline::sphere_report::sphere_files;
 
-fn target_dir() -> PathBuf {
-    std::env::var_os("CARGO_TARGET_DIR")
-        .map(PathBuf::from)
-        .unwrap_or_else(|| Path::new(env!("CARGO_MANIFEST_DIR")).join("../target"))
-}
-
-fn imports_numpy(python: &Path) -> bool {
-    Command::new(python)
-        .args(["-c", "import numpy"])
-        .output()
-        .is_ok_and(|o| o.status.success())
-}
-
-/// A Python that imports numpy (see the module notes).
-fn python() -> PathBuf {
-    if let Some(p) = std::env::var_os("SWEEPGATE_ROOMS_PYTHON") {
-        let p = PathBuf::from(p);
-        assert!(
-            imports_numpy(&p),
-            "SWEEPGATE_ROOMS_PYTHON={} does not import numpy",
-            p.display()
-        );
-        return p;
-    }
-    let system = PathBuf::from("python3");
-    if imports_numpy(&system) {
-        return system;
-    }
-    let venv = target_dir().join("rooms-venv");
-    let python = venv.join("bin/python");
-    if imports_numpy(&python) {
-        return python;
-    }
-    let made = Command::new("python3")
-        .args(["-m", "venv"])
-        .arg(&venv)
-        .status()
-        .is_ok_and(|s| s.success());
-    let pip = made
-        && Command::new(venv.join("bin/pip"))
-            .args(["install", "-q", "numpy"])
-            .status()
-            .is_ok_and(|s| s.success());
-    assert!(
-        pip && imports_numpy(&python),
-        "no Python with numpy: python3 does not import it and making {} failed; set SWEEPGATE_ROOMS_PYTHON to a python that imports numpy",
-        venv.display()
-    );
-    python
-}
-
-fn read_csv(path: &Path) -> Vec<HashMap<String, String>> {
-    let text = std::fs::read_to_string(path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
-    let mut lines = text.lines();
-    let header: Vec<String> = lines
-        .next()
-        .unwrap()
-        .split(',')
-        .map(str::to_string)
-        .collect();
-    lines
-        .filter(|l| !l.is_empty())
-        .map(|l| {
-            header
-                .iter()
-                .cloned()
-                .zip(l.split(',').map(str::to_string))
-                .collect()
-        })
-        .collect()
-}
-
-fn num(row: &HashMap<String, String>, key: &str) -> f64 {
-    row[key].parse().unwrap()
-}
+#[path = "support/models.rs"]
+mod models;
+use models::{num, python, read_csv};
 
 /// Key of a sample: θ and φ in whole degrees (φ in 0…359), frequency in MHz.
 fn key(theta_deg: f64, phi_deg: f64, f_hz: f64) -> (i64, i64, i64) {

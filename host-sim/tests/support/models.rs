@@ -1,11 +1,16 @@
-//! A Python with numpy and scipy for the RCS tests' independent models (shared by the test
-//! files that include it).
+//! What the tests of independent models share (the rooms, the sphere and the RCS range,
+//! written in numpy/scipy for the tests alone): a Python with numpy and scipy, and their CSV
+//! output read back.
 //!
 //! `SWEEPGATE_ROOMS_PYTHON` when set (CI's venv, which installs numpy and scipy), else
 //! `python3` when it imports both, else the venv under the target folder (`rooms-venv`),
 //! made or completed with numpy and scipy from PyPI. When none works the test fails with a
 //! message; it never skips.
 
+// Each test file takes what it needs of this module.
+#![allow(dead_code)]
+
+use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
@@ -79,4 +84,31 @@ pub fn run(script: &str, args: &[String]) -> String {
         String::from_utf8_lossy(&out.stderr)
     );
     String::from_utf8(out.stdout).expect("utf-8 output")
+}
+
+/// A CSV file with a header row, as rows of column name → text.
+pub fn read_csv(path: &Path) -> Vec<HashMap<String, String>> {
+    let text = std::fs::read_to_string(path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+    let mut lines = text.lines();
+    let header: Vec<String> = lines
+        .next()
+        .unwrap()
+        .split(',')
+        .map(str::to_string)
+        .collect();
+    lines
+        .filter(|l| !l.is_empty())
+        .map(|l| {
+            header
+                .iter()
+                .cloned()
+                .zip(l.split(',').map(str::to_string))
+                .collect()
+        })
+        .collect()
+}
+
+/// A number from a CSV row.
+pub fn num(row: &HashMap<String, String>, key: &str) -> f64 {
+    row[key].parse().unwrap()
 }
