@@ -11,12 +11,12 @@
 //!
 //! Memory: the engine, `1 + X` sweep buffers of `M` points and the decoder's small state.
 
-use embedded_io::{Read, ReadExactError, Write};
+use embedded_io::{Read, Write};
 
 use crate::cuts::{CutConfig, CutEvent, CutEvents, CutScan};
 use crate::error::{CaptureError, CutConfigError, PumpError, ReplayError};
 use crate::fft::Fft;
-use crate::pump::{PumpConfig, REPLAY_CHUNK};
+use crate::pump::{read_exact, PumpConfig, REPLAY_CHUNK};
 use crate::wire::block::{BlockConfig, BlockDecoder, DecodeEvent as BlockEvent};
 use crate::wire::cut_capture::{CutCaptureHeader, CutEntry, CUT_HEADER_LEN, CUT_MAX_ENTRY_LEN};
 use crate::wire::preview::{write_frame, PreviewRecord, WriteFrameError};
@@ -306,25 +306,6 @@ where
         }
         Ok(())
     }
-}
-
-/// Reads exactly `buf.len()` bytes, advancing `at`; the end of the capture there is a
-/// truncated header or entry starting at `entry_at`.
-fn read_exact<R: Read, W>(
-    capture: &mut R,
-    buf: &mut [u8],
-    at: &mut u64,
-    entry_at: u64,
-) -> Result<(), ReplayError<R::Error, W>> {
-    capture.read_exact(buf).map_err(|e| match e {
-        ReadExactError::UnexpectedEof => ReplayError::Capture {
-            at_byte: entry_at,
-            error: CaptureError::Truncated,
-        },
-        ReadExactError::Other(e) => ReplayError::Read(e),
-    })?;
-    *at += buf.len() as u64;
-    Ok(())
 }
 
 /// Reads the kind byte and head of the entry at `at`.

@@ -449,7 +449,7 @@ struct Answer {
 
 /// Reads exactly `buf.len()` bytes, advancing `at`; the end of the capture there is a
 /// truncated header or entry starting at `entry_at`.
-fn read_exact<R: Read, W>(
+pub(crate) fn read_exact<R: Read, W>(
     capture: &mut R,
     buf: &mut [u8],
     at: &mut u64,
