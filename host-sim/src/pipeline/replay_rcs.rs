@@ -3,8 +3,10 @@
 //! and pattern frequencies, and shown in dBsm: each closed bin's values become
 //! factor × (value − background at the nearest angle) before they reach the screen (raw:
 //! the ungated background subtracted; gated: the gated one), the level axis reads
-//! `RCS dBsm`, and the summary gives the RCS per pattern frequency. The report folder and
-//! the `--serve` stream keep the plain |S21| values.
+//! `RCS dBsm`, and the summary gives the RCS per pattern frequency. The browser view
+//! (`--web`) gets the same calibrated bins and draws them in absolute dBsm under
+//! [`WEB_LEVEL_LABEL`]. The report folder and the `--serve` stream keep the plain |S21|
+//! values.
 
 use anyhow::{bail, Context};
 use num_complex::Complex64;
@@ -16,9 +18,21 @@ use crate::formats::recording::Recovered;
 use crate::output::report::ReportInput;
 use crate::output::screen::{PreviewDecoder, PREVIEW_F};
 use crate::pipeline::options::{parse_window, Choices, Origin};
+use crate::web::AbsoluteLevels;
 
 /// The level axis' label of an RCS scan.
 pub const LEVEL_LABEL: &str = "RCS dBsm";
+
+/// The browser view's level axis title of an RCS scan.
+pub const WEB_LEVEL_LABEL: &str = "RCS (dBsm)";
+
+/// How the browser view names the levels of an RCS scan: absolute, in dBsm.
+pub fn web_levels() -> AbsoluteLevels {
+    AbsoluteLevels {
+        label: WEB_LEVEL_LABEL.into(),
+        unit: "dBsm".into(),
+    }
+}
 
 /// The calibration a recording carries, if any.
 pub fn calibration_of(rec: &Recovered) -> anyhow::Result<Option<RcsCalibration>> {
