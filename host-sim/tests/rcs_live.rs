@@ -452,3 +452,77 @@ fn acquire_with_a_calibration_shows_the_dbsm_rcs_finds() {
         "{err}"
     );
 }
+
+/// Runs `f` on a thread and fails when it has no result within `secs` (a deadline, as in
+/// hostile_edges.rs).
+fn within<T: Send + 'static>(secs: u64, name: &str, f: impl FnOnce() -> T + Send + 'static) -> T {
+    let (tx, rx) = mpsc::channel();
+    std::thread::spawn(move || {
+        let _ = tx.send(f());
+    });
+    rx.recv_timeout(Duration::from_secs(secs))
+        .unwrap_or_else(|e| panic!("{name}: no result within {secs} s ({e})"))
+}
+
+/// The simulated instrument asks the turntable for each RCS sweep's angle before it locks
+/// its state: a turntable that takes the question and never answers holds up the client
+/// whose `INITiate` waits for it (until the instrument's 5 s turntable timeout, which then
+/// queues -240), never another client.
+#[test]
+fn a_stalled_turntable_holds_up_no_other_client() {
+    use instrument_support::Client;
+    use std::io::Read;
+    let stalled = std::net::TcpListener::bind("127.0.0.1:0").unwrap();
+    let table_addr = stalled.local_addr().unwrap().to_string();
+    let (asked_tx, asked_rx) = mpsc::channel();
+    std::thread::spawn(move || {
+        let mut held = Vec::new();
+        for s in stalled.incoming() {
+            let mut s = s.unwrap();
+            let mut question = [0u8; 6];
+            if s.read_exact(&mut question).is_ok() {
+                let _ = asked_tx.send(question);
+            }
+            // Keep the connection open, never answering.
+            held.push(s);
+        }
+    });
+    let scene = Path::new(env!("CARGO_MANIFEST_DIR")).join("scenarios/rcs/range.toml");
+    let inst = instrument_support::start(
+        "rcs-live-stalled",
+        &[
+            "--rcs-scenario",
+            scene.to_str().unwrap(),
+            "--measurement",
+            "target",
+            "--turntable",
+            &table_addr,
+        ],
+    );
+    let addr = inst.addr.clone();
+    let first = std::thread::spawn(move || {
+        let mut c = Client::connect(&addr);
+        c.send("INIT");
+        c.query("SYST:ERR?")
+    });
+    let question = asked_rx.recv_timeout(Duration::from_secs(30)).unwrap();
+    assert_eq!(&question, b"WHERE\n");
+    // The first client's INITiate is now waiting for the turntable. Another client's
+    // queries are answered meanwhile, well before the turntable's 5 s timeout.
+    let addr = inst.addr.clone();
+    let idn = within(
+        3,
+        "another client's query while the turntable stalls",
+        move || {
+            let mut c = Client::connect(&addr);
+            (c.query("*IDN?"), c.query("SENS:FREQ:STAR?"))
+        },
+    );
+    assert!(idn.0.contains("simulated-vna"), "{idn:?}");
+    assert_eq!(idn.1.parse::<f64>().unwrap(), 8e9);
+    // The stalled turntable is still an error for the client that asked for the sweep.
+    let err = within(30, "the first client's answer", move || {
+        first.join().unwrap()
+    });
+    assert!(err.starts_with("-240"), "{err}");
+}
