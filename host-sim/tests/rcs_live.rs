@@ -399,6 +399,9 @@ fn acquire_with_a_calibration_shows_the_dbsm_rcs_finds() {
     // The source of truth: `rcs`'s pattern.csv of the recording that acquisition wrote.
     rcs("live.rec", "report-live", &[]);
     let want = pattern(&dir.join("report-live/pattern.csv"));
+    for l in stdout.lines().filter(|l| l.starts_with("bin ")) {
+        println!("acquire: {l}");
+    }
     let live = printed(&stdout);
     assert_eq!(live.len(), 5 * 3, "{stdout}");
     let mut worst = 0.0f64;
