@@ -101,6 +101,11 @@ pub struct Args {
     /// 127.0.0.1); the page stays up after the scan until the command is stopped (Ctrl-C).
     #[arg(long, value_name = "[ADDR:]PORT")]
     pub web: Option<String>,
+    /// An RCS scan: the calibration `rcs --save-calibration` wrote (or a recording `rcs
+    /// --calibrated-recording` wrote); the live bins are shown in dBsm, with its gate,
+    /// pattern frequencies and bins.
+    #[arg(long, value_name = "FILE")]
+    pub rcs_calibration: Option<PathBuf>,
 }
 
 /// Runs the command.
@@ -142,6 +147,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
         gate: a.gate.into(),
         bin_width_deg: a.bin_width_deg,
         web: server.as_ref().map(|s| s.hub().clone()),
+        rcs_calibration: a.rcs_calibration,
     })?;
     if let Some(s) = &server {
         crate::web::stay_up(s)?;

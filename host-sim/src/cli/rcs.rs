@@ -70,6 +70,11 @@ pub struct Args {
     /// in dBsm.
     #[arg(long)]
     pub calibrated_recording: Option<PathBuf>,
+    /// Also write the calibration (factor per pattern frequency, the gate, the bin width,
+    /// the background per angle) to this file: `acquire --rcs-calibration FILE` then shows
+    /// the next scans of the same range in dBsm as they run.
+    #[arg(long, value_name = "FILE")]
+    pub save_calibration: Option<PathBuf>,
 }
 
 /// The reference target the options name.
@@ -114,6 +119,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
         },
         out,
         calibrated_recording: a.calibrated_recording,
+        save_calibration: a.save_calibration,
     })?;
     for p in written {
         println!("wrote {}", p.display());

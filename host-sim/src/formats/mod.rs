@@ -8,6 +8,7 @@ pub mod gain_table;
 pub mod manifest;
 pub mod manifest_traces;
 pub mod npy;
+pub mod rcs_calibration;
 pub mod rcs_capture;
 pub mod rcs_record;
 pub mod recording;

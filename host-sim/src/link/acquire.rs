@@ -19,7 +19,9 @@
 //! options. The recording's header holds the pattern frequencies and bin width the live
 //! engine used. Each bin is printed on standard output as it closes:
 //! `bin <index> <deg> deg: <n> sweeps, at <GHz> GHz raw <dB> dB, gated <dB> dB[; at …], echo <dB>`.
-//! Without a gate sweeps are only recorded.
+//! Without a gate sweeps are only recorded. An RCS scan with `--rcs-calibration FILE`
+//! ([`crate::link::acquire_rcs`]) takes its gate, frequencies and bins from the calibration
+//! and prints the levels in dBsm (`raw <dBsm> dBsm, gated <dBsm> dBsm`).
 //!
 //! Caution: `acquire` can run a scan with a transmitting antenna and a moving turntable.
 //! Keep clear of the aperture of a transmitting antenna (RF exposure) and of the moving
@@ -232,8 +234,10 @@ use sweepgate::wire::block::{BlockConfig, BlockDecoder, DecodeEvent, StreamDecod
 
 use crate::formats::block::{parse_format, parse_order};
 use crate::formats::files::{check_output_dir, refuse_if_same_file};
+use crate::formats::rcs_record::RcsCalibration;
 use crate::formats::recording::{kind, GridInfo, Header, Record, SyncPolicy, Writer, SWEEP_FORMAT};
 use crate::limits::{self, MAX_FREQUENCIES};
+use crate::link::acquire_rcs;
 use crate::link::acquire_web::{self, WebFeed};
 use crate::link::clock::{ClockEstimate, ClockFit};
 use crate::link::drive::{Drive, DriveOptions, DriveStatus, Kept, LineDrive, Motion, Plan};
@@ -243,6 +247,7 @@ use crate::model::simulator::{Sample, Simulator};
 use crate::output::report::ReportBin;
 use crate::pipeline::engine::{warning_text, Engine};
 use crate::pipeline::options::{describe_window, Choices, GateOptions};
+use crate::pipeline::replay_rcs;
 use crate::pipeline::setup::{self, Setup};
 use crate::pipeline::transform::c64;
 use crate::units::db;
@@ -283,6 +288,9 @@ pub struct Options {
     pub drive: Option<DriveOptions>,
     /// The web view to feed from the live engine (`--web`), already serving.
     pub web: Option<Hub>,
+    /// An RCS scan's calibration (`--rcs-calibration`): the live bins in dBsm
+    /// ([`crate::link::acquire_rcs`]).
+    pub rcs_calibration: Option<PathBuf>,
 }
 
 /// `[grid]` of a profile.
@@ -1039,6 +1047,8 @@ struct LiveEngine {
     shown: BTreeSet<String>,
     closed: u64,
     web: Option<WebFeed>,
+    /// An RCS scan's calibration: bins printed (and sent to the web view) in dBsm.
+    rcs: Option<RcsCalibration>,
 }
 
 impl LiveEngine {
@@ -1048,19 +1058,24 @@ impl LiveEngine {
             match e {
                 ScanEvent::BinClosed(r) => {
                     self.closed += 1;
-                    let values: Vec<String> = self
-                        .frequencies_hz
-                        .iter()
-                        .enumerate()
-                        .map(|(j, f)| {
-                            format!(
-                                "at {:.4} GHz raw {:>7.2} dB, gated {:>7.2} dB",
-                                f / 1e9,
-                                db(c64(r.raw[j])),
-                                db(c64(r.gated[j]))
-                            )
-                        })
-                        .collect();
+                    let values: Vec<String> = match &self.rcs {
+                        Some(c) => {
+                            acquire_rcs::values_dbsm(c, &r.to_record(), &self.frequencies_hz)
+                        }
+                        None => self
+                            .frequencies_hz
+                            .iter()
+                            .enumerate()
+                            .map(|(j, f)| {
+                                format!(
+                                    "at {:.4} GHz raw {:>7.2} dB, gated {:>7.2} dB",
+                                    f / 1e9,
+                                    db(c64(r.raw[j])),
+                                    db(c64(r.gated[j]))
+                                )
+                            })
+                            .collect(),
+                    };
                     let echo = r.echo_db.map_or("-".into(), |e| format!("{e:.1} dB"));
                     println!(
                         "bin {:>4} {:>8.2} deg: {:>3} sweeps, {}, echo {echo}",
@@ -1371,6 +1386,17 @@ enum Answered {
 
 /// Runs an acquisition.
 pub fn acquire(profile: &Profile, req: Request) -> anyhow::Result<Summary> {
+    acquire_with(profile, req, None)
+}
+
+/// Runs an acquisition; with `rcs`, an RCS scan whose live bins are shown in dBsm and whose
+/// recording carries the calibration ([`crate::link::acquire_rcs`]; `req.choices` already
+/// hold its gate, frequencies and bins).
+pub fn acquire_with(
+    profile: &Profile,
+    req: Request,
+    rcs: Option<RcsCalibration>,
+) -> anyhow::Result<Summary> {
     if req.max_sweeps.is_none() && matches!(req.positioner, AngleSource::None) {
         bail!("with no positioner, give --sweeps");
     }
@@ -1387,15 +1413,12 @@ pub fn acquire(profile: &Profile, req: Request) -> anyhow::Result<Summary> {
     let timeout = Duration::from_secs_f64(profile.timeout_s);
     let (angles, scenario) = start_angles(req.positioner, epoch, timeout, profile)?;
     let mut header = header_for(profile, &req.instrument, idn, &grid, scenario);
-    let mut engine = live_engine(&mut header, &req.choices)?;
+    let mut engine = live_engine(&mut header, &req.choices, rcs.clone())?;
     if let Some(h) = &req.web {
         match &mut engine {
             Some(e) => {
-                e.web = Some(WebFeed::new(
-                    h.clone(),
-                    &e.setup,
-                    &format!("acquisition from {}", req.instrument),
-                ));
+                let source = format!("acquisition from {}", req.instrument);
+                e.web = Some(WebFeed::new(h.clone(), &e.setup, &source, e.rcs.clone()));
             }
             None => h.note(
                 "no live scan engine: give --scenario, or --gate-center-ns and --gate-span-ns, \
@@ -1407,6 +1430,10 @@ pub fn acquire(profile: &Profile, req: Request) -> anyhow::Result<Summary> {
         .with_context(|| format!("creating {}", req.out.display()))?;
     w.write(&Record::Header(Box::new(header)))
         .with_context(|| format!("writing {}", req.out.display()))?;
+    if let Some(c) = &rcs {
+        w.write(&acquire_rcs::note(c).to_record())
+            .with_context(|| format!("writing {}", req.out.display()))?;
+    }
     if !profile.further_traces.is_empty() {
         let names = crate::formats::traces::TracesRecord::Names(crate::formats::traces::Names {
             traces: std::iter::once(&profile.first_trace)
@@ -1626,8 +1653,12 @@ fn header_for(
 
 /// The live engine, when a gate can be set up: from the header (as `replay` and `process`
 /// set up the recording) and the choices. The header then records the pattern frequencies
-/// and bin width the engine uses.
-fn live_engine(header: &mut Header, choices: &Choices) -> anyhow::Result<Option<LiveEngine>> {
+/// and bin width the engine uses. With `rcs` it shows its bins in dBsm.
+fn live_engine(
+    header: &mut Header,
+    choices: &Choices,
+    rcs: Option<RcsCalibration>,
+) -> anyhow::Result<Option<LiveEngine>> {
     if header.scenario.is_none() && *choices == Choices::default() {
         return Ok(None);
     }
@@ -1657,6 +1688,7 @@ fn live_engine(header: &mut Header, choices: &Choices) -> anyhow::Result<Option<
         shown: BTreeSet::new(),
         closed: 0,
         web: None,
+        rcs,
     }))
 }
 
@@ -2222,6 +2254,7 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
     let profile = Profile::from_toml(&text).context("in the profile")?;
     let mut inputs: Vec<&Path> = opts.profile.iter().map(PathBuf::as_path).collect();
     inputs.extend(opts.scenario.as_deref());
+    inputs.extend(opts.rcs_calibration.as_deref());
     refuse_if_same_file(&opts.out, &inputs)?;
     let positioner = if let Some(d) = &opts.drive {
         AngleSource::Drive(Box::new(d.clone()))
@@ -2239,6 +2272,10 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
     };
     let mut choices = opts.gate.choices()?;
     choices.bin_width_deg = opts.bin_width_deg;
+    let rcs = match &opts.rcs_calibration {
+        Some(p) => Some(acquire_rcs::take(p, &mut choices)?),
+        None => None,
+    };
     let req = Request {
         instrument: opts.instrument.clone(),
         positioner,
@@ -2248,12 +2285,18 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
         out: opts.out.clone(),
         web: opts.web.clone(),
     };
-    let sum = acquire(&profile, req)?;
+    let sum = acquire_with(&profile, req, rcs.clone())?;
+    let rcs_lines = match (&rcs, &sum.setup) {
+        (Some(c), Some(s)) => replay_rcs::summary_of(&s.frequencies_hz, &sum.bins, c),
+        _ => Vec::new(),
+    };
     if let Some(h) = &opts.web {
-        acquire_web::ended(
-            h,
-            format!("wrote {} sweeps to {}", sum.sweeps, opts.out.display()),
-        );
+        let mut done = format!("wrote {} sweeps to {}", sum.sweeps, opts.out.display());
+        for l in &rcs_lines {
+            done.push_str("; ");
+            done.push_str(l);
+        }
+        acquire_web::ended(h, done);
     }
     eprintln!(
         "wrote {} sweeps and {} angle samples to {} ({} sweeps dropped, {} malformed positioner lines, {} link faults, {} reconnections)",
@@ -2268,6 +2311,9 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
     eprintln!("{}", counters_line(&sum));
     if sum.setup.is_some() {
         eprintln!("scan engine closed {} bins", sum.bins_closed);
+    }
+    for l in rcs_lines {
+        eprintln!("{l}");
     }
     Ok(())
 }

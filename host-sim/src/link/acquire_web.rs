@@ -5,8 +5,10 @@
 use sweepgate::scan::Event;
 use sweepgate::wire::preview::{encode_frame, PreviewRecord};
 
+use crate::formats::rcs_record::RcsCalibration;
 use crate::limits::{MAX_FRAME_BYTES, MAX_FREQUENCIES};
 use crate::pipeline::engine::Engine;
+use crate::pipeline::replay_rcs;
 use crate::pipeline::setup::Setup;
 use crate::pipeline::stream::STATUS_INTERVAL_US;
 use crate::pipeline::web_feed;
@@ -17,16 +19,24 @@ pub struct WebFeed {
     hub: Hub,
     seq: u16,
     last_status_us: Option<u64>,
+    rcs: Option<RcsCalibration>,
 }
 
 impl WebFeed {
-    /// Names the scan set up as `setup` to the web view and starts the feed.
-    pub fn new(hub: Hub, setup: &Setup, source: &str) -> Self {
-        hub.set_meta(web_feed::meta_of(setup, source));
+    /// Names the scan set up as `setup` to the web view and starts the feed; with `rcs` (an
+    /// RCS scan's calibration) the bins go out in calibrated amplitude and the page shows
+    /// them in absolute dBsm, as for `replay` of a calibrated recording.
+    pub fn new(hub: Hub, setup: &Setup, source: &str, rcs: Option<RcsCalibration>) -> Self {
+        let mut meta = web_feed::meta_of(setup, source);
+        if rcs.is_some() {
+            meta.absolute_levels = Some(replay_rcs::web_levels());
+        }
+        hub.set_meta(meta);
         Self {
             hub,
             seq: 0,
             last_status_us: None,
+            rcs,
         }
     }
 
@@ -48,7 +58,11 @@ impl WebFeed {
     ) {
         for e in events {
             if let Event::BinClosed(r) = e {
-                self.emit(&PreviewRecord::Bin(r.to_record()));
+                let mut b = r.to_record();
+                if let Some(c) = &self.rcs {
+                    replay_rcs::calibrate_bin(c, &mut b);
+                }
+                self.emit(&PreviewRecord::Bin(b));
             }
         }
         for r in engine.take_impulses() {

@@ -33,8 +33,9 @@
 //! ([`crate::link::rcs_source`]): the scene's grid, each `INITiate` the scene measured at
 //! the turntable's angle (asked with `WHERE`; without `--turntable`, the scene's angles in
 //! turn). A turntable that does not answer queues -240 and the reason goes to standard
-//! error. The turntable is asked while the instrument state is locked (one short
-//! question on a local link).
+//! error. The server asks the turntable before it locks the shared state for the
+//! `INITiate` and takes the lock only to measure with the answer, so a turntable slow to
+//! answer holds up only the client waiting for that sweep.
 //!
 //! A test-only option, `--misreport SETTING` (hidden from `--help`), makes one read-back
 //! lie: the query of `start`, `stop`, `points`, `bandwidth`, `power`, `function`,
@@ -593,6 +594,34 @@ impl Instrument {
         }
     }
 
+    /// The turntable to ask before `unit` runs: `Some` when it is an `INITiate` and the
+    /// instrument serves an RCS measurement at a turntable's angle.
+    pub fn turntable_to_ask(&self, unit: &str) -> Option<String> {
+        let addr = self.rcs.as_ref()?.turntable()?;
+        let header = unit.split([' ', '\t']).next().unwrap_or("");
+        let init = !header.ends_with('?') && mnemonics(header).is_ok_and(|t| matches(&t, INIT));
+        init.then(|| addr.to_owned())
+    }
+
+    /// [`Self::handle_into`] with the turntable's answer for an `INITiate` already asked
+    /// (`None`: nothing asked).
+    pub fn handle_with_angle(
+        &mut self,
+        unit: &str,
+        response: &mut Response,
+        angle: Option<anyhow::Result<f64>>,
+    ) {
+        let given = angle.is_some();
+        if let (Some(r), true) = (&mut self.rcs, given) {
+            r.give_angle(angle);
+        }
+        self.handle_into(unit, response);
+        if let (Some(r), true) = (&mut self.rcs, given) {
+            // An answer the unit did not use (a malformed INITiate) is not kept.
+            r.give_angle(None);
+        }
+    }
+
     /// Queues an error found outside any command (a line too long for the input buffer).
     pub fn queue_error(&mut self, e: ScpiError) {
         self.push_error(e);
@@ -1095,16 +1124,20 @@ pub fn serve_client(
     }
 }
 
-/// Runs one line against the shared instrument, one unit per lock.
+/// Runs one line against the shared instrument, one unit per lock. An `INITiate` of an RCS
+/// measurement with a turntable asks the turntable first, without the lock.
 fn answer_line(line: &[u8], inst: &Mutex<Instrument>) -> Option<Vec<u8>> {
     let mut response = Response::default();
     match program_units(line) {
         Ok(units) => {
             for unit in units {
+                let ask = inst.lock().ok()?.turntable_to_ask(unit);
+                // The question goes out with no lock held.
+                let angle = ask.map(|addr| crate::link::rcs_source::turntable_angle(&addr));
                 let Ok(mut i) = inst.lock() else {
                     return None;
                 };
-                i.handle_into(unit, &mut response);
+                i.handle_with_angle(unit, &mut response, angle);
             }
         }
         Err(e) => {
@@ -1367,5 +1400,34 @@ mod tests {
         let mut i = Instrument::builtin(None).unwrap();
         assert_eq!(i.handle_line(&[0xff, 0xfe]), None);
         assert_eq!(i.errors().next(), Some(&ScpiError::SYNTAX));
+    }
+
+    #[test]
+    fn only_an_initiate_of_an_rcs_scan_at_a_turntable_asks_the_turntable() {
+        let path = concat!(env!("CARGO_MANIFEST_DIR"), "/scenarios/rcs/range.toml");
+        let scene = crate::pipeline::rcs_simulate::read_scene(std::path::Path::new(path)).unwrap();
+        let m = crate::formats::rcs_record::Measurement::Target;
+        let mut i = Instrument::builtin(None).unwrap();
+        assert_eq!(i.turntable_to_ask("INIT"), None);
+        i.serve_rcs(RcsSource::new(scene.clone(), m, Some("127.0.0.1:9".into())))
+            .unwrap();
+        for unit in ["INIT", ":init:imm", "INITiate:IMMediate"] {
+            assert_eq!(
+                i.turntable_to_ask(unit),
+                Some("127.0.0.1:9".into()),
+                "{unit}"
+            );
+        }
+        for unit in ["INIT?", "*IDN?", "TRAC:DATA?", "INIT:CONT"] {
+            assert_eq!(i.turntable_to_ask(unit), None, "{unit}");
+        }
+        // The answer given is the sweep's angle: no question goes to the (absent) turntable.
+        let mut response = Response::default();
+        i.handle_with_angle("INIT", &mut response, Some(Ok(0.0)));
+        assert_eq!(i.errors().count(), 0);
+        assert_eq!(i.current_sweep().map(|s| s.0), Some(0));
+        let mut plain = Instrument::builtin(None).unwrap();
+        plain.serve_rcs(RcsSource::new(scene, m, None)).unwrap();
+        assert_eq!(plain.turntable_to_ask("INIT"), None);
     }
 }

@@ -3,6 +3,7 @@
 //! simulated turntable.
 
 pub mod acquire;
+pub mod acquire_rcs;
 pub mod acquire_web;
 pub mod clock;
 pub mod drive;

@@ -7,7 +7,9 @@
 //! turntable (turntable line protocol, `WHERE`) before each sweep, so that a scan driven by
 //! `acquire --drive` measures the scene at the angles the turntable stands at; without it,
 //! sweeps step through the scene's angles in turn (the reference runs: 0°), starting again
-//! after the last.
+//! after the last. The instrument server asks the turntable before it locks the
+//! instrument's state ([`turntable_angle`], then [`RcsSource::give_angle`]), so a turntable
+//! slow to answer holds up only the client whose `INITiate` is waiting for it.
 
 use std::io::{BufRead, BufReader, Read, Write};
 use std::net::TcpStream;
@@ -33,6 +35,8 @@ pub struct RcsSource {
     turntable: Option<String>,
     next: usize,
     noise: Noise,
+    /// The turntable's answer, asked for the next sweep before the state was locked.
+    given: Option<anyhow::Result<f64>>,
 }
 
 impl RcsSource {
@@ -53,7 +57,19 @@ impl RcsSource {
             turntable,
             next: 0,
             noise,
+            given: None,
         }
+    }
+
+    /// The turntable whose angle each sweep is measured at, if any.
+    pub fn turntable(&self) -> Option<&str> {
+        self.turntable.as_deref()
+    }
+
+    /// The turntable's answer (asked by the caller, without holding the instrument's
+    /// state) for the next sweep; `None` forgets an answer not used.
+    pub fn give_angle(&mut self, angle: Option<anyhow::Result<f64>>) {
+        self.given = angle;
     }
 
     /// Each measurement its own noise, repeatable from the scene's seed.
@@ -85,11 +101,13 @@ impl RcsSource {
         self.noise = Self::noise_for(&self.scene, self.measurement);
     }
 
-    /// The next sweep: its number since the start and its values.
+    /// The next sweep: its number since the start and its values. Its angle is the one
+    /// given ([`Self::give_angle`]), else the turntable's (asked now), else the scene's next.
     pub fn next_sweep(&mut self) -> anyhow::Result<(u32, Vec<Complex32>)> {
-        let angle_deg = match &self.turntable {
-            Some(addr) => turntable_angle(addr)?,
-            None => self.angles_deg[self.next % self.angles_deg.len()],
+        let angle_deg = match (self.given.take(), &self.turntable) {
+            (Some(given), _) => given?,
+            (None, Some(addr)) => turntable_angle(addr)?,
+            (None, None) => self.angles_deg[self.next % self.angles_deg.len()],
         };
         let v = rcs_simulate::measure(&self.scene, &self.items, angle_deg, &mut self.noise)?;
         let index = self.next as u32;
@@ -103,8 +121,9 @@ impl RcsSource {
     }
 }
 
-/// The turntable's angle now (`WHERE`, one connection per question).
-fn turntable_angle(addr: &str) -> anyhow::Result<f64> {
+/// The turntable's angle now (`WHERE`, one connection per question; an answer within
+/// [`TURNTABLE_TIMEOUT`]).
+pub fn turntable_angle(addr: &str) -> anyhow::Result<f64> {
     let mut s = TcpStream::connect(addr).with_context(|| format!("turntable {addr}"))?;
     s.set_read_timeout(Some(TURNTABLE_TIMEOUT))
         .with_context(|| format!("turntable {addr}"))?;
@@ -152,6 +171,24 @@ mod tests {
         src.restart();
         assert_eq!(src.next_sweep().unwrap().1, first);
         assert_eq!(first.len(), sc.points);
+    }
+
+    #[test]
+    fn a_given_angle_is_used_once_and_then_the_turntable_is_asked() {
+        // A turntable address nobody listens on: asking it fails.
+        let l = std::net::TcpListener::bind("127.0.0.1:0").unwrap();
+        let dead = l.local_addr().unwrap().to_string();
+        drop(l);
+        let m = Measurement::Reference;
+        let mut asked = RcsSource::new(scene(), m, Some(dead.clone()));
+        let mut stepped = RcsSource::new(scene(), m, None);
+        asked.give_angle(Some(Ok(0.0)));
+        // The reference runs stand at 0°: the same sweep, same noise.
+        assert_eq!(asked.next_sweep().unwrap(), stepped.next_sweep().unwrap());
+        let e = format!("{:#}", asked.next_sweep().unwrap_err());
+        assert!(e.contains(&dead), "{e}");
+        asked.give_angle(Some(Err(anyhow::anyhow!("no answer"))));
+        assert!(asked.next_sweep().is_err());
     }
 
     #[test]

@@ -172,6 +172,8 @@ pub enum Origin {
     /// The RCS calibration a recording carries (recording kind 9, `rcs
     /// --calibrated-recording`).
     RcsRecord,
+    /// An RCS calibration file (`rcs --save-calibration`, `acquire --rcs-calibration`).
+    RcsFile,
 }
 
 impl Origin {
@@ -181,6 +183,7 @@ impl Origin {
             Origin::CommandLine => "command line",
             Origin::SettingsFile => "settings file",
             Origin::RcsRecord => "the recording's RCS calibration",
+            Origin::RcsFile => "the RCS calibration file",
         }
     }
 
@@ -190,6 +193,7 @@ impl Origin {
             Origin::CommandLine => format!("--{option}"),
             Origin::SettingsFile => format!("`{}` in the settings file", option.replace('-', "_")),
             Origin::RcsRecord => format!("the {option} of the recording's RCS calibration"),
+            Origin::RcsFile => format!("the {option} of the RCS calibration file"),
         }
     }
 }

@@ -13,6 +13,7 @@ use sweepgate::plan::SPEED_OF_LIGHT_M_S;
 use sweepgate::rcs::Zone;
 
 use crate::formats::files::{check_output_dir, write_set};
+use crate::formats::rcs_calibration;
 use crate::model::rcs_targets::ReferenceTarget;
 use crate::output::colour_map::{colour_map_svg, ColourMap};
 use crate::pipeline::options::{
@@ -64,6 +65,9 @@ pub struct RcsOptions {
     /// Also write a copy of the target's recording carrying the calibration (kind 9), for
     /// `replay` in dBsm.
     pub calibrated_recording: Option<PathBuf>,
+    /// Also write the calibration as a file (`formats::rcs_calibration`), for `acquire
+    /// --rcs-calibration` to show the next scans in dBsm as they run.
+    pub save_calibration: Option<PathBuf>,
 }
 
 fn ns(s: f64) -> f64 {
@@ -146,10 +150,16 @@ pub fn run(opts: &RcsOptions) -> anyhow::Result<Vec<PathBuf>> {
         .collect();
     write_set(&set)?;
     let mut written: Vec<PathBuf> = set.into_iter().map(|(p, _)| p).collect();
-    if let Some(path) = &opts.calibrated_recording {
+    if opts.calibrated_recording.is_some() || opts.save_calibration.is_some() {
         let cal = rcs_mark::calibration(&input, &settings, &result)?;
-        rcs_mark::write(&opts.target, cal, path)?;
-        written.push(path.clone());
+        if let Some(path) = &opts.save_calibration {
+            rcs_calibration::write(path, &cal).context("--save-calibration")?;
+            written.push(path.clone());
+        }
+        if let Some(path) = &opts.calibrated_recording {
+            rcs_mark::write(&opts.target, cal, path)?;
+            written.push(path.clone());
+        }
     }
     Ok(written)
 }

@@ -54,12 +54,14 @@ pub fn calibration(
     result: &RcsResult,
 ) -> anyhow::Result<RcsCalibration> {
     let Some(cfg) = result.gate else {
-        bail!("--calibrated-recording needs a gate (replay gates with it)");
+        bail!("--calibrated-recording and --save-calibration need a gate (replay and acquire gate with it)");
     };
     let backgrounds: Vec<(f64, &[Complex32])> = match &input.background {
         BackgroundInput::One(s) => vec![(0.0, s.as_slice())],
         BackgroundInput::PerAngle(list) => list.iter().map(|(a, s)| (*a, s.as_slice())).collect(),
-        BackgroundInput::Off => bail!("--calibrated-recording needs a background"),
+        BackgroundInput::Off => {
+            bail!("--calibrated-recording and --save-calibration need a background")
+        }
     };
     let refs: Vec<&[Complex32]> = backgrounds.iter().map(|b| b.1).collect();
     let gated = gate_sweeps(&cfg, &refs, None)

@@ -137,7 +137,7 @@ struct ChannelSink {
     tx: Sender<ScreenInput>,
     clients: Option<Clients>,
     web: Option<Hub>,
-    /// An RCS scan: the screen's bins in dBsm (the TCP clients and the browser get the
+    /// An RCS scan: the screen's and the browser's bins in dBsm (the TCP clients get the
     /// plain stream).
     rcs: Option<replay_rcs::Calibrator>,
 }
@@ -150,11 +150,11 @@ impl Sink for ChannelSink {
             Some(c) => c.frames(bytes),
             None => bytes.to_vec(),
         };
-        let _ = self.tx.send(ScreenInput::Bytes(shown));
         if let Some(h) = &self.web {
             // Never waits: a browser that cannot keep up is dropped by the hub.
-            h.publish(bytes);
+            h.publish(&shown);
         }
+        let _ = self.tx.send(ScreenInput::Bytes(shown));
         if let Some(c) = &self.clients {
             if let Ok(mut v) = c.lock() {
                 // Non-blocking: a full socket buffer is an error and drops the viewer.
@@ -190,6 +190,9 @@ pub fn replay_file(opts: &Options) -> anyhow::Result<(Outcome, PathBuf)> {
     if let Some(h) = &opts.web {
         let mut meta = web_feed::meta_of(&s, &format!("replay of {}", opts.rec.display()));
         meta.notes.extend(screen.notes.iter().cloned());
+        if rcs.is_some() {
+            meta.absolute_levels = Some(replay_rcs::web_levels());
+        }
         h.set_meta(meta);
     }
     let clients = match opts.serve {

@@ -3,8 +3,10 @@
 //! and pattern frequencies, and shown in dBsm: each closed bin's values become
 //! factor × (value − background at the nearest angle) before they reach the screen (raw:
 //! the ungated background subtracted; gated: the gated one), the level axis reads
-//! `RCS dBsm`, and the summary gives the RCS per pattern frequency. The report folder and
-//! the `--serve` stream keep the plain |S21| values.
+//! `RCS dBsm`, and the summary gives the RCS per pattern frequency. The browser view
+//! (`--web`) gets the same calibrated bins and draws them in absolute dBsm under
+//! [`WEB_LEVEL_LABEL`]. The report folder and the `--serve` stream keep the plain |S21|
+//! values.
 
 use anyhow::{bail, Context};
 use num_complex::Complex64;
@@ -13,12 +15,45 @@ use sweepgate::Complex32;
 
 use crate::formats::rcs_record::{BackgroundAt, RcsCalibration, RcsNote};
 use crate::formats::recording::Recovered;
-use crate::output::report::ReportInput;
+use crate::output::report::{ReportBin, ReportInput};
 use crate::output::screen::{PreviewDecoder, PREVIEW_F};
 use crate::pipeline::options::{parse_window, Choices, Origin};
+use crate::web::AbsoluteLevels;
 
 /// The level axis' label of an RCS scan.
 pub const LEVEL_LABEL: &str = "RCS dBsm";
+
+/// The browser view's level axis title of an RCS scan.
+pub const WEB_LEVEL_LABEL: &str = "RCS (dBsm)";
+
+/// How the browser view names the levels of an RCS scan: absolute, in dBsm.
+pub fn web_levels() -> AbsoluteLevels {
+    AbsoluteLevels {
+        label: WEB_LEVEL_LABEL.into(),
+        unit: "dBsm".into(),
+    }
+}
+
+/// Checks that a calibration's lists fit its frequencies (one to [`PREVIEW_F`] of them, a
+/// factor each, a background with a value at each).
+pub fn check(c: &RcsCalibration) -> anyhow::Result<()> {
+    let n = c.frequencies_hz.len();
+    let fits = c.factor.len() == n
+        && !c.background.is_empty()
+        && c.background
+            .iter()
+            .all(|b| b.raw.len() == n && b.gated.len() == n);
+    if !fits || n == 0 || n > PREVIEW_F {
+        bail!("its calibration does not fit its {n} frequencies");
+    }
+    if !(c.bin_width_deg.is_finite() && c.bin_width_deg > 0.0) {
+        bail!(
+            "its bin width {} is not a positive number of degrees",
+            c.bin_width_deg
+        );
+    }
+    Ok(())
+}
 
 /// The calibration a recording carries, if any.
 pub fn calibration_of(rec: &Recovered) -> anyhow::Result<Option<RcsCalibration>> {
@@ -26,15 +61,7 @@ pub fn calibration_of(rec: &Recovered) -> anyhow::Result<Option<RcsCalibration>>
         if let Some(note) = RcsNote::from_record(r) {
             let note = note.with_context(|| format!("the RCS record at byte {at}"))?;
             if let Some(c) = note.calibration {
-                let n = c.frequencies_hz.len();
-                let fits = c.factor.len() == n
-                    && !c.background.is_empty()
-                    && c.background
-                        .iter()
-                        .all(|b| b.raw.len() == n && b.gated.len() == n);
-                if !fits || n == 0 || n > PREVIEW_F {
-                    bail!("the RCS record at byte {at}: its calibration does not fit its {n} frequencies");
-                }
+                check(&c).with_context(|| format!("the RCS record at byte {at}"))?;
                 return Ok(Some(c));
             }
         }
@@ -45,17 +72,31 @@ pub fn calibration_of(rec: &Recovered) -> anyhow::Result<Option<RcsCalibration>>
 /// Takes the gate, bins and frequencies from the calibration; refuses choices of the user's
 /// that would make it wrong.
 pub fn fill(choices: &mut Choices, cal: &RcsCalibration) -> anyhow::Result<()> {
+    fill_from(choices, cal, Origin::RcsRecord)
+}
+
+/// [`fill`] for a calibration that came from `origin` (a recording's kind 9 record, or a
+/// calibration file).
+pub fn fill_from(
+    choices: &mut Choices,
+    cal: &RcsCalibration,
+    origin: Origin,
+) -> anyhow::Result<()> {
     let given = choices.center_ns.is_some()
         || choices.span_ns.is_some()
         || choices.band_window.is_some()
         || choices.gate_shape.is_some()
         || choices.frequencies_hz.is_some();
     if given {
-        bail!("the recording carries an RCS calibration made with its own gate and frequencies: leave out --gate-center-ns, --gate-span-ns, --band-window, --gate-shape and --frequencies-hz");
+        let whose = match origin {
+            Origin::RcsFile => "the RCS calibration file was made",
+            _ => "the recording carries an RCS calibration made",
+        };
+        bail!("{whose} with its own gate and frequencies: leave out --gate-center-ns, --gate-span-ns, --band-window, --gate-shape and --frequencies-hz");
     }
     let window = |t: &str| parse_window(t).map_err(anyhow::Error::msg);
-    choices.center_ns = Some((cal.gate_center_ns, Origin::RcsRecord));
-    choices.span_ns = Some((cal.gate_span_ns, Origin::RcsRecord));
+    choices.center_ns = Some((cal.gate_center_ns, origin));
+    choices.span_ns = Some((cal.gate_span_ns, origin));
     choices.band_window = Some(window(&cal.band_window).context("its band window")?);
     choices.gate_shape = Some(window(&cal.gate_shape).context("its gate shape")?);
     choices.frequencies_hz = Some(cal.frequencies_hz.clone());
@@ -136,10 +177,15 @@ impl Calibrator {
 /// RCS per pattern frequency over the replayed bins: the highest and its angle, and the
 /// mean power, in dBsm.
 pub fn summary_lines(report: &ReportInput, cal: &RcsCalibration) -> Vec<String> {
+    summary_of(&report.frequencies_hz, &report.bins, cal)
+}
+
+/// [`summary_lines`] of `bins` at `frequencies_hz` (an acquisition's live bins).
+pub fn summary_of(frequencies_hz: &[f64], bins: &[ReportBin], cal: &RcsCalibration) -> Vec<String> {
     let mut lines = Vec::new();
-    for (j, f) in report.frequencies_hz.iter().enumerate() {
+    for (j, f) in frequencies_hz.iter().enumerate() {
         let mut rows: Vec<(f64, f64)> = Vec::new();
-        for b in &report.bins {
+        for b in bins {
             if let Some(v) = b.values.get(j) {
                 let bg = nearest(cal, b.angle_deg);
                 let a = calibrated(cal.factor[j], v.gated, bg.gated[j]);

@@ -19,6 +19,7 @@ pub fn meta_of(s: &Setup, source: &str) -> Meta {
         notes: s.remarks.clone(),
         grid_start_hz: Some(s.grid.frequency_hz(0)),
         grid_step_hz: Some(s.grid.frequency_hz(1) - s.grid.frequency_hz(0)),
+        absolute_levels: None,
     }
 }
 

@@ -66,6 +66,19 @@ pub struct Meta {
     pub grid_start_hz: Option<f64>,
     /// Step of that grid, Hz.
     pub grid_step_hz: Option<f64>,
+    /// `Some`: the bins carry absolute levels (an RCS scan: calibrated amplitudes in m, so
+    /// that 20·log10 of them is dBsm), drawn and read out in that unit; `None`: |S21|, each
+    /// trace drawn in dB below its own peak.
+    pub absolute_levels: Option<AbsoluteLevels>,
+}
+
+/// How the page names absolute levels.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct AbsoluteLevels {
+    /// The level axis' title, e.g. `RCS (dBsm)`.
+    pub label: String,
+    /// The unit after each level, e.g. `dBsm`.
+    pub unit: String,
 }
 
 /// Counts of the hub's own work.

@@ -13,7 +13,7 @@
 pub mod hub;
 pub mod server;
 
-pub use hub::{Ended, Hub, Limits, Meta};
+pub use hub::{AbsoluteLevels, Ended, Hub, Limits, Meta};
 pub use server::{exposure_warning, parse_addr, WebServer};
 
 /// Binds the web view at `spec` (`PORT` on 127.0.0.1, or `ADDR:PORT`) for a hub with these

@@ -46,6 +46,22 @@ function wrapDeg(a) { return ((a + 180) % 360 + 360) % 360 - 180; }
 function fmt(x, d) { return x === null || x === undefined || !isFinite(x) ? "–" : x.toFixed(d); }
 function ghz(hz) { return (hz / 1e9).toFixed(3) + " GHz"; }
 
+// An RCS scan (meta.absolute_levels): the bins carry calibrated amplitudes, so their dB are
+// absolute (dBsm) and are drawn and read out so; otherwise each trace in dB below its peak.
+function absolute() { return view.meta.absolute_levels || null; }
+function unit() { const a = absolute(); return a ? a.unit : "dB"; }
+
+// The level scale of the plots: `base(peak)` is the level drawn at the outer ring / top
+// line (each trace's own peak, or one top for all traces in absolute levels), `tick(lv)`
+// names the level `lv` below it.
+function levelScale(P) {
+  const a = absolute();
+  if (!a) return { base: (peak) => peak, tick: (lv) => lv + " dB", top: 0 };
+  const peaks = [P.peakRaw, P.peakGated].filter((x) => isFinite(x));
+  const top = peaks.length ? 10 * Math.ceil(Math.max(...peaks) / 10) : 0;
+  return { base: () => top, tick: (lv) => (top + lv) + " " + a.unit, top };
+}
+
 // ------------------------------------------------------------------ events
 
 function applySnapshot(s) {
@@ -211,7 +227,7 @@ function ctxOf(id) {
 function shown(key) { return $("show-" + key).checked; }
 function rangeDb() { return Number($("range").value); }
 
-function drawPolar(P, T, mk) {
+function drawPolar(P, T, mk, S) {
   const { g, w, h } = ctxOf("polar");
   const cx = w / 2, cy = h / 2, R = Math.min(w, h) / 2 - 28, range = rangeDb();
   const rad = (lv) => R * Math.max(0, 1 + lv / range);
@@ -219,7 +235,7 @@ function drawPolar(P, T, mk) {
   g.strokeStyle = COLOURS.grid; g.fillStyle = COLOURS.text; g.lineWidth = 1;
   for (let lv = 0; lv >= -range; lv -= 10) {
     g.beginPath(); g.arc(cx, cy, rad(lv), 0, 2 * Math.PI); g.stroke();
-    g.fillText(lv + " dB", cx + 3, cy - rad(lv) + 12);
+    g.fillText(S.tick(lv), cx + 3, cy - rad(lv) + 12);
   }
   for (let a = -150; a <= 180; a += 30) {
     const [x, y] = xy(a, R);
@@ -234,7 +250,7 @@ function drawPolar(P, T, mk) {
     let started = false;
     for (const p of pts) {
       if (p[key] === null) continue;
-      const [x, y] = xy(p.deg, rad(p[key] - peak));
+      const [x, y] = xy(p.deg, rad(p[key] - S.base(peak)));
       if (started) g.lineTo(x, y); else { g.moveTo(x, y); started = true; }
     }
     if (pts.length === (view.meta.total_bins || -1)) g.closePath();
@@ -249,14 +265,14 @@ function drawPolar(P, T, mk) {
     const [x, y] = xy(c, R); g.beginPath(); g.moveTo(cx, cy); g.lineTo(x, y); g.stroke(); g.setLineDash([]);
   }
   if (mk) {
-    const [x, y] = xy(mk.peakDeg, rad(0));
+    const [x, y] = xy(mk.peakDeg, rad(mk.peakDb - S.base(mk.peakDb)));
     g.fillStyle = COLOURS.gated; g.beginPath(); g.moveTo(x, y - 8); g.lineTo(x - 5, y - 16); g.lineTo(x + 5, y - 16); g.fill();
   }
 }
 
-function rectFrame(w, h) { return { x0: 56, x1: w - 12, y0: 12, y1: h - 40 }; }
+function rectFrame(w, h) { return { x0: absolute() ? 84 : 56, x1: w - 12, y0: 12, y1: h - 40 }; }
 
-function drawRect(P, T, mk) {
+function drawRect(P, T, mk, S) {
   const { g, w, h } = ctxOf("rect");
   const f = rectFrame(w, h), range = rangeDb();
   const X = (deg) => f.x0 + (deg + 180) / 360 * (f.x1 - f.x0);
@@ -265,7 +281,11 @@ function drawRect(P, T, mk) {
   g.textAlign = "right";
   for (let lv = 0; lv >= -range; lv -= 10) {
     g.beginPath(); g.moveTo(f.x0, Y(lv)); g.lineTo(f.x1, Y(lv)); g.stroke();
-    g.fillText(lv + " dB", f.x0 - 6, Y(lv) + 4);
+    g.fillText(S.tick(lv), f.x0 - 6, Y(lv) + 4);
+  }
+  if (absolute()) {
+    g.save(); g.translate(14, (f.y0 + f.y1) / 2); g.rotate(-Math.PI / 2);
+    g.textAlign = "center"; g.fillText(absolute().label, 0, 0); g.restore();
   }
   g.textAlign = "center";
   for (let a = -180; a <= 180; a += 45) {
@@ -279,7 +299,7 @@ function drawRect(P, T, mk) {
     let prev = null;
     for (const p of pts) {
       if (p[key] === null) { prev = null; continue; }
-      const x = X(p.deg), y = Y(p[key] - peak);
+      const x = X(p.deg), y = Y(p[key] - S.base(peak));
       if (prev !== null && p.deg - prev <= 10) g.lineTo(x, y); else g.moveTo(x, y);
       prev = p.deg;
     }
@@ -296,7 +316,8 @@ function drawRect(P, T, mk) {
     g.strokeStyle = COLOURS.gated; g.setLineDash([2, 3]);
     for (const a of [mk.left, mk.right]) if (a !== null) { g.beginPath(); g.moveTo(X(a), f.y0); g.lineTo(X(a), f.y1); g.stroke(); }
     g.setLineDash([]);
-    g.beginPath(); g.moveTo(f.x0, Y(-3)); g.lineTo(f.x1, Y(-3)); g.stroke();
+    const y3 = Y(mk.peakDb - 3 - S.base(mk.peakDb));
+    g.beginPath(); g.moveTo(f.x0, y3); g.lineTo(f.x1, y3); g.stroke();
   }
   const c = cursorDeg();
   if (c !== null) { g.strokeStyle = COLOURS.cursor; g.beginPath(); g.moveTo(X(c), f.y0); g.lineTo(X(c), f.y1); g.stroke(); }
@@ -389,17 +410,21 @@ function rows(id, list) {
 }
 
 function drawPanels(P, mk, mkRaw) {
-  const c = cursorDeg(), near = c === null ? null : nearest(P.pts, c);
+  const c = cursorDeg(), near = c === null ? null : nearest(P.pts, c), u = unit();
+  const cursorRows = absolute()
+    ? [["cursor, gated", near ? `${fmt(near.gated, 2)} ${u}` : "–"],
+      ["cursor, raw", near ? `${fmt(near.raw, 2)} ${u}` : "–"]]
+    : [["cursor, gated re peak", near ? `${fmt(near.gated - P.peakGated, 2)} dB` : "–"],
+      ["cursor, raw re peak", near ? `${fmt(near.raw - P.peakRaw, 2)} dB` : "–"]];
   rows("marker-table", [
     ["frequency", frequencyName(view.selected)],
-    ["peak, gated", mk ? `${fmt(mk.peakDb, 2)} dB at ${fmt(mk.peakDeg, 1)}°` : "–"],
+    ["peak, gated", mk ? `${fmt(mk.peakDb, 2)} ${u} at ${fmt(mk.peakDeg, 1)}°` : "–"],
     ["−3 dB points, gated", mk ? `${fmt(mk.left, 1)}° … ${fmt(mk.right, 1)}°` : "–"],
     ["−3 dB width, gated", mk ? `${fmt(mk.width, 1)}°` : "–"],
-    ["peak, raw", mkRaw ? `${fmt(mkRaw.peakDb, 2)} dB at ${fmt(mkRaw.peakDeg, 1)}°` : "–"],
+    ["peak, raw", mkRaw ? `${fmt(mkRaw.peakDb, 2)} ${u} at ${fmt(mkRaw.peakDeg, 1)}°` : "–"],
     ["−3 dB width, raw", mkRaw ? `${fmt(mkRaw.width, 1)}°` : "–"],
     ["cursor" + (view.heldDeg !== null ? " (held)" : ""), near ? `${fmt(near.deg, 1)}° (bin ${near.bin})` : "–"],
-    ["cursor, gated re peak", near ? `${fmt(near.gated - P.peakGated, 2)} dB` : "–"],
-    ["cursor, raw re peak", near ? `${fmt(near.raw - P.peakRaw, 2)} dB` : "–"],
+    ...cursorRows,
   ]);
   const st = view.status, total = view.meta.total_bins;
   const filled = view.bins.size;
@@ -489,18 +514,28 @@ function redraw() {
     fillFrequencies();
     $("title").textContent = view.meta.title;
     $("source").textContent = view.meta.source;
-    const P = patternPoints(), T = truthPoints();
+    // The truth column of |S21| reports is relative: not drawn over absolute levels.
+    const P = patternPoints(), T = absolute() ? null : truthPoints(), S = levelScale(P);
     const mk = markers(P.pts, "gated", P.peakGated), mkRaw = markers(P.pts, "raw", P.peakRaw);
-    drawPolar(P, T, mk);
-    drawRect(P, T, mk);
+    captions();
+    drawPolar(P, T, mk, S);
+    drawRect(P, T, mk, S);
     drawMap();
     drawPanels(P, mk, mkRaw);
     window.sweepgateView.binsDrawn = P.pts.length;
+    window.sweepgateView.levelLabel = absolute() ? absolute().label : "dB re each trace's peak";
     window.sweepgateView.draws++;
     $("bins-drawn").textContent = String(P.pts.length);
     $("records").textContent = String(view.records);
   }
   requestAnimationFrame(redraw);
+}
+
+// The plots' captions name what the levels are.
+function captions() {
+  const what = absolute() ? absolute().label : "dB re each trace's peak";
+  $("polar-caption").textContent = "polar, " + what;
+  $("rect-caption").textContent = "rectangular, " + what;
 }
 
 function rectDeg(ev) {
