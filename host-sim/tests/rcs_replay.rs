@@ -194,5 +194,8 @@ fn the_screen_shows_each_bin_in_dbsm() {
         .map(|(x, y)| buf[(x, y)].symbol().to_string())
         .collect();
     assert!(text.contains("RCS dBsm at"), "{text}");
+    // The peak readout is the calibrated level, in dBsm (the plot itself is relative).
+    let peak = pts.iter().map(|p| p.2).fold(f64::NEG_INFINITY, f64::max);
+    assert!(text.contains(&format!("{peak:.1} dBsm at")), "{text}");
     assert!(!text.contains("|S21| dB at"), "{text}");
 }

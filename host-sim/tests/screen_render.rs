@@ -191,7 +191,10 @@ fn check_size(w: u16, h: u16) {
     );
     screen.key(ratatui::crossterm::event::KeyCode::Char(']'));
     let cells = render(&screen, w, h);
-    for needle in ["cursor       1.5 deg", "  level      -0.0 gated, -0.0 raw"] {
+    for needle in [
+        "cursor       1.5 deg",
+        "  level      -0.0 dB gated, -0.0 raw",
+    ] {
         assert!(
             text(&cells).contains(needle),
             "{needle:?} in\n{}",

@@ -91,7 +91,8 @@ pub struct Screen {
     /// The cursor's angle, deg (`None`: no cursor).
     pub cursor_deg: Option<f64>,
     /// What the levels are, named under the plot (`None`: |S21|, not named; an RCS scan:
-    /// `RCS dBsm`).
+    /// `RCS dBsm`, whose bins hold calibrated levels: the plot stays in dB below its peak,
+    /// the readouts of the peak and the cursor are in dBsm).
     pub level_label: Option<String>,
     decoder: PreviewDecoder,
     first_status: Option<(u64, u32)>,
@@ -451,7 +452,7 @@ fn draw_pattern(frame: &mut Frame, area: Rect, screen: &Screen, freq_text: &str)
                 .borders(Borders::ALL)
                 .title(legend_title(freq_text))
                 .title_bottom(match screen.level_label.as_deref() {
-                    Some(l) => format!("{l} at {freq_text}: dB below peak, deg"),
+                    Some(l) => format!("{l} at {freq_text}: plotted in dB below its peak, deg"),
                     None => "dB below peak, deg".to_string(),
                 }),
         )
@@ -521,11 +522,17 @@ fn draw_polar(frame: &mut Frame, area: Rect, screen: &Screen, freq_text: &str) {
 /// The markers of the shown frequency: the gated peak, its −3 dB points and width, the
 /// cursor's bin.
 fn marker_lines(screen: &Screen) -> Vec<Line<'static>> {
+    // The bins of an RCS scan hold calibrated levels: their readouts are absolute.
+    let unit = if screen.level_label.is_some() {
+        "dBsm"
+    } else {
+        "dB"
+    };
     let mut lines = Vec::new();
     match screen.gated_markers() {
         Some(m) => {
             lines.push(Line::from(format!(
-                "peak         {:.1} dB at {:.1} deg",
+                "peak         {:.1} {unit} at {:.1} deg",
                 m.peak_db, m.peak_deg
             )));
             let a = |x: Option<f64>| x.map_or("-".into(), |v| format!("{v:.1}"));
@@ -542,7 +549,7 @@ fn marker_lines(screen: &Screen) -> Vec<Line<'static>> {
         let magenta = Style::default().fg(Color::Magenta);
         lines.push(Line::styled(format!("cursor       {deg:.1} deg"), magenta));
         lines.push(Line::styled(
-            format!("  level      {gated:.1} gated, {raw:.1} raw"),
+            format!("  level      {gated:.1} {unit} gated, {raw:.1} raw"),
             magenta,
         ));
     }
