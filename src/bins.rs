@@ -501,9 +501,7 @@ impl<const M: usize, const B: usize> Bins<M, B> {
         if self.first_direction == Direction::Still {
             self.first_direction = sweep.direction;
         }
-        for (s, p) in self.sum.iter_mut().zip(points.iter()) {
-            *s += *p;
-        }
+        crate::loops::add(&mut self.sum, points);
         let offset = self.layout.offset_deg(index, sweep.mid_deg);
         if let Some(o) = self.open.as_mut() {
             o.count = o.count.saturating_add(1);

@@ -29,6 +29,7 @@
 use crate::error::GateError;
 use crate::fft::{Fft, Microfft, Transform};
 use crate::grid::Grid;
+use crate::loops;
 use crate::window::{cos_sin_turns, WindowKind};
 use crate::Complex32;
 
@@ -153,6 +154,9 @@ where
 {
     cfg: GateConfig,
     points: usize,
+    /// Half the band window's null-to-null main lobe, in impulse-response samples (for
+    /// [`Gate::check`]), worked out once at set-up.
+    half_lobe: usize,
     band: [f32; M],
     gate: [f32; M],
     kernel: [Complex32; M],
@@ -222,6 +226,7 @@ where
         Self {
             cfg: GateConfig::UNSET,
             points: 0,
+            half_lobe: 0,
             band: [0.0; M],
             gate: [0.0; M],
             kernel: [ZERO; M],
@@ -237,6 +242,7 @@ where
         let built = self.build();
         if built.is_err() {
             self.points = 0;
+            self.half_lobe = 0;
         }
         built
     }
@@ -257,6 +263,9 @@ where
             return Err(GateError::SpanBelowTimeStep);
         }
         self.points = points;
+        // Half the band window's null-to-null main lobe, in samples: w·M/(K − 1) / 2.
+        let k1 = points.saturating_sub(1).max(1) as f64;
+        self.half_lobe = (0.5 * cfg.band_window.mainlobe_width() * M as f64 / k1) as usize;
         let g = self;
         // Every table is written whole: the gate may have held another configuration.
         cfg.band_window.fill(&mut g.band[..points]);
@@ -383,9 +392,7 @@ where
                 (in_i, in_e) = (m, e);
             }
         }
-        // Half the band window's null-to-null main lobe, in samples: w·M/(K − 1) / 2.
-        let k1 = self.points.saturating_sub(1).max(1) as f64;
-        let half_lobe = (0.5 * self.cfg.band_window.mainlobe_width() * M as f64 / k1) as usize;
+        let half_lobe = self.half_lobe;
         let floor = in_e * libm::powf(10.0, 0.1 * ECHO_IN_GATE_THRESHOLD_DB);
         let mut echo_in_gate = false;
         for (m, &g) in self.gate.iter().enumerate() {
@@ -507,27 +514,13 @@ where
     /// Step 3 with the echo level: time gate in place, energy outside the gate over the
     /// total, in dB.
     fn gate_and_measure(&self, buf: &mut [Complex32; M]) -> f32 {
-        let (mut outside, mut total) = (0.0f32, 0.0f32);
-        for (h, &g) in buf.iter_mut().zip(self.gate.iter()) {
-            let e = h.norm_sqr();
-            total += e;
-            if g == 0.0 {
-                outside += e;
-            }
-            *h *= g;
-        }
+        let (outside, total) = loops::gate_and_measure(buf, &self.gate);
         echo_db(outside, total)
     }
 
     /// Step 5 in place: renormalization of `buf[..K]`, zeros beyond.
     fn renormalize(&self, buf: &mut [Complex32; M]) {
-        for (k, o) in buf.iter_mut().enumerate() {
-            *o = if k < self.points {
-                *o * self.inv_renorm[k]
-            } else {
-                ZERO
-            };
-        }
+        loops::renormalize(buf, &self.inv_renorm, self.points);
     }
 
     /// Kernel-path set-up for `F` pattern frequencies given as grid indices (each below K).
@@ -568,11 +561,7 @@ where
     /// `scale` is free to fold in, say, the 1/count of an average of sweeps.
     pub fn window(&self, buf: &mut [Complex32; M], scale: f32) {
         let (head, tail) = buf.split_at_mut(self.points.min(M));
-        for (v, &w) in head.iter_mut().zip(self.band.iter()) {
-            let s = w * scale;
-            v.re *= s;
-            v.im *= s;
-        }
+        loops::window(head, &self.band, scale);
         tail.fill(ZERO);
     }
 
@@ -660,7 +649,8 @@ fn sorted_cuts<const F: usize>(mut cuts: [usize; F]) -> [usize; F] {
 }
 
 /// One piece of the sweep (between two cuts) into the F sums: four frequencies at a time
-/// (their sums fill half the FPU's registers), then two, then one.
+/// (four points a step: their sums and the four points take half the FPU's registers),
+/// then two, then one.
 #[inline(always)]
 fn accumulate_piece<const F: usize, const WINDOW: bool>(
     xs: &[Complex32],
@@ -672,85 +662,21 @@ fn accumulate_piece<const F: usize, const WINDOW: bool>(
     while f + 4 <= F {
         let r = [runs[f], runs[f + 1], runs[f + 2], runs[f + 3]];
         let mut a = [acc[f], acc[f + 1], acc[f + 2], acc[f + 3]];
-        dots_run::<4, WINDOW>(xs, ws, &r, &mut a);
+        loops::dots_4(xs, ws, &r, &mut a, WINDOW);
         acc[f..f + 4].copy_from_slice(&a);
         f += 4;
     }
     if f + 2 <= F {
         let mut a = [acc[f], acc[f + 1]];
-        dots_run::<2, WINDOW>(xs, ws, &[runs[f], runs[f + 1]], &mut a);
+        loops::dots_2(xs, ws, &[runs[f], runs[f + 1]], &mut a, WINDOW);
         acc[f..f + 2].copy_from_slice(&a);
         f += 2;
     }
     if f < F {
         let mut a = [acc[f]];
-        dots_run::<1, WINDOW>(xs, ws, &[runs[f]], &mut a);
+        loops::dots_1(xs, ws, runs[f], &mut a[0], WINDOW);
         acc[f] = a[0];
     }
-}
-
-/// Adds Σ x[n]·g_f[n] into `acc[f]` for every f over one run (`runs[f]` as long as `xs`;
-/// with `WINDOW`, x[n]·w[n] in place of x[n]). Each product is accumulated on its own
-/// (re += xr·gr, re −= xi·gi, im += xr·gi, im += xi·gr): one multiply-accumulate each.
-/// Kept out of line so that its loop gets the registers to itself.
-#[inline(never)]
-fn dots_run<const F: usize, const WINDOW: bool>(
-    xs: &[Complex32],
-    ws: &[f32],
-    runs: &[&[Complex32]; F],
-    acc: &mut [[f32; 2]; F],
-) {
-    let n = xs.len();
-    if runs.iter().any(|r| r.len() < n) || ws.len() < n {
-        return;
-    }
-    // Every run cut to exactly n (checked just above), so that no index below is checked
-    // again inside the loop.
-    let runs: [&[Complex32]; F] = core::array::from_fn(|f| &runs[f][..n]);
-    let ws = &ws[..n];
-    let mut a = *acc;
-    // Several frequencies: two points a step, one pointer update per run for both (one
-    // frequency: the compiler unrolls the plain loop further by itself). Everything is cut
-    // to an even length first, so that no index in the loop needs checking.
-    let even = if F == 1 { 0 } else { n - n % 2 };
-    let (xs2, runs2, ws2) = (
-        &xs[..even],
-        core::array::from_fn::<_, F, _>(|f| &runs[f][..even]),
-        &ws[..even],
-    );
-    for j in 0..even / 2 {
-        for i in [2 * j, 2 * j + 1] {
-            let (mut xr, mut xi) = (xs2[i].re, xs2[i].im);
-            if WINDOW {
-                xr *= ws2[i];
-                xi *= ws2[i];
-            }
-            for f in 0..F {
-                let g = runs2[f][i];
-                let [re, im] = &mut a[f];
-                *re += xr * g.re;
-                *re -= xi * g.im;
-                *im += xr * g.im;
-                *im += xi * g.re;
-            }
-        }
-    }
-    for i in even..n {
-        let (mut xr, mut xi) = (xs[i].re, xs[i].im);
-        if WINDOW {
-            xr *= ws[i];
-            xi *= ws[i];
-        }
-        for f in 0..F {
-            let g = runs[f][i];
-            let [re, im] = &mut a[f];
-            *re += xr * g.re;
-            *re -= xi * g.im;
-            *im += xr * g.im;
-            *im += xi * g.re;
-        }
-    }
-    *acc = a;
 }
 
 /// Steps 1–2 in place: band window over `buf[..points]`, zeros beyond, inverse FFT.

@@ -15,6 +15,7 @@ pub mod error;
 pub mod fft;
 pub mod gate;
 pub mod grid;
+mod loops;
 pub mod metrics;
 pub mod plan;
 pub mod pump;

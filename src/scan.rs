@@ -806,10 +806,7 @@ where
         if points.len() != self.gate.points() {
             return Err(SweepReject::WrongPointCount);
         }
-        if points
-            .iter()
-            .any(|p| !(p.re.is_finite() && p.im.is_finite()))
-        {
+        if !crate::loops::all_finite(points) {
             return Err(SweepReject::NonFinite);
         }
         if end_us < start_us {

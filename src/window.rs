@@ -157,29 +157,48 @@ impl WindowKind {
     }
 
     /// First minimum of |W(ν)| for ν > 0 (ν in cycles per window length), by evaluating
-    /// the continuous transform on a fine grid. Set-up only.
+    /// the transform of the window sampled at 256 mid-points on a grid of ν in steps of
+    /// 0.005. Set-up only.
+    ///
+    /// Worked in f32 with the window's [`Shape`] and our own cosine ([`cos_sin_turns`]),
+    /// so that a board without double-precision hardware keeps the f64 sine and cosine out
+    /// of its flash. The window is symmetric about x = 1/2 and so are the sample points, so
+    /// |W(ν)| = |Σ w(xₙ)·cos(2πν(xₙ − 1/2))|: a real sum over half the points, doubled.
+    /// Gives the same ν as the f64 complex sum (`first_null_f64` in the tests, checked for
+    /// α from 0 to 1 in steps of 0.001).
     fn first_null(&self) -> f64 {
         const SAMPLES: usize = 256;
+        const HALF: usize = SAMPLES / 2;
+        let shape = self.shape();
+        // Distances from the centre in turns per cycle, (n + 1/2)/256 − 1/2 for the upper
+        // half (exact in f32), and the window there.
+        let mut w = [0.0f32; HALF];
+        for (i, v) in w.iter_mut().enumerate() {
+            let x = (HALF + i) as f32 + 0.5;
+            *v = shape.at(x / SAMPLES as f32, (SAMPLES as f32 - x) / SAMPLES as f32);
+        }
         let mag = |nu: f64| {
-            let (mut re, mut im) = (0.0, 0.0);
-            for n in 0..SAMPLES {
-                let x = (n as f64 + 0.5) / SAMPLES as f64;
-                let w = self.at(x);
-                re += w * libm::cos(2.0 * PI * nu * x);
-                im -= w * libm::sin(2.0 * PI * nu * x);
+            let mut sum = 0.0f32;
+            for (i, &wi) in w.iter().enumerate() {
+                // ν·d turns, d = (i + 1/2)/256: wrapped to a 32-bit fraction of a turn.
+                let turns = nu * (i as f64 + 0.5) / SAMPLES as f64;
+                let frac = turns - libm::floor(turns);
+                let (cos, _) = cos_sin_turns((frac * 4_294_967_296.0) as u64 as u32);
+                sum += wi * cos;
             }
-            libm::sqrt(re * re + im * im)
+            2.0 * sum.abs()
         };
         let step = 0.005;
         let mut prev = mag(0.0);
         let mut nu = step;
+        let mut m = mag(nu);
         while nu < 8.0 {
-            let m = mag(nu);
             let next = mag(nu + step);
             if m <= prev && m <= next {
                 return nu;
             }
             prev = m;
+            m = next;
             nu += step;
         }
         8.0
@@ -379,6 +398,55 @@ mod tests {
         assert!((w(0.0) - 2.0).abs() < 1e-12);
         assert!((w(6.0) - 4.31).abs() < 0.005);
         assert!((w(9.0) - 6.07).abs() < 0.005);
+    }
+
+    /// The first null as it was computed before, in f64: the complex transform of the
+    /// window by [`WindowKind::at`] with libm's f64 sine and cosine (common practice, no
+    /// source).
+    fn first_null_f64(kind: WindowKind) -> f64 {
+        const SAMPLES: usize = 256;
+        let mag = |nu: f64| {
+            let (mut re, mut im) = (0.0, 0.0);
+            for n in 0..SAMPLES {
+                let x = (n as f64 + 0.5) / SAMPLES as f64;
+                let w = kind.at(x);
+                re += w * libm::cos(2.0 * PI * nu * x);
+                im -= w * libm::sin(2.0 * PI * nu * x);
+            }
+            libm::sqrt(re * re + im * im)
+        };
+        let step = 0.005;
+        let mut prev = mag(0.0);
+        let mut nu = step;
+        while nu < 8.0 {
+            let m = mag(nu);
+            let next = mag(nu + step);
+            if m <= prev && m <= next {
+                return nu;
+            }
+            prev = m;
+            nu += step;
+        }
+        8.0
+    }
+
+    #[test]
+    fn f32_first_null_equals_the_f64_one() {
+        for i in 0..=1000 {
+            let kind = WindowKind::Tukey {
+                alpha: i as f32 / 1000.0,
+            };
+            assert_eq!(kind.first_null(), first_null_f64(kind), "{kind:?}");
+        }
+        for kind in [
+            WindowKind::Rectangular,
+            WindowKind::Hann,
+            WindowKind::Hamming,
+            WindowKind::BlackmanHarris,
+            WindowKind::Kaiser { beta: 6.0 },
+        ] {
+            assert_eq!(kind.first_null(), first_null_f64(kind), "{kind:?}");
+        }
     }
 
     #[test]

@@ -103,6 +103,12 @@ fn real32_words<const BIG_ENDIAN: bool>(b: &[u8; 8]) -> (u32, u32) {
 /// together (see [`all_usable`]); `None`, with nothing written, if `src` is too short.
 #[inline(never)]
 fn real32_copy<const BIG_ENDIAN: bool>(src: &[u8], dst: &mut [Complex32]) -> Option<u32> {
+    real32_copy_here::<BIG_ENDIAN>(src, dst)
+}
+
+/// [`real32_copy`] inlined where it is called (the fast path of a chunk saves the call).
+#[inline(always)]
+fn real32_copy_here<const BIG_ENDIAN: bool>(src: &[u8], dst: &mut [Complex32]) -> Option<u32> {
     let mut any = 0u32;
     let src = src.get(..8 * dst.len())?;
     for (o, b) in dst.iter_mut().zip(src.chunks_exact(8)) {
@@ -481,23 +487,40 @@ impl BlockDecoder {
 
     /// Decode from `chunk` into `out`; stops early at the first event.
     pub fn feed(&mut self, chunk: &[u8], out: &mut [Complex32]) -> Feed<BlockError> {
-        self.feed_with(chunk, out, true)
+        // The REAL,32 fast path first; the general path is a function of its own, so that
+        // the common chunk (all payload) pays for none of its registers and set-up.
+        let pos = match self.real32_run(chunk, out) {
+            Some((consumed, event)) if event.is_some() || consumed == chunk.len() => {
+                return Feed { consumed, event }
+            }
+            Some((consumed, _)) => consumed,
+            None => 0,
+        };
+        self.feed_from(chunk, out, pos, true)
     }
 
     /// [`BlockDecoder::feed`], with or without the fast path for the payload of a definite
     /// block (`fast`); the byte-by-byte path alone is the reference the tests hold the fast
     /// path to.
-    #[inline(always)]
+    #[cfg(test)]
     fn feed_with(&mut self, chunk: &[u8], out: &mut [Complex32], fast: bool) -> Feed<BlockError> {
-        let mut pos = 0usize;
         if fast {
-            if let Some((consumed, event)) = self.real32_run(chunk, out) {
-                if event.is_some() || consumed == chunk.len() {
-                    return Feed { consumed, event };
-                }
-                pos = consumed;
-            }
+            self.feed(chunk, out)
+        } else {
+            self.feed_from(chunk, out, 0, false)
         }
+    }
+
+    /// The rest of [`BlockDecoder::feed`] from `chunk[pos..]`, with or without the fast
+    /// path for the payload of a definite block (`fast`).
+    #[inline(never)]
+    fn feed_from(
+        &mut self,
+        chunk: &[u8],
+        out: &mut [Complex32],
+        mut pos: usize,
+        fast: bool,
+    ) -> Feed<BlockError> {
         while let Some(rest) = chunk.get(pos..).filter(|r| !r.is_empty()) {
             if let State::Skip { left } = self.state {
                 // Bulk skip: constant work whatever the count.
@@ -631,7 +654,7 @@ impl BlockDecoder {
             *slot = Complex32::new(f32::from_bits(re), f32::from_bits(im));
             (chunk.get(8 - fill..)?, dst)
         };
-        any |= real32_copy::<BIG_ENDIAN>(body, dst)?;
+        any |= real32_copy_here::<BIG_ENDIAN>(body, dst)?;
         let written = out.get(index as usize..index as usize + samples)?;
         if !all_usable(any, written) {
             // An unusable value: the general path decodes the chunk again and reports it.

@@ -9,7 +9,7 @@
 //! compares with the same loop's output on the host. The capture is then replayed a second
 //! time with the other echo setting, to count both gating paths.
 //!
-//! The pump lives in a `static` (`cortex_m::singleton!`), built in place by
+//! The pump lives in a `static` (`sweepgate_firmware_places`), built in place by
 //! `Pump::configure`: the stack never holds a copy of the engine.
 //!
 //! Instruction counts: with QEMU's
@@ -24,7 +24,8 @@
 //! 64, 64, 1>` (in a `static` too) into `cuts-preview.bin`, which `capture compare-cuts`
 //! compares with the host's replay.
 //!
-//! Only integers are printed: core float formatting would add ~12 KB of flash.
+//! Only text and integers are printed, by the firmware's own small printer (`say`): core
+//! formatting would add several KiB of flash, its float formatting ~12 KB.
 #![no_std]
 #![no_main]
 
@@ -32,10 +33,9 @@
 use core::f64::consts::PI;
 use cortex_m::peripheral::{syst::SystClkSource, SYST};
 use cortex_m_rt::entry;
-use cortex_m_semihosting::{debug, hprintln};
-use panic_semihosting as _;
+use cortex_m_semihosting::debug;
 use sweepgate::error::{CaptureError, PumpError, ReplayError};
-use sweepgate::pump::{Meter, Pump, Step};
+use sweepgate::pump::{Meter, Step};
 use sweepgate::scan::EchoMode;
 #[cfg(feature = "gate-figures")]
 use sweepgate::scan::IMPULSE_EVERY_DEFAULT;
@@ -56,7 +56,10 @@ use sweepgate::{
     window::WindowKind,
     wire::block::{emit, BlockConfig, BlockDecoder, ByteOrder, DecodeEvent as BlockEvent, Format},
 };
+use sweepgate_firmware_places::BoardPump;
 
+#[macro_use]
+mod say;
 #[cfg(feature = "rcs-capture")]
 mod rcs;
 
@@ -332,9 +335,6 @@ impl embedded_io::Write for HostWriter {
     }
 }
 
-/// The board's loop: decoder, engine `Scan<1024, 8, 361>`, preview frames.
-type BoardPump = Pump<1024, 8, 361>;
-
 /// What one pass over the capture measured.
 #[derive(Default)]
 struct Pass {
@@ -394,19 +394,27 @@ fn stream(
     };
     pump.replay(&mut r, &mut w, echo, &mut timing)?;
     let k = pump.scan().counters();
-    hprintln!(
-        "capture ({}): {} sweeps decoded ({} blocks rejected), {} binned, {} rejected, {} bins closed, {} preview frames ({} impulse-response records)",
+    say!(
+        "capture (",
         match pump.scan().config().echo {
             EchoMode::Never => "kernel path",
             EchoMode::EveryBin => "FFT path with echo level",
         },
+        "): ",
         pump.counters().sweeps_decoded,
+        " sweeps decoded (",
         pump.decoder().map_or(0, |d| d.counters().rejected()),
+        " blocks rejected), ",
         k.sweeps_binned,
+        " binned, ",
         k.sweeps_rejected(),
+        " rejected, ",
         k.bins_closed,
+        " bins closed, ",
         pump.counters().frames_sent,
-        pump.counters().impulses_sent
+        " preview frames (",
+        pump.counters().impulses_sent,
+        " impulse-response records)",
     );
     Ok(timing.pass)
 }
@@ -419,10 +427,10 @@ fn per(total: u64, n: u32) -> u64 {
     }
 }
 
-fn capture_case(c: &Counter) -> Result<(), Failure> {
+/// Returns the board loop's storage for the loop of cuts.
+fn capture_case(c: &Counter) -> Result<&'static mut BoardPump, Failure> {
     // The one board loop, in static storage: configured in place by each replay.
-    let pump: &'static mut BoardPump =
-        cortex_m::singleton!(: BoardPump = BoardPump::unconfigured()).ok_or(Failure::Taken)?;
+    let pump = sweepgate_firmware_places::board_pump().ok_or(Failure::Taken)?;
     // First pass with the capture's own settings, writing the preview frames; second pass
     // with the other echo setting, frames dropped, so both gating paths are measured.
     let out = host::open(b"preview.bin\0", host::WRITE).ok_or(Failure::NoCapture)?;
@@ -439,33 +447,30 @@ fn capture_case(c: &Counter) -> Result<(), Failure> {
         EchoMode::Never => (first, second),
         EchoMode::EveryBin => (second, first),
     };
-    hprintln!(
-        "board loop: decode {} instructions per sweep; add a sweep to the open bin {}",
+    say!(
+        "board loop: decode ",
         per(kernel.decode, kernel.adds + kernel.closes),
-        per(kernel.add_instr, kernel.adds)
+        " instructions per sweep; add a sweep to the open bin ",
+        per(kernel.add_instr, kernel.adds),
     );
-    hprintln!(
-        "board loop: add a sweep and close a bin, M=1024 F=8: kernel path {} | FFT path with echo level {}",
+    say!(
+        "board loop: add a sweep and close a bin, M=1024 F=8: kernel path ",
         per(kernel.close_instr, kernel.closes),
-        per(fft.close_instr, fft.closes)
+        " | FFT path with echo level ",
+        per(fft.close_instr, fft.closes),
     );
-    Ok(())
+    Ok(pump)
 }
-
-/// The board loop of cuts: two traces, M = 256, 8 pattern frequencies, 64 bins.
-#[cfg(feature = "gate-figures")]
-type BoardCutPump = sweepgate::cut_pump::CutPump<256, 8, 64, 64, 1>;
 
 /// Replays `cuts.bin`, when present, through the board loop of cuts into `cuts-preview.bin`.
 #[cfg(feature = "gate-figures")]
-fn cuts_case(c: &Counter) -> Result<(), Failure> {
+/// The loop of cuts takes the storage of the one-trace loop (`board`), whose work is done.
+fn cuts_case(c: &Counter, board: &'static mut BoardPump) -> Result<(), Failure> {
     let Some(mut r) = HostReader::open(b"cuts.bin\0") else {
-        hprintln!("capture of cuts: cuts.bin not in QEMU's working directory, not replayed");
+        say!("capture of cuts: cuts.bin not in QEMU's working directory, not replayed");
         return Ok(());
     };
-    let pump: &'static mut BoardCutPump =
-        cortex_m::singleton!(: BoardCutPump = BoardCutPump::unconfigured())
-            .ok_or(Failure::Taken)?;
+    let pump = sweepgate_firmware_places::cut_pump(board);
     let out = host::open(b"cuts-preview.bin\0", host::WRITE).ok_or(Failure::NoCapture)?;
     let mut w = HostWriter { fd: Some(out) };
     let mut result = Ok(());
@@ -473,19 +478,27 @@ fn cuts_case(c: &Counter) -> Result<(), Failure> {
     host::close(out);
     result?;
     let k = pump.scan().counters();
-    hprintln!(
-        "capture of cuts: {} traces decoded, {} sweeps binned, {} rejected, {} cuts, {} bins closed, {} preview frames, {} instructions in all",
+    say!(
+        "capture of cuts: ",
         pump.counters().traces_decoded,
+        " traces decoded, ",
         k.sweeps_binned(),
+        " sweeps binned, ",
         k.sweeps_rejected(),
+        " rejected, ",
         k.cuts_started,
+        " cuts, ",
         k.scan.bins_closed,
+        " bins closed, ",
         pump.counters().frames_sent,
-        n
+        " preview frames, ",
+        n,
+        " instructions in all",
     );
-    hprintln!(
-        "memory: CutPump<256, 8, 64, 64, 1> {} bytes in static RAM",
-        core::mem::size_of::<BoardCutPump>()
+    say!(
+        "memory: CutPump<256, 8, 64, 64, 1> ",
+        core::mem::size_of::<sweepgate_firmware_places::BoardCutPump>(),
+        " bytes in static RAM",
     );
     Ok(())
 }
@@ -558,9 +571,11 @@ impl Tenths {
 }
 
 #[cfg(feature = "gate-figures")]
-impl core::fmt::Display for Tenths {
-    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
-        write!(f, "{}.{}", self.0 / 10, self.0 % 10)
+impl say::Put for Tenths {
+    fn put(&self, line: &mut say::Line) {
+        line.unsigned(self.0 / 10);
+        line.bytes(b".");
+        line.unsigned(self.0 % 10);
     }
 }
 
@@ -613,14 +628,19 @@ fn impulse_figures<const M: usize>(
     let mut n = 0;
     let framing = c.measure(|| n = encode_frame(&record, 0, &mut frame).unwrap_or(0));
     let every = u32::from(IMPULSE_EVERY_DEFAULT);
-    hprintln!(
-        "  impulse record ({} points, {} bytes framed): sample {} | frame {} | per closed bin at 1 in {}: {}",
+    say!(
+        "  impulse record (",
         points,
+        " points, ",
         n,
+        " bytes framed): sample ",
         sample,
+        " | frame ",
         framing,
+        " | per closed bin at 1 in ",
         every,
-        (sample + framing) / every
+        ": ",
+        (sample + framing) / every,
     );
 }
 
@@ -647,40 +667,55 @@ where
     let f1 = kernel_case::<M, 1>(c, gate, &raw, &mut out)?;
     let f4 = kernel_case::<M, 4>(c, gate, &raw, &mut out)?;
     let f8 = kernel_case::<M, 8>(c, gate, &raw, &mut out)?;
-    hprintln!(
-        "gate M={} K={}: set-up {} | FFT path {} (echo {} dB)",
+    say!(
+        "gate M=",
         M,
+        " K=",
         points,
+        ": set-up ",
         setup,
+        " | FFT path ",
         fft_path,
-        echo_db as i32
+        " (echo ",
+        echo_db as i32,
+        " dB)",
     );
-    hprintln!(
-        "  kernel path, window on the fly: F=1 {} F=4 {} F=8 {}",
+    say!(
+        "  kernel path, window on the fly: F=1 ",
         f1.on_the_fly,
+        " F=4 ",
         f4.on_the_fly,
-        f8.on_the_fly
+        " F=8 ",
+        f8.on_the_fly,
     );
-    hprintln!(
-        "  kernel path, window in place then dot products: F=1 {} F=4 {} F=8 {}",
+    say!(
+        "  kernel path, window in place then dot products: F=1 ",
         f1.window + f1.dots,
+        " F=4 ",
         f4.window + f4.dots,
-        f8.window + f8.dots
+        " F=8 ",
+        f8.window + f8.dots,
     );
     // Per complex multiply-accumulate: F·K of them per call.
     let k = points as u64;
-    hprintln!(
-        "  per complex multiply-accumulate, window on the fly: F=1 {} F=4 {} F=8 {}",
+    say!(
+        "  per complex multiply-accumulate, window on the fly: F=1 ",
         Tenths::of(f1.on_the_fly as u64, k),
+        " F=4 ",
         Tenths::of(f4.on_the_fly as u64, 4 * k),
-        Tenths::of(f8.on_the_fly as u64, 8 * k)
+        " F=8 ",
+        Tenths::of(f8.on_the_fly as u64, 8 * k),
     );
-    hprintln!(
-        "  per complex multiply-accumulate, dot products alone: F=1 {} F=4 {} F=8 {} (window in place: {} per point)",
+    say!(
+        "  per complex multiply-accumulate, dot products alone: F=1 ",
         Tenths::of(f1.dots as u64, k),
+        " F=4 ",
         Tenths::of(f4.dots as u64, 4 * k),
+        " F=8 ",
         Tenths::of(f8.dots as u64, 8 * k),
-        Tenths::of(f8.window as u64, k)
+        " (window in place: ",
+        Tenths::of(f8.window as u64, k),
+        " per point)",
     );
     Ok([f1, f4, f8])
 }
@@ -742,18 +777,25 @@ where
     let normal = decode_case::<M>(c, points, ByteOrder::Normal)?;
     let swapped = decode_case::<M>(c, points, ByteOrder::Swapped)?;
     let floats = 2 * points as u64;
-    hprintln!(
-        "decode REAL,32 K={} in 64-byte chunks, in feed: NORMal {} per sweep, {} per float | SWAPped {} per sweep, {} per float",
+    say!(
+        "decode REAL,32 K=",
         points,
+        " in 64-byte chunks, in feed: NORMal ",
         normal.0,
+        " per sweep, ",
         Tenths::of(normal.0 as u64, floats),
+        " per float | SWAPped ",
         swapped.0,
-        Tenths::of(swapped.0 as u64, floats)
+        " per sweep, ",
+        Tenths::of(swapped.0 as u64, floats),
+        " per float",
     );
-    hprintln!(
-        "  with the chunk loop around feed (and its timing): NORMal {} per float | SWAPped {} per float",
+    say!(
+        "  with the chunk loop around feed (and its timing): NORMal ",
         Tenths::of(normal.1 as u64, floats),
-        Tenths::of(swapped.1 as u64, floats)
+        " per float | SWAPped ",
+        Tenths::of(swapped.1 as u64, floats),
+        " per float",
     );
     Ok(normal.0)
 }
@@ -887,18 +929,28 @@ where
     let (add, bookkeeping) = bins_case::<M>(c, points)?;
     for (f, k) in [1, 4, 8].into_iter().zip(kernels.iter()) {
         let close = k.window + k.dots + bookkeeping;
-        hprintln!(
-            "sweep M={} K={} F={}: per sweep decode {} + add {} = {} | per bin close {} (window {} + dot products {} + bookkeeping {})",
+        say!(
+            "sweep M=",
             M,
+            " K=",
             points,
+            " F=",
             f,
+            ": per sweep decode ",
             decode,
+            " + add ",
             add,
+            " = ",
             decode + add,
+            " | per bin close ",
             close,
+            " (window ",
             k.window,
+            " + dot products ",
             k.dots,
-            bookkeeping
+            " + bookkeeping ",
+            bookkeeping,
+            ")",
         );
     }
     if ENGINE {
@@ -908,11 +960,13 @@ where
             scan_case::<M, 8>(c, points)?,
         ];
         for (f, (add, add_close)) in [1, 4, 8].into_iter().zip(engine) {
-            hprintln!(
-                "  the scan engine itself, F={}: add a sweep {} | add a sweep and close a bin {}",
+            say!(
+                "  the scan engine itself, F=",
                 f,
+                ": add a sweep ",
                 add,
-                add_close
+                " | add a sweep and close a bin ",
+                add_close,
             );
         }
     }
@@ -928,12 +982,12 @@ where
     let mut buf = [Complex32::new(0.5, -0.25); M];
     let fwd = c.measure(|| buf.forward());
     let inv = c.measure(|| buf.inverse());
-    hprintln!("microfft M={}: forward {} inverse {}", M, fwd, inv);
+    say!("microfft M=", M, ": forward ", fwd, " inverse ", inv);
 }
 
 fn run(c: &Counter) -> Result<(), Failure> {
     let empty = c.measure(|| {});
-    hprintln!("counter overhead {} instructions", empty);
+    say!("counter overhead ", empty, " instructions");
     #[cfg(feature = "gate-figures")]
     {
         fft_case::<256>(c);
@@ -945,20 +999,25 @@ fn run(c: &Counter) -> Result<(), Failure> {
         sweep_figures::<256, true>(c, 201, &k201)?;
         sweep_figures::<1024, true>(c, 801, &k801)?;
         sweep_figures::<2048, false>(c, 1601, &k1601)?;
-        hprintln!(
-            "memory: peak stack of the gate measurements {} bytes",
-            stack::peak()
+        say!(
+            "memory: peak stack of the gate measurements ",
+            stack::peak(),
+            " bytes"
         );
         stack::paint();
     }
-    capture_case(c)?;
+    #[cfg_attr(not(feature = "gate-figures"), allow(unused_variables))]
+    let board = capture_case(c)?;
     #[cfg(feature = "gate-figures")]
-    cuts_case(c)?;
-    hprintln!(
-        "memory: peak stack of the board loop {} bytes (Pump<1024, 8, 361> {} bytes and its engine Scan<1024, 8, 361> {} bytes in static RAM)",
+    cuts_case(c, board)?;
+    say!(
+        "memory: peak stack of the board loop ",
         stack::peak(),
+        " bytes (Pump<1024, 8, 361> ",
         core::mem::size_of::<BoardPump>(),
-        core::mem::size_of::<sweepgate::scan::Scan<1024, 8, 361>>()
+        " bytes and its engine Scan<1024, 8, 361> ",
+        core::mem::size_of::<sweepgate::scan::Scan<1024, 8, 361>>(),
+        " bytes in static RAM)",
     );
     #[cfg(feature = "rcs-capture")]
     rcs::case(c)?;
@@ -970,23 +1029,25 @@ fn main() -> ! {
     stack::paint();
     let code = match cortex_m::Peripherals::take() {
         None => {
-            hprintln!("error: peripherals already taken");
+            say!("error: peripherals already taken");
             debug::EXIT_FAILURE
         }
         Some(p) => {
             let c = Counter::start(p.SYST);
             match run(&c) {
                 Ok(()) => {
-                    hprintln!(
-                        "memory: static RAM {} bytes, {} bytes of RAM in all",
+                    say!(
+                        "memory: static RAM ",
                         stack::statics(),
-                        stack::total()
+                        " bytes, ",
+                        stack::total(),
+                        " bytes of RAM in all",
                     );
-                    hprintln!("firmware: all checks passed");
+                    say!("firmware: all checks passed");
                     debug::EXIT_SUCCESS
                 }
                 Err(e) => {
-                    hprintln!("error: {}", e.what());
+                    say!("error: ", e.what());
                     debug::EXIT_FAILURE
                 }
             }

@@ -8,7 +8,6 @@
 //! the case is skipped with a line saying so (the host's compare then fails on the missing
 //! answer).
 
-use cortex_m_semihosting::hprintln;
 use embedded_io::Read;
 use sweepgate::gate::{Gate, GateConfig};
 use sweepgate::grid::Grid;
@@ -94,7 +93,7 @@ fn header(r: &mut In) -> Result<(GateConfig, usize), Failure> {
 #[inline(never)]
 pub fn case(c: &Counter) -> Result<(), Failure> {
     let Some(reader) = HostReader::open(b"rcs.bin\0") else {
-        hprintln!("rcs: no rcs.bin in QEMU's working directory, skipped");
+        say!("rcs: no rcs.bin in QEMU's working directory, skipped");
         return Ok(());
     };
     let mut r = In(reader);
@@ -170,12 +169,16 @@ fn angles(
             put(out, &dbsm(v).to_le_bytes())?;
         }
     }
-    hprintln!(
-        "rcs: {} angles, K={} F={}: store the background, subtract, gate and calibrate {} instructions per angle",
+    say!(
+        "rcs: ",
         n,
+        " angles, K=",
         k,
+        " F=",
         F,
-        if n == 0 { 0 } else { instr / n as u64 }
+        ": store the background, subtract, gate and calibrate ",
+        if n == 0 { 0 } else { instr / n as u64 },
+        " instructions per angle",
     );
     Ok(())
 }
