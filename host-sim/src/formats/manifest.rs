@@ -421,11 +421,7 @@ impl Manifest {
             || (),
             |_, rows| {
                 rows.iter()
-                    .map(|row| {
-                        let ts = Touchstone::read(&row.file)?;
-                        let p = parameter.unwrap_or_else(|| Parameter::default_for(ts.ports()));
-                        ts.to_sweep(p, spacing)
-                    })
+                    .map(|row| Touchstone::read_sweep(&row.file, parameter, spacing))
                     .collect()
             },
         );
