@@ -24,7 +24,7 @@ pub(super) struct Line<'t> {
 }
 
 /// The whitespace of `str::split_whitespace` and `str::trim` among ASCII bytes.
-pub(super) fn is_space(b: u8) -> bool {
+pub(super) const fn is_space(b: u8) -> bool {
     matches!(b, b'\t' | b'\n' | 0x0b | 0x0c | b'\r' | b' ')
 }
 
@@ -43,41 +43,60 @@ struct Scan {
     ascii: bool,
 }
 
+/// What a byte is to the line scan.
+const TOKEN: u8 = 0;
+const SPACE: u8 = 1;
+/// `\n`, `!` or a byte past ASCII: the scan of the content stops there.
+const STOP: u8 = 2;
+
+/// [`TOKEN`], [`SPACE`] or [`STOP`] for each byte.
+static CLASS: [u8; 256] = {
+    let mut t = [TOKEN; 256];
+    let mut b = 0usize;
+    while b < 256 {
+        if b >= 0x80 || b == b'\n' as usize || b == b'!' as usize {
+            t[b] = STOP;
+        } else if is_space(b as u8) {
+            t[b] = SPACE;
+        }
+        b += 1;
+    }
+    t
+};
+
 /// Scans the line starting at `start`: pushes the content's tokens (before any `!`) to
 /// `tokens` as offsets into `bytes`.
 fn scan_line(bytes: &[u8], start: usize, tokens: &mut Vec<(usize, usize)>) -> Scan {
     tokens.clear();
+    let class = |i: usize| bytes.get(i).map_or(STOP, |&b| CLASS[usize::from(b)]);
     let mut i = start;
-    let mut token_start = None;
-    while i < bytes.len() {
-        let b = bytes[i];
-        if b == b'\n' || b == b'!' {
+    loop {
+        while class(i) == SPACE {
+            i += 1;
+        }
+        if class(i) != TOKEN {
             break;
         }
-        if b >= 0x80 {
-            return Scan {
-                end: line_end(bytes, i),
-                ascii: false,
-            };
+        let s = i;
+        while class(i) == TOKEN {
+            i += 1;
         }
-        if is_space(b) {
-            if let Some(s) = token_start.take() {
-                tokens.push((s, i));
-            }
-        } else if token_start.is_none() {
-            token_start = Some(i);
-        }
-        i += 1;
-    }
-    if let Some(s) = token_start {
         tokens.push((s, i));
     }
-    let end = if i < bytes.len() && bytes[i] == b'!' {
-        line_end(bytes, i)
-    } else {
-        i
-    };
-    Scan { end, ascii: true }
+    match bytes.get(i) {
+        None | Some(b'\n') => Scan {
+            end: i,
+            ascii: true,
+        },
+        Some(b'!') => Scan {
+            end: line_end(bytes, i),
+            ascii: true,
+        },
+        Some(_) => Scan {
+            end: line_end(bytes, i),
+            ascii: false,
+        },
+    }
 }
 
 /// The tokens of `content` split at Unicode whitespace, as `str::split_whitespace` splits,
@@ -180,9 +199,13 @@ impl Parser<'_> {
     }
 }
 
-/// The token as text for the exact parser (ASCII tokens are borrowed, not copied).
+/// The token as text for the exact parser (valid UTF-8, as every token of an ASCII line
+/// is, is borrowed, not copied; anything else is read lossily, as the full reader reads it).
 pub(super) fn token_text(tok: &[u8]) -> Cow<'_, str> {
-    String::from_utf8_lossy(tok)
+    match std::str::from_utf8(tok) {
+        Ok(s) => Cow::Borrowed(s),
+        Err(_) => String::from_utf8_lossy(tok),
+    }
 }
 
 #[cfg(test)]

@@ -3,6 +3,7 @@
 
 mod bytes;
 mod data;
+mod decimal;
 mod keywords;
 mod option_line;
 mod pick;

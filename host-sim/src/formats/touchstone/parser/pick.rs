@@ -16,64 +16,12 @@ use num_complex::Complex64;
 
 use super::bytes::{token_text, Line};
 use super::data::{fill_matrix, within_single};
+use super::decimal::{decimal_bound, simple_decimal, DB_LEVEL_DIGITS, VALUE_DIGITS};
 use super::{parse_number, Parser, Section};
 use crate::formats::touchstone::{
     DataFormat, MatrixFormat, Parameter, ParameterKind, TouchstoneError, TouchstoneErrorKind,
     TwoPortOrder,
 };
-
-/// A number passed over has magnitude below 10^this: far inside single precision
-/// (3.4e38) as a real or imaginary part, as a magnitude, and (being finite) as an angle.
-const VALUE_DIGITS: i64 = 37;
-
-/// A dB level passed over has magnitude below 10^this (100 dB: 10^(±5) as a magnitude).
-const DB_LEVEL_DIGITS: i64 = 2;
-
-/// For a token that Rust's `f64` parser surely reads as a plain decimal number
-/// (`[+-]digits[.digits][e[+-]digits]`, at least one digit before the exponent), a power
-/// `B` with |value| < 10^B; `None` for anything else, which is left to the exact parser.
-pub(super) fn decimal_bound(tok: &[u8]) -> Option<i64> {
-    let mut i = usize::from(matches!(tok.first(), Some(b'+' | b'-')));
-    let (mut digits, mut lead) = (0usize, 0i64);
-    while let Some(&b) = tok.get(i).filter(|b| b.is_ascii_digit()) {
-        // Integer digits after any leading zeros.
-        if lead > 0 || b != b'0' {
-            lead += 1;
-        }
-        digits += 1;
-        i += 1;
-    }
-    if tok.get(i) == Some(&b'.') {
-        i += 1;
-        while tok.get(i).is_some_and(u8::is_ascii_digit) {
-            digits += 1;
-            i += 1;
-        }
-    }
-    if digits == 0 {
-        return None;
-    }
-    let mut exponent = 0i64;
-    if matches!(tok.get(i), Some(b'e' | b'E')) {
-        i += 1;
-        let negative = tok.get(i) == Some(&b'-');
-        if matches!(tok.get(i), Some(b'+' | b'-')) {
-            i += 1;
-        }
-        let first = i;
-        while let Some(&b) = tok.get(i).filter(|b| b.is_ascii_digit()) {
-            exponent = (exponent * 10 + i64::from(b - b'0')).min(1 << 40);
-            i += 1;
-        }
-        if i == first {
-            return None;
-        }
-        if negative {
-            exponent = -exponent;
-        }
-    }
-    (i == tok.len()).then_some(lead + exponent)
-}
 
 /// Which parameters to keep, and what one record of the file holds of them.
 pub(super) struct Pick {
@@ -223,25 +171,47 @@ impl<'a> Parser<'a> {
 
     /// A token parsed exactly, or the error naming it on this line.
     fn number(&self, tok: &[u8]) -> Result<f64, TouchstoneError> {
-        parse_number(&token_text(tok)).map_err(|k| self.err(k))
-    }
-
-    /// Whether the number at `index` of a record of `need` numbers is kept.
-    fn wanted(&self, index: usize, need: usize) -> bool {
-        match self.pick.as_ref().and_then(|p| p.plan.as_ref()) {
-            None => true,
-            Some(plan) => index == 0 || (index < need && plan.needed[(index - 1) / 2]),
+        if let Some(x) = simple_decimal(tok) {
+            return Ok(x);
         }
+        parse_number(&token_text(tok)).map_err(|k| self.err(k))
     }
 
     /// Adds a line's numbers to the open record: each parsed, or (not kept, from the file,
     /// and vouched for by [`decimal_bound`]) counted as NaN with its place in the file.
     fn take_numbers(&mut self, line: &Line, need: usize) -> Result<(), TouchstoneError> {
         let db = self.format() == DataFormat::Db;
+        // Whether each value of a record is kept (`None`: all are).
+        let needed = match self.pick.as_mut().and_then(|p| p.plan.as_mut()) {
+            Some(plan) if line.from_file => Some(std::mem::take(&mut plan.needed)),
+            _ => None,
+        };
+        let r = self.take_tokens(line, need, needed.as_deref(), db);
+        if let (Some(n), Some(plan)) = (needed, self.pick.as_mut().and_then(|p| p.plan.as_mut())) {
+            plan.needed = n;
+        }
+        r
+    }
+
+    /// [`Parser::take_numbers`] with the values kept (`None`: all).
+    fn take_tokens(
+        &mut self,
+        line: &Line,
+        need: usize,
+        needed: Option<&[bool]>,
+        db: bool,
+    ) -> Result<(), TouchstoneError> {
+        let spans = self.pick.is_some();
         for &(a, b) in line.tokens {
             let tok = &line.text[a..b];
             let index = self.record.len();
-            let x = if line.from_file && !self.wanted(index, need) {
+            let wanted = match needed {
+                None => true,
+                Some(n) => index == 0 || (index < need && n[(index - 1) / 2]),
+            };
+            let x = if wanted {
+                self.number(tok)?
+            } else {
                 let limit = if db && index % 2 == 1 {
                     DB_LEVEL_DIGITS
                 } else {
@@ -251,11 +221,9 @@ impl<'a> Parser<'a> {
                     Some(bound) if bound <= limit => f64::NAN,
                     _ => self.number(tok)?,
                 }
-            } else {
-                self.number(tok)?
             };
             self.record.push(x);
-            if self.pick.is_some() {
+            if spans {
                 self.spans.push((a, b));
             }
         }
@@ -351,86 +319,5 @@ impl<'a> Parser<'a> {
         self.record.clear();
         self.spans.clear();
         Ok(())
-    }
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    /// Every string of up to `len` characters over `alphabet`.
-    fn strings(alphabet: &[u8], len: usize) -> Vec<Vec<u8>> {
-        let mut all = vec![Vec::new()];
-        let mut last = vec![Vec::new()];
-        for _ in 0..len {
-            let next: Vec<Vec<u8>> = last
-                .iter()
-                .flat_map(|s: &Vec<u8>| {
-                    alphabet.iter().map(move |&c| {
-                        let mut t = s.clone();
-                        t.push(c);
-                        t
-                    })
-                })
-                .collect();
-            all.extend(next.iter().cloned());
-            last = next;
-        }
-        all
-    }
-
-    #[test]
-    fn a_vouched_token_is_what_rusts_parser_reads_and_within_its_bound() {
-        // Reference: Rust's own `str::parse::<f64>`. Every string of up to 6 characters of
-        // number syntax: where the byte loop vouches for one, the parser must read it, and
-        // with a bound a number may be passed over at (up to 37), finite and no larger than
-        // 10^bound.
-        let mut vouched = 0;
-        for s in strings(b"+-.eE019", 6) {
-            let text = std::str::from_utf8(&s).unwrap();
-            let Some(bound) = decimal_bound(&s) else {
-                continue;
-            };
-            vouched += 1;
-            let x: f64 = text
-                .parse()
-                .unwrap_or_else(|e| panic!("{text:?} vouched for but refused: {e}"));
-            if bound <= VALUE_DIGITS {
-                assert!(x.is_finite(), "{text:?}");
-                assert!(
-                    x.abs() <= 10f64.powi(bound as i32),
-                    "{text:?}: {x} > 1e{bound}"
-                );
-            }
-        }
-        assert!(vouched > 10_000, "{vouched}");
-    }
-
-    #[test]
-    fn the_bound_follows_the_digits_and_the_exponent() {
-        for (tok, bound) in [
-            ("0", Some(0)),
-            ("-0.000123", Some(0)),
-            ("123.4", Some(3)),
-            ("00012", Some(2)),
-            ("1e37", Some(38)),
-            ("9.99E+36", Some(37)),
-            (".5e-3", Some(-3)),
-            ("5.", Some(1)),
-            ("1e400", Some(401)),
-            ("1e99999999999999999999", Some(1 + (1 << 40))),
-            ("inf", None),
-            ("NaN", None),
-            ("1e", None),
-            ("e5", None),
-            (".", None),
-            ("-", None),
-            ("1.2.3", None),
-            ("0x10", None),
-            ("1,5", None),
-            ("", None),
-        ] {
-            assert_eq!(decimal_bound(tok.as_bytes()), bound, "{tok}");
-        }
     }
 }
