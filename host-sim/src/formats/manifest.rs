@@ -351,10 +351,12 @@ impl Manifest {
             }
             seen.insert(key, line);
             let path = base.join(&file);
-            if path.is_dir() {
+            // One look at the file system per row (`is_dir` and `is_file` would make two).
+            let meta = std::fs::metadata(&path).ok();
+            if meta.as_ref().is_some_and(std::fs::Metadata::is_dir) {
                 return Err(err(at, ManifestErrorKind::FileIsAFolder(path)));
             }
-            if !path.is_file() {
+            if !meta.is_some_and(|m| m.is_file()) {
                 return Err(err(at, ManifestErrorKind::MissingFile(path)));
             }
             rows.push(ManifestRow {

@@ -544,6 +544,11 @@ pub fn process(r: &Resolved) -> anyhow::Result<Processed> {
             r.input.path().display()
         );
     }
+    process_one(r)
+}
+
+/// [`process`] of an input known not to be a scan of cuts.
+fn process_one(r: &Resolved) -> anyhow::Result<Processed> {
     let mut p = match &r.input {
         Input::Manifest(m) => process_manifest(r, m)?,
         Input::Recording(rec) => process_recording(r, rec)?,
@@ -634,7 +639,7 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
     let p = std::thread::Builder::new()
         .name("process".into())
         .stack_size(16 << 20)
-        .spawn(move || process(&r2))
+        .spawn(move || process_one(&r2))
         .context("starting the processing thread")?
         .join()
         .map_err(|_| anyhow::anyhow!("the processing thread failed"))??;
