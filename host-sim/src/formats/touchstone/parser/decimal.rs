@@ -9,50 +9,83 @@ pub(super) const VALUE_DIGITS: i64 = 37;
 /// A dB level passed over has magnitude below 10^this (100 dB: 10^(±5) as a magnitude).
 pub(super) const DB_LEVEL_DIGITS: i64 = 2;
 
+/// The mantissa of a token, `[+-]digits[.digits]`, read up to the first byte that is not
+/// part of it.
+struct Mantissa {
+    negative: bool,
+    /// The digits as an integer (exact up to 19 digits; wrapped beyond, then not used).
+    m: u64,
+    /// All digits.
+    digits: usize,
+    /// Integer digits after any leading zeros.
+    lead: i64,
+    /// Digits after the point.
+    fraction: i64,
+    /// Where the mantissa ends.
+    end: usize,
+}
+
+fn mantissa(tok: &[u8]) -> Mantissa {
+    let negative = tok.first() == Some(&b'-');
+    let mut i = usize::from(matches!(tok.first(), Some(b'+' | b'-')));
+    let (mut m, mut digits, mut lead, mut fraction, mut point) = (0u64, 0usize, 0i64, 0i64, false);
+    while let Some(&b) = tok.get(i) {
+        let d = b.wrapping_sub(b'0');
+        if d < 10 {
+            m = m.wrapping_mul(10).wrapping_add(u64::from(d));
+            digits += 1;
+            if point {
+                fraction += 1;
+            } else if lead > 0 || d != 0 {
+                lead += 1;
+            }
+        } else if b == b'.' && !point {
+            point = true;
+        } else {
+            break;
+        }
+        i += 1;
+    }
+    Mantissa {
+        negative,
+        m,
+        digits,
+        lead,
+        fraction,
+        end: i,
+    }
+}
+
+/// The exponent `e[+-]digits` at `i` (0 when there is none; its size held at 2^40) and
+/// where the token's number ends; `None` for an `e` without digits.
+fn exponent(tok: &[u8], mut i: usize) -> Option<(i64, usize)> {
+    if !matches!(tok.get(i), Some(b'e' | b'E')) {
+        return Some((0, i));
+    }
+    i += 1;
+    let negative = tok.get(i) == Some(&b'-');
+    i += usize::from(matches!(tok.get(i), Some(b'+' | b'-')));
+    let (first, mut x) = (i, 0i64);
+    while let Some(&b) = tok.get(i).filter(|b| b.is_ascii_digit()) {
+        x = (x * 10 + i64::from(b - b'0')).min(1 << 40);
+        i += 1;
+    }
+    if i == first {
+        return None;
+    }
+    Some((if negative { -x } else { x }, i))
+}
+
 /// For a token that Rust's `f64` parser surely reads as a plain decimal number
 /// (`[+-]digits[.digits][e[+-]digits]`, at least one digit before the exponent), a power
 /// `B` with |value| < 10^B; `None` for anything else, which is left to the exact parser.
 pub(super) fn decimal_bound(tok: &[u8]) -> Option<i64> {
-    let mut i = usize::from(matches!(tok.first(), Some(b'+' | b'-')));
-    let (mut digits, mut lead) = (0usize, 0i64);
-    while let Some(&b) = tok.get(i).filter(|b| b.is_ascii_digit()) {
-        // Integer digits after any leading zeros.
-        if lead > 0 || b != b'0' {
-            lead += 1;
-        }
-        digits += 1;
-        i += 1;
-    }
-    if tok.get(i) == Some(&b'.') {
-        i += 1;
-        while tok.get(i).is_some_and(u8::is_ascii_digit) {
-            digits += 1;
-            i += 1;
-        }
-    }
-    if digits == 0 {
+    let m = mantissa(tok);
+    if m.digits == 0 {
         return None;
     }
-    let mut exponent = 0i64;
-    if matches!(tok.get(i), Some(b'e' | b'E')) {
-        i += 1;
-        let negative = tok.get(i) == Some(&b'-');
-        if matches!(tok.get(i), Some(b'+' | b'-')) {
-            i += 1;
-        }
-        let first = i;
-        while let Some(&b) = tok.get(i).filter(|b| b.is_ascii_digit()) {
-            exponent = (exponent * 10 + i64::from(b - b'0')).min(1 << 40);
-            i += 1;
-        }
-        if i == first {
-            return None;
-        }
-        if negative {
-            exponent = -exponent;
-        }
-    }
-    (i == tok.len()).then_some(lead + exponent)
+    let (e, end) = exponent(tok, m.end)?;
+    (end == tok.len()).then_some(m.lead + e)
 }
 
 /// 10^0 … 10^22: every one exactly an `f64`.
@@ -68,60 +101,22 @@ const POWERS_OF_TEN: [f64; 23] = [
 /// value, which is what Rust's parser gives too (the fast path of Clinger, 1990, "How to
 /// read floating point numbers accurately").
 pub(super) fn simple_decimal(tok: &[u8]) -> Option<f64> {
-    let negative = tok.first() == Some(&b'-');
-    let mut i = usize::from(matches!(tok.first(), Some(b'+' | b'-')));
-    let (mut m, mut digits, mut e) = (0u64, 0u32, 0i32);
-    while let Some(&b) = tok.get(i).filter(|b| b.is_ascii_digit()) {
-        if digits == 19 {
-            return None;
-        }
-        m = m * 10 + u64::from(b - b'0');
-        digits += 1;
-        i += 1;
-    }
-    if tok.get(i) == Some(&b'.') {
-        i += 1;
-        while let Some(&b) = tok.get(i).filter(|b| b.is_ascii_digit()) {
-            if digits == 19 {
-                return None;
-            }
-            m = m * 10 + u64::from(b - b'0');
-            digits += 1;
-            e -= 1;
-            i += 1;
-        }
-    }
-    if digits == 0 {
+    let m = mantissa(tok);
+    if m.digits == 0 || m.digits > 19 || m.m > 1 << 53 {
         return None;
     }
-    if matches!(tok.get(i), Some(b'e' | b'E')) {
-        i += 1;
-        let sign = if tok.get(i) == Some(&b'-') { -1 } else { 1 };
-        i += usize::from(matches!(tok.get(i), Some(b'+' | b'-')));
-        let (first, mut x) = (i, 0i32);
-        while let Some(&b) = tok.get(i).filter(|b| b.is_ascii_digit()) {
-            if i - first == 4 {
-                return None;
-            }
-            x = x * 10 + i32::from(b - b'0');
-            i += 1;
-        }
-        if i == first {
-            return None;
-        }
-        e += sign * x;
-    }
-    if i != tok.len() || m > 1 << 53 {
+    let (e, end) = exponent(tok, m.end)?;
+    if end != tok.len() {
         return None;
     }
-    let m = m as f64;
-    let v = match e {
-        0 => m,
-        1..=22 => m * POWERS_OF_TEN[e as usize],
-        -22..=-1 => m / POWERS_OF_TEN[(-e) as usize],
+    let x = m.m as f64;
+    let v = match e - m.fraction {
+        0 => x,
+        p @ 1..=22 => x * POWERS_OF_TEN[p as usize],
+        p @ -22..=-1 => x / POWERS_OF_TEN[(-p) as usize],
         _ => return None,
     };
-    Some(if negative { -v } else { v })
+    Some(if m.negative { -v } else { v })
 }
 
 #[cfg(test)]
