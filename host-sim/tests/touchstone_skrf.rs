@@ -7,7 +7,9 @@
 //! SKRF_JSON_DIR=dir cargo test -p sweepgate-host --test touchstone_skrf -- --ignored --nocapture
 //! ```
 //!
-//! Frequencies and every S-parameter must agree within 1e-9 relative.
+//! Frequencies and every S-parameter must agree within 1e-9 relative; and on each file the
+//! fast reader ([`Touchstone::read_sweeps`], [`Touchstone::parse_bytes`]) must give what the
+//! full reader gives, bit for bit.
 
 use std::path::{Path, PathBuf};
 
@@ -38,6 +40,35 @@ fn agree(a: f64, b: f64) -> bool {
 
 fn agree_c(a: Complex64, b: Complex64) -> bool {
     a == b || (a - b).norm() <= RELATIVE * a.norm().max(b.norm())
+}
+
+/// The fast reader (from the bytes, and only the parameters asked for) against the full
+/// one on the same file: the same file and, for the default parameter and for every
+/// parameter at once, the same sweeps or the same error, bit for bit.
+fn fast_reader_agrees(path: &Path, ts: &Touchstone) -> Result<(), String> {
+    let bytes = std::fs::read(path).map_err(|e| e.to_string())?;
+    let name = path.display().to_string();
+    let full = Touchstone::parse_str(&String::from_utf8_lossy(&bytes), &name);
+    if full.as_ref() != Ok(ts) || Touchstone::parse_bytes(&bytes, &name) != full {
+        return Err("the reader from bytes differs from the text reader".into());
+    }
+    let n = ts.ports() as u8;
+    let every: Vec<Parameter> = (1..=n)
+        .flat_map(|o| (1..=n).map(move |i| Parameter::new(o, i)))
+        .collect();
+    let default = [Parameter::default_for(ts.ports())];
+    for asked in [&default[..], &every[..]] {
+        for spacing in [Spacing::RequireUniform, Spacing::Resample] {
+            let want: Result<Vec<_>, _> = asked.iter().map(|&p| ts.to_sweep(p, spacing)).collect();
+            if Touchstone::read_sweeps(path, Some(asked), spacing) != want {
+                return Err(format!(
+                    "the fast reader of {} parameter(s) differs from the full reader",
+                    asked.len()
+                ));
+            }
+        }
+    }
+    Ok(())
 }
 
 /// Compares one file; `Ok` holds a note for the log.
@@ -79,6 +110,7 @@ fn check(reading: &Reading) -> Result<String, String> {
             }
         }
     }
+    fast_reader_agrees(&reading.file, &ts)?;
     let spacing = match ts.to_sweep(Parameter::default_for(ts.ports()), Spacing::RequireUniform) {
         Ok(_) => "uniform".to_string(),
         Err(e) => format!("not uniform for gating: {}", e.kind),

@@ -351,10 +351,12 @@ impl Manifest {
             }
             seen.insert(key, line);
             let path = base.join(&file);
-            if path.is_dir() {
+            // One look at the file system per row (`is_dir` and `is_file` would make two).
+            let meta = std::fs::metadata(&path).ok();
+            if meta.as_ref().is_some_and(std::fs::Metadata::is_dir) {
                 return Err(err(at, ManifestErrorKind::FileIsAFolder(path)));
             }
-            if !path.is_file() {
+            if !meta.is_some_and(|m| m.is_file()) {
                 return Err(err(at, ManifestErrorKind::MissingFile(path)));
             }
             rows.push(ManifestRow {
@@ -421,11 +423,7 @@ impl Manifest {
             || (),
             |_, rows| {
                 rows.iter()
-                    .map(|row| {
-                        let ts = Touchstone::read(&row.file)?;
-                        let p = parameter.unwrap_or_else(|| Parameter::default_for(ts.ports()));
-                        ts.to_sweep(p, spacing)
-                    })
+                    .map(|row| Touchstone::read_sweep(&row.file, parameter, spacing))
                     .collect()
             },
         );

@@ -62,11 +62,7 @@ fn read_traces(
     parameters: &[Parameter],
     spacing: Spacing,
 ) -> Result<Vec<GateSweep>, TouchstoneError> {
-    let ts = Touchstone::read(&row.file)?;
-    parameters
-        .iter()
-        .map(|&p| ts.to_sweep(p, spacing))
-        .collect()
+    Touchstone::read_sweeps(&row.file, Some(parameters), spacing)
 }
 
 impl Manifest {

@@ -116,6 +116,22 @@ fn combine(
         .map(|&i| sweeps[i].values.len())
         .max()
         .unwrap_or(0);
+    if let [only] = members {
+        // One file: its values as the mean below makes them (0 + v, over 1, in f64, is v
+        // exactly, but for −0 made +0, as 0 + v in f32 makes it), without the f64 pass.
+        let s = &sweeps[*only];
+        let values = s
+            .values
+            .iter()
+            .map(|v| Complex32::new(v.re + 0.0, v.im + 0.0))
+            .collect();
+        let sweep = AngleSweep {
+            angle_deg,
+            values,
+            file: s.file.clone(),
+        };
+        return (sweep, None);
+    }
     let values = (0..points)
         .map(|p| {
             let (re, im) = members.iter().fold((0.0f64, 0.0f64), |(re, im), &i| {
@@ -215,6 +231,46 @@ mod tests {
         // On a sector 350° and −10° are different angles.
         let b = bin_sweeps(&[sweep(-10.0, 1.0), sweep(350.0, 1.0)], None, false).unwrap();
         assert_eq!(b.sweeps.len(), 2);
+    }
+
+    #[test]
+    fn a_bin_of_one_file_holds_what_the_mean_of_one_makes() {
+        // The mean over one file, computed as the mean of several is (f64 sums from 0,
+        // divided by the count), against the bin of one file: equal bit for bit, −0 and
+        // the smallest and largest single-precision values included.
+        let odd = [
+            0.0,
+            -0.0,
+            f32::MIN_POSITIVE,
+            -f32::MIN_POSITIVE / 8.0,
+            f32::MAX,
+            -f32::MAX,
+            0.1,
+            -3.25e-12,
+        ];
+        let values: Vec<Complex32> = odd
+            .iter()
+            .zip(odd.iter().rev())
+            .map(|(&a, &b)| Complex32::new(a, b))
+            .collect();
+        let one = AngleSweep {
+            angle_deg: 5.0,
+            values: values.clone(),
+            file: PathBuf::from("one.s2p"),
+        };
+        let b = bin_sweeps(std::slice::from_ref(&one), None, false).unwrap();
+        let mean: Vec<Complex32> = values
+            .iter()
+            .map(|v| {
+                let (re, im) = (0.0f64 + f64::from(v.re), 0.0f64 + f64::from(v.im));
+                Complex32::new((re / 1.0) as f32, (im / 1.0) as f32)
+            })
+            .collect();
+        let bits = |v: &[Complex32]| -> Vec<(u32, u32)> {
+            v.iter().map(|c| (c.re.to_bits(), c.im.to_bits())).collect()
+        };
+        assert_eq!(bits(&b.sweeps[0].values), bits(&mean));
+        assert_eq!(b.sweeps[0].values[1].re.to_bits(), 0.0f32.to_bits());
     }
 
     #[test]

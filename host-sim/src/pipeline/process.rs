@@ -409,17 +409,19 @@ fn covers_full_circle(angles_deg: &[f64]) -> bool {
 
 /// Processes a manifest: its angles binned ([`manifest_bins`]: the manifest's own step
 /// unless a bin width is given; files sharing a bin averaged and reported), each bin's sweep
-/// gated on the FFT path.
+/// gated on the FFT path. The bins' raw sweeps then move into the bands (no copy).
 pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> {
     let m = Manifest::read(path)?;
-    let scan = m.load_on(r.parameter, r.spacing, r.threads)?;
+    let mut scan = m.load_on(r.parameter, r.spacing, r.threads)?;
     if scan.sweeps.is_empty() {
         bail!("{}: no sweeps", path.display());
     }
     let file_angles: Vec<f64> = scan.sweeps.iter().map(|s| s.angle_deg).collect();
     let full_circle = covers_full_circle(&file_angles);
-    let binned = manifest_bins::bin_sweeps(&scan.sweeps, r.choices.bin_width_deg, full_circle)
+    let mut binned = manifest_bins::bin_sweeps(&scan.sweeps, r.choices.bin_width_deg, full_circle)
         .with_context(|| format!("{}: binning the manifest's angles", path.display()))?;
+    // The files' sweeps are in the bins now: not kept beside them (memory).
+    let files = std::mem::take(&mut scan.sweeps).len();
     let sweeps: Vec<&[Complex32]> = binned.sweeps.iter().map(|s| &s.values[..]).collect();
     let angles: Vec<f64> = binned.sweeps.iter().map(|s| s.angle_deg).collect();
     let auto = Automatic::Data {
@@ -439,11 +441,11 @@ pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> 
         grid: scan.grid,
         rows: binned
             .sweeps
-            .iter()
+            .iter_mut()
             .zip(gated)
             .map(|(s, gated)| BandRow {
                 angle_deg: s.angle_deg,
-                raw: s.values.clone(),
+                raw: std::mem::take(&mut s.values),
                 gated,
             })
             .collect(),
@@ -468,8 +470,8 @@ pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> 
         bins,
         settings: settings.to_json(),
         counters: serde_json::json!({
-            "files": scan.sweeps.len(),
-            "sweeps_binned": scan.sweeps.len(),
+            "files": files,
+            "sweeps_binned": files,
             "bins": binned.sweeps.len(),
             "bins_combining_files": binned.combined.len(),
         }),
@@ -544,6 +546,11 @@ pub fn process(r: &Resolved) -> anyhow::Result<Processed> {
             r.input.path().display()
         );
     }
+    process_one(r)
+}
+
+/// [`process`] of an input known not to be a scan of cuts.
+fn process_one(r: &Resolved) -> anyhow::Result<Processed> {
     let mut p = match &r.input {
         Input::Manifest(m) => process_manifest(r, m)?,
         Input::Recording(rec) => process_recording(r, rec)?,
@@ -634,7 +641,7 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
     let p = std::thread::Builder::new()
         .name("process".into())
         .stack_size(16 << 20)
-        .spawn(move || process(&r2))
+        .spawn(move || process_one(&r2))
         .context("starting the processing thread")?
         .join()
         .map_err(|_| anyhow::anyhow!("the processing thread failed"))??;

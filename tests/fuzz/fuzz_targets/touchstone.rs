@@ -3,17 +3,29 @@
 //! (invalid UTF-8 is read lossily, as a file would be refused). Checks that nothing panics,
 //! that a file that parses has as many matrices as frequencies, each of ports² values, that
 //! its frequencies increase, that the error message is one line, and that the output is
-//! bounded by the input.
+//! bounded by the input; and that the readers from bytes (`parse_bytes`, and `parse_sweeps`
+//! of the default parameter) give what `parse_str` (and `to_sweep`) give.
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use sweepgate_host::formats::touchstone::Touchstone;
+use sweepgate_host::formats::touchstone::{Parameter, Spacing, Touchstone};
 
 fuzz_target!(|data: &[u8]| {
     let [name_byte, text @ ..] = data else { return };
+    let bytes = text;
     let text = String::from_utf8_lossy(text);
     let name = format!("f.s{}p", 1 + name_byte % 4);
-    match Touchstone::parse_str(&text, &name) {
+    let full = Touchstone::parse_str(&text, &name);
+    assert_eq!(Touchstone::parse_bytes(bytes, &name), full);
+    let sweeps = full.clone().and_then(|t| {
+        t.to_sweep(Parameter::default_for(t.ports()), Spacing::Resample)
+            .map(|s| vec![s])
+    });
+    assert_eq!(
+        Touchstone::parse_sweeps(bytes, &name, None, Spacing::Resample),
+        sweeps
+    );
+    match full {
         Ok(t) => {
             let n = t.frequencies_hz().len();
             let p = t.ports();

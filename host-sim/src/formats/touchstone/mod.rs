@@ -39,18 +39,22 @@
 //! ```
 //!
 //! Files: `error.rs` (what can be wrong, with the line), `parser/` (the reader: the option
-//! line, the version 2.0 keywords, the data lines), `sweep.rs` (one parameter on a uniform
+//! line, the version 2.0 keywords, the data lines, the byte-level reading of a file and of
+//! only some of its parameters), `picked.rs` (reading a file from its bytes, and only the
+//! parameters wanted: [`Touchstone::read_sweeps`]), `sweep.rs` (one parameter on a uniform
 //! grid for the gate), and here the file's description and its accessors.
 
 mod error;
+#[cfg(test)]
+mod fast_tests;
 mod parser;
+mod picked;
 mod sweep;
 #[cfg(test)]
 mod tests;
 mod write;
 
 use std::fmt;
-use std::path::Path;
 use std::str::FromStr;
 
 use num_complex::Complex64;
@@ -261,20 +265,6 @@ pub struct Touchstone {
 }
 
 impl Touchstone {
-    /// Reads and parses a file. Errors name the path as given.
-    pub fn read(path: &Path) -> Result<Self, TouchstoneError> {
-        let name = path.display().to_string();
-        let bytes = std::fs::read(path).map_err(|e| TouchstoneError {
-            file: name.clone(),
-            line: None,
-            kind: TouchstoneErrorKind::Io(e.to_string()),
-        })?;
-        // Comments may hold non-UTF-8 bytes (degree or ohm signs in a legacy code page);
-        // numbers and keywords are ASCII, so a lossy conversion loses nothing that matters.
-        let text = String::from_utf8_lossy(&bytes);
-        Self::parse_str(&text, &name)
-    }
-
     /// Parses file text. `name` is used in errors and, for version 1.1, its extension
     /// `.s<N>p` gives the port count.
     pub fn parse_str(text: &str, name: &str) -> Result<Self, TouchstoneError> {

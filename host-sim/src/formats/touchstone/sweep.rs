@@ -64,61 +64,78 @@ impl Touchstone {
             return Err(self.error(TouchstoneErrorKind::NotScattering(self.kind)));
         }
         let values = self.parameter(parameter)?;
-        let f = &self.frequencies_hz;
-        let (first, last) = match (f.first(), f.last()) {
-            (Some(a), Some(b)) => (*a, *b),
-            _ => return Err(self.error(TouchstoneErrorKind::NoData)),
-        };
-        let grid = Grid::from_start_stop(first, last, f.len())
-            .map_err(|e| self.error(TouchstoneErrorKind::Grid(e)))?;
-        let step_hz = grid.step_hz();
-        let tolerance_hz = UNIFORM_TOLERANCE_OF_STEP * step_hz;
-        let (mut worst, mut worst_dev) = (0usize, 0.0f64);
-        for (k, &fk) in f.iter().enumerate() {
-            let dev = (fk - grid.frequency_hz(k)).abs();
-            if dev > worst_dev {
-                worst = k;
-                worst_dev = dev;
-            }
-        }
-        let narrow = |c: Complex64| Complex32::new(c.re as f32, c.im as f32);
-        if worst_dev <= tolerance_hz {
-            return Ok(GateSweep {
-                grid,
-                values: values.into_iter().map(narrow).collect(),
-                warning: None,
-            });
-        }
-        if spacing == Spacing::RequireUniform {
-            return Err(self.error(TouchstoneErrorKind::NotUniform {
-                index: worst,
-                deviation_hz: worst_dev,
-                tolerance_hz,
-                step_hz,
-            }));
-        }
-        let resampled = resample_linear(f, &values, &grid);
-        Ok(GateSweep {
-            grid,
-            values: resampled.into_iter().map(narrow).collect(),
-            warning: Some(format!(
-                "{}: frequencies are not uniformly spaced (point {worst} is {worst_dev} Hz off, \
-                 tolerance {tolerance_hz} Hz); {parameter} was resampled by linear interpolation \
-                 of real and imaginary parts onto {} uniform points from {first} Hz to {last} Hz \
-                 (step {step_hz} Hz)",
-                self.name,
-                grid.points()
-            )),
-        })
+        uniform_sweep(&self.name, &self.frequencies_hz, values, parameter, spacing)
     }
 
     fn error(&self, kind: TouchstoneErrorKind) -> TouchstoneError {
-        TouchstoneError {
-            file: self.name.clone(),
-            line: None,
-            kind,
+        file_error(&self.name, kind)
+    }
+}
+
+/// An error of the file `name` as a whole (no line).
+pub(super) fn file_error(name: &str, kind: TouchstoneErrorKind) -> TouchstoneError {
+    TouchstoneError {
+        file: name.to_string(),
+        line: None,
+        kind,
+    }
+}
+
+/// One parameter's `values` at the frequencies `f` of the file `name`, on a uniform grid in
+/// single precision: [`Touchstone::to_sweep`] after its checks of the parameter.
+pub(super) fn uniform_sweep(
+    name: &str,
+    f: &[f64],
+    values: Vec<Complex64>,
+    parameter: Parameter,
+    spacing: Spacing,
+) -> Result<GateSweep, TouchstoneError> {
+    let error = |kind| file_error(name, kind);
+    let (first, last) = match (f.first(), f.last()) {
+        (Some(a), Some(b)) => (*a, *b),
+        _ => return Err(error(TouchstoneErrorKind::NoData)),
+    };
+    let grid = Grid::from_start_stop(first, last, f.len())
+        .map_err(|e| error(TouchstoneErrorKind::Grid(e)))?;
+    let step_hz = grid.step_hz();
+    let tolerance_hz = UNIFORM_TOLERANCE_OF_STEP * step_hz;
+    let (mut worst, mut worst_dev) = (0usize, 0.0f64);
+    for (k, &fk) in f.iter().enumerate() {
+        let dev = (fk - grid.frequency_hz(k)).abs();
+        if dev > worst_dev {
+            worst = k;
+            worst_dev = dev;
         }
     }
+    let narrow = |c: Complex64| Complex32::new(c.re as f32, c.im as f32);
+    if worst_dev <= tolerance_hz {
+        return Ok(GateSweep {
+            grid,
+            values: values.into_iter().map(narrow).collect(),
+            warning: None,
+        });
+    }
+    if spacing == Spacing::RequireUniform {
+        return Err(error(TouchstoneErrorKind::NotUniform {
+            index: worst,
+            deviation_hz: worst_dev,
+            tolerance_hz,
+            step_hz,
+        }));
+    }
+    let resampled = resample_linear(f, &values, &grid);
+    Ok(GateSweep {
+        grid,
+        values: resampled.into_iter().map(narrow).collect(),
+        warning: Some(format!(
+            "{}: frequencies are not uniformly spaced (point {worst} is {worst_dev} Hz off, \
+             tolerance {tolerance_hz} Hz); {parameter} was resampled by linear interpolation \
+             of real and imaginary parts onto {} uniform points from {first} Hz to {last} Hz \
+             (step {step_hz} Hz)",
+            name,
+            grid.points()
+        )),
+    })
 }
 
 /// Linear interpolation of `(f, v)` (f strictly increasing, same length as `v`) at each

@@ -36,7 +36,7 @@ impl Parser<'_> {
         Ok(())
     }
 
-    fn ports_now(&mut self) -> Result<usize, TouchstoneError> {
+    pub(super) fn ports_now(&mut self) -> Result<usize, TouchstoneError> {
         if let Some(n) = self.ports {
             return Ok(n);
         }
@@ -106,6 +106,15 @@ impl Parser<'_> {
             let x = parse_number(tok).map_err(|k| self.err(k))?;
             self.record.push(x);
         }
+        self.check_record_length(need)?;
+        if self.record.len() == need {
+            self.complete_record(n)?;
+        }
+        Ok(())
+    }
+
+    /// Refuses an open record holding more than the `need` numbers of one record.
+    pub(super) fn check_record_length(&self, need: usize) -> Result<(), TouchstoneError> {
         if self.record.len() > need {
             return Err(self.err_at(
                 Some(self.record_start),
@@ -120,13 +129,44 @@ impl Parser<'_> {
                 },
             ));
         }
-        if self.record.len() == need {
-            self.complete_record(n)?;
-        }
         Ok(())
     }
 
-    fn complete_record(&mut self, n: usize) -> Result<(), TouchstoneError> {
+    pub(super) fn complete_record(&mut self, n: usize) -> Result<(), TouchstoneError> {
+        let f_hz = self.record_frequency_hz()?;
+        let fmt = self.format();
+        let vals: Vec<Complex64> = self.record[1..]
+            .chunks_exact(2)
+            .map(|p| fmt.to_complex(p[0], p[1]))
+            .collect();
+        if let Some((k, v)) = vals.iter().enumerate().find(|(_, v)| !within_single(**v)) {
+            return Err(self.beyond_single(k, *v));
+        }
+        let base = self.data.len();
+        self.data.resize(base + n * n, Complex64::new(0.0, 0.0));
+        let order = self.two_port_order.unwrap_or(TwoPortOrder::Order21_12);
+        let matrix_format = self.matrix_format.unwrap_or(MatrixFormat::Full);
+        fill_matrix(&mut self.data[base..], n, &vals, matrix_format, order);
+        self.frequencies_hz.push(f_hz);
+        self.record.clear();
+        Ok(())
+    }
+
+    /// The error for value `k` (0-based) of the record being beyond single precision.
+    pub(super) fn beyond_single(&self, k: usize, v: Complex64) -> TouchstoneError {
+        self.err_at(
+            Some(self.record_start),
+            TouchstoneErrorKind::BeyondSinglePrecision {
+                value: k + 1,
+                re: v.re,
+                im: v.im,
+            },
+        )
+    }
+
+    /// The complete record's frequency in Hz, checked: not negative, above the one before,
+    /// and not past `[Number of Frequencies]`.
+    pub(super) fn record_frequency_hz(&self) -> Result<f64, TouchstoneError> {
         let at = Some(self.record_start);
         let f_hz = self.record[0] * self.unit().hz();
         if f_hz < 0.0 {
@@ -154,34 +194,7 @@ impl Parser<'_> {
                 ));
             }
         }
-        let fmt = self.format();
-        let vals: Vec<Complex64> = self.record[1..]
-            .chunks_exact(2)
-            .map(|p| fmt.to_complex(p[0], p[1]))
-            .collect();
-        let single = f64::from(f32::MAX);
-        if let Some((k, v)) = vals
-            .iter()
-            .enumerate()
-            .find(|(_, v)| !(v.re.abs() <= single && v.im.abs() <= single))
-        {
-            return Err(self.err_at(
-                at,
-                TouchstoneErrorKind::BeyondSinglePrecision {
-                    value: k + 1,
-                    re: v.re,
-                    im: v.im,
-                },
-            ));
-        }
-        let base = self.data.len();
-        self.data.resize(base + n * n, Complex64::new(0.0, 0.0));
-        let order = self.two_port_order.unwrap_or(TwoPortOrder::Order21_12);
-        let matrix_format = self.matrix_format.unwrap_or(MatrixFormat::Full);
-        fill_matrix(&mut self.data[base..], n, &vals, matrix_format, order);
-        self.frequencies_hz.push(f_hz);
-        self.record.clear();
-        Ok(())
+        Ok(f_hz)
     }
 
     pub(super) fn end_record(&self) -> Result<(), TouchstoneError> {
@@ -200,9 +213,16 @@ impl Parser<'_> {
     }
 }
 
+/// Whether both parts of a value are within the single-precision range the gate works in
+/// (false for anything not finite).
+pub(super) fn within_single(v: Complex64) -> bool {
+    let single = f64::from(f32::MAX);
+    v.re.abs() <= single && v.im.abs() <= single
+}
+
 /// Writes the `n`×`n` matrix `m` (row by row) from the values of one record as the file
 /// lays them out: every element (2-port in `order`), or one triangle of a symmetric matrix.
-fn fill_matrix(
+pub(super) fn fill_matrix(
     m: &mut [Complex64],
     n: usize,
     vals: &[Complex64],

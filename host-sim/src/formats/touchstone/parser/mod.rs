@@ -1,9 +1,12 @@
 //! The reader: one pass over the lines, each a keyword (`keywords.rs`), the option line
 //! (`option_line.rs`) or numbers (`data.rs`), collected into a [`Touchstone`].
 
+mod bytes;
 mod data;
+mod decimal;
 mod keywords;
 mod option_line;
+mod pick;
 
 use std::path::Path;
 
@@ -78,6 +81,11 @@ pub(super) struct Parser<'a> {
     frequencies_hz: Vec<f64>,
     data: Vec<Complex64>,
     noise_numbers: usize,
+    /// The parameters to keep, when only some are wanted (`pick.rs`); `None`: all.
+    pick: Option<pick::Pick>,
+    /// Where each number of the open record lies in the file's bytes (`bytes.rs`; empty
+    /// for lines read as text).
+    spans: Vec<(usize, usize)>,
 }
 
 impl<'a> Parser<'a> {
@@ -102,6 +110,8 @@ impl<'a> Parser<'a> {
             frequencies_hz: Vec::new(),
             data: Vec::new(),
             noise_numbers: 0,
+            pick: None,
+            spans: Vec::new(),
         }
     }
 
@@ -123,26 +133,46 @@ impl<'a> Parser<'a> {
         for (i, raw) in text.lines().enumerate() {
             self.line = i + 1;
             let content = raw.split('!').next().unwrap_or("").trim();
-            if content.is_empty() || self.section == Section::Ended {
+            if self.skips(content) {
                 continue;
             }
-            if self.section == Section::Information {
-                if content.starts_with('[') && keyword_name(content).0 == "end information" {
-                    self.section = Section::Header;
-                }
-                continue;
-            }
-            if content.starts_with('[') {
-                self.keyword(content)?;
-            } else if let Some(rest) = content.strip_prefix('#') {
-                self.option_line(rest)?;
-            } else {
-                self.numbers(content)?;
-            }
-            self.seen_content = true;
+            self.line_content(content, Self::numbers)?;
         }
         self.line += 1;
         self.finish()
+    }
+
+    /// Whether a line's content (comment cut, trimmed) is passed over: empty, after
+    /// `[End]`, or inside `[Begin Information]` (whose end it looks for).
+    fn skips(&mut self, content: &str) -> bool {
+        if content.is_empty() || self.section == Section::Ended {
+            return true;
+        }
+        if self.section == Section::Information {
+            if content.starts_with('[') && keyword_name(content).0 == "end information" {
+                self.section = Section::Header;
+            }
+            return true;
+        }
+        false
+    }
+
+    /// One line's content that is not passed over: a keyword, the option line, or numbers
+    /// (given to `numbers`).
+    fn line_content(
+        &mut self,
+        content: &str,
+        numbers: impl FnOnce(&mut Self, &str) -> Result<(), TouchstoneError>,
+    ) -> Result<(), TouchstoneError> {
+        if content.starts_with('[') {
+            self.keyword(content)?;
+        } else if let Some(rest) = content.strip_prefix('#') {
+            self.option_line(rest)?;
+        } else {
+            numbers(self, content)?;
+        }
+        self.seen_content = true;
+        Ok(())
     }
 
     fn is_v2(&self) -> bool {
@@ -163,7 +193,8 @@ impl<'a> Parser<'a> {
             .unwrap_or(DataFormat::Ma)
     }
 
-    fn finish(self) -> Result<Touchstone, TouchstoneError> {
+    /// The checks at the end of the file, before anything is handed out.
+    pub(super) fn check_end(&self) -> Result<(), TouchstoneError> {
         self.end_record()?;
         if self.reference_pending {
             return Err(self.err_at(
@@ -195,6 +226,12 @@ impl<'a> Parser<'a> {
                 ));
             }
         }
+        Ok(())
+    }
+
+    /// The file read, after [`Parser::check_end`].
+    pub(super) fn finish(self) -> Result<Touchstone, TouchstoneError> {
+        self.check_end()?;
         let ports = self.ports.unwrap_or(1);
         let opt_r = self
             .options

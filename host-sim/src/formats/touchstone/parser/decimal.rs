@@ -1,0 +1,264 @@
+//! Decimal numbers without the general parser: a check that a token is a number and how
+//! large it can be ([`decimal_bound`]), and the exact value of the common short ones
+//! ([`simple_decimal`]); anything else is left to Rust's `f64` parser.
+
+/// A number passed over has magnitude below 10^this: far inside single precision
+/// (3.4e38) as a real or imaginary part, as a magnitude, and (being finite) as an angle.
+pub(super) const VALUE_DIGITS: i64 = 37;
+
+/// A dB level passed over has magnitude below 10^this (100 dB: 10^(±5) as a magnitude).
+pub(super) const DB_LEVEL_DIGITS: i64 = 2;
+
+/// The mantissa of a token, `[+-]digits[.digits]`, read up to the first byte that is not
+/// part of it.
+struct Mantissa {
+    negative: bool,
+    /// The digits as an integer (exact up to 19 digits; wrapped beyond, then not used).
+    m: u64,
+    /// All digits.
+    digits: usize,
+    /// Integer digits after any leading zeros.
+    lead: i64,
+    /// Digits after the point.
+    fraction: i64,
+    /// Where the mantissa ends.
+    end: usize,
+}
+
+fn mantissa(tok: &[u8]) -> Mantissa {
+    let negative = tok.first() == Some(&b'-');
+    let mut i = usize::from(matches!(tok.first(), Some(b'+' | b'-')));
+    let (mut m, mut digits, mut lead, mut fraction, mut point) = (0u64, 0usize, 0i64, 0i64, false);
+    while let Some(&b) = tok.get(i) {
+        let d = b.wrapping_sub(b'0');
+        if d < 10 {
+            m = m.wrapping_mul(10).wrapping_add(u64::from(d));
+            digits += 1;
+            if point {
+                fraction += 1;
+            } else if lead > 0 || d != 0 {
+                lead += 1;
+            }
+        } else if b == b'.' && !point {
+            point = true;
+        } else {
+            break;
+        }
+        i += 1;
+    }
+    Mantissa {
+        negative,
+        m,
+        digits,
+        lead,
+        fraction,
+        end: i,
+    }
+}
+
+/// The exponent `e[+-]digits` at `i` (0 when there is none; its size held at 2^40) and
+/// where the token's number ends; `None` for an `e` without digits.
+fn exponent(tok: &[u8], mut i: usize) -> Option<(i64, usize)> {
+    if !matches!(tok.get(i), Some(b'e' | b'E')) {
+        return Some((0, i));
+    }
+    i += 1;
+    let negative = tok.get(i) == Some(&b'-');
+    i += usize::from(matches!(tok.get(i), Some(b'+' | b'-')));
+    let (first, mut x) = (i, 0i64);
+    while let Some(&b) = tok.get(i).filter(|b| b.is_ascii_digit()) {
+        x = (x * 10 + i64::from(b - b'0')).min(1 << 40);
+        i += 1;
+    }
+    if i == first {
+        return None;
+    }
+    Some((if negative { -x } else { x }, i))
+}
+
+/// For a token that Rust's `f64` parser surely reads as a plain decimal number
+/// (`[+-]digits[.digits][e[+-]digits]`, at least one digit before the exponent), a power
+/// `B` with |value| < 10^B; `None` for anything else, which is left to the exact parser.
+pub(super) fn decimal_bound(tok: &[u8]) -> Option<i64> {
+    let m = mantissa(tok);
+    if m.digits == 0 {
+        return None;
+    }
+    let (e, end) = exponent(tok, m.end)?;
+    (end == tok.len()).then_some(m.lead + e)
+}
+
+/// 10^0 … 10^22: every one exactly an `f64`.
+const POWERS_OF_TEN: [f64; 23] = [
+    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16,
+    1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
+];
+
+/// The value of a plain decimal token (`[+-]digits[.digits][e[+-]digits]`) of at most 19
+/// digits whose digits make an integer m ≤ 2^53 and whose power of ten e is within ±22;
+/// `None` for anything else. Exact: m and 10^|e| are both exactly `f64`s, and one IEEE
+/// multiplication or division rounds correctly, so the result is the correctly rounded
+/// value, which is what Rust's parser gives too (the fast path of Clinger, 1990, "How to
+/// read floating point numbers accurately").
+pub(super) fn simple_decimal(tok: &[u8]) -> Option<f64> {
+    let m = mantissa(tok);
+    if m.digits == 0 || m.digits > 19 || m.m > 1 << 53 {
+        return None;
+    }
+    let (e, end) = exponent(tok, m.end)?;
+    if end != tok.len() {
+        return None;
+    }
+    let x = m.m as f64;
+    let v = match e - m.fraction {
+        0 => x,
+        p @ 1..=22 => x * POWERS_OF_TEN[p as usize],
+        p @ -22..=-1 => x / POWERS_OF_TEN[(-p) as usize],
+        _ => return None,
+    };
+    Some(if m.negative { -v } else { v })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Every string of up to `len` characters over `alphabet`.
+    fn strings(alphabet: &[u8], len: usize) -> Vec<Vec<u8>> {
+        let mut all = vec![Vec::new()];
+        let mut last = vec![Vec::new()];
+        for _ in 0..len {
+            let next: Vec<Vec<u8>> = last
+                .iter()
+                .flat_map(|s: &Vec<u8>| {
+                    alphabet.iter().map(move |&c| {
+                        let mut t = s.clone();
+                        t.push(c);
+                        t
+                    })
+                })
+                .collect();
+            all.extend(next.iter().cloned());
+            last = next;
+        }
+        all
+    }
+
+    #[test]
+    fn a_vouched_token_is_what_rusts_parser_reads_and_within_its_bound() {
+        // Reference: Rust's own `str::parse::<f64>`. Every string of up to 6 characters of
+        // number syntax: where the byte loop vouches for one, the parser must read it, and
+        // with a bound a number may be passed over at (up to 37), finite and no larger than
+        // 10^bound.
+        let mut vouched = 0;
+        for s in strings(b"+-.eE019", 6) {
+            let text = std::str::from_utf8(&s).unwrap();
+            let Some(bound) = decimal_bound(&s) else {
+                continue;
+            };
+            vouched += 1;
+            let x: f64 = text
+                .parse()
+                .unwrap_or_else(|e| panic!("{text:?} vouched for but refused: {e}"));
+            if bound <= VALUE_DIGITS {
+                assert!(x.is_finite(), "{text:?}");
+                assert!(
+                    x.abs() <= 10f64.powi(bound as i32),
+                    "{text:?}: {x} > 1e{bound}"
+                );
+            }
+        }
+        assert!(vouched > 10_000, "{vouched}");
+    }
+
+    #[test]
+    fn the_bound_follows_the_digits_and_the_exponent() {
+        for (tok, bound) in [
+            ("0", Some(0)),
+            ("-0.000123", Some(0)),
+            ("123.4", Some(3)),
+            ("00012", Some(2)),
+            ("1e37", Some(38)),
+            ("9.99E+36", Some(37)),
+            (".5e-3", Some(-3)),
+            ("5.", Some(1)),
+            ("1e400", Some(401)),
+            ("1e99999999999999999999", Some(1 + (1 << 40))),
+            ("inf", None),
+            ("NaN", None),
+            ("1e", None),
+            ("e5", None),
+            (".", None),
+            ("-", None),
+            ("1.2.3", None),
+            ("0x10", None),
+            ("1,5", None),
+            ("", None),
+        ] {
+            assert_eq!(decimal_bound(tok.as_bytes()), bound, "{tok}");
+        }
+    }
+
+    #[test]
+    fn simple_decimals_are_what_rusts_parser_reads_bit_for_bit() {
+        // Reference: Rust's own `str::parse::<f64>` (correctly rounded). Every short
+        // string of number syntax, then many numbers written as files write them.
+        let mut answered = 0;
+        for s in strings(b"-.e059", 6) {
+            if let Some(x) = simple_decimal(&s) {
+                let text = std::str::from_utf8(&s).unwrap();
+                let want: f64 = text.parse().unwrap();
+                assert_eq!(x.to_bits(), want.to_bits(), "{text:?}");
+                answered += 1;
+            }
+        }
+        assert!(answered > 1000, "{answered}");
+        let mut state = 0x1234_5678_9abc_def0u64;
+        let mut fast = 0;
+        for k in 0..200_000 {
+            state ^= state << 13;
+            state ^= state >> 7;
+            state ^= state << 17;
+            let x = f64::from_bits(state >> 2) % 1e6 * if k % 2 == 0 { 1.0 } else { -1e-7 };
+            let text = match k % 5 {
+                0 => format!("{x:.9e}"),
+                1 => format!("{x:.6}"),
+                2 => format!("{x:E}"),
+                3 => format!("{:.17}", x / 1e3),
+                _ => format!("{x:+.3e}"),
+            };
+            let want: f64 = text.parse().unwrap();
+            if let Some(got) = simple_decimal(text.as_bytes()) {
+                assert_eq!(got.to_bits(), want.to_bits(), "{text}");
+                fast += 1;
+            }
+        }
+        assert!(fast > 50_000, "{fast}");
+        // Signs, zeros and the limits of the fast path.
+        for t in [
+            "-0",
+            "+0.0",
+            "-0e5",
+            "9007199254740992",
+            "9007199254740993",
+            "1e22",
+            "1e23",
+            "1e-22",
+            "1e-23",
+            "0.1234567890123456789",
+            "12345678901234567890",
+        ] {
+            let want: f64 = t.parse().unwrap();
+            if let Some(got) = simple_decimal(t.as_bytes()) {
+                assert_eq!(got.to_bits(), want.to_bits(), "{t}");
+            }
+        }
+        assert_eq!(
+            simple_decimal(b"-0").map(f64::to_bits),
+            Some((-0.0f64).to_bits())
+        );
+        assert_eq!(simple_decimal(b"9007199254740993"), None);
+        assert_eq!(simple_decimal(b"1e23"), None);
+        assert_eq!(simple_decimal(b"inf"), None);
+    }
+}
