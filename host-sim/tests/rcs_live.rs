@@ -10,91 +10,16 @@ use std::collections::BTreeMap;
 use std::path::Path;
 use std::process::Command;
 
+#[path = "support/rcs_scan.rs"]
+mod rcs_scan;
+
+use rcs_scan::{calibrated_scan, pattern, run, RCS_ARGS};
 use sweepgate_host::pipeline::replay::{replay_file, Options};
 use sweepgate_host::pipeline::replay_rcs;
 use sweepgate_host::web::{Hub, Limits, Meta};
 
 /// replay of a calibrated recording against `rcs`'s pattern.csv (as in rcs_replay.rs).
 const WEB_TOLERANCE_DB: f64 = 0.01;
-
-/// (angle in m°, frequency in Hz) → RCS dBsm from `rcs`'s pattern.csv.
-fn pattern(path: &Path) -> BTreeMap<(i64, i64), f64> {
-    let text = std::fs::read_to_string(path).unwrap();
-    let mut lines = text.lines();
-    let head: Vec<&str> = lines.next().unwrap().split(',').collect();
-    let col = |name: &str| head.iter().position(|h| *h == name).unwrap();
-    let (a, f, r) = (col("angle_deg"), col("frequency_hz"), col("rcs_dbsm"));
-    lines
-        .map(|l| {
-            let v: Vec<f64> = l.split(',').map(|x| x.parse().unwrap()).collect();
-            (((v[a] * 1000.0).round() as i64, v[f] as i64), v[r])
-        })
-        .collect()
-}
-
-fn run(dir: &Path, args: &[&str]) -> String {
-    let o = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
-        .args(args)
-        .current_dir(dir)
-        .output()
-        .unwrap();
-    assert!(
-        o.status.success(),
-        "{args:?}: {}",
-        String::from_utf8_lossy(&o.stderr)
-    );
-    String::from_utf8_lossy(&o.stdout).into_owned()
-}
-
-/// The shipped range's geometry and reference, as `rcs` takes them.
-const RCS_ARGS: &[&str] = &[
-    "--sphere-diameter-m",
-    "0.3",
-    "--zone-distance-m",
-    "4",
-    "--zone-size-m",
-    "0.6",
-    "--antenna-separation-m",
-    "0.3",
-    "--time-zero-ns",
-    "1.5",
-    "--mount-distance-m",
-    "4.8",
-    "--frequencies-hz",
-    "9e9,10e9,11e9",
-];
-
-/// Simulates the shipped scene as recordings and runs `rcs --calibrated-recording`.
-fn calibrated_scan(dir: &Path) {
-    let sc = Path::new(env!("CARGO_MANIFEST_DIR")).join("scenarios/rcs/range.toml");
-    run(
-        dir,
-        &[
-            "simulate-rcs",
-            "--scenario",
-            sc.to_str().unwrap(),
-            "--out",
-            "rec",
-            "--recording",
-        ],
-    );
-    let mut args = vec![
-        "rcs",
-        "rec/target.rec",
-        "--background",
-        "rec/background.rec",
-        "--reference",
-        "rec/reference.rec",
-        "--reference-background",
-        "rec/reference_background.rec",
-        "--out",
-        "report",
-        "--calibrated-recording",
-        "calibrated.rec",
-    ];
-    args.extend_from_slice(RCS_ARGS);
-    run(dir, &args);
-}
 
 /// Replays `rec` into a web view's hub and returns the hub's state (what a browser that
 /// connects after the scan is sent first).
@@ -528,4 +453,47 @@ fn a_stalled_turntable_holds_up_no_other_client() {
         first.join().unwrap()
     });
     assert!(err.starts_with("-240"), "{err}");
+}
+
+/// `--save-calibration` and `--calibrated-recording` never overwrite a measurement they read:
+/// refused before any work, with the option named, and the input left as it was.
+#[test]
+fn rcs_outputs_never_overwrite_its_inputs() {
+    let dir = tempfile::tempdir().unwrap();
+    calibrated_scan(dir.path());
+    for (option, input) in [
+        ("--save-calibration", "rec/target.rec"),
+        ("--save-calibration", "rec/reference_background.rec"),
+        ("--calibrated-recording", "rec/background.rec"),
+    ] {
+        let before = std::fs::read(dir.path().join(input)).unwrap();
+        let mut args = vec![
+            "rcs",
+            "rec/target.rec",
+            "--background",
+            "rec/background.rec",
+            "--reference",
+            "rec/reference.rec",
+            "--reference-background",
+            "rec/reference_background.rec",
+            "--out",
+            "report2",
+            option,
+            input,
+        ];
+        args.extend_from_slice(RCS_ARGS);
+        let o = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
+            .args(&args)
+            .current_dir(dir.path())
+            .output()
+            .unwrap();
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert!(!o.status.success(), "{option} {input} was accepted");
+        assert!(err.contains(option), "{err}");
+        assert_eq!(std::fs::read(dir.path().join(input)).unwrap(), before);
+        assert!(
+            !dir.path().join("report2").exists(),
+            "work done before refusing"
+        );
+    }
 }

@@ -7,13 +7,15 @@
 //! f64; `replay` gates through the scan engine as the board does (f32) and calibrates the
 //! bin values with the same factor and the same gated background.
 
-use std::collections::BTreeMap;
-use std::path::Path;
 use std::process::Command;
 use std::sync::atomic::AtomicBool;
 
+#[path = "support/rcs_scan.rs"]
+mod rcs_scan;
+
 use ratatui::backend::TestBackend;
 use ratatui::Terminal;
+use rcs_scan::{calibrated_scan, pattern};
 use sweepgate_host::formats::recording::recover_file;
 use sweepgate_host::model::rcs_targets::ReferenceTarget;
 use sweepgate_host::output::screen::{draw, Screen};
@@ -22,72 +24,6 @@ use sweepgate_host::pipeline::replay_rcs::{self, Calibrator};
 use sweepgate_host::pipeline::stream::Sink;
 
 const TOLERANCE_DB: f64 = 0.01;
-
-/// (angle, frequency) → RCS dBsm from `rcs`'s pattern.csv.
-fn pattern(path: &Path) -> BTreeMap<(i64, i64), f64> {
-    std::fs::read_to_string(path)
-        .unwrap()
-        .lines()
-        .skip(1)
-        .map(|l| {
-            let v: Vec<f64> = l.split(',').map(|x| x.parse().unwrap()).collect();
-            (((v[0] * 1000.0).round() as i64, v[1] as i64), v[2])
-        })
-        .collect()
-}
-
-/// Simulates the shipped scene as recordings and runs `rcs --calibrated-recording`.
-fn calibrated_scan(dir: &Path) {
-    let run = |args: &[&str]| {
-        let o = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
-            .args(args)
-            .current_dir(dir)
-            .output()
-            .unwrap();
-        assert!(
-            o.status.success(),
-            "{args:?}: {}",
-            String::from_utf8_lossy(&o.stderr)
-        );
-    };
-    let sc = Path::new(env!("CARGO_MANIFEST_DIR")).join("scenarios/rcs/range.toml");
-    run(&[
-        "simulate-rcs",
-        "--scenario",
-        sc.to_str().unwrap(),
-        "--out",
-        "rec",
-        "--recording",
-    ]);
-    run(&[
-        "rcs",
-        "rec/target.rec",
-        "--background",
-        "rec/background.rec",
-        "--reference",
-        "rec/reference.rec",
-        "--reference-background",
-        "rec/reference_background.rec",
-        "--sphere-diameter-m",
-        "0.3",
-        "--zone-distance-m",
-        "4",
-        "--zone-size-m",
-        "0.6",
-        "--antenna-separation-m",
-        "0.3",
-        "--time-zero-ns",
-        "1.5",
-        "--mount-distance-m",
-        "4.8",
-        "--frequencies-hz",
-        "9e9,10e9,11e9",
-        "--out",
-        "report",
-        "--calibrated-recording",
-        "calibrated.rec",
-    ]);
-}
 
 #[test]
 fn replay_prints_the_rcs_that_rcs_found() {

@@ -12,7 +12,7 @@ use serde_json::{json, Value};
 use sweepgate::plan::SPEED_OF_LIGHT_M_S;
 use sweepgate::rcs::Zone;
 
-use crate::formats::files::{check_output_dir, write_set};
+use crate::formats::files::{check_output_dir, refuse_if_same_file, write_set};
 use crate::formats::rcs_calibration;
 use crate::model::rcs_targets::ReferenceTarget;
 use crate::output::colour_map::{colour_map_svg, ColourMap};
@@ -105,8 +105,30 @@ fn gate_choice(opts: &RcsOptions) -> anyhow::Result<RcsGate> {
     Ok(RcsGate::Zone { zone, echoes_s })
 }
 
+/// Refuses, before any work, a `--save-calibration` or `--calibrated-recording` file that is
+/// one of the four measurements read.
+fn refuse_outputs_over_inputs(opts: &RcsOptions) -> anyhow::Result<()> {
+    let mut inputs = vec![
+        opts.target.as_path(),
+        opts.background.as_path(),
+        opts.reference.as_path(),
+    ];
+    inputs.extend(opts.reference_background.as_deref());
+    let outputs = [
+        ("--save-calibration", &opts.save_calibration),
+        ("--calibrated-recording", &opts.calibrated_recording),
+    ];
+    for (option, out) in outputs {
+        if let Some(out) = out {
+            refuse_if_same_file(out, &inputs).context(option)?;
+        }
+    }
+    Ok(())
+}
+
 /// Reads, processes and writes the report; returns the files written.
 pub fn run(opts: &RcsOptions) -> anyhow::Result<Vec<PathBuf>> {
+    refuse_outputs_over_inputs(opts)?;
     let choices = opts.gate.choices()?;
     let files = RcsFiles {
         target: &opts.target,
