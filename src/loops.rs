@@ -9,11 +9,58 @@
 
 use crate::Complex32;
 
+// The loops written for the Cortex-M4F's FPU (load-multiple, multiply-accumulate), where a
+// board opts in: each does whole steps of a few points and returns how many it did, and the
+// Rust loops here do the rest, so the results are the same bit for bit.
+#[cfg(all(feature = "fpu-loops", target_arch = "arm", target_abi = "eabihf"))]
+use sweepgate_fpu_loops as fpu;
+
+/// Without the FPU loops: every function does no point, and the Rust loops do them all.
+#[cfg(not(all(feature = "fpu-loops", target_arch = "arm", target_abi = "eabihf")))]
+mod fpu {
+    use crate::Complex32;
+
+    pub(super) fn window(_: &mut [Complex32], _: &[f32], _: f32) -> usize {
+        0
+    }
+    pub(super) fn add(_: &mut [Complex32], _: &[Complex32]) -> usize {
+        0
+    }
+    pub(super) fn dots_1(
+        _: &[Complex32],
+        _: &[f32],
+        _: &[Complex32],
+        _: &mut [f32; 2],
+        _: bool,
+    ) -> usize {
+        0
+    }
+    pub(super) fn dots_2(
+        _: &[Complex32],
+        _: &[f32],
+        _: [&[Complex32]; 2],
+        _: &mut [[f32; 2]; 2],
+        _: bool,
+    ) -> usize {
+        0
+    }
+    pub(super) fn dots_4(
+        _: &[Complex32],
+        _: &[f32],
+        _: [&[Complex32]; 4],
+        _: &mut [[f32; 2]; 4],
+        _: bool,
+    ) -> usize {
+        0
+    }
+}
+
 /// `buf[n] *= scale·band[n]` over the shorter of the two (step 1 of the gate's chain).
 #[inline(never)]
 pub(crate) fn window(buf: &mut [Complex32], band: &[f32], scale: f32) {
     let n = buf.len().min(band.len());
-    let (buf, band) = (&mut buf[..n], &band[..n]);
+    let done = fpu::window(&mut buf[..n], &band[..n], scale);
+    let (buf, band) = (&mut buf[done..n], &band[done..n]);
     // Eight points a step, written out (a build for size does not unroll loops).
     let mut vs = buf.chunks_exact_mut(8);
     let mut ws = band.chunks_exact(8);
@@ -35,7 +82,8 @@ pub(crate) fn window(buf: &mut [Complex32], band: &[f32], scale: f32) {
 #[inline(never)]
 pub(crate) fn add(sum: &mut [Complex32], points: &[Complex32]) {
     let n = sum.len().min(points.len());
-    let (sum, points) = (&mut sum[..n], &points[..n]);
+    let done = fpu::add(&mut sum[..n], &points[..n]);
+    let (sum, points) = (&mut sum[done..n], &points[done..n]);
     // Four points a step, written out (a build for size does not unroll loops).
     let mut ss = sum.chunks_exact_mut(4);
     let mut ps = points.chunks_exact(4);
@@ -115,6 +163,12 @@ pub(crate) fn dots_1(
     acc: &mut [f32; 2],
     window: bool,
 ) {
+    let n = xs.len();
+    let (Some(run), Some(ws)) = (run.get(..n), ws.get(..n)) else {
+        return;
+    };
+    let done = fpu::dots_1(xs, ws, run, acc, window);
+    let (xs, ws, run) = (&xs[done..], &ws[done..], &run[done..]);
     if window {
         dots_1_as::<true>(xs, ws, run, acc);
     } else {
@@ -163,6 +217,12 @@ pub(crate) fn dots_2(
     acc: &mut [[f32; 2]; 2],
     window: bool,
 ) {
+    let n = xs.len();
+    let (Some(r0), Some(r1), Some(ws)) = (runs[0].get(..n), runs[1].get(..n), ws.get(..n)) else {
+        return;
+    };
+    let done = fpu::dots_2(xs, ws, [r0, r1], acc, window);
+    let (xs, ws, runs) = (&xs[done..], &ws[done..], &[&r0[done..], &r1[done..]]);
     if window {
         dots_2_as::<true>(xs, ws, runs, acc);
     } else {
@@ -219,6 +279,13 @@ pub(crate) fn dots_4(
     acc: &mut [[f32; 2]; 4],
     window: bool,
 ) {
+    let n = xs.len();
+    let (Some(ws), true) = (ws.get(..n), runs.iter().all(|r| r.len() >= n)) else {
+        return;
+    };
+    let runs = runs.map(|r| &r[..n]);
+    let done = fpu::dots_4(xs, ws, runs, acc, window);
+    let (xs, ws, runs) = (&xs[done..], &ws[done..], &runs.map(|r| &r[done..]));
     if window {
         dots_4_as::<true>(xs, ws, runs, acc);
     } else {

@@ -2,7 +2,7 @@
 //!
 //! ```text
 //! cargo run --release -p sweepgate-host --example capture -- make REC CAPTURE [--echo never|every] [--gate-span-ns NS]
-//! cargo run --release -p sweepgate-host --example capture -- compare CAPTURE PREVIEW [--expect-echo-in-gate]
+//! cargo run --release -p sweepgate-host --example capture -- compare CAPTURE PREVIEW [--expect-echo-in-gate | --exact]
 //! cargo run --release -p sweepgate-host --example capture -- make-cuts CAPTURE [--echo never|every]
 //! cargo run --release -p sweepgate-host --example capture -- compare-cuts CAPTURE PREVIEW
 //! ```
@@ -19,8 +19,8 @@
 //! capture whose bins carry the echo-in-gate flag). `compare` replays the capture through the
 //! core's board loop (`sweepgate::pump`, as the firmware does) and compares the preview records
 //! with PREVIEW (written by the firmware): the same bins and flags, values within 1e-5
-//! relative. With `--expect-echo-in-gate` it also fails unless some of the host's records carry
-//! the echo-in-gate flag.
+//! relative (with `--exact`, equal bit for bit). With `--expect-echo-in-gate` it also fails
+//! unless some of the host's records carry the echo-in-gate flag.
 
 use anyhow::{bail, Context};
 use sweepgate::scan::EchoMode;
@@ -62,15 +62,18 @@ fn run() -> anyhow::Result<()> {
             Ok(())
         }
         ["compare", cap, preview, rest @ ..] => {
-            let expect_echo = match rest {
-                [] => false,
-                ["--expect-echo-in-gate"] => true,
+            // `--exact`: the gated and raw values equal bit for bit (tolerance 0), for a
+            // board whose loops must compute what the host's compute.
+            let (expect_echo, tolerance) = match rest {
+                [] => (false, 1e-5),
+                ["--expect-echo-in-gate"] => (true, 1e-5),
+                ["--exact"] => (false, 0.0),
                 other => bail!("unknown options {other:?}"),
             };
             let bytes = std::fs::read(cap).with_context(|| format!("reading {cap}"))?;
             let host = capture::replay(&bytes).with_context(|| cap.to_string())?;
             let board = std::fs::read(preview).with_context(|| format!("reading {preview}"))?;
-            let c = capture::compare(&board, &host.preview, 1e-5);
+            let c = capture::compare(&board, &host.preview, tolerance);
             println!(
                 "host: {} sweeps decoded, {} binned, {} bins closed",
                 host.decoded, host.counters.sweeps_binned, host.counters.bins_closed
@@ -113,7 +116,7 @@ fn run() -> anyhow::Result<()> {
             Ok(())
         }
         ["compare-cuts", cap, preview] => compare_cuts(cap, preview),
-        _ => bail!("usage: capture make REC CAPTURE [--echo never|every] [--gate-span-ns NS] | capture compare CAPTURE PREVIEW [--expect-echo-in-gate] | capture make-cuts CAPTURE [--echo never|every] | capture compare-cuts CAPTURE PREVIEW"),
+        _ => bail!("usage: capture make REC CAPTURE [--echo never|every] [--gate-span-ns NS] | capture compare CAPTURE PREVIEW [--expect-echo-in-gate | --exact] | capture make-cuts CAPTURE [--echo never|every] | capture compare-cuts CAPTURE PREVIEW"),
     }
 }
 
