@@ -91,11 +91,13 @@ fn real32_sample<const BIG_ENDIAN: bool>(bytes: &[u8; 8]) -> Option<Complex32> {
 /// The bits of a REAL,32 sample's two values.
 #[inline(always)]
 fn real32_words<const BIG_ENDIAN: bool>(b: &[u8; 8]) -> (u32, u32) {
-    let (lo, hi) = ([b[0], b[1], b[2], b[3]], [b[4], b[5], b[6], b[7]]);
+    // One 8-byte little-endian read, split (the compiler then loads words, not bytes).
+    let v = u64::from_le_bytes(*b);
+    let (lo, hi) = (v as u32, (v >> 32) as u32);
     if BIG_ENDIAN {
-        (u32::from_be_bytes(lo), u32::from_be_bytes(hi))
+        (lo.swap_bytes(), hi.swap_bytes())
     } else {
-        (u32::from_le_bytes(lo), u32::from_le_bytes(hi))
+        (lo, hi)
     }
 }
 
@@ -125,9 +127,16 @@ fn real32_copy_here<const BIG_ENDIAN: bool>(src: &[u8], dst: &mut [Complex32]) -
 /// them all at once. A large one is not proof of anything (values on both sides of a
 /// power of two OR into a larger exponent: 0.5 | 2.0 has the bits of 2^127), so then each
 /// value is checked.
+///
+/// The quick test compares with 2^126 (bits 0x7E80_0000), just below the smallest code,
+/// 9.9e37 (bits 0x7E94_F56A): shifted left past the sign, its bits are a constant a
+/// Cortex-M4 compare holds in the instruction itself. An OR between the two falls to the
+/// value-by-value check.
 #[inline(always)]
 fn all_usable(any: u32, dst: &[Complex32]) -> bool {
-    any & MAGNITUDE_BITS < SCPI_INFINITY_BITS
+    const QUICK_BOUND: u32 = 0x7E80_0000;
+    const _: () = assert!(QUICK_BOUND <= SCPI_INFINITY_BITS && QUICK_BOUND <= SCPI_NAN_BITS);
+    any << 1 < QUICK_BOUND << 1
         || dst
             .iter()
             .all(|z| usable_bits32(z.re.to_bits()) && usable_bits32(z.im.to_bits()))
@@ -534,6 +543,16 @@ impl BlockDecoder {
                 continue;
             }
             if fast {
+                if let Some((n, event)) = self.header_run(rest, out.len()) {
+                    pos += n;
+                    if event.is_some() {
+                        return Feed {
+                            consumed: pos,
+                            event,
+                        };
+                    }
+                    continue;
+                }
                 if let Some((n, event)) = self.definite_run(rest, out) {
                     pos += n;
                     if event.is_some() {
@@ -567,6 +586,34 @@ impl BlockDecoder {
             consumed: pos,
             event: None,
         }
+    }
+
+    /// Fast path for a whole definite header at the start of `rest` while waiting for a
+    /// block (`#`, a digit 1-9, that many digits): taken at once, with the byte path's effect
+    /// on state, counters and events. `None` when the byte path must go on: another state,
+    /// another byte, a header split across chunks or a non-digit in the count.
+    fn header_run(
+        &mut self,
+        rest: &[u8],
+        capacity: usize,
+    ) -> Option<(usize, Option<DecodeEvent<BlockError>>)> {
+        if !matches!(self.state, State::Idle) {
+            return None;
+        }
+        let [b'#', d @ b'1'..=b'9', tail @ ..] = rest else {
+            return None;
+        };
+        let n = usize::from(d - b'0');
+        let mut len = 0u32;
+        for &b in tail.get(..n)? {
+            if !b.is_ascii_digit() {
+                return None;
+            }
+            // At most 9 digits: below 10^9, fits u32 (as the byte path).
+            len = len.saturating_mul(10).saturating_add(u32::from(b - b'0'));
+        }
+        self.pending += 2 + n as u64;
+        Some((2 + n, self.header_done(len, capacity)))
     }
 
     /// Fast path inside a definite block: takes as much of `rest` as it can without the
@@ -620,52 +667,34 @@ impl BlockDecoder {
         left: u32,
         index: u32,
     ) -> Option<(usize, Option<DecodeEvent<BlockError>>)> {
-        // This block's bytes in the chunk.
-        let chunk = chunk.get(..chunk.len().min(left as usize))?;
-        let fill = usize::from(self.fill);
-        let len = chunk.len();
-        // Samples this chunk completes.
-        let samples = (fill + len) / 8;
-        if fill >= 8 {
-            return None;
-        }
-        let (Some(head), Some(last), Some(dst)) = (
-            chunk.first_chunk::<8>(),
-            chunk.last_chunk::<8>(),
-            out.get_mut(index as usize..)
-                .and_then(|o| o.get_mut(..samples)),
-        ) else {
-            return None;
-        };
-        // The OR of all words, for one test of the whole chunk (see `all_usable`).
-        let mut any = 0u32;
-        let (body, dst) = if fill == 0 {
-            (chunk, dst)
-        } else {
-            // The carried bytes, then the chunk's first word behind them.
-            // (What lands beyond the sample is never read: later bytes are assembled over it.)
-            self.sample
-                .get_mut(CARRY + fill..CARRY + fill + 8)?
-                .copy_from_slice(head);
-            let (slot, dst) = dst.split_first_mut()?;
-            let joined = eight(self.sample.get(CARRY..CARRY + 8)?);
-            let (re, im) = real32_words::<BIG_ENDIAN>(&joined);
-            any |= re | im;
-            *slot = Complex32::new(f32::from_bits(re), f32::from_bits(im));
-            (chunk.get(8 - fill..)?, dst)
-        };
-        any |= real32_copy_here::<BIG_ENDIAN>(body, dst)?;
-        let written = out.get(index as usize..index as usize + samples)?;
-        if !all_usable(any, written) {
+        // This block's bytes in the chunk, at least a sample's worth.
+        let len = chunk.len().min(left as usize);
+        let chunk = chunk.get(..len)?;
+        let (head, last) = (chunk.first_chunk::<8>()?, chunk.last_chunk::<8>()?);
+        // A REAL,32 sample is 8 bytes, so fewer than 8 are ever carried (every path that
+        // sets `fill` keeps it below the sample size); the mask only tells the compiler so.
+        debug_assert!(self.fill < 8);
+        let fill = usize::from(self.fill) & 7;
+        // The first sample is the carried bytes (none when `fill` is 0) and the chunk's first
+        // bytes behind them; whole samples follow in `body`. (What lands in the carry beyond
+        // the sample is never read: later bytes are assembled over it.)
+        let body = chunk.get(8 - fill..)?;
+        let samples = 1 + body.len() / 8;
+        let dst = out.get_mut(index as usize..)?.get_mut(..samples)?;
+        let carry = &mut self.sample[CARRY..CARRY + 16];
+        carry[fill..fill + 8].copy_from_slice(head);
+        let (re, im) = real32_words::<BIG_ENDIAN>(carry.first_chunk::<8>()?);
+        let (first, rest) = dst.split_first_mut()?;
+        *first = Complex32::new(f32::from_bits(re), f32::from_bits(im));
+        let any = re | im | real32_copy_here::<BIG_ENDIAN>(body, rest)?;
+        if !all_usable(any, dst) {
             // An unusable value: the general path decodes the chunk again and reports it.
             return None;
         }
         // The chunk ends inside a sample: carry its first bytes. The chunk's last word goes
         // in so that they land at the carry's start (the bytes before it are not read).
         let t = body.len() % 8;
-        if let Some(dst) = self.sample.get_mut(CARRY + t - 8..CARRY + t) {
-            dst.copy_from_slice(last);
-        }
+        self.sample[CARRY + t - 8..CARRY + t].copy_from_slice(last);
         self.fill = t as u8;
         self.run_end(len, left - len as u32, index + samples as u32)
     }
