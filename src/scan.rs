@@ -46,9 +46,9 @@
 //! needs the FFT path ([`Gate::apply`]: one inverse and one forward M-point FFT, about
 //! 243 k instructions for M = 1024 on a Cortex-M4F), so it is a choice:
 //! [`EchoMode::EveryBin`] takes the gated values from that FFT path too;
-//! [`EchoMode::Never`] uses the kernel path ([`Gate::window`] then
-//! [`Gate::apply_kernels_windowed`]: F dot products of K points, about 54 k instructions
-//! for M = 1024, K = 801, F = 4).
+//! [`EchoMode::Never`] uses the kernel path ([`Gate::apply_kernels`]: F dot products of K
+//! points, the band window applied on the fly; about 19 k instructions for M = 1024,
+//! K = 801, F = 4 on a Cortex-M4F with the core's `fpu-loops` feature, README "Board").
 //!
 //! # Memory
 //!
@@ -899,8 +899,9 @@ where
 
 /// Gates a closed bin from its sum of sweeps and 1/count, in the sum's own storage (the
 /// bin is closed; the next one starts from zero). With an echo level the FFT path runs
-/// anyway, so the gated values are read from it; without, the sum is windowed in place
-/// (folding in 1/count) and the kernel path takes one dot product per frequency.
+/// anyway, so the gated values are read from it; without, the kernel path takes one dot
+/// product per frequency over the sum, the band window applied on the fly, and 1/count
+/// scales the F results.
 pub(crate) fn gate_bin<const M: usize, const F: usize>(
     g: BinGate<'_, M, F>,
     cb: &ClosedBin,
@@ -925,8 +926,12 @@ where
     let mut flags = cb.flags;
     let echo_db = match echo {
         EchoMode::Never => {
-            gate.window(sum, inv_count);
-            gate.apply_kernels_windowed(kernels, sum, &mut gated);
+            // The band window on the fly (no pass over the sum to window it first), and
+            // 1/count on the F results.
+            gate.apply_kernels(kernels, sum, &mut gated);
+            for g in gated.iter_mut() {
+                *g *= inv_count;
+            }
             None
         }
         EchoMode::EveryBin => {

@@ -508,7 +508,7 @@ fn cuts_case(c: &Counter, board: &'static mut BoardPump) -> Result<(), Failure> 
 struct KernelFigures {
     /// [`Gate::apply_kernels`]: the band window applied on the fly.
     on_the_fly: u32,
-    /// [`Gate::window`] over the sweep, as the scan engine does before its dot products.
+    /// [`Gate::window`] over the sweep in place (the other way to the same values).
     window: u32,
     /// [`Gate::apply_kernels_windowed`]: the F dot products alone.
     dots: u32,
@@ -535,8 +535,8 @@ where
     let mut out = [ZERO; F];
     let on_the_fly = c.measure(|| gate.apply_kernels(&kernels, raw, &mut out));
     check(&out, &reference, M, F)?;
-    // As the scan engine does it: window the bin's sum in place (folding in 1/count), then
-    // one dot product per frequency.
+    // The other way: window the sweep in place, then one dot product per frequency (the
+    // scan engine windows on the fly, as above, and scales the F results by 1/count).
     scratch.copy_from_slice(raw);
     let window = c.measure(|| gate.window(scratch, 1.0));
     let dots = c.measure(|| gate.apply_kernels_windowed(&kernels, scratch, &mut out));
@@ -913,7 +913,8 @@ where
 
 #[cfg(feature = "gate-figures")]
 /// Per-sweep and per-bin work at one K: decoding, adding to the open bin, closing it with
-/// the kernel path for F = 1, 4, 8 (window in place, dot products, bookkeeping). `kernels`
+/// the kernel path for F = 1, 4, 8 (the window on the fly, as the scan engine does, and the
+/// bookkeeping). `kernels`
 /// are `kernel_case`'s figures at this K. With `ENGINE`, the scan engine itself is measured
 /// too (at M = 2048 it does not fit the part's RAM beside the measurement).
 #[inline(never)]
@@ -928,7 +929,7 @@ where
     let decode = decode_figures::<M>(c, points)?;
     let (add, bookkeeping) = bins_case::<M>(c, points)?;
     for (f, k) in [1, 4, 8].into_iter().zip(kernels.iter()) {
-        let close = k.window + k.dots + bookkeeping;
+        let close = k.on_the_fly + bookkeeping;
         say!(
             "sweep M=",
             M,
@@ -944,10 +945,8 @@ where
             decode + add,
             " | per bin close ",
             close,
-            " (window ",
-            k.window,
-            " + dot products ",
-            k.dots,
+            " (kernel path, window on the fly ",
+            k.on_the_fly,
             " + bookkeeping ",
             bookkeeping,
             ")",
