@@ -61,49 +61,7 @@ fn run() -> anyhow::Result<()> {
             );
             Ok(())
         }
-        ["compare", cap, preview, rest @ ..] => {
-            // `--exact`: the gated and raw values equal bit for bit (tolerance 0), for a
-            // board whose loops must compute what the host's compute.
-            let (expect_echo, tolerance) = match rest {
-                [] => (false, 1e-5),
-                ["--expect-echo-in-gate"] => (true, 1e-5),
-                ["--exact"] => (false, 0.0),
-                other => bail!("unknown options {other:?}"),
-            };
-            let bytes = std::fs::read(cap).with_context(|| format!("reading {cap}"))?;
-            let host = capture::replay(&bytes).with_context(|| cap.to_string())?;
-            let board = std::fs::read(preview).with_context(|| format!("reading {preview}"))?;
-            let c = capture::compare(&board, &host.preview, tolerance);
-            println!(
-                "host: {} sweeps decoded, {} binned, {} bins closed",
-                host.decoded, host.counters.sweeps_binned, host.counters.bins_closed
-            );
-            println!(
-                "board: {} bin records, host: {} bin records; worst relative difference {:.2e}",
-                c.bins.0, c.bins.1, c.worst_relative
-            );
-            println!(
-                "records with the echo-in-gate flag: board {}, host {}; largest angle offset of a pattern frequency {:.4} deg",
-                c.echo_in_gate.0, c.echo_in_gate.1, c.largest_offset_deg
-            );
-            println!(
-                "impulse-response records: board {}, host {}, {} alike",
-                c.impulses.0, c.impulses.1, c.impulses_matched
-            );
-            for p in &c.problems {
-                println!("  mismatch: {p}");
-            }
-            let passed = c.matched + c.impulses_matched;
-            let failed = c.bins.0.max(c.bins.1) + c.impulses.0.max(c.impulses.1) - passed;
-            println!("firmware compare: {passed} passed, {failed} failed");
-            if failed > 0 || c.matched == 0 {
-                bail!("the board's preview records differ from the host's");
-            }
-            if expect_echo && c.echo_in_gate.1 == 0 {
-                bail!("no record of the host's replay carries the echo-in-gate flag");
-            }
-            Ok(())
-        }
+        ["compare", cap, preview, rest @ ..] => compare(cap, preview, rest),
         ["make-cuts", out, rest @ ..] => {
             let echo = match rest {
                 [] | ["--echo", "every"] => EchoMode::EveryBin,
@@ -118,6 +76,52 @@ fn run() -> anyhow::Result<()> {
         ["compare-cuts", cap, preview] => compare_cuts(cap, preview),
         _ => bail!("usage: capture make REC CAPTURE [--echo never|every] [--gate-span-ns NS] | capture compare CAPTURE PREVIEW [--expect-echo-in-gate | --exact] | capture make-cuts CAPTURE [--echo never|every] | capture compare-cuts CAPTURE PREVIEW"),
     }
+}
+
+/// `compare CAPTURE PREVIEW [--expect-echo-in-gate | --exact]`: the host replays the
+/// capture and its preview records are compared with the board's.
+fn compare(cap: &str, preview: &str, rest: &[&str]) -> anyhow::Result<()> {
+    // `--exact`: the gated and raw values equal bit for bit (tolerance 0), for a
+    // board whose loops must compute what the host's compute.
+    let (expect_echo, tolerance) = match rest {
+        [] => (false, 1e-5),
+        ["--expect-echo-in-gate"] => (true, 1e-5),
+        ["--exact"] => (false, 0.0),
+        other => bail!("unknown options {other:?}"),
+    };
+    let bytes = std::fs::read(cap).with_context(|| format!("reading {cap}"))?;
+    let host = capture::replay(&bytes).with_context(|| cap.to_string())?;
+    let board = std::fs::read(preview).with_context(|| format!("reading {preview}"))?;
+    let c = capture::compare(&board, &host.preview, tolerance);
+    println!(
+        "host: {} sweeps decoded, {} binned, {} bins closed",
+        host.decoded, host.counters.sweeps_binned, host.counters.bins_closed
+    );
+    println!(
+        "board: {} bin records, host: {} bin records; worst relative difference {:.2e}",
+        c.bins.0, c.bins.1, c.worst_relative
+    );
+    println!(
+        "records with the echo-in-gate flag: board {}, host {}; largest angle offset of a pattern frequency {:.4} deg",
+        c.echo_in_gate.0, c.echo_in_gate.1, c.largest_offset_deg
+    );
+    println!(
+        "impulse-response records: board {}, host {}, {} alike",
+        c.impulses.0, c.impulses.1, c.impulses_matched
+    );
+    for p in &c.problems {
+        println!("  mismatch: {p}");
+    }
+    let passed = c.matched + c.impulses_matched;
+    let failed = c.bins.0.max(c.bins.1) + c.impulses.0.max(c.impulses.1) - passed;
+    println!("firmware compare: {passed} passed, {failed} failed");
+    if failed > 0 || c.matched == 0 {
+        bail!("the board's preview records differ from the host's");
+    }
+    if expect_echo && c.echo_in_gate.1 == 0 {
+        bail!("no record of the host's replay carries the echo-in-gate flag");
+    }
+    Ok(())
 }
 
 /// The options of `make`: the echo mode (every bin unless `--echo never`) and the set-up
