@@ -3,10 +3,11 @@
 //! A gate is built once from the sweep frequencies and the gate settings (the core validates
 //! them, as it does for every command) and then applied to N × K arrays of sweeps: the FFT
 //! path (whole gated spectrum and echo level), the kernel path (gated values at chosen grid
-//! points) and the windowed impulse response. The transforms are the host's FFT (rustfft,
-//! `sweepgate_host::pipeline::transform::HostFft`, as `process` uses; within 1e-5 of the
-//! core's microfft). The rows are split over threads, each with its own scratch buffers and
-//! FFT, and the GIL is released while they run.
+//! points) and the windowed impulse response. The FFT path runs on the host's FFT (rustfft,
+//! `sweepgate_host::pipeline::transform::HostFft`, as `process` gates; within 1e-5 of the
+//! core's microfft); the impulse response on the core's, as the report's impulse view. The
+//! rows are split over threads, each with its own scratch buffers and FFT, and the GIL is
+//! released while they run.
 
 use anyhow::{anyhow, bail, Context};
 use numpy::ndarray::Array2;
@@ -127,10 +128,11 @@ where
         let k = self.0.points();
         let mut raw = Box::new([ZERO; M]);
         let mut h = Box::new([ZERO; M]);
-        let mut fft = HostFft::<M>::new();
+        // The core's FFT, as the report's impulse view (`transform::impulse_view`) takes it:
+        // `process`'s impulse and this one are the same numbers.
         for (row, o) in rows.chunks(k).zip(out.chunks_mut(M)) {
             self.load(row, &mut raw);
-            self.0.impulse_response_using(&mut fft, &raw, &mut h);
+            self.0.impulse_response(&raw, &mut h);
             o.copy_from_slice(&h[..]);
         }
     }
