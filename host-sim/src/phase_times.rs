@@ -12,9 +12,12 @@ use std::time::Instant;
 /// The environment variable that turns the lines on.
 pub const ENV: &str = "SWEEPGATE_PHASE_TIMES";
 
-/// The first and the previous mark's instants, when timing is on.
-fn clock() -> Option<&'static Mutex<Option<(Instant, Instant)>>> {
-    static ON: OnceLock<Option<Mutex<Option<(Instant, Instant)>>>> = OnceLock::new();
+/// The first and the previous mark's instants, once there was a mark.
+type Marks = Mutex<Option<(Instant, Instant)>>;
+
+/// The marks, when timing is on.
+fn clock() -> Option<&'static Marks> {
+    static ON: OnceLock<Option<Marks>> = OnceLock::new();
     ON.get_or_init(|| std::env::var_os(ENV).map(|_| Mutex::new(None)))
         .as_ref()
 }
