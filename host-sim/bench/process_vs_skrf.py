@@ -7,6 +7,7 @@ files x points on one and two threads.
     python3 -m venv target/bench-venv && target/bench-venv/bin/pip install numpy scikit-rf
     target/bench-venv/bin/python host-sim/bench/process_vs_skrf.py            # 1,440 files
     target/bench-venv/bin/python host-sim/bench/process_vs_skrf.py --scale    # the table
+    target/bench-venv/bin/python host-sim/bench/process_vs_skrf.py --pairs 21 # 2 threads / 1
 
 The scan (made once, kept under target/bench-data/): FILES two-port Touchstone files (RI,
 Hz) of POINTS points over 8-12 GHz, one per angle over a full turn, S21 a direct path at 18 ns
@@ -26,6 +27,12 @@ machine the CPU times are the steadier figure.
 
 Prints each time, the ratio of scikit-rf's time over process's (default threads: every core)
 and process's speed-up from one thread to two, with the load average before each.
+
+With --pairs N, no scikit-rf: process on one thread and on two, run in turn N times each
+(1, 2, 1, 2, ...), so that a drift in the machine's speed falls on both; prints the median
+and smallest wall time of each, the median of the N pairs' ratios (one thread's time over
+two threads'), the load average before and after, and the share of the processors' time
+the hypervisor gave to others meanwhile (steal, from /proc/stat, where there is one).
 """
 import argparse
 import os
@@ -156,6 +163,39 @@ def compare(binary, files, points, repeat):
     print(f"process: 2 threads over 1 thread: {one[0] / two[0]:.2f}x")
 
 
+def cpu_ticks():
+    """(steal, total) ticks of all processors so far, or None without /proc/stat."""
+    try:
+        with open("/proc/stat") as fh:
+            fields = [int(x) for x in fh.readline().split()[1:9]]
+    except OSError:
+        return None
+    return fields[7], sum(fields)
+
+
+def pairs(binary, files, points, n):
+    manifest = make_scan(files, points)
+    print(f"scan: {files} files of {points} points ({manifest})")
+    with tempfile.TemporaryDirectory() as tmp:
+        out = os.path.join(tmp, "report")
+        sweepgate_run(binary, manifest, 1, out)  # warm the file cache
+        print(load())
+        ticks = cpu_ticks()
+        one, two = [], []
+        for _ in range(n):
+            one.append(sweepgate_run(binary, manifest, 1, out)[0])
+            two.append(sweepgate_run(binary, manifest, 2, out)[0])
+        after = cpu_ticks()
+    print(load())
+    if ticks and after and after[1] > ticks[1]:
+        print(f"steal while running: {100 * (after[0] - ticks[0]) / (after[1] - ticks[1]):.0f}%")
+    ratios = [a / b for a, b in zip(one, two)]
+    for name, t in (("1 thread", one), ("2 threads", two)):
+        print(f"sweepgate process, {name}: median {np.median(t):.3f} s, smallest {min(t):.3f} s")
+    print(f"process: 2 threads over 1 thread, median of {n} pairs: {np.median(ratios):.2f}x "
+          f"(pairs from {min(ratios):.2f}x to {max(ratios):.2f}x)")
+
+
 def scale(binary, repeat):
     print("| files x points | 1 thread: time, peak memory | 2 threads: time, peak memory | speed-up |")
     print("|---|---:|---:|---:|")
@@ -178,9 +218,13 @@ def main():
     ap.add_argument("--points", type=int, default=801)
     ap.add_argument("--repeat", type=int, default=5)
     ap.add_argument("--scale", action="store_true", help="the files x points table instead")
+    ap.add_argument("--pairs", type=int, metavar="N",
+                    help="one thread against two, N runs each in turn, instead")
     a = ap.parse_args()
     if a.scale:
         scale(a.binary, a.repeat)
+    elif a.pairs:
+        pairs(a.binary, a.files, a.points, a.pairs)
     else:
         compare(a.binary, a.files, a.points, a.repeat)
     return 0

@@ -11,6 +11,7 @@ pub mod limits;
 pub mod link;
 pub mod model;
 pub mod output;
+pub mod phase_times;
 pub mod pipeline;
 pub mod quote;
 pub mod threads;

@@ -124,3 +124,8 @@ pub const DEFAULT_MAX_RESYNCS_IN_ROW: u32 = 4;
 /// Most worker threads `process --threads` may ask for: each has an 8 MiB stack and its own
 /// FFT buffers, and more threads than cores gain nothing.
 pub const MAX_THREADS: usize = 256;
+
+/// Most threads a set of output files (a report folder) is written and synced on at once:
+/// they wait on the disk, not the processor, and a journaling file system commits the
+/// syncs that wait together once.
+pub const MAX_SYNC_THREADS: usize = 16;

@@ -1,7 +1,10 @@
 //! `process --threads N`: a manifest read and gated on one, two and three threads gives the
-//! same report bit for bit, and the library call behind it the same gated spectra and echo
-//! levels; `--threads 0` and a count over the limit are refused.
+//! same report folder bit for bit (every file, made and synced on the threads too, and the
+//! same as the report written file by file on one thread), and the library call behind it
+//! the same gated spectra and echo levels; `--threads 0` and a count over the limit are
+//! refused.
 
+use std::collections::BTreeMap;
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
@@ -9,8 +12,21 @@ use sweepgate::gate::GateConfig;
 use sweepgate::grid::Grid;
 use sweepgate::window::WindowKind;
 use sweepgate::Complex32;
+use sweepgate_host::output::report;
 use sweepgate_host::pipeline::engine::gate_sweeps_on;
 use sweepgate_host::pipeline::process::{self, Options};
+
+/// Every file of a folder by name, with its bytes.
+fn folder(dir: &Path) -> BTreeMap<String, Vec<u8>> {
+    std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| {
+            let e = e.unwrap();
+            let name = e.file_name().to_string_lossy().into_owned();
+            (name, std::fs::read(e.path()).unwrap())
+        })
+        .collect()
+}
 
 /// S21 of a direct path at 18 ns whose level follows the angle, an echo at 24 ns and a
 /// little deterministic ripple (a set-up of our own).
@@ -63,13 +79,38 @@ fn any_number_of_threads_gives_the_same_report() {
         assert_eq!(r.threads, threads);
         let p = process::process(&r).unwrap();
         assert_eq!(p.report.bins.len(), 36);
-        let csv = std::fs::read_to_string(out.join("pattern.csv")).unwrap();
+        let files = folder(&out);
+        if threads == 1 {
+            // The same files as the report made and written one by one on this thread.
+            let serial = dir.path().join("report-serial");
+            std::fs::create_dir(&serial).unwrap();
+            report::write_report(&p.report, &serial).unwrap();
+            assert!(folder(&serial) == files, "one thread against file by file");
+        }
         let bands = p.bands.unwrap();
         let gated: Vec<Vec<Complex32>> = bands.rows.into_iter().map(|r| r.gated).collect();
-        reports.push((csv, p.report.bins, gated));
+        reports.push((files, p.report.bins, gated));
     }
+    // A table, a summary, two plots at the default pattern frequency (the band's centre)
+    // and the impulse plot; no temporary file left behind.
+    let names: Vec<&str> = reports[0].0.keys().map(String::as_str).collect();
+    assert_eq!(
+        names,
+        [
+            "impulse-boresight.svg",
+            "pattern-polar-10000MHz.svg",
+            "pattern-rect-10000MHz.svg",
+            "pattern.csv",
+            "summary.json"
+        ]
+    );
+    let csv = String::from_utf8_lossy(&reports[0].0["pattern.csv"]).into_owned();
+    assert!(csv.lines().count() > 36, "{csv}");
     for (threads, r) in [2, 3].iter().zip(&reports[1..]) {
-        assert_eq!(r.0, reports[0].0, "pattern.csv, {threads} threads");
+        for (name, bytes) in &reports[0].0 {
+            assert!(r.0.get(name) == Some(bytes), "{name}, {threads} threads");
+        }
+        assert_eq!(r.0.len(), reports[0].0.len(), "files, {threads} threads");
         assert_eq!(r.1, reports[0].1, "bins, {threads} threads");
         assert_eq!(r.2, reports[0].2, "gated bands, {threads} threads");
     }

@@ -45,7 +45,7 @@ use sweepgate::grid::Grid;
 use sweepgate::Complex32;
 
 use crate::formats::touchstone::{
-    Parameter, Spacing, Touchstone, TouchstoneError, UNIFORM_TOLERANCE_OF_STEP,
+    GateSweep, Parameter, Spacing, Touchstone, TouchstoneError, UNIFORM_TOLERANCE_OF_STEP,
 };
 use crate::quote::clipped;
 
@@ -83,7 +83,7 @@ pub struct ManifestRow {
 }
 
 /// One sweep of a loaded manifest.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, Default, PartialEq)]
 pub struct AngleSweep {
     /// Turntable angle.
     pub angle_deg: f64,
@@ -272,6 +272,35 @@ fn parse_row(raw: &str, axes: bool) -> Result<(f64, Option<f64>, String), Manife
     Ok((angle_deg, phi_deg, file))
 }
 
+/// Whether a header line is [`HEADER_AXES`] (`Some(true)`) or [`HEADER`] (`Some(false)`),
+/// spaces around the names allowed; `None` for anything else.
+fn header_axes(line: &str) -> Option<bool> {
+    let names: Vec<&str> = line.split(',').map(str::trim).collect();
+    match names[..] {
+        ["theta_deg", "phi_deg", "file"] => Some(true),
+        ["angle_deg", "file"] => Some(false),
+        _ => None,
+    }
+}
+
+/// The error of a row whose angles an earlier row (on `first_line`) gave.
+fn duplicate(angle_deg: f64, phi_deg: Option<f64>, first_line: usize) -> ManifestErrorKind {
+    match phi_deg {
+        Some(phi_deg) => ManifestErrorKind::DuplicatePair {
+            theta_deg: angle_deg,
+            phi_deg,
+            first_line,
+        },
+        None => ManifestErrorKind::DuplicateAngle {
+            angle_deg,
+            first_line,
+        },
+    }
+}
+
+/// Bytes of a manifest's start [`Manifest::peek_axes`] reads at most.
+const PEEK_BYTES: usize = 64 << 10;
+
 /// The key a row's angles are told apart by (−0 counted as 0).
 fn angle_key(a: f64) -> u64 {
     if a == 0.0 {
@@ -288,9 +317,57 @@ pub struct Manifest {
     rows: Vec<ManifestRow>,
 }
 
+/// When a row's file is looked for: as the manifest is read, or by the threads that read
+/// the files ([`Manifest::read_and_load_on`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Look {
+    Now,
+    Later,
+}
+
+/// Whether `path` is a file: the kind of error a manifest row gets when it is not.
+fn look_at(path: &Path) -> Result<(), ManifestErrorKind> {
+    // One look at the file system per row (`is_dir` and `is_file` would make two).
+    let meta = std::fs::metadata(path).ok();
+    if meta.as_ref().is_some_and(std::fs::Metadata::is_dir) {
+        return Err(ManifestErrorKind::FileIsAFolder(path.to_path_buf()));
+    }
+    if !meta.is_some_and(|m| m.is_file()) {
+        return Err(ManifestErrorKind::MissingFile(path.to_path_buf()));
+    }
+    Ok(())
+}
+
+/// Why one row's file gave no sweep.
+enum RowFailed {
+    /// Not a file ([`look_at`]).
+    Look(ManifestErrorKind),
+    /// Refused by the Touchstone reader.
+    Read(TouchstoneError),
+}
+
 impl Manifest {
     /// Reads a manifest; every file it names must exist.
     pub fn read(path: &Path) -> Result<Self, ManifestError> {
+        Self::read_looking(path, Look::Now)
+    }
+
+    /// [`Manifest::read`] then [`Manifest::load_on`], the files looked for by the threads
+    /// that read them instead of one by one before: the same manifest, sweeps, warnings and
+    /// first error (a row error or a missing file in the manifest's order, before any
+    /// file's Touchstone error).
+    pub fn read_and_load_on(
+        path: &Path,
+        parameter: Option<Parameter>,
+        spacing: Spacing,
+        threads: usize,
+    ) -> Result<(Self, ManifestScan), ManifestError> {
+        let m = Self::read_looking(path, Look::Later)?;
+        let scan = m.load_looking(parameter, spacing, threads, Look::Later)?;
+        Ok((m, scan))
+    }
+
+    fn read_looking(path: &Path, look: Look) -> Result<Self, ManifestError> {
         let name = path.display().to_string();
         let text = std::fs::read_to_string(path).map_err(|e| ManifestError {
             file: name.clone(),
@@ -298,12 +375,23 @@ impl Manifest {
             kind: ManifestErrorKind::Io(e.to_string()),
         })?;
         let base = path.parent().unwrap_or(Path::new(""));
-        Self::parse_str(&text, &name, base)
+        Self::parse_looking(&text, &name, base, look)
     }
 
     /// Parses manifest text named `name` (for errors), resolving files against `base`;
     /// every file must exist.
     pub fn parse_str(text: &str, name: &str, base: &Path) -> Result<Self, ManifestError> {
+        Self::parse_looking(text, name, base, Look::Now)
+    }
+
+    /// [`Manifest::parse_str`], the files looked for now or later; with `Look::Later` a
+    /// row's error is preceded by a missing file on an earlier row, as with `Look::Now`.
+    fn parse_looking(
+        text: &str,
+        name: &str,
+        base: &Path,
+        look: Look,
+    ) -> Result<Self, ManifestError> {
         let err = |line: Option<usize>, kind| ManifestError {
             file: name.to_string(),
             line,
@@ -315,49 +403,46 @@ impl Manifest {
             .by_ref()
             .find(|(_, l)| !l.trim().is_empty())
             .ok_or_else(|| err(None, ManifestErrorKind::NoRows))?;
-        let normal: Vec<&str> = header.1.split(',').map(str::trim).collect();
-        let axes = normal == ["theta_deg", "phi_deg", "file"];
-        if normal != ["angle_deg", "file"] && !axes {
+        let Some(axes) = header_axes(header.1) else {
             return Err(err(
                 Some(header.0),
                 ManifestErrorKind::BadHeader(header.1.trim().to_string()),
             ));
-        }
+        };
         let mut rows: Vec<ManifestRow> = Vec::new();
         let mut seen: std::collections::HashMap<(u64, u64), usize> =
             std::collections::HashMap::new();
+        // With the looks left for later, a row's error yields to an earlier missing file.
+        let earlier = |rows: &[ManifestRow], line: usize, kind: ManifestErrorKind| {
+            let missing = (look == Look::Later)
+                .then(|| {
+                    rows.iter()
+                        .find_map(|r| Some((r.line, look_at(&r.file).err()?)))
+                })
+                .flatten();
+            match missing {
+                Some((l, k)) => err(Some(l), k),
+                None => err(Some(line), kind),
+            }
+        };
         for (line, raw) in lines {
             if raw.trim().is_empty() {
                 continue;
             }
             let at = Some(line);
-            let (angle_deg, phi_deg, file) = parse_row(raw, axes).map_err(|k| err(at, k))?;
+            let (angle_deg, phi_deg, file) =
+                parse_row(raw, axes).map_err(|k| earlier(&rows, line, k))?;
             // One look-up per row (a hash of the angles' bits, −0 counted as 0), so a
             // manifest of a million rows is read in linear time.
             let key = (angle_key(angle_deg), phi_deg.map_or(0, angle_key));
             if let Some(&first_line) = seen.get(&key) {
-                let kind = match phi_deg {
-                    Some(phi_deg) => ManifestErrorKind::DuplicatePair {
-                        theta_deg: angle_deg,
-                        phi_deg,
-                        first_line,
-                    },
-                    None => ManifestErrorKind::DuplicateAngle {
-                        angle_deg,
-                        first_line,
-                    },
-                };
-                return Err(err(at, kind));
+                let kind = duplicate(angle_deg, phi_deg, first_line);
+                return Err(earlier(&rows, line, kind));
             }
             seen.insert(key, line);
             let path = base.join(&file);
-            // One look at the file system per row (`is_dir` and `is_file` would make two).
-            let meta = std::fs::metadata(&path).ok();
-            if meta.as_ref().is_some_and(std::fs::Metadata::is_dir) {
-                return Err(err(at, ManifestErrorKind::FileIsAFolder(path)));
-            }
-            if !meta.is_some_and(|m| m.is_file()) {
-                return Err(err(at, ManifestErrorKind::MissingFile(path)));
+            if look == Look::Now {
+                look_at(&path).map_err(|k| err(at, k))?;
             }
             rows.push(ManifestRow {
                 line,
@@ -390,6 +475,34 @@ impl Manifest {
         self.rows.first().is_some_and(|r| r.phi_deg.is_some())
     }
 
+    /// Whether the manifest at `path` gives both axes per file, from its header line alone
+    /// (no row is read and no file looked for): what [`Manifest::read`] then
+    /// [`Manifest::has_axes`] say of a manifest they accept. A manifest whose header is
+    /// not found in its first [`PEEK_BYTES`] bytes, or is neither header, is read whole, so
+    /// that the error is [`Manifest::read`]'s.
+    pub fn peek_axes(path: &Path) -> Result<bool, ManifestError> {
+        use std::io::Read;
+        let mut head = Vec::with_capacity(PEEK_BYTES);
+        let opened = std::fs::File::open(path)
+            .and_then(|f| f.take(PEEK_BYTES as u64).read_to_end(&mut head));
+        let text = match &opened {
+            Ok(_) => String::from_utf8_lossy(&head),
+            Err(_) => return Self::read(path).map(|m| m.has_axes()),
+        };
+        let text = text.strip_prefix('\u{feff}').unwrap_or(&text);
+        // A line is whole when a line break follows it, or the file ended within the bytes.
+        let whole = head.len() < PEEK_BYTES;
+        let mut lines = text.split_inclusive('\n');
+        let header = lines.find(|l| !l.trim().is_empty());
+        match header
+            .filter(|l| whole || l.ends_with('\n'))
+            .and_then(header_axes)
+        {
+            Some(axes) => Ok(axes),
+            None => Self::read(path).map(|m| m.has_axes()),
+        }
+    }
+
     /// Reads every file and takes `parameter` from each (default: S21 from files of two or
     /// more ports, S11 from 1-port files) on a uniform grid (see
     /// [`Touchstone::to_sweep`]). All files must share one grid: the same point count, and
@@ -411,22 +524,63 @@ impl Manifest {
         spacing: Spacing,
         threads: usize,
     ) -> Result<ManifestScan, ManifestError> {
-        let err = |row: &ManifestRow, kind| ManifestError {
-            file: self.name.clone(),
-            line: Some(row.line),
-            kind,
+        self.load_looking(parameter, spacing, threads, Look::Now)
+    }
+
+    /// Each row's file read on up to `threads` threads (looked for first, on the same
+    /// thread, with `Look::Later`): the Touchstone reader's result per row, or the first
+    /// missing file in the manifest's order.
+    fn read_files(
+        &self,
+        parameter: Option<Parameter>,
+        spacing: Spacing,
+        threads: usize,
+        look: Look,
+    ) -> Result<Vec<Result<GateSweep, TouchstoneError>>, ManifestError> {
+        let read_one = |row: &ManifestRow| {
+            if look == Look::Later {
+                look_at(&row.file).map_err(RowFailed::Look)?;
+            }
+            Touchstone::read_sweep(&row.file, parameter, spacing).map_err(RowFailed::Read)
         };
         let read = crate::threads::map_blocks(
             &self.rows,
             threads,
             8,
             || (),
-            |_, rows| {
-                rows.iter()
-                    .map(|row| Touchstone::read_sweep(&row.file, parameter, spacing))
-                    .collect()
-            },
+            |_, rows| rows.iter().map(read_one).collect(),
         );
+        self.rows
+            .iter()
+            .zip(read)
+            .map(|(row, r)| match r {
+                Ok(s) => Ok(Ok(s)),
+                Err(RowFailed::Read(e)) => Ok(Err(e)),
+                Err(RowFailed::Look(kind)) => Err(ManifestError {
+                    file: self.name.clone(),
+                    line: Some(row.line),
+                    kind,
+                }),
+            })
+            .collect()
+    }
+
+    /// [`Manifest::load_on`]; with `Look::Later` each file is looked for before it is
+    /// read, on the reading thread, and the first missing file (in the manifest's order)
+    /// is the error before any Touchstone error.
+    fn load_looking(
+        &self,
+        parameter: Option<Parameter>,
+        spacing: Spacing,
+        threads: usize,
+        look: Look,
+    ) -> Result<ManifestScan, ManifestError> {
+        let err = |row: &ManifestRow, kind| ManifestError {
+            file: self.name.clone(),
+            line: Some(row.line),
+            kind,
+        };
+        let read = self.read_files(parameter, spacing, threads, look)?;
         let mut first: Option<(Grid, &Path)> = None;
         let mut sweeps = Vec::with_capacity(self.rows.len());
         let mut warnings = Vec::new();
@@ -711,5 +865,93 @@ mod tests {
             assert_eq!(r.angle_deg, *a);
             assert_eq!(r.file, d.0.join(n));
         }
+    }
+
+    /// `read` then `load_on`, as one result.
+    fn both_steps(m: &Path, threads: usize) -> Result<(Manifest, ManifestScan), ManifestError> {
+        let man = Manifest::read(m)?;
+        let scan = man.load_on(None, Spacing::RequireUniform, threads)?;
+        Ok((man, scan))
+    }
+
+    #[test]
+    fn looking_for_the_files_on_the_reading_threads_changes_nothing() {
+        let d = Dir::new("later");
+        for (name, s21) in [("a.s2p", 0.5), ("b.s2p", 0.25), ("c.s2p", 0.125)] {
+            d.write(name, &s2p(100.0, 1.0, 4, s21));
+        }
+        d.write("bad.s2p", "# MHz S RI\n100 1 0 0 0 0 0 1\n");
+        std::fs::create_dir_all(d.0.join("folder.s2p")).unwrap();
+        let h = "angle_deg,file\n";
+        // Each case: (manifest text, the line its first error is on, when refused).
+        let cases = [
+            (format!("{h}0,a.s2p\n5,b.s2p\n10,c.s2p\n"), None),
+            // A missing file before a row's error, and after it.
+            (
+                format!("{h}0,a.s2p\n5,gone.s2p\n10,c.s2p\nten,b.s2p\n"),
+                Some(3),
+            ),
+            (format!("{h}0,a.s2p\nten,b.s2p\n5,gone.s2p\n"), Some(3)),
+            (format!("{h}0,a.s2p\n5,gone.s2p\n0,c.s2p\n"), Some(3)),
+            (format!("{h}0,a.s2p\n5,folder.s2p\n5,c.s2p\n"), Some(3)),
+            // A missing file after a file the Touchstone reader refuses: the missing one.
+            (format!("{h}0,bad.s2p\n5,a.s2p\n10,gone.s2p\n"), Some(4)),
+            (format!("{h}0,a.s2p\n5,bad.s2p\n10,folder.s2p\n"), Some(4)),
+            (format!("{h}0,a.s2p\n5,bad.s2p\n10,b.s2p\n"), Some(3)),
+            (format!("{h}\n"), None),
+        ];
+        for (text, line) in &cases {
+            let m = d.write("m.csv", text);
+            for threads in [1, 2, 3] {
+                let later = Manifest::read_and_load_on(&m, None, Spacing::RequireUniform, threads);
+                let now = both_steps(&m, threads);
+                assert_eq!(later, now, "{text:?}, {threads} threads");
+                if let Some(line) = line {
+                    assert_eq!(later.unwrap_err().line, Some(*line), "{text:?}");
+                }
+            }
+        }
+        let m = d.write("m.csv", &cases[0].0);
+        let (man, scan) = Manifest::read_and_load_on(&m, None, Spacing::RequireUniform, 2).unwrap();
+        assert_eq!(man.rows().len(), 3);
+        assert_eq!(scan.sweeps[2].values[1], Complex32::new(0.125, 1.0));
+    }
+
+    #[test]
+    fn the_header_alone_says_whether_a_manifest_has_both_axes() {
+        let d = Dir::new("peek");
+        d.write("a.s2p", &s2p(100.0, 1.0, 4, 0.5));
+        let cases = [
+            ("angle_deg,file\n0,a.s2p\n", Ok(false)),
+            (
+                "\u{feff}\n  \r\n theta_deg , phi_deg,file\r\n0,0,a.s2p\n",
+                Ok(true),
+            ),
+            ("theta_deg,phi_deg,file\n0,0,a.s2p\n", Ok(true)),
+            // Rows are not read: a missing file is found later, when the files are read.
+            ("angle_deg,file\n0,gone.s2p\n", Ok(false)),
+        ];
+        for (text, want) in cases {
+            let m = d.write("m.csv", text);
+            assert_eq!(Manifest::peek_axes(&m), want, "{text:?}");
+            if !text.contains("gone") {
+                assert_eq!(Manifest::read(&m).map(|m| m.has_axes()), want, "{text:?}");
+            }
+        }
+        // Neither header, no header, or no file: the error of reading it whole.
+        for text in ["angle,file\n0,a.s2p\n", "", "\n\n"] {
+            let m = d.write("m.csv", text);
+            let e = Manifest::peek_axes(&m).unwrap_err();
+            assert_eq!(Some(e), Manifest::read(&m).err(), "{text:?}");
+        }
+        let gone = d.0.join("none.csv");
+        assert_eq!(
+            Manifest::peek_axes(&gone).err(),
+            Manifest::read(&gone).err()
+        );
+        // A header line longer than the bytes looked at is read whole too.
+        let long = format!("angle_deg,file{}\n0,a.s2p\n", " ".repeat(PEEK_BYTES));
+        let m = d.write("m.csv", &long);
+        assert_eq!(Manifest::peek_axes(&m), Ok(false));
     }
 }

@@ -206,7 +206,7 @@ fn bin_trace(
             file: s.file.clone(),
         })
         .collect();
-    manifest_bins::bin_sweeps(&sweeps, width_deg, full_circle)
+    manifest_bins::bin_sweeps(sweeps, width_deg, full_circle)
 }
 
 /// A cut binned: φ, full circle, and per trace its bins.

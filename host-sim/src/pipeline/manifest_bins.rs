@@ -58,9 +58,9 @@ pub fn angle_step_deg(angles_deg: &[f64], full_circle: bool) -> Option<f64> {
 }
 
 /// Bins the sweeps: `width_deg` when given, else the manifest's own step (1° for a single
-/// angle).
+/// angle). A bin of one file takes that file's sweep (no copy); the others are averaged.
 pub fn bin_sweeps(
-    sweeps: &[AngleSweep],
+    mut sweeps: Vec<AngleSweep>,
     width_deg: Option<f64>,
     full_circle: bool,
 ) -> anyhow::Result<ManifestBins> {
@@ -89,7 +89,7 @@ pub fn bin_sweeps(
         combined: Vec::new(),
     };
     for g in &groups {
-        let (sweep, note) = combine(sweeps, g, full_circle, width_deg);
+        let (sweep, note) = combine(&mut sweeps, g, full_circle, width_deg);
         out.sweeps.push(sweep);
         out.counts.push(g.len());
         out.combined.extend(note);
@@ -98,9 +98,10 @@ pub fn bin_sweeps(
 }
 
 /// The mean of the sweeps `members` (complex, point by point) at their mean key, and the
-/// sentence saying so when there is more than one.
+/// sentence saying so when there is more than one. A single member's sweep is taken out of
+/// `sweeps`, not copied (each file is in one bin only).
 fn combine(
-    sweeps: &[AngleSweep],
+    sweeps: &mut [AngleSweep],
     members: &[usize],
     full_circle: bool,
     width_deg: f64,
@@ -118,18 +119,13 @@ fn combine(
         .unwrap_or(0);
     if let [only] = members {
         // One file: its values as the mean below makes them (0 + v, over 1, in f64, is v
-        // exactly, but for −0 made +0, as 0 + v in f32 makes it), without the f64 pass.
-        let s = &sweeps[*only];
-        let values = s
-            .values
-            .iter()
-            .map(|v| Complex32::new(v.re + 0.0, v.im + 0.0))
-            .collect();
-        let sweep = AngleSweep {
-            angle_deg,
-            values,
-            file: s.file.clone(),
-        };
+        // exactly, but for −0 made +0, as v + 0 in f32 makes it), in place, without the
+        // f64 pass.
+        let mut sweep = std::mem::take(&mut sweeps[*only]);
+        for v in &mut sweep.values {
+            *v = Complex32::new(v.re + 0.0, v.im + 0.0);
+        }
+        sweep.angle_deg = angle_deg;
         return (sweep, None);
     }
     let values = (0..points)
@@ -191,7 +187,7 @@ mod tests {
             sweep(180.0, 3.0),
             sweep(350.0, 4.0),
         ];
-        let b = bin_sweeps(&s, None, true).unwrap();
+        let b = bin_sweeps(s.to_vec(), None, true).unwrap();
         assert_eq!(b.width_deg, 10.0);
         let angles: Vec<f64> = b.sweeps.iter().map(|s| s.angle_deg).collect();
         assert_eq!(angles, [-10.0, 0.0, 10.0, 180.0]);
@@ -219,17 +215,17 @@ mod tests {
         let s: Vec<AngleSweep> = (0..41)
             .map(|i| sweep(-5.0 + 0.25 * i as f64, 1.0))
             .collect();
-        let b = bin_sweeps(&s, None, false).unwrap();
+        let b = bin_sweeps(s.clone(), None, false).unwrap();
         assert!((b.width_deg - 0.25).abs() < 1e-12);
         assert_eq!(b.sweeps.len(), 41);
         assert!(b.combined.is_empty());
         // A given 1° width combines four files a bin (the first and last bins hold fewer).
-        let b = bin_sweeps(&s, Some(1.0), false).unwrap();
+        let b = bin_sweeps(s, Some(1.0), false).unwrap();
         assert_eq!(b.counts.iter().sum::<usize>(), 41);
         assert_eq!(b.sweeps.len(), 11);
         assert!(b.counts.iter().all(|&c| c <= 4), "{:?}", b.counts);
         // On a sector 350° and −10° are different angles.
-        let b = bin_sweeps(&[sweep(-10.0, 1.0), sweep(350.0, 1.0)], None, false).unwrap();
+        let b = bin_sweeps(vec![sweep(-10.0, 1.0), sweep(350.0, 1.0)], None, false).unwrap();
         assert_eq!(b.sweeps.len(), 2);
     }
 
@@ -258,7 +254,7 @@ mod tests {
             values: values.clone(),
             file: PathBuf::from("one.s2p"),
         };
-        let b = bin_sweeps(std::slice::from_ref(&one), None, false).unwrap();
+        let b = bin_sweeps(vec![one], None, false).unwrap();
         let mean: Vec<Complex32> = values
             .iter()
             .map(|v| {
@@ -275,8 +271,8 @@ mod tests {
 
     #[test]
     fn a_bad_width_is_refused() {
-        assert!(bin_sweeps(&[sweep(0.0, 1.0)], Some(0.0), false).is_err());
-        assert!(bin_sweeps(&[sweep(0.0, 1.0)], Some(f64::NAN), false).is_err());
+        assert!(bin_sweeps(vec![sweep(0.0, 1.0)], Some(0.0), false).is_err());
+        assert!(bin_sweeps(vec![sweep(0.0, 1.0)], Some(f64::NAN), false).is_err());
         assert_eq!(angle_step_deg(&[5.0], true), None);
         // The seam gap counts on a circle: 0…350 every 10° plus 355°.
         let mut a: Vec<f64> = (0..36).map(|i| 10.0 * i as f64).collect();

@@ -47,9 +47,11 @@ use std::sync::atomic::AtomicBool;
 
 use anyhow::{bail, Context};
 use sweepgate::gate::GateConfig;
+use sweepgate::grid::Grid;
 use sweepgate::metrics::wrap_deg;
 use sweepgate::Complex32;
 
+use crate::formats::files::check_output_dir;
 use crate::formats::gain_table::GainTable;
 use crate::formats::manifest::{AngleSweep, Manifest};
 use crate::formats::recording as record;
@@ -58,9 +60,10 @@ use crate::limits::MIN_REFERENCE_DB;
 use crate::model::scenario::toml_one_line;
 use crate::output::export::{self, BandRow, Bands, Exports};
 use crate::output::report::{self, ImpulseView, ReportBin, ReportInput, ReportValue};
+use crate::phase_times::mark;
 use crate::pipeline::cuts::{self, CutTraces};
 use crate::pipeline::engine::gate_sweeps_on;
-use crate::pipeline::manifest_bins;
+use crate::pipeline::manifest_bins::{self, ManifestBins};
 use crate::pipeline::options::{default_report_dir, window_option, Choices, GateOptions, Origin};
 use crate::pipeline::setup::{self, Automatic};
 use crate::pipeline::stream::{self, Discard, Pacing};
@@ -411,17 +414,20 @@ fn covers_full_circle(angles_deg: &[f64]) -> bool {
 /// unless a bin width is given; files sharing a bin averaged and reported), each bin's sweep
 /// gated on the FFT path. The bins' raw sweeps then move into the bands (no copy).
 pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> {
-    let m = Manifest::read(path)?;
-    let mut scan = m.load_on(r.parameter, r.spacing, r.threads)?;
+    let (m, mut scan) = Manifest::read_and_load_on(path, r.parameter, r.spacing, r.threads)?;
+    mark("manifest and files read");
     if scan.sweeps.is_empty() {
         bail!("{}: no sweeps", path.display());
     }
     let file_angles: Vec<f64> = scan.sweeps.iter().map(|s| s.angle_deg).collect();
     let full_circle = covers_full_circle(&file_angles);
-    let mut binned = manifest_bins::bin_sweeps(&scan.sweeps, r.choices.bin_width_deg, full_circle)
-        .with_context(|| format!("{}: binning the manifest's angles", path.display()))?;
-    // The files' sweeps are in the bins now: not kept beside them (memory).
-    let files = std::mem::take(&mut scan.sweeps).len();
+    // The files' sweeps move into the bins (a bin of one file takes its sweep, no copy).
+    let files = scan.sweeps.len();
+    let width = r.choices.bin_width_deg;
+    let mut binned =
+        manifest_bins::bin_sweeps(std::mem::take(&mut scan.sweeps), width, full_circle)
+            .with_context(|| format!("{}: binning the manifest's angles", path.display()))?;
+    mark("binned");
     let sweeps: Vec<&[Complex32]> = binned.sweeps.iter().map(|s| &s.values[..]).collect();
     let angles: Vec<f64> = binned.sweeps.iter().map(|s| s.angle_deg).collect();
     let auto = Automatic::Data {
@@ -430,6 +436,7 @@ pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> 
     };
     let bw = setup::band_window(&r.choices, None)?;
     let g = setup::gating(scan.grid, &r.choices, bw, &[], auto)?;
+    mark("gate set up");
     let (bins, impulse, gated) = gate_each(
         &g.gate,
         &binned.sweeps,
@@ -437,19 +444,8 @@ pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> 
         &g.indices,
         r.threads,
     )?;
-    let bands = Bands {
-        grid: scan.grid,
-        rows: binned
-            .sweeps
-            .iter_mut()
-            .zip(gated)
-            .map(|(s, gated)| BandRow {
-                angle_deg: s.angle_deg,
-                raw: std::mem::take(&mut s.values),
-                gated,
-            })
-            .collect(),
-    };
+    mark("gated");
+    let bands = bands_of(scan.grid, &mut binned, gated);
     let mut settings = Settings::for_sweeps(&g, bins.len(), full_circle);
     settings.bins.width_deg = Some(binned.width_deg as f32);
     settings.bins.one_per_manifest_angle = binned.combined.is_empty();
@@ -486,6 +482,21 @@ pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> 
         gate_source: g.gate_source,
         bands: Some(bands),
     })
+}
+
+/// The bins' whole bands: the raw sweeps moved out of `binned` (no copy) beside the gated.
+fn bands_of(grid: Grid, binned: &mut ManifestBins, gated: Vec<Vec<Complex32>>) -> Bands {
+    let rows = binned
+        .sweeps
+        .iter_mut()
+        .zip(gated)
+        .map(|(s, gated)| BandRow {
+            angle_deg: s.angle_deg,
+            raw: std::mem::take(&mut s.values),
+            gated,
+        })
+        .collect();
+    Bands { grid, rows }
 }
 
 /// Bins, the impulse view and each bin's gated spectrum.
@@ -549,8 +560,35 @@ pub fn process(r: &Resolved) -> anyhow::Result<Processed> {
     process_one(r)
 }
 
-/// [`process`] of an input known not to be a scan of cuts.
+/// [`process`] of an input known not to be a scan of cuts. The report folder is checked
+/// ([`check_output_dir`]) on a thread of its own while the input is processed (its test
+/// file's sync waits on the disk); a folder that cannot take the report is said when the
+/// processing is done, before anything is written.
 fn process_one(r: &Resolved) -> anyhow::Result<Processed> {
+    let (p, checked) = std::thread::scope(|scope| {
+        let check = std::thread::Builder::new()
+            .name("output check".into())
+            .spawn_scoped(scope, || check_output_dir(&r.out));
+        let p = process_input(r);
+        let checked = match check {
+            Ok(handle) => handle.join().unwrap_or_else(|_| check_output_dir(&r.out)),
+            // No thread to be had: checked here.
+            Err(_) => check_output_dir(&r.out),
+        };
+        (p, checked)
+    });
+    let p = p?;
+    checked.with_context(|| format!("writing the report to {}", r.out.display()))?;
+    mark("processed");
+    report::write_report_on(&p.report, &r.out, r.threads)
+        .with_context(|| format!("writing the report to {}", r.out.display()))?;
+    mark("report written");
+    export::write_exports(&p.report, p.bands.as_ref(), &r.exports)?;
+    Ok(p)
+}
+
+/// The input processed, with gain by substitution when asked for; nothing is written.
+fn process_input(r: &Resolved) -> anyhow::Result<Processed> {
     let mut p = match &r.input {
         Input::Manifest(m) => process_manifest(r, m)?,
         Input::Recording(rec) => process_recording(r, rec)?,
@@ -558,9 +596,6 @@ fn process_one(r: &Resolved) -> anyhow::Result<Processed> {
     if let Some((table, reference)) = &r.gain {
         p.report.gain = Some(gain_reference(r, &p, table, reference)?);
     }
-    report::write_report(&p.report, &r.out)
-        .with_context(|| format!("writing the report to {}", r.out.display()))?;
-    export::write_exports(&p.report, p.bands.as_ref(), &r.exports)?;
     Ok(p)
 }
 
@@ -633,10 +668,12 @@ fn gain_reference(
 /// Runs the command: resolves the options, processes (on a thread with room for the
 /// engine) and says what was written.
 pub fn run(opts: &Options) -> anyhow::Result<()> {
+    mark("start");
     let r = resolve(opts)?;
     if wants_cuts(&r)? {
         return run_cuts(&r);
     }
+    mark("options and input kind");
     let r2 = r.clone();
     let p = std::thread::Builder::new()
         .name("process".into())
@@ -659,6 +696,7 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
         p.gate_source,
         r.out.display()
     );
+    mark("done");
     if let Some(d) = &r.exports.touchstone_dir {
         eprintln!(
             "Touchstone export written to {}",
@@ -681,7 +719,7 @@ pub fn wants_cuts(r: &Resolved) -> anyhow::Result<bool> {
         // A recording of cuts is asked for with --co/--cross (it is read once).
         return Ok(false);
     };
-    Ok(Manifest::read(path)?.has_axes())
+    Ok(Manifest::peek_axes(path)?)
 }
 
 /// Processes a scan of cuts ([`crate::pipeline::cuts`]) and writes its report folder

@@ -451,25 +451,81 @@ pub fn summary_json(input: &ReportInput) -> Value {
 
 /// The report's files and their contents, made in memory (nothing is written).
 pub fn report_files(input: &ReportInput) -> anyhow::Result<Vec<(String, Vec<u8>)>> {
-    let mut files = vec![("pattern.csv".to_owned(), pattern_csv(input).into_bytes())];
-    let text = serde_json::to_string_pretty(&summary_json(input)).context("making summary.json")?;
-    files.push(("summary.json".to_owned(), (text + "\n").into_bytes()));
+    report_files_on(input, 1)
+}
+
+/// One file of the report.
+#[derive(Debug, Clone, Copy)]
+enum Part {
+    Table,
+    Summary,
+    Rect(usize),
+    Polar(usize),
+    Impulse,
+}
+
+/// The report's files, in the order they are written.
+fn parts(input: &ReportInput) -> Vec<Part> {
+    let mut parts = vec![Part::Table, Part::Summary];
     if !input.bins.is_empty() {
-        for (fi, f) in input.frequencies_hz.iter().enumerate() {
-            let name = format!("pattern-rect-{}.svg", mhz_name(*f));
-            let svg = plot::rect(&name, input, fi)?;
-            files.push((name, svg.into_bytes()));
-            let name = format!("pattern-polar-{}.svg", mhz_name(*f));
-            let svg = plot::polar(&name, input, fi)?;
-            files.push((name, svg.into_bytes()));
+        for fi in 0..input.frequencies_hz.len() {
+            parts.extend([Part::Rect(fi), Part::Polar(fi)]);
         }
     }
-    if let Some(iv) = &input.impulse {
-        let name = IMPULSE_PLOT.to_owned();
-        let svg = plot::impulse(&name, input, iv)?;
-        files.push((name, svg.into_bytes()));
+    if input.impulse.is_some() {
+        parts.push(Part::Impulse);
     }
-    Ok(files)
+    parts
+}
+
+/// One file's name and contents.
+fn make(input: &ReportInput, part: Part) -> anyhow::Result<(String, Vec<u8>)> {
+    let mhz = |fi: usize| input.frequencies_hz.get(fi).map_or(0.0, |f| *f);
+    let (name, text) = match part {
+        Part::Table => ("pattern.csv".to_owned(), pattern_csv(input)),
+        Part::Summary => {
+            let text = serde_json::to_string_pretty(&summary_json(input))
+                .context("making summary.json")?;
+            ("summary.json".to_owned(), text + "\n")
+        }
+        Part::Rect(fi) => {
+            let name = format!("pattern-rect-{}.svg", mhz_name(mhz(fi)));
+            let svg = plot::rect(&name, input, fi)?;
+            (name, svg)
+        }
+        Part::Polar(fi) => {
+            let name = format!("pattern-polar-{}.svg", mhz_name(mhz(fi)));
+            let svg = plot::polar(&name, input, fi)?;
+            (name, svg)
+        }
+        Part::Impulse => {
+            let iv = input
+                .impulse
+                .as_ref()
+                .context("no impulse response to plot")?;
+            let svg = plot::impulse(IMPULSE_PLOT, input, iv)?;
+            (IMPULSE_PLOT.to_owned(), svg)
+        }
+    };
+    Ok((name, text.into_bytes()))
+}
+
+/// [`report_files`], each file made on one of up to `threads` threads; the same files,
+/// byte for byte and in the same order, for any number.
+pub fn report_files_on(
+    input: &ReportInput,
+    threads: usize,
+) -> anyhow::Result<Vec<(String, Vec<u8>)>> {
+    let parts = parts(input);
+    crate::threads::map_blocks(
+        &parts,
+        threads,
+        1,
+        || (),
+        |_, block| block.iter().map(|&p| make(input, p)).collect(),
+    )
+    .into_iter()
+    .collect()
 }
 
 /// The impulse plot's file name.
@@ -499,6 +555,24 @@ fn is_report_name(name: &str) -> bool {
 pub fn write_report(input: &ReportInput, dir: &Path) -> anyhow::Result<Vec<PathBuf>> {
     let made = report_files(input)?;
     check_output_dir(dir)?;
+    write_made(made, dir)
+}
+
+/// [`write_report`] into a folder the caller has checked with [`check_output_dir`], the
+/// files made on up to `threads` threads (the same files for any number).
+pub fn write_report_on(
+    input: &ReportInput,
+    dir: &Path,
+    threads: usize,
+) -> anyhow::Result<Vec<PathBuf>> {
+    let made = report_files_on(input, threads)?;
+    crate::phase_times::mark("report made");
+    write_made(made, dir)
+}
+
+/// Writes the made files into `dir` as one set and removes an earlier run's report files
+/// that this set does not hold.
+fn write_made(made: Vec<(String, Vec<u8>)>, dir: &Path) -> anyhow::Result<Vec<PathBuf>> {
     let set: Vec<(PathBuf, Vec<u8>)> = made
         .into_iter()
         .map(|(name, bytes)| (dir.join(name), bytes))
@@ -567,5 +641,64 @@ mod tests {
         let mut sector = input.clone();
         sector.full_circle = false;
         assert_eq!(sector.cut(0).angles_deg, [-180.0, -90.0, 0.1, 90.0, 540.0]);
+    }
+
+    #[test]
+    fn the_files_are_the_same_made_on_any_number_of_threads() {
+        // Two pattern frequencies, a pattern over a full turn: a table, a summary and four
+        // plots, each made once on one thread and again spread over two and three.
+        let bins: Vec<ReportBin> = (0..72)
+            .map(|i| {
+                let angle_deg = -180.0 + 5.0 * f64::from(i);
+                let level = 0.1 + angle_deg.to_radians().cos().abs();
+                let mut b = bin(angle_deg);
+                b.echo_db = Some(-30.0 - f64::from(i % 7));
+                b.values = [1.0, 0.5]
+                    .map(|k| ReportValue {
+                        raw: Complex64::from_polar(level * k, angle_deg.to_radians()),
+                        gated: Complex64::from_polar(0.9 * level * k, 0.3),
+                        truth: None,
+                        angle_offset_deg: 0.0,
+                    })
+                    .to_vec();
+                b
+            })
+            .collect();
+        let input = ReportInput {
+            title: "t".into(),
+            source: "s".into(),
+            frequencies_hz: vec![9e9, 10e9],
+            full_circle: true,
+            bins,
+            settings: Value::Null,
+            counters: Value::Null,
+            warnings: vec!["a warning".into()],
+            impulse: None,
+            gain: None,
+        };
+        let one = report_files(&input).unwrap();
+        let names: Vec<&str> = one.iter().map(|(n, _)| n.as_str()).collect();
+        assert_eq!(
+            names,
+            [
+                "pattern.csv",
+                "summary.json",
+                "pattern-rect-9000MHz.svg",
+                "pattern-polar-9000MHz.svg",
+                "pattern-rect-10000MHz.svg",
+                "pattern-polar-10000MHz.svg"
+            ]
+        );
+        assert_eq!(one[0].1, pattern_csv(&input).into_bytes());
+        assert_eq!(
+            String::from_utf8_lossy(&one[0].1).lines().count(),
+            1 + 72 * 2
+        );
+        for threads in [2, 3] {
+            assert!(
+                report_files_on(&input, threads).unwrap() == one,
+                "{threads} threads"
+            );
+        }
     }
 }
