@@ -1043,3 +1043,35 @@ fn a_recording_header_with_absurd_bins_is_refused_quickly() {
     println!("hostile edges: {count} header bin-width cases passed");
     std::fs::remove_dir_all(&d).ok();
 }
+
+#[test]
+fn a_failed_process_leaves_no_empty_report_folder() {
+    // `process` checks its report folder (creating it) while it reads the input; when the
+    // input then fails, the folder it made is removed again, and one that was there stays.
+    let d = temp("no-empty-folder");
+    let manifest = d.join("scan.csv");
+    std::fs::write(&manifest, "angle_deg,file\n0,missing.s2p\n").unwrap();
+    for (case, out, existed) in [
+        ("a new folder", d.join("new-report"), false),
+        ("a folder that was there", d.join("old-report"), true),
+    ] {
+        if existed {
+            std::fs::create_dir_all(&out).unwrap();
+        }
+        let o = run(case, {
+            let mut c = bin();
+            c.args(["process", "--manifest"])
+                .arg(&manifest)
+                .arg("--out")
+                .arg(&out);
+            c
+        });
+        assert_refused(case, &o, &["missing.s2p"]);
+        assert_eq!(
+            out.exists(),
+            existed,
+            "{case}: the folder after the failure"
+        );
+    }
+    std::fs::remove_dir_all(&d).ok();
+}

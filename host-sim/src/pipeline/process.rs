@@ -563,8 +563,10 @@ pub fn process(r: &Resolved) -> anyhow::Result<Processed> {
 /// [`process`] of an input known not to be a scan of cuts. The report folder is checked
 /// ([`check_output_dir`]) on a thread of its own while the input is processed (its test
 /// file's sync waits on the disk); a folder that cannot take the report is said when the
-/// processing is done, before anything is written.
+/// processing is done, before anything is written. A folder the check made is removed
+/// again, if still empty, when the processing fails (no empty report folder left behind).
 fn process_one(r: &Resolved) -> anyhow::Result<Processed> {
+    let existed = r.out.exists();
     let (p, checked) = std::thread::scope(|scope| {
         let check = std::thread::Builder::new()
             .name("output check".into())
@@ -577,6 +579,10 @@ fn process_one(r: &Resolved) -> anyhow::Result<Processed> {
         };
         (p, checked)
     });
+    if p.is_err() && !existed {
+        // Only an empty folder goes (`remove_dir` refuses any other); parents it needed stay.
+        std::fs::remove_dir(&r.out).ok();
+    }
     let p = p?;
     checked.with_context(|| format!("writing the report to {}", r.out.display()))?;
     mark("processed");
