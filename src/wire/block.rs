@@ -543,17 +543,12 @@ impl BlockDecoder {
                 continue;
             }
             if fast {
-                if let Some((n, event)) = self.header_run(rest, out.len()) {
-                    pos += n;
-                    if event.is_some() {
-                        return Feed {
-                            consumed: pos,
-                            event,
-                        };
-                    }
-                    continue;
-                }
-                if let Some((n, event)) = self.definite_run(rest, out) {
+                // A whole header, or a run of a definite payload, at once.
+                let run = match self.header_run(rest, out.len()) {
+                    Some(taken) => Some(taken),
+                    None => self.definite_run(rest, out),
+                };
+                if let Some((n, event)) = run {
                     pos += n;
                     if event.is_some() {
                         return Feed {

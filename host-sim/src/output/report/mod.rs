@@ -480,7 +480,7 @@ fn parts(input: &ReportInput) -> Vec<Part> {
 
 /// One file's name and contents.
 fn make(input: &ReportInput, part: Part) -> anyhow::Result<(String, Vec<u8>)> {
-    let mhz = |fi: usize| input.frequencies_hz.get(fi).map_or(0.0, |f| *f);
+    let hz = |fi: usize| input.frequencies_hz.get(fi).map_or(0.0, |f| *f);
     let (name, text) = match part {
         Part::Table => ("pattern.csv".to_owned(), pattern_csv(input)),
         Part::Summary => {
@@ -489,12 +489,12 @@ fn make(input: &ReportInput, part: Part) -> anyhow::Result<(String, Vec<u8>)> {
             ("summary.json".to_owned(), text + "\n")
         }
         Part::Rect(fi) => {
-            let name = format!("pattern-rect-{}.svg", mhz_name(mhz(fi)));
+            let name = format!("pattern-rect-{}.svg", mhz_name(hz(fi)));
             let svg = plot::rect(&name, input, fi)?;
             (name, svg)
         }
         Part::Polar(fi) => {
-            let name = format!("pattern-polar-{}.svg", mhz_name(mhz(fi)));
+            let name = format!("pattern-polar-{}.svg", mhz_name(hz(fi)));
             let svg = plot::polar(&name, input, fi)?;
             (name, svg)
         }
