@@ -129,3 +129,8 @@ pub const MAX_THREADS: usize = 256;
 /// they wait on the disk, not the processor, and a journaling file system commits the
 /// syncs that wait together once.
 pub const MAX_SYNC_THREADS: usize = 16;
+
+/// Largest manifest (`process --manifest`) read, bytes: a row is some 50 bytes, so this is
+/// about two million rows (a full sphere at 0.25° × 0.25° is one million). A larger file is
+/// refused before it is read.
+pub const MAX_MANIFEST_BYTES: u64 = 128 << 20;

@@ -47,6 +47,7 @@ use sweepgate::Complex32;
 use crate::formats::touchstone::{
     GateSweep, Parameter, Spacing, Touchstone, TouchstoneError, UNIFORM_TOLERANCE_OF_STEP,
 };
+use crate::limits::MAX_MANIFEST_BYTES;
 use crate::quote::clipped;
 
 /// The header line a manifest starts with.
@@ -298,6 +299,31 @@ fn duplicate(angle_deg: f64, phi_deg: Option<f64>, first_line: usize) -> Manifes
     }
 }
 
+/// The manifest's text, refused unread when the file is over [`MAX_MANIFEST_BYTES`] (and
+/// read no further than that if it grows meanwhile).
+fn read_text(path: &Path) -> Result<String, ManifestErrorKind> {
+    use std::io::Read;
+    let io = |e: std::io::Error| ManifestErrorKind::Io(e.to_string());
+    let too_large = || {
+        ManifestErrorKind::Io(format!(
+            "over the {} MiB limit for a manifest; it was not read",
+            MAX_MANIFEST_BYTES >> 20
+        ))
+    };
+    let file = std::fs::File::open(path).map_err(io)?;
+    if file.metadata().map_err(io)?.len() > MAX_MANIFEST_BYTES {
+        return Err(too_large());
+    }
+    let mut text = String::new();
+    file.take(MAX_MANIFEST_BYTES + 1)
+        .read_to_string(&mut text)
+        .map_err(io)?;
+    if text.len() as u64 > MAX_MANIFEST_BYTES {
+        return Err(too_large());
+    }
+    Ok(text)
+}
+
 /// Bytes of a manifest's start [`Manifest::peek_axes`] reads at most.
 const PEEK_BYTES: usize = 64 << 10;
 
@@ -369,10 +395,10 @@ impl Manifest {
 
     fn read_looking(path: &Path, look: Look) -> Result<Self, ManifestError> {
         let name = path.display().to_string();
-        let text = std::fs::read_to_string(path).map_err(|e| ManifestError {
+        let text = read_text(path).map_err(|kind| ManifestError {
             file: name.clone(),
             line: None,
-            kind: ManifestErrorKind::Io(e.to_string()),
+            kind,
         })?;
         let base = path.parent().unwrap_or(Path::new(""));
         Self::parse_looking(&text, &name, base, look)
@@ -692,6 +718,20 @@ mod tests {
         let m = d.write("m.csv", text);
         let e = Manifest::read(&m).unwrap_err();
         (e.line, e.kind)
+    }
+
+    #[test]
+    fn a_manifest_over_the_size_limit_is_refused_unread() {
+        // A sparse file one byte over the limit: refused from its size, nothing read.
+        let d = tempfile::tempdir().unwrap();
+        let p = d.path().join("huge.csv");
+        let f = std::fs::File::create(&p).unwrap();
+        f.set_len(MAX_MANIFEST_BYTES + 1).unwrap();
+        let e = Manifest::read(&p).unwrap_err();
+        let text = e.to_string();
+        assert!(text.contains("huge.csv"), "{text}");
+        assert!(text.contains("128 MiB limit for a manifest"), "{text}");
+        assert!(!text.contains('\n'), "{text}");
     }
 
     #[test]
