@@ -972,6 +972,18 @@ const RTT_FACTOR: f64 = 2.0;
 /// See [`RTT_FACTOR`], µs.
 const RTT_SLACK_US: f64 = 200.0;
 
+/// A status reading's time on our clock, µs: the clock fit's time `fitted` held within the
+/// exchange (`sent` to `got`, the reading happened in between), never before the previous
+/// sample's `last`.
+fn sample_time_us(fitted: f64, sent: f64, got: f64, last: u64) -> u64 {
+    let t = if fitted.is_finite() {
+        fitted.clamp(sent, got)
+    } else {
+        (sent + got) / 2.0
+    };
+    (t.max(0.0) as u64).max(last)
+}
+
 impl Driven {
     /// Connects, identifies, checks the plan against the limits, sets the acceleration,
     /// and stops on SIGINT/SIGTERM from now on.
@@ -1004,7 +1016,10 @@ impl Driven {
     /// Reads the status; its time on our clock by the clock fit. The positioner's time
     /// is taken to be half-way through the exchange; only exchanges with a short round
     /// trip (within [`RTT_FACTOR`] of the shortest, plus [`RTT_SLACK_US`]) go into the
-    /// fit, so a delayed reply does not pull it.
+    /// fit, so a delayed reply does not pull it. The positioner answers `WHERE` with its
+    /// state *now*, so the reading lies inside the exchange: the time the fit gives is held
+    /// between the request and the reply (a fit still settling, or a clock jitter, must not
+    /// put the sample taken after a sweep before that sweep's end).
     fn read(&mut self, epoch: Instant) -> anyhow::Result<(DriveStatus, u64)> {
         if self.stop.load(std::sync::atomic::Ordering::Relaxed) {
             bail!("stopped by a signal (Ctrl-C)");
@@ -1017,7 +1032,12 @@ impl Driven {
         if rtt <= self.best_rtt_us * RTT_FACTOR + RTT_SLACK_US {
             self.clock.add(st.t_us as f64, (sent + got) / 2.0);
         }
-        let t = (self.clock.to_host_us(st.t_us as f64).max(0.0) as u64).max(self.last_t_us);
+        let t = sample_time_us(
+            self.clock.to_host_us(st.t_us as f64),
+            sent,
+            got,
+            self.last_t_us,
+        );
         self.last_t_us = t;
         Ok((st, t))
     }
@@ -2320,6 +2340,19 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
 
 #[cfg(test)]
 mod tests {
+
+    /// A reading's time stays inside its exchange whatever the clock fit says, and never
+    /// goes back (causality, no source needed).
+    #[test]
+    fn a_reading_is_timed_inside_its_exchange() {
+        use super::sample_time_us;
+        assert_eq!(sample_time_us(1_500.0, 1_000.0, 2_000.0, 0), 1_500);
+        // A fit that puts the reading before the request (as a settling fit can).
+        assert_eq!(sample_time_us(700.0, 1_000.0, 2_000.0, 0), 1_000);
+        assert_eq!(sample_time_us(9_000.0, 1_000.0, 2_000.0, 0), 2_000);
+        assert_eq!(sample_time_us(f64::NAN, 1_000.0, 2_000.0, 0), 1_500);
+        assert_eq!(sample_time_us(1_500.0, 1_000.0, 2_000.0, 1_800), 1_800);
+    }
 
     /// The link over a transport other than TCP (a Unix socket pair): a query is answered,
     /// unasked bytes are seen, and a silent peer times out within the answer's deadline.
