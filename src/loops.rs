@@ -26,6 +26,10 @@ mod fpu {
     pub(super) fn add(_: &mut [Complex32], _: &[Complex32]) -> usize {
         0
     }
+    #[inline(always)]
+    pub(super) fn real32_copy(_: &[u8], _: &mut [Complex32], _: bool, _: u32) -> Option<u32> {
+        None
+    }
     pub(super) fn dots_1(
         _: &[Complex32],
         _: &[f32],
@@ -76,6 +80,21 @@ pub(crate) fn window(buf: &mut [Complex32], band: &[f32], scale: f32) {
         v.re *= s;
         v.im *= s;
     }
+}
+
+/// The block decoder's copy of whole REAL,32 samples where a board has it written for its
+/// core (`fpu-loops`): every sample of `dst` from the start of `src`, and `any` ORed with
+/// their words; `None` elsewhere (and when `src` is too short), and the decoder's Rust loop
+/// does it. Inlined, unlike the loops here: it runs once per chunk of a block, where a call
+/// is a sizeable share.
+#[inline(always)]
+pub(crate) fn real32_copy(
+    src: &[u8],
+    dst: &mut [Complex32],
+    big_endian: bool,
+    any: u32,
+) -> Option<u32> {
+    fpu::real32_copy(src, dst, big_endian, any)
 }
 
 /// `sum[n] += points[n]` over the shorter of the two (a sweep into the open bin).

@@ -105,13 +105,20 @@ fn real32_words<const BIG_ENDIAN: bool>(b: &[u8; 8]) -> (u32, u32) {
 /// together (see [`all_usable`]); `None`, with nothing written, if `src` is too short.
 #[inline(never)]
 fn real32_copy<const BIG_ENDIAN: bool>(src: &[u8], dst: &mut [Complex32]) -> Option<u32> {
-    real32_copy_here::<BIG_ENDIAN>(src, dst)
+    real32_copy_here::<BIG_ENDIAN>(src, dst, 0)
 }
 
-/// [`real32_copy`] inlined where it is called (the fast path of a chunk saves the call).
+/// [`real32_copy`] inlined where it is called (the fast path of a chunk saves the call),
+/// the words ORed into `any`.
 #[inline(always)]
-fn real32_copy_here<const BIG_ENDIAN: bool>(src: &[u8], dst: &mut [Complex32]) -> Option<u32> {
-    let mut any = 0u32;
+fn real32_copy_here<const BIG_ENDIAN: bool>(
+    src: &[u8],
+    dst: &mut [Complex32],
+    mut any: u32,
+) -> Option<u32> {
+    if let Some(any) = crate::loops::real32_copy(src, dst, BIG_ENDIAN, any) {
+        return Some(any);
+    }
     let src = src.get(..8 * dst.len())?;
     for (o, b) in dst.iter_mut().zip(src.chunks_exact(8)) {
         let (re, im) = real32_words::<BIG_ENDIAN>(&eight(b));
@@ -681,7 +688,7 @@ impl BlockDecoder {
         let (re, im) = real32_words::<BIG_ENDIAN>(carry.first_chunk::<8>()?);
         let (first, rest) = dst.split_first_mut()?;
         *first = Complex32::new(f32::from_bits(re), f32::from_bits(im));
-        let any = re | im | real32_copy_here::<BIG_ENDIAN>(body, rest)?;
+        let any = real32_copy_here::<BIG_ENDIAN>(body, rest, re | im)?;
         if !all_usable(any, dst) {
             // An unusable value: the general path decodes the chunk again and reports it.
             return None;

@@ -769,6 +769,62 @@ where
 }
 
 #[cfg(feature = "gate-figures")]
+/// An unusable value (the SCPI not-a-number code, 9.91e37) anywhere in a 201-point REAL,32
+/// block, real or imaginary part, in either byte order, rejects the block: the board's copy
+/// of whole samples checks them by an OR of the words it copied (the carried sample, the
+/// odd one, the pairs), and the general path must then find the value.
+#[inline(never)]
+fn decode_rejects_unusable() -> Result<(), Failure> {
+    const K: usize = 201;
+    let grid = Grid::from_start_stop(8e9, 12e9, K).map_err(Failure::Grid)?;
+    let mut sweep = [ZERO; 256];
+    two_path(&grid, &mut sweep);
+    let mut bytes = [0u8; 16 + 8 * K];
+    let mut out = [ZERO; K];
+    let mut cases = 0u32;
+    for order in [ByteOrder::Normal, ByteOrder::Swapped] {
+        for at in [0, 1, 6, 7, 8, 9, 15, 100, K - 2, K - 1] {
+            for part in 0..2 {
+                let mut bad = sweep;
+                let v = if part == 0 {
+                    &mut bad[at].re
+                } else {
+                    &mut bad[at].im
+                };
+                *v = 9.91e37;
+                let n = emit(Format::Real32, order, &bad[..K], &mut bytes)
+                    .map_err(|_| Failure::Decode)?;
+                let mut decoder =
+                    BlockDecoder::new(BlockConfig::for_grid(&grid, Format::Real32, order));
+                let (mut swept, mut rejected) = (0u32, 0u32);
+                for chunk in bytes[..n].chunks(64) {
+                    let mut rest = chunk;
+                    while !rest.is_empty() {
+                        let fed = decoder.feed(rest, &mut out);
+                        rest = rest.get(fed.consumed..).unwrap_or_default();
+                        match fed.event {
+                            Some(BlockEvent::Sweep { .. }) => swept += 1,
+                            Some(BlockEvent::Rejected(_)) => rejected += 1,
+                            None => {}
+                        }
+                    }
+                }
+                if swept != 0 || rejected != 1 || decoder.counters().non_finite != 1 {
+                    return Err(Failure::Decode);
+                }
+                cases += 1;
+            }
+        }
+    }
+    say!(
+        "decode REAL,32 K=201: an unusable value rejected the block in each of ",
+        cases,
+        " places and byte orders",
+    );
+    Ok(())
+}
+
+#[cfg(feature = "gate-figures")]
 #[inline(never)]
 fn decode_figures<const M: usize>(c: &Counter, points: usize) -> Result<u32, Failure>
 where
@@ -996,6 +1052,7 @@ fn run(c: &Counter) -> Result<(), Failure> {
         let k801 = gate_case::<1024>(c, 801)?;
         let k1601 = gate_case::<2048>(c, 1601)?;
         sweep_figures::<256, true>(c, 201, &k201)?;
+        decode_rejects_unusable()?;
         sweep_figures::<1024, true>(c, 801, &k801)?;
         sweep_figures::<2048, false>(c, 1601, &k1601)?;
         say!(

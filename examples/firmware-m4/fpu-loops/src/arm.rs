@@ -374,3 +374,80 @@ pub fn add(sum: &mut [Complex32], points: &[Complex32]) -> usize {
     }
     4 * steps
 }
+
+/// The copy of [`real32_copy`]: the odd sample first, then two samples a step, with the
+/// byte reversal of each word or without it. `{n}` is the sample count; the shift puts its
+/// lowest bit in the carry flag and sets the zero flag from the pairs (the loads, reversals,
+/// ORs and store of the odd sample leave the flags alone).
+macro_rules! copy_samples {
+    ($($rev:literal)*) => {
+        concat!(
+            "lsrs {n}, {n}, #1",
+            "\n", "bcc 3f",
+            "\n", "ldr r4, [{s}], #4",
+            "\n", "ldr r5, [{s}], #4",
+            $("\n", $rev, " r4, r4", "\n", $rev, " r5, r5",)*
+            "\n", "orr {any}, {any}, r4",
+            "\n", "orr {any}, {any}, r5",
+            "\n", "stmia {d}!, {{r4, r5}}",
+            "\n", "3:",
+            "\n", "beq 4f",
+            "\n", "2:",
+            "\n", "ldr r4, [{s}], #4",
+            "\n", "ldr r5, [{s}], #4",
+            "\n", "ldr r8, [{s}], #4",
+            "\n", "ldr r10, [{s}], #4",
+            $("\n", $rev, " r4, r4", "\n", $rev, " r5, r5", "\n", $rev, " r8, r8", "\n", $rev, " r10, r10",)*
+            "\n", "orr {any}, {any}, r4",
+            "\n", "orr {any}, {any}, r5",
+            "\n", "orr {any}, {any}, r8",
+            "\n", "orr {any}, {any}, r10",
+            "\n", "stmia {d}!, {{r4, r5, r8, r10}}",
+            "\n", "subs {n}, {n}, #1",
+            "\n", "bne 2b",
+            "\n", "4:",
+        )
+    };
+}
+
+/// Every sample of `dst` from the REAL,32 samples at the start of `src` (8 bytes each: the
+/// real part's 4, then the imaginary part's), as the core's block decoder copies them: each
+/// 4-byte word read as little-endian and byte-reversed when `big_endian` (the instrument's
+/// NORMal order). Returns `any` ORed with every word written (the decoder's quick check of
+/// the values), or `None`, with nothing written, when `src` is too short. Two samples a
+/// step; inlined where it is called, so that the common chunk pays for no call.
+#[inline(always)]
+pub fn real32_copy(src: &[u8], dst: &mut [Complex32], big_endian: bool, any: u32) -> Option<u32> {
+    let n = dst.len();
+    if src.len() / 8 < n {
+        return None;
+    }
+    let mut any = any;
+    // SAFETY: `n` samples are read from `src` (8n bytes, word loads, which this core allows
+    // at any alignment) and written to `dst` (4-byte aligned, as a store-multiple needs);
+    // both hold at least that many.
+    unsafe {
+        if big_endian {
+            asm!(
+                copy_samples!("rev"),
+                s = inout(reg) src.as_ptr() => _,
+                d = inout(reg) dst.as_mut_ptr() => _,
+                n = inout(reg) n => _,
+                any = inout(reg) any,
+                out("r4") _, out("r5") _, out("r8") _, out("r10") _,
+                options(nostack),
+            );
+        } else {
+            asm!(
+                copy_samples!(),
+                s = inout(reg) src.as_ptr() => _,
+                d = inout(reg) dst.as_mut_ptr() => _,
+                n = inout(reg) n => _,
+                any = inout(reg) any,
+                out("r4") _, out("r5") _, out("r8") _, out("r10") _,
+                options(nostack),
+            );
+        }
+    }
+    Some(any)
+}
