@@ -242,6 +242,7 @@ fn gate_for(job: &CutJob, grid: Grid, cuts: &[BinnedCut]) -> anyhow::Result<Gati
     let auto = Automatic::Data {
         sweeps: &sweeps,
         angles_deg: Some(&angles),
+        threads: job.threads,
     };
     let bw = setup::band_window(job.choices, None)?;
     setup::gating(grid, job.choices, bw, &[], auto)

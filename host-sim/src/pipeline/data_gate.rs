@@ -39,12 +39,31 @@ pub struct DataGate {
     pub by_angle: bool,
 }
 
-/// Chooses the gate from `sweeps` (those of the grid's length), their angles when known.
+/// Chooses the gate from `sweeps` (those of the grid's length), their angles when known;
+/// the sweeps are looked at on every core ([`data_gate_on`]).
 pub fn data_gate(
     grid: &Grid,
     band_window: WindowKind,
     sweeps: &[&[Complex32]],
     angles_deg: Option<&[f64]>,
+) -> anyhow::Result<DataGate> {
+    data_gate_on(
+        grid,
+        band_window,
+        sweeps,
+        angles_deg,
+        crate::threads::available(),
+    )
+}
+
+/// [`data_gate`] with the sweeps looked at on up to `threads` threads; the survey takes
+/// the looks in sweep order, so the result is the same bit for bit for any `threads`.
+pub fn data_gate_on(
+    grid: &Grid,
+    band_window: WindowKind,
+    sweeps: &[&[Complex32]],
+    angles_deg: Option<&[f64]>,
+    threads: usize,
 ) -> anyhow::Result<DataGate> {
     let size = transform::fft_size(grid.points())?;
     let survey = transform::run(
@@ -54,6 +73,7 @@ pub fn data_gate(
             band_window,
             sweeps,
             angles_deg,
+            threads,
         },
     )?;
     let choice = survey
@@ -76,7 +96,12 @@ struct Surveying<'a> {
     band_window: WindowKind,
     sweeps: &'a [&'a [Complex32]],
     angles_deg: Option<&'a [f64]>,
+    threads: usize,
 }
+
+/// Sweeps a thread takes at a time in the survey's passes (each costs an FFT, and a look a
+/// template fit over the direct main lobe).
+const SURVEY_BLOCK: usize = 16;
 
 impl FftJob for Surveying<'_> {
     type Output = anyhow::Result<Survey<REGIONS>>;
@@ -88,42 +113,71 @@ impl FftJob for Surveying<'_> {
         let cfg = SurveyConfig::DEFAULT;
         let sidelobe_db = autogate::peak_sidelobe_db(self.band_window);
         let mut survey = Survey::<REGIONS>::new(cfg).context("the survey")?;
-        let mut raw = Box::new([Complex32::new(0.0, 0.0); M]);
-        let mut h = Box::new([Complex32::new(0.0, 0.0); M]);
         let n = self.sweeps.len().max(1);
         // At most MAX_LOOKS sweeps, evenly spread: each look fits a template over the
         // direct main lobe (a few hundred K-point sums).
         let stride = n.div_ceil(MAX_LOOKS);
-        let usable = || {
-            self.sweeps
-                .iter()
-                .enumerate()
-                .step_by(stride)
-                .filter(|(_, s)| s.len() == self.grid.points())
-        };
-        // First pass: the strongest arrival of all, the direct path at the main beam.
+        let usable: Vec<(usize, &[Complex32])> = self
+            .sweeps
+            .iter()
+            .enumerate()
+            .step_by(stride)
+            .filter(|(_, s)| s.len() == self.grid.points())
+            .map(|(i, s)| (i, *s))
+            .collect();
+        // First pass: the strongest arrival of all, the direct path at the main beam (the
+        // first of equals, as one thread taking the sweeps in order finds it).
         let mut reference = (0.0f32, f32::NEG_INFINITY);
-        for (_, s) in usable() {
-            impulse(&gate, s, &mut raw, &mut h);
-            if let Some(a) = autogate::strongest_arrival(&gate, &h) {
-                if a.1 > reference.1 {
-                    reference = a;
-                }
+        let strongest = each_impulse(&gate, &usable, self.threads, |h| {
+            autogate::strongest_arrival(&gate, h)
+        });
+        for a in strongest.into_iter().flatten() {
+            if a.1 > reference.1 {
+                reference = a;
             }
         }
         survey.set_reference_db(reference.1);
-        for (i, s) in usable() {
-            let angle = match self.angles_deg.and_then(|a| a.get(i)) {
+        let looks = each_impulse(&gate, &usable, self.threads, |h| {
+            autogate::look(&gate, h, sidelobe_db, &cfg, reference)
+        });
+        for ((i, _), look) in usable.iter().zip(looks) {
+            let angle = match self.angles_deg.and_then(|a| a.get(*i)) {
                 Some(a) => *a,
-                None => 360.0 * i as f64 / n as f64,
+                None => 360.0 * *i as f64 / n as f64,
             };
-            impulse(&gate, s, &mut raw, &mut h);
-            if let Some(l) = autogate::look(&gate, &h, sidelobe_db, &cfg, reference) {
+            if let Some(l) = look {
                 survey.add(angle as f32, &l);
             }
         }
         Ok(survey)
     }
+}
+
+/// `what` of each sweep's band-windowed impulse response, in the sweeps' order, on up to
+/// `threads` threads (each with its own buffers; the gate is shared).
+fn each_impulse<const M: usize, R: Send>(
+    gate: &Gate<M>,
+    sweeps: &[(usize, &[Complex32])],
+    threads: usize,
+    what: impl Fn(&[Complex32; M]) -> R + Sync,
+) -> Vec<R>
+where
+    [Complex32; M]: Fft,
+{
+    let buffers = || {
+        (
+            Box::new([Complex32::new(0.0, 0.0); M]),
+            Box::new([Complex32::new(0.0, 0.0); M]),
+        )
+    };
+    crate::threads::map_blocks(sweeps, threads, SURVEY_BLOCK, buffers, |(raw, h), b| {
+        b.iter()
+            .map(|(_, s)| {
+                impulse(gate, s, raw, h);
+                what(h)
+            })
+            .collect()
+    })
 }
 
 /// The band-windowed impulse response of `s` (of the grid's length) into `h`.
@@ -297,5 +351,52 @@ impl DataGate {
                 why.join("; ")
             )
         })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A turn of sweeps: a direct path at 10 ns whose level follows the angle, and an echo
+    /// at 14 ns, 10 dB down, that comes and goes.
+    fn scan(grid: &Grid, sweeps: usize) -> Vec<Vec<Complex32>> {
+        let path = |f: f64, delay_s: f64, a: f64| {
+            let ph = -2.0 * std::f64::consts::PI * f * delay_s;
+            Complex32::new((a * ph.cos()) as f32, (a * ph.sin()) as f32)
+        };
+        (0..sweeps)
+            .map(|i| {
+                let theta = 2.0 * std::f64::consts::PI * i as f64 / sweeps as f64;
+                let direct = 0.2 + 0.8 * (0.5 + 0.5 * theta.cos());
+                let echo = 0.316 * (0.5 + 0.5 * (3.0 * theta).sin());
+                (0..grid.points())
+                    .map(|n| {
+                        let f = grid.frequency_hz(n);
+                        path(f, 10e-9, direct) + path(f, 14e-9, echo)
+                    })
+                    .collect()
+            })
+            .collect()
+    }
+
+    #[test]
+    fn any_number_of_threads_gives_the_same_survey_and_gate() {
+        let grid = Grid::from_start_stop(8e9, 12e9, 201).unwrap();
+        let sweeps = scan(&grid, 150);
+        let refs: Vec<&[Complex32]> = sweeps.iter().map(|s| &s[..]).collect();
+        let angles: Vec<f64> = (0..150).map(|i| i as f64 * 2.4).collect();
+        let bw = WindowKind::Kaiser { beta: 6.0 };
+        let one = data_gate_on(&grid, bw, &refs, Some(&angles), 1).unwrap();
+        // The gate lies between the direct path and the echo (its sense, not only its
+        // sameness, is checked).
+        assert!(one.choice.center_s > 9e-9 && one.choice.center_s < 14e-9, "{one:?}");
+        assert_eq!(one.sweeps, 150);
+        for threads in [2, 3, 8] {
+            let many = data_gate_on(&grid, bw, &refs, Some(&angles), threads).unwrap();
+            assert_eq!(many.choice, one.choice, "{threads} threads");
+            assert_eq!(many.survey, one.survey, "{threads} threads");
+            assert_eq!(many.rule, one.rule);
+        }
     }
 }

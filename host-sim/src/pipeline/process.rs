@@ -433,6 +433,7 @@ pub fn process_manifest(r: &Resolved, path: &Path) -> anyhow::Result<Processed> 
     let auto = Automatic::Data {
         sweeps: &sweeps,
         angles_deg: Some(&angles),
+        threads: r.threads,
     };
     let bw = setup::band_window(&r.choices, None)?;
     let g = setup::gating(scan.grid, &r.choices, bw, &[], auto)?;

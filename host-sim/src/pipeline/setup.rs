@@ -86,6 +86,8 @@ pub enum Automatic<'a> {
         sweeps: &'a [&'a [Complex32]],
         /// Their angles, degrees, when known.
         angles_deg: Option<&'a [f64]>,
+        /// Threads to look at them on.
+        threads: usize,
     },
     /// A gate the caller worked out (the demo's two-path geometry).
     Fixed(AutoGate),
@@ -208,8 +210,13 @@ pub fn gating(
             }
             Some(p)
         }
-        Automatic::Data { sweeps, angles_deg } if need => {
-            let d = data_gate::data_gate(&grid, band_window, sweeps, angles_deg).context(
+        Automatic::Data {
+            sweeps,
+            angles_deg,
+            threads,
+        } if need => {
+            let d = data_gate::data_gate_on(&grid, band_window, sweeps, angles_deg, threads)
+                .context(
                 "no gate was given and none could be chosen from the data; give --gate-center-ns and --gate-span-ns",
             )?;
             remarks.extend(data_gate::unseparable_warning(&d.choice, &grid));
@@ -325,6 +332,7 @@ pub fn for_recording(
         None => Automatic::Data {
             sweeps,
             angles_deg: None,
+            threads: crate::threads::available(),
         },
     };
     let bw = band_window(choices, scenario)?;
