@@ -390,7 +390,10 @@ mod tests {
         let one = data_gate_on(&grid, bw, &refs, Some(&angles), 1).unwrap();
         // The gate lies between the direct path and the echo (its sense, not only its
         // sameness, is checked).
-        assert!(one.choice.center_s > 9e-9 && one.choice.center_s < 14e-9, "{one:?}");
+        assert!(
+            one.choice.center_s > 9e-9 && one.choice.center_s < 14e-9,
+            "{one:?}"
+        );
         assert_eq!(one.sweeps, 150);
         for threads in [2, 3, 8] {
             let many = data_gate_on(&grid, bw, &refs, Some(&angles), threads).unwrap();

@@ -423,30 +423,28 @@ pub fn real32_copy(src: &[u8], dst: &mut [Complex32], big_endian: bool, any: u32
         return None;
     }
     let mut any = any;
+    // The copy with the byte reversal or without it.
+    macro_rules! copy {
+        ($($rev:literal)*) => {
+            asm!(
+                copy_samples!($($rev)*),
+                s = inout(reg) src.as_ptr() => _,
+                d = inout(reg) dst.as_mut_ptr() => _,
+                n = inout(reg) n => _,
+                any = inout(reg) any,
+                out("r4") _, out("r5") _, out("r8") _, out("r10") _,
+                options(nostack),
+            )
+        };
+    }
     // SAFETY: `n` samples are read from `src` (8n bytes, word loads, which this core allows
     // at any alignment) and written to `dst` (4-byte aligned, as a store-multiple needs);
     // both hold at least that many.
     unsafe {
         if big_endian {
-            asm!(
-                copy_samples!("rev"),
-                s = inout(reg) src.as_ptr() => _,
-                d = inout(reg) dst.as_mut_ptr() => _,
-                n = inout(reg) n => _,
-                any = inout(reg) any,
-                out("r4") _, out("r5") _, out("r8") _, out("r10") _,
-                options(nostack),
-            );
+            copy!("rev");
         } else {
-            asm!(
-                copy_samples!(),
-                s = inout(reg) src.as_ptr() => _,
-                d = inout(reg) dst.as_mut_ptr() => _,
-                n = inout(reg) n => _,
-                any = inout(reg) any,
-                out("r4") _, out("r5") _, out("r8") _, out("r10") _,
-                options(nostack),
-            );
+            copy!();
         }
     }
     Some(any)
