@@ -168,11 +168,15 @@ pub struct Look {
 /// continuous transform beyond the first null (set-up only).
 pub fn peak_sidelobe_db(kind: WindowKind) -> f32 {
     const SAMPLES: usize = 256;
+    // The window's samples once (the same for every ν).
+    let mut ws = [0.0f64; SAMPLES];
+    for (n, w) in ws.iter_mut().enumerate() {
+        *w = kind.at((n as f64 + 0.5) / SAMPLES as f64);
+    }
     let mag = |nu: f64| {
         let (mut re, mut im) = (0.0f64, 0.0f64);
-        for n in 0..SAMPLES {
+        for (n, &w) in ws.iter().enumerate() {
             let x = (n as f64 + 0.5) / SAMPLES as f64;
-            let w = kind.at(x);
             re += w * libm::cos(2.0 * core::f64::consts::PI * nu * x);
             im -= w * libm::sin(2.0 * core::f64::consts::PI * nu * x);
         }
