@@ -403,7 +403,15 @@ fn case_flooding_instrument() -> Result<Run, String> {
     // Clearing the link after the dropped sweep never ends in quiet: a link fault, then a
     // new connection.
     let r = recovers("flood", Inst::FloodAt(2), "link_faults")?;
-    expect(r.stderr.contains("kept sending"), "the reason is given", &r)?;
+    // Usually the link is never quiet while it is cleared ("kept sending"). On a loaded
+    // machine the flooding thread can stall for longer than the quiet time, the clearing
+    // ends, and the next answer, all junk, is refused by its length: the same fault, found
+    // one step later (seen in CI-like runs; either way the scan goes on after a reconnect).
+    expect(
+        r.stderr.contains("kept sending") || r.stderr.contains("longer than"),
+        "the reason is given",
+        &r,
+    )?;
     Ok(r)
 }
 
