@@ -118,6 +118,9 @@ pub struct CutsResult {
     pub impulse: Option<ImpulseView>,
     /// Warnings: resampled files, bins combining files, set-up remarks.
     pub warnings: Vec<String>,
+    /// What the bounded path held ([`crate::pipeline::cuts_bounded`]); `None` on the whole
+    /// path.
+    pub held: Option<crate::pipeline::cuts_bounded::HeldFigures>,
 }
 
 impl CutsResult {
@@ -177,7 +180,7 @@ fn split_cuts(sweeps: &[TraceSweep]) -> Vec<(f64, Vec<&TraceSweep>)> {
 }
 
 /// Whether θ values cover a full turn (their span plus the smallest step).
-fn covers_full_circle(angles_deg: &[f64]) -> bool {
+pub(crate) fn covers_full_circle(angles_deg: &[f64]) -> bool {
     let mut sorted = angles_deg.to_vec();
     sorted.sort_by(f64::total_cmp);
     sorted.dedup();
@@ -403,6 +406,7 @@ pub fn process_cuts(job: &CutJob, path: &Path, traces: CutTraces) -> anyhow::Res
         files: scan.sweeps.len(),
         impulse,
         warnings,
+        held: None,
     })
 }
 

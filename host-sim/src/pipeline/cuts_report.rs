@@ -195,7 +195,32 @@ pub fn summary_json(res: &CutsResult, source: &Path, settings: Value) -> Value {
         "cuts": cuts,
         "sphere_points": points.len(),
         "sphere": sphere_summary(&points),
+        "memory": memory_json(res),
         "caution": "A transmitting antenna can exceed RF exposure limits near its aperture and a positioner is moving machinery: follow local regulations and the lab's licensed practice.",
+    })
+}
+
+/// `memory` of `summary.json`: the path taken (`"bounded"` or `"whole"`), what the bounded
+/// path held, and the program's peak resident memory (`VmHWM`) when the summary is made
+/// (after every other report file; `null` with `"not available"` where the system does not
+/// say).
+pub fn memory_json(res: &CutsResult) -> Value {
+    let peak = crate::resident::peak_resident_bytes();
+    let held = res.held.map(|h| {
+        json!({
+            "first_look_bins": h.first_look_bins,
+            "first_look_peak_bytes": h.first_look_peak_bytes,
+            "gating_peak_bytes": h.gating_peak_bytes,
+            "kept_bytes": h.kept_bytes,
+            "threads": h.threads,
+            "block_bins": h.block_bins,
+        })
+    });
+    json!({
+        "path": if res.held.is_some() { "bounded" } else { "whole" },
+        "held": held,
+        "peak_resident_bytes": peak,
+        "peak_resident": peak.map_or("not available".to_string(), |_| "VmHWM of /proc/self/status, read when summary.json was made, after the other report files".to_string()),
     })
 }
 
@@ -261,12 +286,8 @@ pub fn write_cuts_report(
     dir: &Path,
 ) -> anyhow::Result<Vec<PathBuf>> {
     let settings = settings_json(res);
-    let summary = serde_json::to_string_pretty(&summary_json(res, source, settings.clone()))
-        .context("making summary.json")?;
-    let mut set: Vec<(PathBuf, Vec<u8>)> = vec![
-        (dir.join("pattern.csv"), pattern_csv(res).into_bytes()),
-        (dir.join("summary.json"), (summary + "\n").into_bytes()),
-    ];
+    let mut set: Vec<(PathBuf, Vec<u8>)> =
+        vec![(dir.join("pattern.csv"), pattern_csv(res).into_bytes())];
     let sphere = sphere_files(&res.sphere_points(), &res.name)?;
     set.extend(
         sphere
@@ -288,6 +309,10 @@ pub fn write_cuts_report(
                 .map(|(name, bytes)| (sub.join(name), bytes)),
         );
     }
+    // Made last, so that its peak resident memory counts the other files.
+    let summary = serde_json::to_string_pretty(&summary_json(res, source, settings))
+        .context("making summary.json")?;
+    set.push((dir.join("summary.json"), (summary + "\n").into_bytes()));
     write_set(&set)?;
     Ok(set.into_iter().map(|(p, _)| p).collect())
 }
