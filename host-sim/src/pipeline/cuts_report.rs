@@ -26,7 +26,8 @@
 //! - `cut-phi<φ>/`: per cut, the one-cut report of its co-polar trace (pattern table,
 //!   summary with the pattern figures, plots; the first cut's with the impulse response).
 //!
-//! All files are made in memory and written as one set ([`write_set`]).
+//! The files are written as one set, made and staged a part at a time
+//! ([`write_cuts_report`]).
 
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
@@ -36,10 +37,10 @@ use serde_json::{json, Value};
 use sweepgate::metrics::wrap_deg;
 use sweepgate::Complex32;
 
-use crate::formats::files::{check_output_dir, write_set, FileError};
+use crate::formats::files::{check_output_dir, FileError, StagedSet};
 use crate::output::report::{report_files, ReportBin, ReportInput, ReportValue};
 use crate::pipeline::cuts::{CutPattern, CutsResult, TraceBin};
-use crate::pipeline::sphere_report::{sphere_files, sphere_summary};
+use crate::pipeline::sphere_report::{each_sphere_file, sphere_summary};
 use crate::pipeline::summary::Settings;
 use crate::pipeline::transform::c64;
 use crate::units::db;
@@ -279,40 +280,59 @@ pub fn cut_report_input(res: &CutsResult, c: &CutPattern, settings: &Value) -> R
     }
 }
 
-/// Writes the report folder of a scan of cuts as one set; returns the files written.
+/// Cut folders made and staged together (a part of the set; see [`write_cuts_report`]).
+const CUTS_PER_PART: usize = 16;
+
+/// Writes the report folder of a scan of cuts as one set ([`StagedSet`]: every file
+/// written and synced under a temporary name, all renamed at the end), made and staged a
+/// part at a time (the table, each sphere file, [`CUTS_PER_PART`] cut folders, the
+/// summary), so that one part's bytes are held at once, not the whole folder's; returns the
+/// files written.
 pub fn write_cuts_report(
     res: &CutsResult,
     source: &Path,
     dir: &Path,
 ) -> anyhow::Result<Vec<PathBuf>> {
     let settings = settings_json(res);
-    let mut set: Vec<(PathBuf, Vec<u8>)> =
-        vec![(dir.join("pattern.csv"), pattern_csv(res).into_bytes())];
-    let sphere = sphere_files(&res.sphere_points(), &res.name)?;
-    set.extend(
-        sphere
-            .into_iter()
-            .map(|(name, bytes)| (dir.join(name), bytes)),
-    );
     check_output_dir(dir)?;
-    for c in &res.cuts {
-        let sub = dir.join(cut_folder(c.phi_deg));
-        std::fs::create_dir_all(&sub).map_err(|source| FileError::Io {
-            action: "making the folder",
-            path: sub.clone(),
-            source,
-        })?;
-        let files = report_files(&cut_report_input(res, c, &settings))?;
-        set.extend(
-            files
-                .into_iter()
-                .map(|(name, bytes)| (sub.join(name), bytes)),
-        );
+    let mut set = StagedSet::default();
+    let mut written: Vec<PathBuf> = Vec::new();
+    let mut stage = |files: Vec<(PathBuf, Vec<u8>)>| -> anyhow::Result<()> {
+        set.stage(&files)?;
+        written.extend(files.into_iter().map(|(p, _)| p));
+        Ok(())
+    };
+    stage(vec![(
+        dir.join("pattern.csv"),
+        pattern_csv(res).into_bytes(),
+    )])?;
+    each_sphere_file(&res.sphere_points(), &res.name, |name, bytes| {
+        stage(vec![(dir.join(name), bytes)])
+    })?;
+    for part in res.cuts.chunks(CUTS_PER_PART) {
+        let mut files = Vec::new();
+        for c in part {
+            let sub = dir.join(cut_folder(c.phi_deg));
+            std::fs::create_dir_all(&sub).map_err(|source| FileError::Io {
+                action: "making the folder",
+                path: sub.clone(),
+                source,
+            })?;
+            let made = report_files(&cut_report_input(res, c, &settings))?;
+            files.extend(
+                made.into_iter()
+                    .map(|(name, bytes)| (sub.join(name), bytes)),
+            );
+        }
+        stage(files)?;
     }
     // Made last, so that its peak resident memory counts the other files.
     let summary = serde_json::to_string_pretty(&summary_json(res, source, settings))
         .context("making summary.json")?;
-    set.push((dir.join("summary.json"), (summary + "\n").into_bytes()));
-    write_set(&set)?;
-    Ok(set.into_iter().map(|(p, _)| p).collect())
+    stage(vec![(
+        dir.join("summary.json"),
+        (summary + "\n").into_bytes(),
+    )])?;
+    set.commit()?;
+    Ok(written)
 }

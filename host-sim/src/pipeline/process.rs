@@ -766,9 +766,11 @@ pub fn run_cuts(r: &Resolved) -> anyhow::Result<()> {
         }
         Input::Recording(path) => (cuts_stream::process_cut_recording(&r.choices, path)?, path),
     };
+    mark("cuts processed");
     let traces = res.traces.clone();
     cuts_report::write_cuts_report(&res, path, &r.out)
         .with_context(|| format!("writing the report to {}", r.out.display()))?;
+    mark("report written");
     for w in &res.warnings {
         eprintln!("warning: {w}");
     }
@@ -784,21 +786,27 @@ pub fn run_cuts(r: &Resolved) -> anyhow::Result<()> {
     );
     if let Some(h) = &res.held {
         eprintln!(
-            "bounded memory: at most {:.1} MiB of whole sweeps held while gating ({} threads, {} bins a block), {:.1} MiB in the first look ({} bins); {:.1} MiB of reduced bins kept",
-            mib(h.gating_peak_bytes),
+            "bounded memory: at most {} of whole sweeps held while gating ({} threads, {} bins a block), {} in the first look ({} bins); {} of reduced bins kept",
+            size_text(h.gating_peak_bytes),
             h.threads,
             h.block_bins,
-            mib(h.first_look_peak_bytes),
+            size_text(h.first_look_peak_bytes),
             h.first_look_bins,
-            mib(h.kept_bytes)
+            size_text(h.kept_bytes)
         );
     }
     eprintln!("peak resident memory: {}", peak_text());
     Ok(())
 }
 
-fn mib(bytes: usize) -> f64 {
-    bytes as f64 / (1024.0 * 1024.0)
+/// Bytes in words: MiB from 1 MiB up, else KiB.
+fn size_text(bytes: usize) -> String {
+    let kib = bytes as f64 / 1024.0;
+    if kib >= 1024.0 {
+        format!("{:.1} MiB", kib / 1024.0)
+    } else {
+        format!("{kib:.0} KiB")
+    }
 }
 
 /// Whether a manifest of cuts goes the bounded path: asked for, or its raw traces over

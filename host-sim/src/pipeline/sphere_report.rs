@@ -159,16 +159,31 @@ fn mhz_name(f_hz: f64) -> String {
 /// Every sphere file of the report: `sphere.csv`, and per frequency
 /// `sphere_map_<f>mhz.svg` (co-polar θ–φ map) and `sphere_cuts_<f>mhz.svg`.
 pub fn sphere_files(points: &[SpherePoint], title: &str) -> anyhow::Result<Vec<(String, Vec<u8>)>> {
-    let mut files = vec![("sphere.csv".to_string(), sphere_csv(points).into_bytes())];
+    let mut files = Vec::new();
+    each_sphere_file(points, title, |name, bytes| {
+        files.push((name, bytes));
+        Ok(())
+    })?;
+    Ok(files)
+}
+
+/// The files of [`sphere_files`] made one at a time and handed to `put` in the same order,
+/// so that each can be written and let go before the next is made.
+pub fn each_sphere_file(
+    points: &[SpherePoint],
+    title: &str,
+    mut put: impl FnMut(String, Vec<u8>) -> anyhow::Result<()>,
+) -> anyhow::Result<()> {
+    put("sphere.csv".to_string(), sphere_csv(points).into_bytes())?;
     for f in frequencies(points) {
         let name = mhz_name(f);
         let map = colour_map_svg(&colour_map(points, f, false, title))?;
-        files.push((format!("sphere_map_{name}.svg"), map.into_bytes()));
+        put(format!("sphere_map_{name}.svg"), map.into_bytes())?;
         let caption = format!("{title}: cuts at {:.3} GHz", f / 1e9);
         let cuts = cuts_svg(&caption, &cut_curves(points, f))?;
-        files.push((format!("sphere_cuts_{name}.svg"), cuts.into_bytes()));
+        put(format!("sphere_cuts_{name}.svg"), cuts.into_bytes())?;
     }
-    Ok(files)
+    Ok(())
 }
 
 fn finite_or_null(v: f64) -> Value {
