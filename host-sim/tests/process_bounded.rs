@@ -336,3 +336,29 @@ fn bounded_memory_is_refused_where_it_does_not_apply() {
     );
     std::fs::remove_dir_all(&dir).ok();
 }
+
+#[test]
+fn a_bad_file_is_named_by_its_manifest_line_as_on_the_whole_path() {
+    let dir = scratch("bad");
+    let m = sphere(&dir, 30, 5);
+    // Line 10 (the 9th row) names a file that is not there.
+    let text = std::fs::read_to_string(&m).unwrap();
+    let mut lines: Vec<String> = text.lines().map(String::from).collect();
+    let row: Vec<&str> = lines[9].split(',').collect();
+    lines[9] = format!("{},{},missing.s3p", row[0], row[1]);
+    std::fs::write(&m, lines.join("\n") + "\n").unwrap();
+    let r = resolve(&options(&m, 2, None)).unwrap();
+    let job = CutJob {
+        choices: &r.choices,
+        spacing: r.spacing,
+        threads: r.threads,
+    };
+    let traces = r.traces.clone().unwrap();
+    let whole = process_cuts(&job, &m, traces.clone()).unwrap_err();
+    let bounded = process_cuts_bounded(&job, &m, traces).unwrap_err();
+    let (whole, bounded) = (format!("{whole:#}"), format!("{bounded:#}"));
+    assert!(whole.contains("sphere.csv:10:"), "{whole}");
+    assert!(whole.contains("missing.s3p"), "{whole}");
+    assert_eq!(whole, bounded);
+    std::fs::remove_dir_all(&dir).ok();
+}

@@ -398,6 +398,17 @@ impl StagedSet {
         Ok(())
     }
 
+    /// Writes one file of the set as `write` makes it, a piece at a time (a large table
+    /// need not be held whole), and syncs it under its temporary name.
+    pub fn stage_written(
+        &mut self,
+        path: &Path,
+        write: impl FnOnce(&mut dyn Write) -> io::Result<()>,
+    ) -> Result<(), FileError> {
+        self.staged.push(stage_written(path, write)?);
+        Ok(())
+    }
+
     /// Renames every staged file over its target, in the order staged, then syncs each
     /// folder they are in once.
     pub fn commit(self) -> Result<(), FileError> {
@@ -419,9 +430,18 @@ impl StagedSet {
 /// One file of a set written and synced under its temporary name, ready to be renamed
 /// over `path` (refused when `path` is a folder).
 fn stage(path: &Path, bytes: &[u8]) -> Result<AtomicFile, FileError> {
+    stage_written(path, |w| w.write_all(bytes))
+}
+
+/// One file of a set written by `write` (through a buffer) and synced under its temporary
+/// name, as [`stage`].
+fn stage_written(
+    path: &Path,
+    write: impl FnOnce(&mut dyn Write) -> io::Result<()>,
+) -> Result<AtomicFile, FileError> {
     let mut f = AtomicFile::create(path)?;
     if let Some(inner) = f.file.as_mut() {
-        inner.write_all(bytes).map_err(io_err("writing", path))?;
+        write(inner).map_err(io_err("writing", path))?;
     }
     f.make_ready()?;
     if fs::metadata(path).is_ok_and(|m| m.is_dir()) {

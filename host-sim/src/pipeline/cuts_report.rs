@@ -40,7 +40,7 @@ use sweepgate::Complex32;
 use crate::formats::files::{check_output_dir, FileError, StagedSet};
 use crate::output::report::{report_files, ReportBin, ReportInput, ReportValue};
 use crate::pipeline::cuts::{CutPattern, CutsResult, TraceBin};
-use crate::pipeline::sphere_report::{each_sphere_file, sphere_summary};
+use crate::pipeline::sphere_report::{each_sphere_plot, sphere_summary, write_sphere_csv};
 use crate::pipeline::summary::Settings;
 use crate::pipeline::transform::c64;
 use crate::units::db;
@@ -66,15 +66,27 @@ fn opt(v: Option<f64>, decimals: usize) -> String {
     v.map_or(String::new(), |x| format!("{x:.decimals$}"))
 }
 
+/// The table's header line.
+const PATTERN_HEADER: &str =
+    "angle_deg,frequency_hz,raw_db,gated_db,gated_phase_deg,raw_phase_deg,echo_db,sweeps,flags,\
+     theta_deg,phi_deg,co_gated_db,co_raw_db,cross_gated_db,cross_raw_db,\
+     cross_gated_phase_deg,cross_raw_phase_deg,cross_echo_db,xpd_db\n";
+
 /// The table as text (columns in the module docs).
 pub fn pattern_csv(res: &CutsResult) -> String {
-    let mut s = String::from(
-        "angle_deg,frequency_hz,raw_db,gated_db,gated_phase_deg,raw_phase_deg,echo_db,sweeps,flags,\
-         theta_deg,phi_deg,co_gated_db,co_raw_db,cross_gated_db,cross_raw_db,\
-         cross_gated_phase_deg,cross_raw_phase_deg,cross_echo_db,xpd_db\n",
-    );
+    let mut out = Vec::new();
+    // Writing into memory does not fail.
+    let _ = write_pattern_csv(res, &mut out);
+    String::from_utf8_lossy(&out).into_owned()
+}
+
+/// The table written a bin at a time into `out`.
+pub fn write_pattern_csv(res: &CutsResult, out: &mut dyn std::io::Write) -> std::io::Result<()> {
+    out.write_all(PATTERN_HEADER.as_bytes())?;
+    let mut s = String::new();
     for c in &res.cuts {
         for b in &c.bins {
+            s.clear();
             for (fi, f) in res.gating.frequencies_hz.iter().enumerate() {
                 let co = Some(&b.co);
                 let x = b.cross.as_ref();
@@ -102,9 +114,10 @@ pub fn pattern_csv(res: &CutsResult) -> String {
                     opt(co_g.zip(x_g).map(|(a, b)| a - b), 6),
                 );
             }
+            out.write_all(s.as_bytes())?;
         }
     }
-    s
+    Ok(())
 }
 
 /// Per pattern frequency of one cut: peaks and cross-polar discrimination.
@@ -285,7 +298,7 @@ const CUTS_PER_PART: usize = 16;
 
 /// Writes the report folder of a scan of cuts as one set ([`StagedSet`]: every file
 /// written and synced under a temporary name, all renamed at the end), made and staged a
-/// part at a time (the table, each sphere file, [`CUTS_PER_PART`] cut folders, the
+/// part at a time (the tables written a bin at a time, each sphere plot, [`CUTS_PER_PART`] cut folders, the
 /// summary), so that one part's bytes are held at once, not the whole folder's; returns the
 /// files written.
 pub fn write_cuts_report(
@@ -297,18 +310,20 @@ pub fn write_cuts_report(
     check_output_dir(dir)?;
     let mut set = StagedSet::default();
     let mut written: Vec<PathBuf> = Vec::new();
+    set.stage_written(&dir.join("pattern.csv"), |w| write_pattern_csv(res, w))?;
+    written.push(dir.join("pattern.csv"));
+    let points = res.sphere_points();
+    set.stage_written(&dir.join("sphere.csv"), |w| write_sphere_csv(&points, w))?;
+    written.push(dir.join("sphere.csv"));
     let mut stage = |files: Vec<(PathBuf, Vec<u8>)>| -> anyhow::Result<()> {
         set.stage(&files)?;
         written.extend(files.into_iter().map(|(p, _)| p));
         Ok(())
     };
-    stage(vec![(
-        dir.join("pattern.csv"),
-        pattern_csv(res).into_bytes(),
-    )])?;
-    each_sphere_file(&res.sphere_points(), &res.name, |name, bytes| {
+    each_sphere_plot(&points, &res.name, |name, bytes| {
         stage(vec![(dir.join(name), bytes)])
     })?;
+    drop(points);
     for part in res.cuts.chunks(CUTS_PER_PART) {
         let mut files = Vec::new();
         for c in part {
