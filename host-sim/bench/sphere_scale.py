@@ -8,6 +8,7 @@ sweeps, `limits::BOUNDED_ABOVE_BYTES`), the whole path.
     PY=/work/main/target/rooms-venv/bin/python   # any python with numpy
     $PY host-sim/bench/sphere_scale.py                       # 10, 5 and 2 degrees
     $PY host-sim/bench/sphere_scale.py --steps 10,5,2,1      # and the full 1 degree sphere
+    $PY host-sim/bench/sphere_scale.py --steps 1 --points 1601 --bounded-only --gate-from-data
 
 The data (made once, kept under target/bench-data/sphere-<points>/): DISTINCT 3-port
 Touchstone files (RI, Hz, 8-12 GHz, POINTS points), S21 a direct path at 18 ns whose level
@@ -20,7 +21,8 @@ parsed: no cache in the program).
 
 Each run: `target/release/sweepgate process M --co S21 --cross S31 --gate-center-ns 18
 --gate-span-ns 4 --band-window kaiser:6 --gate-shape kaiser:6 --frequencies-hz
-9e9,10e9,11e9 --threads N [--bounded-memory] --out DIR`, one run each (the 1 degree runs
+9e9,10e9,11e9 --threads N [--bounded-memory] --out DIR` (with --gate-from-data, no gate
+options: the gate is chosen from the data), one run each (the 1 degree runs
 take minutes), the report folder removed before each run. Wall time from this script; peak
 resident memory from /usr/bin/time (`%M`, the program's own, started small) and the
 program's own VmHWM line; CPU time from wait4. The load average before each run is printed
@@ -97,13 +99,13 @@ def make_manifest(folder, step):
     return path, rows
 
 
-def run(binary, manifest, threads, bounded, out):
+def run(binary, manifest, threads, bounded, out, from_data=False):
     """One run; returns (wall s, peak MiB from time, CPU s, the program's own peak line)."""
     shutil.rmtree(out, ignore_errors=True)
-    args = [binary, "process", manifest, "--co", "S21", "--cross", "S31",
-            "--gate-center-ns", "18", "--gate-span-ns", "4", "--band-window", "kaiser:6",
-            "--gate-shape", "kaiser:6", "--frequencies-hz", "9e9,10e9,11e9",
-            "--threads", str(threads), "--out", out]
+    gate = [] if from_data else ["--gate-center-ns", "18", "--gate-span-ns", "4"]
+    args = [binary, "process", manifest, "--co", "S21", "--cross", "S31"] + gate + [
+            "--band-window", "kaiser:6", "--gate-shape", "kaiser:6",
+            "--frequencies-hz", "9e9,10e9,11e9", "--threads", str(threads), "--out", out]
     if bounded:
         args.append("--bounded-memory")
     if os.path.exists(TIMER):
@@ -135,6 +137,9 @@ def main():
     ap.add_argument("--steps", default="10,5,2", help="sphere steps in degrees, e.g. 10,5,2,1")
     ap.add_argument("--points", default="201,801,1601")
     ap.add_argument("--binary", default=os.path.join(ROOT, "target", "release", "sweepgate"))
+    ap.add_argument("--gate-from-data", action="store_true",
+                    help="no gate given: chosen from the data (the bounded path's first look)")
+    ap.add_argument("--bounded-only", action="store_true", help="no runs of the whole path")
     a = ap.parse_args()
     steps = [float(s) for s in a.steps.split(",")]
     points = [int(p) for p in a.points.split(",")]
@@ -148,16 +153,19 @@ def main():
                 folder = make_files(n)
                 manifest, rows = make_manifest(folder, step if step % 1 else int(step))
                 paths = [True]
-                if rows * 2 * n * 8 <= WHOLE_LIMIT_BYTES:
+                if rows * 2 * n * 8 <= WHOLE_LIMIT_BYTES and not a.bounded_only:
                     paths.append(False)
                 for bounded in paths:
                     cells = []
                     loads = []
                     for threads in (1, 2):
                         loads.append(load())
-                        w, peak, cpu, own = run(a.binary, manifest, threads, bounded, out)
+                        w, peak, cpu, own = run(a.binary, manifest, threads, bounded, out,
+                                                a.gate_from_data)
                         cells.append((w, peak, cpu, own))
                     name = "bounded" if bounded else "whole"
+                    if a.gate_from_data:
+                        name += ", gate from the data"
                     print(f"| {rows} x {n} ({step:g} deg) | {name} | {cells[0][0]:.2f} s, "
                           f"{cells[0][1]:.0f} MiB | {cells[1][0]:.2f} s, {cells[1][1]:.0f} MiB | "
                           f"{cells[1][2]:.2f} s | {loads[0]} / {loads[1]} |", flush=True)
