@@ -43,9 +43,8 @@ use crate::formats::manifest::{
 };
 use crate::formats::touchstone::{Parameter, Spacing, Touchstone};
 use crate::output::report::ImpulseView;
-use crate::pipeline::cuts::TraceBin;
 use crate::pipeline::cuts::{
-    covers_full_circle, CutBin, CutJob, CutPattern, CutTraces, CutsResult,
+    covers_full_circle, CutBin, CutJob, CutPattern, CutTraces, CutsResult, HeldFigures, TraceBin,
 };
 use crate::pipeline::data_gate;
 use crate::pipeline::manifest_bins::{self, Mean};
@@ -54,26 +53,6 @@ use crate::pipeline::transform::{self, impulse_view, FftJob, HostFft};
 
 /// Bins a worker takes at a time (a block of [`crate::threads::map_blocks`]).
 pub const BLOCK_BINS: usize = 8;
-
-/// What the bounded path held, counted as it ran (for `summary.json` and the test of the
-/// bound).
-#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
-pub struct HeldFigures {
-    /// Bins of the first look (0 with a given gate).
-    pub first_look_bins: usize,
-    /// The most bytes of whole sweeps held at once during the first look (the looked bins'
-    /// co-polar means, and what the workers held while reading them).
-    pub first_look_peak_bytes: usize,
-    /// The most bytes of whole sweeps held at once while the bins were gated: files' traces
-    /// being read, bins' sums and means, the workers' gate buffers.
-    pub gating_peak_bytes: usize,
-    /// Bytes of the reduced bins kept for the report (values at the pattern frequencies).
-    pub kept_bytes: usize,
-    /// Threads of the pool.
-    pub threads: usize,
-    /// Bins per block.
-    pub block_bins: usize,
-}
 
 /// Bytes held now and the most held at once.
 #[derive(Debug, Default)]
