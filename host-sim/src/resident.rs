@@ -37,6 +37,18 @@ pub fn peak_text() -> String {
     }
 }
 
+/// `peak_resident_bytes` and `peak_resident` for `summary.json`: the peak, and where it
+/// was read (`when`), or `null` and `"not available"`.
+pub fn peak_json(when: &str) -> serde_json::Value {
+    let peak = peak_resident_bytes();
+    serde_json::json!({
+        "peak_resident_bytes": peak,
+        "peak_resident": peak.map_or("not available".to_string(), |_| {
+            format!("VmHWM of /proc/self/status, read {when}")
+        }),
+    })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

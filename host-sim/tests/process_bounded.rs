@@ -318,7 +318,7 @@ fn a_given_gate_needs_no_first_look_and_summary_has_the_peak_memory() {
 }
 
 #[test]
-fn bounded_memory_is_refused_where_it_does_not_apply() {
+fn bounded_memory_is_refused_where_it_does_not_apply_and_one_cut_prints_the_peak() {
     let dir = scratch("refused");
     std::fs::write(dir.join("a.s3p"), s3p(0.0, 0.0)).unwrap();
     std::fs::write(dir.join("one.csv"), "angle_deg,file\n0,a.s3p\n10,a.s3p\n").unwrap();
@@ -334,6 +334,32 @@ fn bounded_memory_is_refused_where_it_does_not_apply() {
         err.contains("--bounded-memory is for a scan of cuts"),
         "{err}"
     );
+    // Without it, the one-cut report; the terminal's last line is the peak.
+    let out = dir.join("one");
+    let st = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
+        .args([
+            "process",
+            "--gate-center-ns",
+            "10",
+            "--gate-span-ns",
+            "3",
+            "--out",
+        ])
+        .arg(&out)
+        .arg(dir.join("one.csv"))
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&st.stderr);
+    assert!(st.status.success(), "{err}");
+    let last = err.lines().last().unwrap_or_default();
+    if cfg!(target_os = "linux") {
+        assert!(
+            last.starts_with("peak resident memory: ") && last.ends_with(" MiB (VmHWM)"),
+            "{err}"
+        );
+    } else {
+        assert_eq!(last, "peak resident memory: not available");
+    }
     std::fs::remove_dir_all(&dir).ok();
 }
 

@@ -219,7 +219,6 @@ pub fn summary_json(res: &CutsResult, source: &Path, settings: Value) -> Value {
 /// (after every other report file; `null` with `"not available"` where the system does not
 /// say).
 pub fn memory_json(res: &CutsResult) -> Value {
-    let peak = crate::resident::peak_resident_bytes();
     let held = res.held.map(|h| {
         json!({
             "first_look_bins": h.first_look_bins,
@@ -230,12 +229,15 @@ pub fn memory_json(res: &CutsResult) -> Value {
             "block_bins": h.block_bins,
         })
     });
-    json!({
-        "path": if res.held.is_some() { "bounded" } else { "whole" },
-        "held": held,
-        "peak_resident_bytes": peak,
-        "peak_resident": peak.map_or("not available".to_string(), |_| "VmHWM of /proc/self/status, read when summary.json was made, after the other report files".to_string()),
-    })
+    let mut v =
+        crate::resident::peak_json("when summary.json was made, after the other report files");
+    v["path"] = json!(if res.held.is_some() {
+        "bounded"
+    } else {
+        "whole"
+    });
+    v["held"] = json!(held);
+    v
 }
 
 /// The settings: the one-cut report's, with the traces and the cuts.
