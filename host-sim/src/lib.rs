@@ -14,6 +14,7 @@ pub mod output;
 pub mod phase_times;
 pub mod pipeline;
 pub mod quote;
+pub mod resident;
 pub mod threads;
 pub mod units;
 pub mod web;

@@ -134,3 +134,9 @@ pub const MAX_SYNC_THREADS: usize = 16;
 /// about two million rows (a full sphere at 0.25° × 0.25° is one million). A larger file is
 /// refused before it is read.
 pub const MAX_MANIFEST_BYTES: u64 = 128 << 20;
+
+/// A scan of cuts from a manifest whose raw traces would take more than this (rows ×
+/// traces × points × 8 bytes, the points from the first file) is processed in bounded memory
+/// (`pipeline::cuts_bounded`; `process --bounded-memory` asks for it at any size): the
+/// whole path holds these traces and a trace's gated spectra at once, about twice this.
+pub const BOUNDED_ABOVE_BYTES: u64 = 256 << 20;

@@ -47,6 +47,7 @@ fn resolved(input: Input, out: &Path) -> Resolved {
         exports: Default::default(),
         threads: 2,
         traces: None,
+        bounded_memory: false,
     }
 }
 

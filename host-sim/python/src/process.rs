@@ -137,6 +137,7 @@ fn process<'py>(
         co: None,
         cross: None,
         cross_manifest: None,
+        bounded_memory: false,
     };
     let (p, r) = py
         .detach(|| -> anyhow::Result<(Processed, Resolved)> {

@@ -65,6 +65,10 @@ pub struct Args {
     /// trace (their `--cross` parameter, else the co-polar one).
     #[arg(long, value_name = "CSV")]
     pub cross_manifest: Option<PathBuf>,
+    /// A scan of cuts from a manifest: read, gate and reduce the files a few at a time
+    /// instead of holding every sweep (the same report; done anyway above 256 MiB of sweeps).
+    #[arg(long)]
+    pub bounded_memory: bool,
 }
 
 /// Runs the command.
@@ -88,5 +92,6 @@ pub fn run(a: Args) -> anyhow::Result<()> {
         co: a.co,
         cross: a.cross,
         cross_manifest: a.cross_manifest,
+        bounded_memory: a.bounded_memory,
     })
 }

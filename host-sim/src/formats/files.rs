@@ -361,37 +361,87 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<(), FileError> {
 /// system, would leave the files named before it new and the rest old; the error names the
 /// file.)
 pub fn write_set(files: &[(PathBuf, Vec<u8>)]) -> Result<(), FileError> {
-    let threads = files.len().min(MAX_SYNC_THREADS);
-    let staged = crate::threads::map_blocks(
-        files,
-        threads,
-        1,
-        || (),
-        |_, set| set.iter().map(|(path, bytes)| stage(path, bytes)).collect(),
-    );
-    let staged = staged.into_iter().collect::<Result<Vec<AtomicFile>, _>>()?;
+    let mut set = StagedSet::default();
+    set.stage(files)?;
     crate::phase_times::mark("files written and synced");
-    let mut folders: Vec<PathBuf> = Vec::new();
-    for f in staged {
-        let folder = folder_of(&f.target).to_path_buf();
-        f.rename_into_place()?;
-        if !folders.contains(&folder) {
-            folders.push(folder);
-        }
-    }
-    for folder in &folders {
-        sync_folder(folder).map_err(io_err("syncing the folder", folder))?;
-    }
+    set.commit()?;
     crate::phase_times::mark("files renamed");
     Ok(())
+}
+
+/// A set of files (a report folder) written as [`write_set`] writes one, given in parts:
+/// each part is written and synced under temporary names when it is staged, so its bytes
+/// can be let go before the next part is made; [`StagedSet::commit`] renames them all over
+/// their targets at the end. Dropped without a commit (an error in a later part), it
+/// removes every temporary file and leaves every target as it was.
+#[derive(Debug, Default)]
+pub struct StagedSet {
+    staged: Vec<AtomicFile>,
+}
+
+impl StagedSet {
+    /// Writes and syncs `files` under their temporary names, on up to
+    /// [`MAX_SYNC_THREADS`] threads; the error names the first file (in the given order)
+    /// that could not be written.
+    pub fn stage(&mut self, files: &[(PathBuf, Vec<u8>)]) -> Result<(), FileError> {
+        let threads = files.len().min(MAX_SYNC_THREADS);
+        let staged = crate::threads::map_blocks(
+            files,
+            threads,
+            1,
+            || (),
+            |_, set| set.iter().map(|(path, bytes)| stage(path, bytes)).collect(),
+        );
+        for f in staged {
+            self.staged.push(f?);
+        }
+        Ok(())
+    }
+
+    /// Writes one file of the set as `write` makes it, a piece at a time (a large table
+    /// need not be held whole), and syncs it under its temporary name.
+    pub fn stage_written(
+        &mut self,
+        path: &Path,
+        write: impl FnOnce(&mut dyn Write) -> io::Result<()>,
+    ) -> Result<(), FileError> {
+        self.staged.push(stage_written(path, write)?);
+        Ok(())
+    }
+
+    /// Renames every staged file over its target, in the order staged, then syncs each
+    /// folder they are in once.
+    pub fn commit(self) -> Result<(), FileError> {
+        let mut folders: Vec<PathBuf> = Vec::new();
+        for f in self.staged {
+            let folder = folder_of(&f.target).to_path_buf();
+            f.rename_into_place()?;
+            if !folders.contains(&folder) {
+                folders.push(folder);
+            }
+        }
+        for folder in &folders {
+            sync_folder(folder).map_err(io_err("syncing the folder", folder))?;
+        }
+        Ok(())
+    }
 }
 
 /// One file of a set written and synced under its temporary name, ready to be renamed
 /// over `path` (refused when `path` is a folder).
 fn stage(path: &Path, bytes: &[u8]) -> Result<AtomicFile, FileError> {
+    stage_written(path, |w| w.write_all(bytes))
+}
+
+/// One file of a set written by `write` (through a buffer) and synced under its temporary
+/// name, as [`stage`].
+fn stage_written(
+    path: &Path,
+    write: impl FnOnce(&mut dyn Write) -> io::Result<()>,
+) -> Result<AtomicFile, FileError> {
     let mut f = AtomicFile::create(path)?;
     if let Some(inner) = f.file.as_mut() {
-        inner.write_all(bytes).map_err(io_err("writing", path))?;
+        write(inner).map_err(io_err("writing", path))?;
     }
     f.make_ready()?;
     if fs::metadata(path).is_ok_and(|m| m.is_dir()) {

@@ -99,6 +99,26 @@ pub struct CutPattern {
     pub bins: Vec<CutBin>,
 }
 
+/// What the bounded path (`pipeline/cuts_bounded.rs`) held, counted as it ran (for
+/// `summary.json` and the test of the bound).
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct HeldFigures {
+    /// Bins of the first look (0 with a given gate).
+    pub first_look_bins: usize,
+    /// The most bytes of whole sweeps held at once during the first look (the looked bins'
+    /// co-polar means, and what the workers held while reading them).
+    pub first_look_peak_bytes: usize,
+    /// The most bytes of whole sweeps held at once while the bins were gated: files' traces
+    /// being read, bins' sums and means, the workers' gate buffers.
+    pub gating_peak_bytes: usize,
+    /// Bytes of the reduced bins kept for the report (values at the pattern frequencies).
+    pub kept_bytes: usize,
+    /// Threads of the pool.
+    pub threads: usize,
+    /// Bins per block (`cuts_bounded::BLOCK_BINS`).
+    pub block_bins: usize,
+}
+
 /// A processed scan of cuts.
 #[derive(Debug, Clone)]
 pub struct CutsResult {
@@ -118,6 +138,8 @@ pub struct CutsResult {
     pub impulse: Option<ImpulseView>,
     /// Warnings: resampled files, bins combining files, set-up remarks.
     pub warnings: Vec<String>,
+    /// What the bounded path held; `None` on the whole path.
+    pub held: Option<HeldFigures>,
 }
 
 impl CutsResult {
@@ -177,7 +199,7 @@ fn split_cuts(sweeps: &[TraceSweep]) -> Vec<(f64, Vec<&TraceSweep>)> {
 }
 
 /// Whether θ values cover a full turn (their span plus the smallest step).
-fn covers_full_circle(angles_deg: &[f64]) -> bool {
+pub(crate) fn covers_full_circle(angles_deg: &[f64]) -> bool {
     let mut sorted = angles_deg.to_vec();
     sorted.sort_by(f64::total_cmp);
     sorted.dedup();
@@ -404,6 +426,7 @@ pub fn process_cuts(job: &CutJob, path: &Path, traces: CutTraces) -> anyhow::Res
         files: scan.sweeps.len(),
         impulse,
         warnings,
+        held: None,
     })
 }
 

@@ -26,7 +26,8 @@
 //! - `cut-phi<φ>/`: per cut, the one-cut report of its co-polar trace (pattern table,
 //!   summary with the pattern figures, plots; the first cut's with the impulse response).
 //!
-//! All files are made in memory and written as one set ([`write_set`]).
+//! The files are written as one set, made and staged a part at a time
+//! ([`write_cuts_report`]).
 
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
@@ -36,10 +37,10 @@ use serde_json::{json, Value};
 use sweepgate::metrics::wrap_deg;
 use sweepgate::Complex32;
 
-use crate::formats::files::{check_output_dir, write_set, FileError};
+use crate::formats::files::{check_output_dir, FileError, StagedSet};
 use crate::output::report::{report_files, ReportBin, ReportInput, ReportValue};
 use crate::pipeline::cuts::{CutPattern, CutsResult, TraceBin};
-use crate::pipeline::sphere_report::{sphere_files, sphere_summary};
+use crate::pipeline::sphere_report::{each_sphere_plot, sphere_summary, write_sphere_csv};
 use crate::pipeline::summary::Settings;
 use crate::pipeline::transform::c64;
 use crate::units::db;
@@ -65,15 +66,27 @@ fn opt(v: Option<f64>, decimals: usize) -> String {
     v.map_or(String::new(), |x| format!("{x:.decimals$}"))
 }
 
+/// The table's header line.
+const PATTERN_HEADER: &str =
+    "angle_deg,frequency_hz,raw_db,gated_db,gated_phase_deg,raw_phase_deg,echo_db,sweeps,flags,\
+     theta_deg,phi_deg,co_gated_db,co_raw_db,cross_gated_db,cross_raw_db,\
+     cross_gated_phase_deg,cross_raw_phase_deg,cross_echo_db,xpd_db\n";
+
 /// The table as text (columns in the module docs).
 pub fn pattern_csv(res: &CutsResult) -> String {
-    let mut s = String::from(
-        "angle_deg,frequency_hz,raw_db,gated_db,gated_phase_deg,raw_phase_deg,echo_db,sweeps,flags,\
-         theta_deg,phi_deg,co_gated_db,co_raw_db,cross_gated_db,cross_raw_db,\
-         cross_gated_phase_deg,cross_raw_phase_deg,cross_echo_db,xpd_db\n",
-    );
+    let mut out = Vec::new();
+    // Writing into memory does not fail.
+    let _ = write_pattern_csv(res, &mut out);
+    String::from_utf8_lossy(&out).into_owned()
+}
+
+/// The table written a bin at a time into `out`.
+pub fn write_pattern_csv(res: &CutsResult, out: &mut dyn std::io::Write) -> std::io::Result<()> {
+    out.write_all(PATTERN_HEADER.as_bytes())?;
+    let mut s = String::new();
     for c in &res.cuts {
         for b in &c.bins {
+            s.clear();
             for (fi, f) in res.gating.frequencies_hz.iter().enumerate() {
                 let co = Some(&b.co);
                 let x = b.cross.as_ref();
@@ -101,9 +114,10 @@ pub fn pattern_csv(res: &CutsResult) -> String {
                     opt(co_g.zip(x_g).map(|(a, b)| a - b), 6),
                 );
             }
+            out.write_all(s.as_bytes())?;
         }
     }
-    s
+    Ok(())
 }
 
 /// Per pattern frequency of one cut: peaks and cross-polar discrimination.
@@ -195,8 +209,35 @@ pub fn summary_json(res: &CutsResult, source: &Path, settings: Value) -> Value {
         "cuts": cuts,
         "sphere_points": points.len(),
         "sphere": sphere_summary(&points),
+        "memory": memory_json(res),
         "caution": "A transmitting antenna can exceed RF exposure limits near its aperture and a positioner is moving machinery: follow local regulations and the lab's licensed practice.",
     })
+}
+
+/// `memory` of `summary.json`: the path taken (`"bounded"` or `"whole"`), what the bounded
+/// path held, and the program's peak resident memory (`VmHWM`) when the summary is made
+/// (after every other report file; `null` with `"not available"` where the system does not
+/// say).
+pub fn memory_json(res: &CutsResult) -> Value {
+    let held = res.held.map(|h| {
+        json!({
+            "first_look_bins": h.first_look_bins,
+            "first_look_peak_bytes": h.first_look_peak_bytes,
+            "gating_peak_bytes": h.gating_peak_bytes,
+            "kept_bytes": h.kept_bytes,
+            "threads": h.threads,
+            "block_bins": h.block_bins,
+        })
+    });
+    let mut v =
+        crate::resident::peak_json("when summary.json was made, after the other report files");
+    v["path"] = json!(if res.held.is_some() {
+        "bounded"
+    } else {
+        "whole"
+    });
+    v["held"] = json!(held);
+    v
 }
 
 /// The settings: the one-cut report's, with the traces and the cuts.
@@ -254,40 +295,61 @@ pub fn cut_report_input(res: &CutsResult, c: &CutPattern, settings: &Value) -> R
     }
 }
 
-/// Writes the report folder of a scan of cuts as one set; returns the files written.
+/// Cut folders made and staged together (a part of the set; see [`write_cuts_report`]).
+const CUTS_PER_PART: usize = 16;
+
+/// Writes the report folder of a scan of cuts as one set ([`StagedSet`]: every file
+/// written and synced under a temporary name, all renamed at the end), made and staged a
+/// part at a time (the tables written a bin at a time, each sphere plot, [`CUTS_PER_PART`] cut folders, the
+/// summary), so that one part's bytes are held at once, not the whole folder's; returns the
+/// files written.
 pub fn write_cuts_report(
     res: &CutsResult,
     source: &Path,
     dir: &Path,
 ) -> anyhow::Result<Vec<PathBuf>> {
     let settings = settings_json(res);
-    let summary = serde_json::to_string_pretty(&summary_json(res, source, settings.clone()))
-        .context("making summary.json")?;
-    let mut set: Vec<(PathBuf, Vec<u8>)> = vec![
-        (dir.join("pattern.csv"), pattern_csv(res).into_bytes()),
-        (dir.join("summary.json"), (summary + "\n").into_bytes()),
-    ];
-    let sphere = sphere_files(&res.sphere_points(), &res.name)?;
-    set.extend(
-        sphere
-            .into_iter()
-            .map(|(name, bytes)| (dir.join(name), bytes)),
-    );
     check_output_dir(dir)?;
-    for c in &res.cuts {
-        let sub = dir.join(cut_folder(c.phi_deg));
-        std::fs::create_dir_all(&sub).map_err(|source| FileError::Io {
-            action: "making the folder",
-            path: sub.clone(),
-            source,
-        })?;
-        let files = report_files(&cut_report_input(res, c, &settings))?;
-        set.extend(
-            files
-                .into_iter()
-                .map(|(name, bytes)| (sub.join(name), bytes)),
-        );
+    let mut set = StagedSet::default();
+    let mut written: Vec<PathBuf> = Vec::new();
+    set.stage_written(&dir.join("pattern.csv"), |w| write_pattern_csv(res, w))?;
+    written.push(dir.join("pattern.csv"));
+    let points = res.sphere_points();
+    set.stage_written(&dir.join("sphere.csv"), |w| write_sphere_csv(&points, w))?;
+    written.push(dir.join("sphere.csv"));
+    let mut stage = |files: Vec<(PathBuf, Vec<u8>)>| -> anyhow::Result<()> {
+        set.stage(&files)?;
+        written.extend(files.into_iter().map(|(p, _)| p));
+        Ok(())
+    };
+    each_sphere_plot(&points, &res.name, |name, bytes| {
+        stage(vec![(dir.join(name), bytes)])
+    })?;
+    drop(points);
+    for part in res.cuts.chunks(CUTS_PER_PART) {
+        let mut files = Vec::new();
+        for c in part {
+            let sub = dir.join(cut_folder(c.phi_deg));
+            std::fs::create_dir_all(&sub).map_err(|source| FileError::Io {
+                action: "making the folder",
+                path: sub.clone(),
+                source,
+            })?;
+            let made = report_files(&cut_report_input(res, c, &settings))?;
+            files.extend(
+                made.into_iter()
+                    .map(|(name, bytes)| (sub.join(name), bytes)),
+            );
+        }
+        stage(files)?;
     }
-    write_set(&set)?;
-    Ok(set.into_iter().map(|(p, _)| p).collect())
+    // Made last, so that its peak resident memory counts the other files.
+    let summary = serde_json::to_string_pretty(&summary_json(res, source, settings))
+        .context("making summary.json")?;
+    stage(vec![(
+        dir.join("summary.json"),
+        (summary + "\n").into_bytes(),
+    )])?;
+    set.commit()?;
+    Ok(written)
 }

@@ -250,5 +250,6 @@ pub fn process_cut_recording(choices: &Choices, path: &Path) -> anyhow::Result<C
             remarks: setup.remarks,
             data: setup.data,
         },
+        held: None,
     })
 }

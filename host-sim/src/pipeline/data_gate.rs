@@ -21,6 +21,12 @@ pub const REGIONS: usize = 12;
 /// Most sweeps looked at; a longer scan is looked at every n-th sweep.
 pub const MAX_LOOKS: usize = 720;
 
+/// The sweeps of `n` the survey looks at: at most [`MAX_LOOKS`], every n-th (from the
+/// first) of a longer scan. A caller holding only these may pass the others empty.
+pub fn looked(n: usize) -> impl Iterator<Item = usize> {
+    (0..n).step_by(n.max(1).div_ceil(MAX_LOOKS))
+}
+
 /// Its name in `gate_source`.
 pub const SOURCE: &str = "chosen from the data";
 
@@ -114,16 +120,11 @@ impl FftJob for Surveying<'_> {
         let sidelobe_db = autogate::peak_sidelobe_db(self.band_window);
         let mut survey = Survey::<REGIONS>::new(cfg).context("the survey")?;
         let n = self.sweeps.len().max(1);
-        // At most MAX_LOOKS sweeps, evenly spread: each look fits a template over the
-        // direct main lobe (a few hundred K-point sums).
-        let stride = n.div_ceil(MAX_LOOKS);
-        let usable: Vec<(usize, &[Complex32])> = self
-            .sweeps
-            .iter()
-            .enumerate()
-            .step_by(stride)
+        // At most MAX_LOOKS sweeps, evenly spread ([`looked`]): each look fits a template
+        // over the direct main lobe (a few hundred K-point sums).
+        let usable: Vec<(usize, &[Complex32])> = looked(self.sweeps.len())
+            .filter_map(|i| self.sweeps.get(i).map(|s| (i, *s)))
             .filter(|(_, s)| s.len() == self.grid.points())
-            .map(|(i, s)| (i, *s))
             .collect();
         // First pass: the strongest arrival of all, the direct path at the main beam (the
         // first of equals, as one thread taking the sweeps in order finds it).

@@ -57,21 +57,32 @@ pub fn angle_step_deg(angles_deg: &[f64], full_circle: bool) -> Option<f64> {
     step.is_finite().then_some(step)
 }
 
-/// Bins the sweeps: `width_deg` when given, else the manifest's own step (1° for a single
-/// angle). A bin of one file takes that file's sweep (no copy); the others are averaged.
-pub fn bin_sweeps(
-    mut sweeps: Vec<AngleSweep>,
+/// Which angles share a bin: the width used and, per bin in increasing key order, the
+/// indices of its angles (in increasing key, ties in the order given). It needs the angles
+/// alone, so a bin's files can be read when the bin is worked ([`Mean`]).
+#[derive(Debug, Clone, PartialEq)]
+pub struct BinPlan {
+    /// The bin width used.
+    pub width_deg: f64,
+    /// Per bin, the indices of its angles.
+    pub groups: Vec<Vec<usize>>,
+}
+
+/// The bins of `angles_deg`: `width_deg` when given, else the manifest's own step (1° for a
+/// single angle).
+pub fn plan_bins(
+    angles_deg: &[f64],
     width_deg: Option<f64>,
     full_circle: bool,
-) -> anyhow::Result<ManifestBins> {
-    let angles: Vec<f64> = sweeps.iter().map(|s| s.angle_deg).collect();
+) -> anyhow::Result<BinPlan> {
+    let angles = angles_deg;
     let width_deg = width_deg
-        .or_else(|| angle_step_deg(&angles, full_circle))
+        .or_else(|| angle_step_deg(angles, full_circle))
         .unwrap_or(1.0);
     if !(width_deg.is_finite() && width_deg > 0.0) {
         anyhow::bail!("bin width {width_deg}° must be a positive number of degrees");
     }
-    let mut order: Vec<usize> = (0..sweeps.len()).collect();
+    let mut order: Vec<usize> = (0..angles.len()).collect();
     order.sort_by(|&a, &b| key(angles[a], full_circle).total_cmp(&key(angles[b], full_circle)));
     let first = order.first().map_or(0.0, |&i| key(angles[i], full_circle));
     let index = |i: usize| ((key(angles[i], full_circle) - first) / width_deg + 1e-9).round();
@@ -82,6 +93,41 @@ pub fn bin_sweeps(
             _ => groups.push(vec![i]),
         }
     }
+    Ok(BinPlan { width_deg, groups })
+}
+
+/// The angle of a bin: the mean key of its members' angles (in member order).
+pub fn bin_angle_deg(member_angles_deg: &[f64], full_circle: bool) -> f64 {
+    let n = member_angles_deg.len().max(1) as f64;
+    member_angles_deg
+        .iter()
+        .map(|&a| key(a, full_circle))
+        .sum::<f64>()
+        / n
+}
+
+/// The sentence for a bin combining several files: (file, angle) of each member.
+pub fn combined_note(files: &[(String, f64)], angle_deg: f64, width_deg: f64) -> String {
+    let list: Vec<String> = files.iter().map(|(f, a)| format!("{f} ({a}°)")).collect();
+    format!(
+        "{} files fall into one bin at {angle_deg:.4}° (bin width {width_deg}°): {}; \
+         their sweeps are averaged",
+        files.len(),
+        list.join(", ")
+    )
+}
+
+/// Bins the sweeps ([`plan_bins`]). A bin of one file takes that file's sweep (no copy);
+/// the others are averaged.
+pub fn bin_sweeps(
+    mut sweeps: Vec<AngleSweep>,
+    width_deg: Option<f64>,
+    full_circle: bool,
+) -> anyhow::Result<ManifestBins> {
+    let angles: Vec<f64> = sweeps.iter().map(|s| s.angle_deg).collect();
+    let plan = plan_bins(&angles, width_deg, full_circle)?;
+    let width_deg = plan.width_deg;
+    let groups = plan.groups;
     let mut out = ManifestBins {
         sweeps: Vec::with_capacity(groups.len()),
         counts: Vec::with_capacity(groups.len()),
@@ -97,6 +143,43 @@ pub fn bin_sweeps(
     Ok(out)
 }
 
+/// The mean of a bin's sweeps made one sweep at a time, as [`bin_sweeps`] makes it (f64
+/// sums from 0 in member order, divided by the count, to f32): the same values bit for bit
+/// while only the sums and the sweep being added are held.
+#[derive(Debug, Clone, Default)]
+pub struct Mean {
+    sums: Vec<(f64, f64)>,
+    count: usize,
+}
+
+impl Mean {
+    /// Adds the next member's sweep.
+    pub fn add(&mut self, values: &[Complex32]) {
+        if self.sums.len() < values.len() {
+            self.sums.resize(values.len(), (0.0, 0.0));
+        }
+        for (s, v) in self.sums.iter_mut().zip(values) {
+            s.0 += f64::from(v.re);
+            s.1 += f64::from(v.im);
+        }
+        self.count += 1;
+    }
+
+    /// Bytes held by the sums.
+    pub fn bytes(&self) -> usize {
+        self.sums.capacity() * std::mem::size_of::<(f64, f64)>()
+    }
+
+    /// The mean of the sweeps added.
+    pub fn finish(self) -> Vec<Complex32> {
+        let n = self.count.max(1) as f64;
+        self.sums
+            .into_iter()
+            .map(|(re, im)| Complex32::new((re / n) as f32, (im / n) as f32))
+            .collect()
+    }
+}
+
 /// The mean of the sweeps `members` (complex, point by point) at their mean key, and the
 /// sentence saying so when there is more than one. A single member's sweep is taken out of
 /// `sweeps`, not copied (each file is in one bin only).
@@ -107,11 +190,8 @@ fn combine(
     width_deg: f64,
 ) -> (AngleSweep, Option<String>) {
     let n = members.len().max(1) as f64;
-    let angle_deg = members
-        .iter()
-        .map(|&i| key(sweeps[i].angle_deg, full_circle))
-        .sum::<f64>()
-        / n;
+    let member_angles: Vec<f64> = members.iter().map(|&i| sweeps[i].angle_deg).collect();
+    let angle_deg = bin_angle_deg(&member_angles, full_circle);
     let points = members
         .iter()
         .map(|&i| sweeps[i].values.len())
@@ -142,16 +222,11 @@ fn combine(
         .map(|&i| sweeps[i].file.clone())
         .unwrap_or_default();
     let note = (members.len() > 1).then(|| {
-        let files: Vec<String> = members
+        let files: Vec<(String, f64)> = members
             .iter()
-            .map(|&i| format!("{} ({}°)", sweeps[i].file.display(), sweeps[i].angle_deg))
+            .map(|&i| (sweeps[i].file.display().to_string(), sweeps[i].angle_deg))
             .collect();
-        format!(
-            "{} files fall into one bin at {angle_deg:.4}° (bin width {width_deg}°): {}; \
-             their sweeps are averaged",
-            members.len(),
-            files.join(", ")
-        )
+        combined_note(&files, angle_deg, width_deg)
     });
     (
         AngleSweep {

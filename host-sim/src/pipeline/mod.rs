@@ -5,6 +5,7 @@
 pub mod capture;
 pub mod cut_capture;
 pub mod cuts;
+pub mod cuts_bounded;
 pub mod cuts_report;
 pub mod cuts_stream;
 pub mod data_gate;

@@ -56,7 +56,7 @@ use crate::formats::gain_table::GainTable;
 use crate::formats::manifest::{AngleSweep, Manifest};
 use crate::formats::recording as record;
 use crate::formats::touchstone::{Parameter, Spacing, Touchstone};
-use crate::limits::MIN_REFERENCE_DB;
+use crate::limits::{BOUNDED_ABOVE_BYTES, MIN_REFERENCE_DB};
 use crate::model::scenario::toml_one_line;
 use crate::output::export::{self, BandRow, Bands, Exports};
 use crate::output::report::{self, ImpulseView, ReportBin, ReportInput, ReportValue};
@@ -69,8 +69,9 @@ use crate::pipeline::setup::{self, Automatic};
 use crate::pipeline::stream::{self, Discard, Pacing};
 use crate::pipeline::summary::Settings;
 use crate::pipeline::transform::c64;
-use crate::pipeline::{cuts_report, cuts_stream};
+use crate::pipeline::{cuts_bounded, cuts_report, cuts_stream};
 use crate::quote::{clip_quotes, clipped};
+use crate::resident::peak_text;
 
 /// Options of `sweepgate process`, as given (`cli/process.rs` spells them).
 #[derive(Debug, Clone, Default)]
@@ -106,6 +107,9 @@ pub struct Options {
     pub cross: Option<String>,
     /// A second manifest whose files hold the cross-polar trace (a scan of cuts).
     pub cross_manifest: Option<PathBuf>,
+    /// A scan of cuts from a manifest in bounded memory at any size
+    /// ([`crate::pipeline::cuts_bounded`]; above [`BOUNDED_ABOVE_BYTES`] it is anyway).
+    pub bounded_memory: bool,
 }
 
 /// The keys a settings file may hold.
@@ -221,6 +225,8 @@ pub struct Resolved {
     /// The co- and cross-polar traces, when asked for (`--co`, `--cross`): the manifest is
     /// processed as a scan of cuts ([`crate::pipeline::cuts`]).
     pub traces: Option<CutTraces>,
+    /// A scan of cuts from a manifest in bounded memory at any size.
+    pub bounded_memory: bool,
 }
 
 /// A manifest when the file's first line starts with `angle_deg` or `theta_deg`, else a
@@ -321,6 +327,7 @@ pub fn resolve(opts: &Options) -> anyhow::Result<Resolved> {
             None => crate::threads::available(),
         },
         traces,
+        bounded_memory: opts.bounded_memory,
     })
 }
 
@@ -680,6 +687,9 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
     if wants_cuts(&r)? {
         return run_cuts(&r);
     }
+    if r.bounded_memory {
+        bail!("--bounded-memory is for a scan of cuts from a manifest (`theta_deg,phi_deg,file`, or --co/--cross); a one-cut manifest's sweeps are held, a recording is streamed");
+    }
     mark("options and input kind");
     let r2 = r.clone();
     let p = std::thread::Builder::new()
@@ -713,6 +723,7 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
     if let Some(f) = &r.exports.arrays {
         eprintln!("array export written to {}", f.display());
     }
+    eprintln!("peak resident memory: {}", peak_text());
     Ok(())
 }
 
@@ -746,12 +757,21 @@ pub fn run_cuts(r: &Resolved) -> anyhow::Result<()> {
         threads: r.threads,
     };
     let (res, path) = match &r.input {
+        Input::Manifest(path) if bounded(r, path, &traces)? => (
+            cuts_bounded::process_cuts_bounded(&job, path, traces.clone())?,
+            path,
+        ),
         Input::Manifest(path) => (cuts::process_cuts(&job, path, traces.clone())?, path),
+        Input::Recording(_) if r.bounded_memory => {
+            bail!("--bounded-memory is for a manifest: a recording of cuts is streamed through the engine anyway")
+        }
         Input::Recording(path) => (cuts_stream::process_cut_recording(&r.choices, path)?, path),
     };
+    mark("cuts processed");
     let traces = res.traces.clone();
     cuts_report::write_cuts_report(&res, path, &r.out)
         .with_context(|| format!("writing the report to {}", r.out.display()))?;
+    mark("report written");
     for w in &res.warnings {
         eprintln!("warning: {w}");
     }
@@ -765,5 +785,41 @@ pub fn run_cuts(r: &Resolved) -> anyhow::Result<()> {
         res.gating.gate_source,
         r.out.display()
     );
+    if let Some(h) = &res.held {
+        eprintln!(
+            "bounded memory: at most {} of whole sweeps held while gating ({} threads, {} bins a block), {} in the first look ({} bins); {} of reduced bins kept",
+            size_text(h.gating_peak_bytes),
+            h.threads,
+            h.block_bins,
+            size_text(h.first_look_peak_bytes),
+            h.first_look_bins,
+            size_text(h.kept_bytes)
+        );
+    }
+    eprintln!("peak resident memory: {}", peak_text());
     Ok(())
+}
+
+/// Bytes in words: MiB from 1 MiB up, else KiB.
+fn size_text(bytes: usize) -> String {
+    let kib = bytes as f64 / 1024.0;
+    if kib >= 1024.0 {
+        format!("{:.1} MiB", kib / 1024.0)
+    } else {
+        format!("{kib:.0} KiB")
+    }
+}
+
+/// Whether a manifest of cuts goes the bounded path: asked for, or its raw traces over
+/// [`BOUNDED_ABOVE_BYTES`] (the whole path when it has a cross-polar manifest, which the
+/// bounded path does not take yet).
+fn bounded(r: &Resolved, path: &Path, traces: &CutTraces) -> anyhow::Result<bool> {
+    if r.bounded_memory {
+        return Ok(true);
+    }
+    if traces.cross_manifest.is_some() {
+        return Ok(false);
+    }
+    let m = Manifest::read(path)?;
+    Ok(cuts_bounded::whole_path_bytes(&m, traces, r.spacing)? > BOUNDED_ABOVE_BYTES)
 }

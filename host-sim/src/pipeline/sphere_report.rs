@@ -23,12 +23,22 @@ pub const SPHERE_CSV_HEADER: &str =
 /// `sphere.csv`: one row per sample, in the order given; levels are 20·log10|·| of the
 /// traces as given (not normalized), complex parts as given.
 pub fn sphere_csv(points: &[SpherePoint]) -> String {
-    let mut out = String::with_capacity(80 * (points.len() + 1));
-    out.push_str(SPHERE_CSV_HEADER);
-    out.push('\n');
+    let mut out = Vec::with_capacity(80 * (points.len() + 1));
+    // Writing into memory does not fail.
+    let _ = write_sphere_csv(points, &mut out);
+    String::from_utf8_lossy(&out).into_owned()
+}
+
+/// `sphere.csv` written a row at a time into `out`.
+pub fn write_sphere_csv(
+    points: &[SpherePoint],
+    out: &mut dyn std::io::Write,
+) -> std::io::Result<()> {
+    writeln!(out, "{SPHERE_CSV_HEADER}")?;
     for p in points {
-        out.push_str(&format!(
-            "{},{},{},{:.4},{:.4},{:e},{:e},{:e},{:e}\n",
+        writeln!(
+            out,
+            "{},{},{},{:.4},{:.4},{:e},{:e},{:e},{:e}",
             p.theta_deg,
             p.phi_deg,
             p.frequency_hz,
@@ -38,9 +48,9 @@ pub fn sphere_csv(points: &[SpherePoint]) -> String {
             p.co.im,
             p.cross.re,
             p.cross.im
-        ));
+        )?;
     }
-    out
+    Ok(())
 }
 
 fn at_frequency(points: &[SpherePoint], f_hz: f64) -> Vec<SpherePoint> {
@@ -160,15 +170,30 @@ fn mhz_name(f_hz: f64) -> String {
 /// `sphere_map_<f>mhz.svg` (co-polar θ–φ map) and `sphere_cuts_<f>mhz.svg`.
 pub fn sphere_files(points: &[SpherePoint], title: &str) -> anyhow::Result<Vec<(String, Vec<u8>)>> {
     let mut files = vec![("sphere.csv".to_string(), sphere_csv(points).into_bytes())];
+    each_sphere_plot(points, title, |name, bytes| {
+        files.push((name, bytes));
+        Ok(())
+    })?;
+    Ok(files)
+}
+
+/// The files of [`sphere_files`] but `sphere.csv` ([`write_sphere_csv`] writes that a row
+/// at a time), made one at a time and handed to `put` in the same order, so that each can be
+/// written and let go before the next is made.
+pub fn each_sphere_plot(
+    points: &[SpherePoint],
+    title: &str,
+    mut put: impl FnMut(String, Vec<u8>) -> anyhow::Result<()>,
+) -> anyhow::Result<()> {
     for f in frequencies(points) {
         let name = mhz_name(f);
         let map = colour_map_svg(&colour_map(points, f, false, title))?;
-        files.push((format!("sphere_map_{name}.svg"), map.into_bytes()));
+        put(format!("sphere_map_{name}.svg"), map.into_bytes())?;
         let caption = format!("{title}: cuts at {:.3} GHz", f / 1e9);
         let cuts = cuts_svg(&caption, &cut_curves(points, f))?;
-        files.push((format!("sphere_cuts_{name}.svg"), cuts.into_bytes()));
+        put(format!("sphere_cuts_{name}.svg"), cuts.into_bytes())?;
     }
-    Ok(files)
+    Ok(())
 }
 
 fn finite_or_null(v: f64) -> Value {
