@@ -104,10 +104,16 @@ def sweepgate_run(binary, manifest, threads, out):
             "--frequencies-hz", ",".join(repr(fz) for fz in FREQS_HZ), "--out", out]
     if threads is not None:
         args += ["--threads", str(threads)]
-    # Started through /usr/bin/time when there is one: a child forked from this Python
-    # process counts the interpreter's resident memory (numpy's included) in its peak
-    # until it execs, which put a floor of about 27-35 MiB under every figure; time's own
-    # child starts small. CPU time from wait4 counts time and its child.
+    elapsed, peak_mib, cpu, _err = timed(args)
+    return elapsed, peak_mib, cpu
+
+
+def timed(args):
+    """Runs a sweepgate command; returns (wall s, peak resident MiB, CPU s, its standard
+    error). Started through /usr/bin/time when there is one: a child forked from this Python
+    process counts the interpreter's resident memory (numpy's included) in its peak until it
+    execs, which put a floor of about 27-35 MiB under every figure; time's own child starts
+    small. CPU time from wait4 counts time and its child."""
     if os.path.exists(TIMER):
         args = [TIMER, "-f", "sweepgate-peak-kib %M"] + args
     t = time.perf_counter()
@@ -116,14 +122,14 @@ def sweepgate_run(binary, manifest, threads, out):
     elapsed = time.perf_counter() - t
     err = p.stderr.read().decode()
     p.stderr.close()
-    p.returncode = os.waitstatus_to_exitcode(status)
-    if p.returncode != 0:
-        raise SystemExit(f"sweepgate process failed ({p.returncode}): {err}")
+    code = os.waitstatus_to_exitcode(status)
+    if code != 0:
+        raise SystemExit(f"sweepgate failed ({code}): {err}")
     peak_kib = usage.ru_maxrss
     for line in err.splitlines():
         if line.startswith("sweepgate-peak-kib "):
             peak_kib = int(line.split()[1])
-    return elapsed, peak_kib / 1024.0, usage.ru_utime + usage.ru_stime
+    return elapsed, peak_kib / 1024.0, usage.ru_utime + usage.ru_stime, err
 
 
 def best(binary, manifest, threads, repeat, tmp):

@@ -31,17 +31,17 @@ program's own VmHWM line; CPU time from wait4. The load average before each run 
 import argparse
 import os
 import shutil
-import subprocess
 import sys
 import tempfile
-import time
 
 import numpy as np
+
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from process_vs_skrf import timed  # noqa: E402  (the same timing as the one-cut bench)
 
 HERE = os.path.dirname(os.path.abspath(__file__))
 ROOT = os.path.dirname(os.path.dirname(HERE))
 DISTINCT = 64
-TIMER = "/usr/bin/time"
 WHOLE_LIMIT_BYTES = 256 << 20  # limits::BOUNDED_ABOVE_BYTES
 
 
@@ -108,24 +108,12 @@ def run(binary, manifest, threads, bounded, out, from_data=False):
             "--frequencies-hz", "9e9,10e9,11e9", "--threads", str(threads), "--out", out]
     if bounded:
         args.append("--bounded-memory")
-    if os.path.exists(TIMER):
-        args = [TIMER, "-f", "sweepgate-peak-kib %M"] + args
-    t = time.perf_counter()
-    p = subprocess.Popen(args, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
-    _, status, usage = os.wait4(p.pid, 0)
-    elapsed = time.perf_counter() - t
-    err = p.stderr.read().decode()
-    p.stderr.close()
-    if os.waitstatus_to_exitcode(status) != 0:
-        raise SystemExit(f"sweepgate process failed: {err}")
-    peak_kib = usage.ru_maxrss
+    elapsed, peak_mib, cpu, err = timed(args)
     own = "?"
     for line in err.splitlines():
-        if line.startswith("sweepgate-peak-kib "):
-            peak_kib = int(line.split()[1])
         if line.startswith("peak resident memory: "):
             own = line[len("peak resident memory: "):]
-    return elapsed, peak_kib / 1024.0, usage.ru_utime + usage.ru_stime, own
+    return elapsed, peak_mib, cpu, own
 
 
 def load():
