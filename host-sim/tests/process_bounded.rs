@@ -13,7 +13,6 @@
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
-use num_complex::Complex64;
 use serde_json::Value;
 use sweepgate_host::pipeline::cuts::{process_cuts, CutJob, CutsResult};
 use sweepgate_host::pipeline::cuts_bounded::{process_cuts_bounded, BLOCK_BINS};
@@ -21,41 +20,15 @@ use sweepgate_host::pipeline::data_gate::MAX_LOOKS;
 use sweepgate_host::pipeline::options::GateOptions;
 use sweepgate_host::pipeline::process::{resolve, Options};
 
-const F0_HZ: f64 = 8e9;
-const STEP_HZ: f64 = 20e6;
-const POINTS: usize = 201;
 /// The FFT size the gate uses for 201 points.
 const FFT_POINTS: usize = 1024;
 const TRACES: usize = 2;
 
-fn path(a: f64, tau: f64, f: f64) -> Complex64 {
-    Complex64::from_polar(a, -2.0 * std::f64::consts::PI * f * tau)
-}
-
-/// A 3-port file: S21 = cos²(θ/2)-like beam, S31 a small cross-polar lobe, both with two
-/// echoes.
-fn s3p(theta: f64, phi: f64) -> String {
-    let (t, p) = (theta.to_radians(), phi.to_radians());
-    let co = (0.5 + 0.5 * t.cos()).powi(2) * (1.0 - 0.2 * p.sin().powi(2)) + 1e-3;
-    let cross = 0.02 + 0.06 * ((2.0 * p).sin() * t.sin()).abs();
-    let mut s = String::from("# Hz S RI R 50\n");
-    for n in 0..POINTS {
-        let f = F0_HZ + n as f64 * STEP_HZ;
-        let a = path(co, 10e-9, f) + path(0.1, 14.5e-9, f) + path(0.3, 16e-9, f);
-        let b = path(cross, 10e-9, f) + path(0.05, 14.5e-9, f) + path(0.04, 16e-9, f);
-        s.push_str(&format!(
-            "{f} 0 0 0 0 0 0\n {:.12e} {:.12e} 0 0 0 0\n {:.12e} {:.12e} 0 0 0 0\n",
-            a.re, a.im, b.re, b.im
-        ));
-    }
-    s
-}
+mod cut_model;
+use cut_model::{s3p, POINTS};
 
 fn scratch(tag: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("sweepgate-bounded-{tag}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
+    cut_model::scratch("bounded", tag)
 }
 
 /// A sphere manifest at `step` degrees (θ 0…180, φ 0…360 − step), rows in a shuffled order,

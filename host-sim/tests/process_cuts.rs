@@ -12,63 +12,14 @@ use std::process::Command;
 use num_complex::Complex64;
 use serde_json::Value;
 
-const F0_HZ: f64 = 8e9;
-const STEP_HZ: f64 = 20e6;
-const POINTS: usize = 201;
-const DIRECT_S: f64 = 10e-9;
 const THETAS: [i32; 2] = [-90, 90];
 const PHIS: [f64; 3] = [0.0, 45.0, 90.0];
 
-/// Co-polar amplitude pattern: a raised-cosine beam, a little narrower in the φ = 90° cut.
-fn co(theta_deg: f64, phi_deg: f64) -> f64 {
-    let t = theta_deg.to_radians();
-    let p = phi_deg.to_radians();
-    (0.5 + 0.5 * t.cos()).powi(2) * (1.0 - 0.2 * p.sin().powi(2)) + 1e-3
-}
-
-/// Cross-polar amplitude pattern: a floor of 0.02 (−34 dB) on axis plus a lobe off axis
-/// in the 45° cut.
-fn cross(theta_deg: f64, phi_deg: f64) -> f64 {
-    let t = theta_deg.to_radians();
-    let p = phi_deg.to_radians();
-    0.02 + 0.06 * ((2.0 * p).sin() * t.sin()).abs()
-}
-
-/// One path: amplitude `a` at delay `tau` at frequency `f`.
-fn path(a: f64, tau: f64, f: f64) -> Complex64 {
-    Complex64::from_polar(a, -2.0 * std::f64::consts::PI * f * tau)
-}
-
-/// S21 and S31 at point `n`: direct paths plus the room's two echoes, seen by both ports
-/// at the same delays (one geometry) but with their own polarisation: a wall at 14.5 ns
-/// (0.1 co-polar, 0.05 turned into the cross-polar port) and a floor bounce at 16 ns (0.3
-/// co-polar, 0.04 cross-polar). The cross-polar echoes are above the cross-polar direct
-/// path near boresight.
-fn s21_s31(theta: f64, phi: f64, n: usize) -> (Complex64, Complex64) {
-    let f = F0_HZ + n as f64 * STEP_HZ;
-    let s21 = path(co(theta, phi), DIRECT_S, f) + path(0.1, 14.5e-9, f) + path(0.3, 16e-9, f);
-    let s31 = path(cross(theta, phi), DIRECT_S, f) + path(0.05, 14.5e-9, f) + path(0.04, 16e-9, f);
-    (s21, s31)
-}
-
-fn s3p(theta: f64, phi: f64) -> String {
-    let mut t = String::from("! test model\n# Hz S RI R 50\n");
-    for n in 0..POINTS {
-        let (a, b) = s21_s31(theta, phi, n);
-        let f = F0_HZ + n as f64 * STEP_HZ;
-        t.push_str(&format!(
-            "{f} 0 0 0 0 0 0\n {:.12e} {:.12e} 0 0 0 0\n {:.12e} {:.12e} 0 0 0 0\n",
-            a.re, a.im, b.re, b.im
-        ));
-    }
-    t
-}
+mod cut_model;
+use cut_model::{co, cross, s21_s31, s3p, F0_HZ, POINTS, STEP_HZ};
 
 fn scratch(tag: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("sweepgate-cuts-{tag}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
+    cut_model::scratch("cuts", tag)
 }
 
 fn write_scan(dir: &Path) -> PathBuf {
