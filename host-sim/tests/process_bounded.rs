@@ -145,16 +145,8 @@ fn the_bounded_path_gives_the_whole_paths_numbers_bit_for_bit() {
     // And the report files the command writes: the same bytes, summary.json the same but
     // for its `memory`.
     let run = |extra: &[&str], out: &Path| {
-        let st = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
-            .args([
-                "process",
-                "--co",
-                "S21",
-                "--cross",
-                "S31",
-                "--frequencies-hz",
-                "10e9",
-            ])
+        let st = cut_model::process_cuts()
+            .args(["--frequencies-hz", "10e9"])
             .args(extra)
             .arg("--out")
             .arg(out)
@@ -257,15 +249,8 @@ fn a_given_gate_needs_no_first_look_and_summary_has_the_peak_memory() {
     let h = bounded.held.unwrap();
     assert_eq!((h.first_look_bins, h.first_look_peak_bytes), (0, 0));
     let out = dir.join("report");
-    let st = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
-        .args([
-            "process",
-            "--co",
-            "S21",
-            "--cross",
-            "S31",
-            "--bounded-memory",
-        ])
+    let st = cut_model::process_cuts()
+        .args(["--bounded-memory"])
         .args(["--gate-center-ns", "10", "--gate-span-ns", "3", "--out"])
         .arg(&out)
         .arg(&m)

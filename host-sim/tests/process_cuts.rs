@@ -45,16 +45,8 @@ fn a_theta_phi_manifest_of_3_port_files_gives_co_and_cross_polar_cuts() {
     let dir = scratch("e2e");
     let manifest = write_scan(&dir);
     let out = dir.join("report");
-    let st = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
-        .args([
-            "process",
-            "--co",
-            "S21",
-            "--cross",
-            "S31",
-            "--frequencies-hz",
-            "10e9",
-        ])
+    let st = cut_model::process_cuts()
+        .args(["--frequencies-hz", "10e9"])
         .arg("--out")
         .arg(&out)
         .arg(&manifest)

@@ -7,6 +7,7 @@
 #![allow(dead_code)]
 
 use std::path::PathBuf;
+use std::process::Command;
 
 use num_complex::Complex64;
 
@@ -65,4 +66,11 @@ pub fn scratch(prefix: &str, tag: &str) -> PathBuf {
     let _ = std::fs::remove_dir_all(&d);
     std::fs::create_dir_all(&d).unwrap();
     d
+}
+
+/// `sweepgate process --co S21 --cross S31`, to which a test adds its options.
+pub fn process_cuts() -> Command {
+    let mut c = Command::new(env!("CARGO_BIN_EXE_sweepgate"));
+    c.args(["process", "--co", "S21", "--cross", "S31"]);
+    c
 }
