@@ -769,7 +769,8 @@ where
 }
 
 #[cfg(feature = "gate-figures")]
-/// An unusable value (the SCPI not-a-number code, 9.91e37) anywhere in a 201-point REAL,32
+/// An unusable value (the SCPI not-a-number code, 9.91e37: SCPI-99 Vol. 1, as the core's
+/// `wire::block` cites it) anywhere in a 201-point REAL,32
 /// block, real or imaginary part, in either byte order, rejects the block: the board's copy
 /// of whole samples checks them by an OR of the words it copied (the carried sample, the
 /// odd one, the pairs), and the general path must then find the value.

@@ -2342,7 +2342,8 @@ pub fn run(opts: &Options) -> anyhow::Result<()> {
 mod tests {
 
     /// A reading's time stays inside its exchange whatever the clock fit says, and never
-    /// goes back (causality, no source needed).
+    /// goes back (causality: the reading happens between request and reply; common
+    /// practice, no source).
     #[test]
     fn a_reading_is_timed_inside_its_exchange() {
         use super::sample_time_us;

@@ -360,7 +360,8 @@ mod tests {
     use super::*;
 
     /// A turn of sweeps: a direct path at 10 ns whose level follows the angle, and an echo
-    /// at 14 ns, 10 dB down, that comes and goes.
+    /// at 14 ns, 10 dB down, that comes and goes. Each path is e^(−j2πfτ) (the Fourier shift
+    /// theorem), written here, not the product's simulator.
     fn scan(grid: &Grid, sweeps: usize) -> Vec<Vec<Complex32>> {
         let path = |f: f64, delay_s: f64, a: f64| {
             let ph = -2.0 * std::f64::consts::PI * f * delay_s;
