@@ -13,6 +13,10 @@
 //! separate multiply and add do; nothing is fused), which the firmware's capture of the
 //! kernel path checks against the host (`.ci/run`).
 //!
+//! One loop here is not floating point: the block decoder's copy of whole REAL,32 samples
+//! (`real32_copy`: word loads, byte reversal, store-multiple), kept beside the others as the
+//! core's one other hot loop that the compiler does not write well for this core.
+//!
 //! The core calls these only with its `fpu-loops` feature and only on 32-bit ARM with a
 //! hardware FPU; on every other target this crate is empty.
 #![no_std]
