@@ -91,7 +91,12 @@ fn make(rng: &mut Rng, ports: usize) -> Made {
     let pairs = header(rng, ports, points, &mut text);
     let v2 = text.contains("[Version]");
     let db = text.contains(" DB ");
-    let per_line = 1 + rng.below(2 * pairs + 1);
+    // One whole record a line half of the time (the reader's one-line path), else any split.
+    let per_line = if rng.below(2) == 0 {
+        2 * pairs + 1
+    } else {
+        1 + rng.below(2 * pairs + 1)
+    };
     let (f0, df) = (1.0 + rng.below(5) as f64, 0.25);
     for k in 0..points {
         let mut nums = vec![number(rng, f0 + df * k as f64)];

@@ -64,24 +64,68 @@ static CLASS: [u8; 256] = {
     t
 };
 
+/// One byte in each of the eight lanes of a word.
+const LANES: u64 = 0x0101_0101_0101_0101;
+/// The top bit of each lane: the masks below mark a byte there.
+const TOPS: u64 = LANES * 0x80;
+
+/// The lanes of `x` (bytes below 0x80) equal to `c`. No lane carries into the next: each
+/// lane of `t` is at most 0x7f, so `t + 0x7f` stays below 0x100 and has its top bit set
+/// exactly when `t` is not zero.
+fn lanes_equal(x: u64, c: u8) -> u64 {
+    let t = x ^ (LANES * u64::from(c));
+    !(t + LANES * 0x7f) & TOPS
+}
+
+/// The eight bytes of `w` (little-endian: byte k in lane k) as two masks: whitespace
+/// (`is_space`) and stops (`\n`, `!`, past ASCII), a lane marked by its top bit. A byte
+/// past ASCII is a stop whatever its low bits make it; the caller stops at the first stop.
+fn classify(w: u64) -> (u64, u64) {
+    let past_ascii = w & TOPS;
+    let x = w & !TOPS;
+    // 0x09..=0x0d: at least 9 and not above 13 (no lane carries: each sum is below 0x100).
+    let from_tab = (x + LANES * (0x80 - 0x09)) & TOPS;
+    let past_cr = (x + LANES * (0x7f - 0x0d)) & TOPS;
+    let space = (from_tab & !past_cr) | lanes_equal(x, b' ');
+    let stop = past_ascii | lanes_equal(x, b'\n') | lanes_equal(x, b'!');
+    (space, stop)
+}
+
 /// Scans the line starting at `start`: pushes the content's tokens (before any `!`) to
-/// `tokens` as offsets into `bytes`.
+/// `tokens` as offsets into `bytes`. Eight bytes a step: the lanes where a token starts or
+/// ends are found from masks, with no branch per byte; the last few bytes of the file, one
+/// at a time.
 fn scan_line(bytes: &[u8], start: usize, tokens: &mut Vec<(usize, usize)>) -> Scan {
     tokens.clear();
-    let class = |i: usize| bytes.get(i).map_or(STOP, |&b| CLASS[usize::from(b)]);
     let mut i = start;
-    loop {
-        while class(i) == SPACE {
-            i += 1;
+    // Where the token being read started, when one runs on past the bytes looked at.
+    let mut open: Option<usize> = None;
+    let mut stopped = false;
+    while let Some(&word) = bytes.get(i..).and_then(|b| b.first_chunk::<8>()) {
+        let (space, stop) = classify(u64::from_le_bytes(word));
+        let first_stop = stop & stop.wrapping_neg();
+        // The lanes up to and including the first stop (all when there is none).
+        let upto = first_stop | first_stop.wrapping_sub(1);
+        let token = !(space | stop) & TOPS;
+        let before = (token << 8) | (u64::from(open.is_some()) << 7);
+        let mut edges = (token ^ before) & upto;
+        while edges != 0 {
+            let at = i + edges.trailing_zeros() as usize / 8;
+            match open.take() {
+                None => open = Some(at),
+                Some(s) => tokens.push((s, at)),
+            }
+            edges &= edges - 1;
         }
-        if class(i) != TOKEN {
+        if stop != 0 {
+            i += first_stop.trailing_zeros() as usize / 8;
+            stopped = true;
             break;
         }
-        let s = i;
-        while class(i) == TOKEN {
-            i += 1;
-        }
-        tokens.push((s, i));
+        i += 8;
+    }
+    if !stopped {
+        i = scan_tail(bytes, i, open, tokens);
     }
     match bytes.get(i) {
         None | Some(b'\n') => Scan {
@@ -96,6 +140,30 @@ fn scan_line(bytes: &[u8], start: usize, tokens: &mut Vec<(usize, usize)>) -> Sc
             end: line_end(bytes, i),
             ascii: false,
         },
+    }
+}
+
+/// The scan of a line's last bytes (fewer than eight left in the file), one at a time, a
+/// token started at `open` still being read; returns where the scan stopped.
+fn scan_tail(
+    bytes: &[u8],
+    mut i: usize,
+    mut open: Option<usize>,
+    tokens: &mut Vec<(usize, usize)>,
+) -> usize {
+    loop {
+        let class = bytes.get(i).map_or(STOP, |&b| CLASS[usize::from(b)]);
+        if class == TOKEN {
+            open.get_or_insert(i);
+        } else {
+            if let Some(s) = open.take() {
+                tokens.push((s, i));
+            }
+            if class == STOP {
+                return i;
+            }
+        }
+        i += 1;
     }
 }
 
@@ -133,6 +201,11 @@ impl Parser<'_> {
         while start < bytes.len() {
             line += 1;
             self.line = line;
+            if let Some(end) = self.one_line_record(bytes, start)? {
+                start = end + 1;
+                continue;
+            }
+            self.one_line = None;
             let scan = scan_line(bytes, start, &mut tokens);
             if scan.ascii {
                 self.ascii_line(bytes, &tokens)?;
@@ -234,6 +307,52 @@ mod tests {
             let ours: Vec<&str> = t.iter().map(|&(a, b)| &s[a..b]).collect();
             let std: Vec<&str> = s.split_whitespace().collect();
             assert_eq!(ours, std, "{s:?}");
+        }
+    }
+
+    /// The line scan one byte at a time: the reference the word-at-a-time scan must equal.
+    fn scan_line_bytewise(bytes: &[u8], start: usize, tokens: &mut Vec<(usize, usize)>) -> Scan {
+        let i = scan_tail(bytes, start, None, {
+            tokens.clear();
+            tokens
+        });
+        let end = match bytes.get(i) {
+            None | Some(b'\n') => i,
+            Some(_) => line_end(bytes, i),
+        };
+        Scan {
+            end,
+            ascii: !matches!(bytes.get(i), Some(&b) if b >= 0x80),
+        }
+    }
+
+    #[test]
+    fn the_word_scan_equals_the_byte_scan() {
+        // Reference: the byte-at-a-time scan above (the class table). Random lines over an
+        // alphabet of every class (each whitespace byte, stops, a control byte that is
+        // neither, bytes past ASCII), from random starting points.
+        let alphabet = b" \t\n\r\x0b\x0c!-+.e019a\x01\x1f\x7f\x80\xa0\xc3\xff";
+        let mut state = 0x9e37_79b9_7f4a_7c15u64;
+        let mut next = || {
+            state ^= state << 13;
+            state ^= state >> 7;
+            state ^= state << 17;
+            state
+        };
+        let (mut a, mut b) = (Vec::new(), Vec::new());
+        for _ in 0..200_000 {
+            let len = (next() % 48) as usize;
+            let line: Vec<u8> = (0..len)
+                .map(|_| alphabet[(next() % alphabet.len() as u64) as usize])
+                .collect();
+            let start = (next() as usize) % (len + 1);
+            let want = scan_line_bytewise(&line, start, &mut a);
+            let got = scan_line(&line, start, &mut b);
+            assert_eq!(
+                (got.end, got.ascii, &b),
+                (want.end, want.ascii, &a),
+                "{line:?} from {start}"
+            );
         }
     }
 

@@ -25,39 +25,113 @@ struct Mantissa {
     end: usize,
 }
 
-fn mantissa(tok: &[u8]) -> Mantissa {
-    let negative = tok.first() == Some(&b'-');
-    let mut i = usize::from(matches!(tok.first(), Some(b'+' | b'-')));
-    let (mut m, mut digits, mut lead, mut fraction, mut point) = (0u64, 0usize, 0i64, 0i64, false);
-    while let Some(&b) = tok.get(i) {
-        let d = b.wrapping_sub(b'0');
-        if d < 10 {
-            m = m.wrapping_mul(10).wrapping_add(u64::from(d));
-            digits += 1;
-            if point {
-                fraction += 1;
-            } else if lead > 0 || d != 0 {
-                lead += 1;
-            }
-        } else if b == b'.' && !point {
-            point = true;
-        } else {
-            break;
+/// Eight bytes a step: each lane one byte, byte k of the text in lane k (little-endian).
+const LANES: u64 = 0x0101_0101_0101_0101;
+/// The top bit of each lane.
+const TOPS: u64 = LANES * 0x80;
+
+/// The eight bytes at `at`, when the text has them.
+#[inline]
+fn word_at(text: &[u8], at: usize) -> Option<u64> {
+    let w = text.get(at..)?.first_chunk::<8>()?;
+    Some(u64::from_le_bytes(*w))
+}
+
+/// The lanes of `w` that are not an ASCII digit, by their top bits. `t` is 0..=9 exactly
+/// in a digit's lane; its low seven bits plus 0x76 reach the top bit from 10 on (and no
+/// lane carries: at most 0x7f + 0x76 < 0x100), and a lane with its top bit set is no digit.
+#[inline]
+fn not_digits(w: u64) -> u64 {
+    let t = w ^ (LANES * u64::from(b'0'));
+    (((t & !TOPS) + LANES * 0x76) | t) & TOPS
+}
+
+/// How many ASCII digits `text` starts with: eight at a time while it has eight bytes.
+#[inline]
+fn digit_count(text: &[u8]) -> usize {
+    let mut n = 0;
+    while let Some(w) = word_at(text, n) {
+        let stops = not_digits(w);
+        if stops != 0 {
+            return n + stops.trailing_zeros() as usize / 8;
         }
-        i += 1;
+        n += 8;
     }
+    n + text[n..].iter().take_while(|b| b.is_ascii_digit()).count()
+}
+
+/// The value of eight ASCII digits in a word (the first, most significant, in lane 0);
+/// a lane holding 0 counts as the digit 0. Three multiplications join neighbours: pairs,
+/// then fours, then the eight (the way of the `fast_float` parsers, Lemire 2021).
+#[inline]
+fn eight_digits(w: u64) -> u64 {
+    let w = ((w & 0x0f0f_0f0f_0f0f_0f0f).wrapping_mul(2561)) >> 8;
+    let w = ((w & 0x00ff_00ff_00ff_00ff).wrapping_mul(6_553_601)) >> 16;
+    ((w & 0x0000_ffff_0000_ffff).wrapping_mul(42_949_672_960_001)) >> 32
+}
+
+/// 10^0 … 10^7.
+const TENS: [u64; 8] = [1, 10, 100, 1_000, 10_000, 100_000, 1_000_000, 10_000_000];
+
+/// `m` followed by the `n` digits at `at` (wrapping beyond 19 digits, as the caller then
+/// does not use it): eight at a time, then the rest from one word shifted so that they are
+/// its last digits, the lanes before them zero.
+#[inline]
+fn append_digits(text: &[u8], mut at: usize, mut n: usize, mut m: u64) -> u64 {
+    while n >= 8 {
+        let w = word_at(text, at).unwrap_or_default();
+        m = m.wrapping_mul(100_000_000).wrapping_add(eight_digits(w));
+        (at, n) = (at + 8, n - 8);
+    }
+    if n == 0 {
+        return m;
+    }
+    let rest = match word_at(text, at) {
+        Some(w) => eight_digits(w << (8 * (8 - n))),
+        None => text[at..at + n]
+            .iter()
+            .fold(0, |v, &b| v * 10 + u64::from(b - b'0')),
+    };
+    m.wrapping_mul(TENS[n]).wrapping_add(rest)
+}
+
+/// The integer digits, then (after a point) the fraction's, each run measured a word at a
+/// time; their value only when `VALUE` (a bound needs none).
+#[inline]
+fn mantissa<const VALUE: bool>(tok: &[u8]) -> Mantissa {
+    let negative = tok.first() == Some(&b'-');
+    let sign = usize::from(matches!(tok.first(), Some(b'+' | b'-')));
+    let int_digits = digit_count(&tok[sign..]);
+    let int_end = sign + int_digits;
+    let zeros = tok[sign..int_end]
+        .iter()
+        .take_while(|&&b| b == b'0')
+        .count();
+    let (fraction, end) = if tok.get(int_end) == Some(&b'.') {
+        let n = digit_count(&tok[int_end + 1..]);
+        (n, int_end + 1 + n)
+    } else {
+        (0, int_end)
+    };
+    let m = if VALUE {
+        let m = append_digits(tok, sign, int_digits, 0);
+        append_digits(tok, int_end + 1, fraction, m)
+    } else {
+        0
+    };
     Mantissa {
         negative,
         m,
-        digits,
-        lead,
-        fraction,
-        end: i,
+        digits: int_digits + fraction,
+        lead: (int_digits - zeros) as i64,
+        fraction: fraction as i64,
+        end,
     }
 }
 
 /// The exponent `e[+-]digits` at `i` (0 when there is none; its size held at 2^40) and
 /// where the token's number ends; `None` for an `e` without digits.
+#[inline]
 fn exponent(tok: &[u8], mut i: usize) -> Option<(i64, usize)> {
     if !matches!(tok.get(i), Some(b'e' | b'E')) {
         return Some((0, i));
@@ -80,12 +154,24 @@ fn exponent(tok: &[u8], mut i: usize) -> Option<(i64, usize)> {
 /// (`[+-]digits[.digits][e[+-]digits]`, at least one digit before the exponent), a power
 /// `B` with |value| < 10^B; `None` for anything else, which is left to the exact parser.
 pub(super) fn decimal_bound(tok: &[u8]) -> Option<i64> {
-    let m = mantissa(tok);
+    whole(tok, decimal_bound_prefix(tok))
+}
+
+/// [`decimal_bound`] of the number at the start of `text`, and where that number stops
+/// (the caller checks what follows it).
+#[inline]
+pub(super) fn decimal_bound_prefix(text: &[u8]) -> Option<(i64, usize)> {
+    let m = mantissa::<false>(text);
     if m.digits == 0 {
         return None;
     }
-    let (e, end) = exponent(tok, m.end)?;
-    (end == tok.len()).then_some(m.lead + e)
+    let (e, end) = exponent(text, m.end)?;
+    Some((m.lead + e, end))
+}
+
+/// A prefix's answer when the prefix is the whole token.
+fn whole<T>(tok: &[u8], prefix: Option<(T, usize)>) -> Option<T> {
+    prefix.and_then(|(x, end)| (end == tok.len()).then_some(x))
 }
 
 /// 10^0 … 10^22: every one exactly an `f64`.
@@ -101,14 +187,17 @@ const POWERS_OF_TEN: [f64; 23] = [
 /// value, which is what Rust's parser gives too (the fast path of Clinger, 1990, "How to
 /// read floating point numbers accurately").
 pub(super) fn simple_decimal(tok: &[u8]) -> Option<f64> {
-    let m = mantissa(tok);
+    whole(tok, simple_decimal_prefix(tok))
+}
+
+/// [`simple_decimal`] of the number at the start of `text`, and where that number stops.
+#[inline]
+pub(super) fn simple_decimal_prefix(text: &[u8]) -> Option<(f64, usize)> {
+    let m = mantissa::<true>(text);
     if m.digits == 0 || m.digits > 19 || m.m > 1 << 53 {
         return None;
     }
-    let (e, end) = exponent(tok, m.end)?;
-    if end != tok.len() {
-        return None;
-    }
+    let (e, end) = exponent(text, m.end)?;
     let x = m.m as f64;
     let v = match e - m.fraction {
         0 => x,
@@ -116,7 +205,7 @@ pub(super) fn simple_decimal(tok: &[u8]) -> Option<f64> {
         p @ -22..=-1 => x / POWERS_OF_TEN[(-p) as usize],
         _ => return None,
     };
-    Some(if m.negative { -v } else { v })
+    Some((if m.negative { -v } else { v }, end))
 }
 
 #[cfg(test)]
@@ -142,6 +231,37 @@ mod tests {
             last = next;
         }
         all
+    }
+
+    #[test]
+    fn digit_runs_read_a_word_at_a_time_equal_a_byte_at_a_time() {
+        // Reference: the byte loop, digit by digit. Runs of 0..40 digits between other
+        // bytes (each byte next to the digits in ASCII, and bytes past ASCII), at every
+        // offset from a word's start to the text's end.
+        let around = [b'/', b':', b'.', b' ', b'e', 0x80, 0xb0, 0xff, 0x00];
+        let mut state = 0x0123_4567_89ab_cdefu64;
+        for round in 0..20_000 {
+            state ^= state << 13;
+            state ^= state >> 7;
+            state ^= state << 17;
+            let (lead, run, tail) = (round % 9, (state % 41) as usize, (state >> 8) as usize % 10);
+            let mut text: Vec<u8> = (0..lead).map(|k| around[k % around.len()]).collect();
+            let digits = (0..run).map(|k| b'0' + ((state >> (k % 60)) % 10) as u8);
+            text.extend(digits);
+            text.extend((0..tail).map(|k| around[(k + round) % around.len()]));
+            let count = digit_count(&text[lead..]);
+            let want = text[lead..]
+                .iter()
+                .take_while(|b| b.is_ascii_digit())
+                .count();
+            assert_eq!(count, want, "{text:?}");
+            let n = count.min(19);
+            let value = append_digits(&text, lead, n, 7);
+            let want = text[lead..lead + n].iter().fold(7u64, |v, &b| {
+                v.wrapping_mul(10).wrapping_add(u64::from(b - b'0'))
+            });
+            assert_eq!(value, want, "{text:?}");
+        }
     }
 
     #[test]

@@ -5,6 +5,7 @@ mod bytes;
 mod data;
 mod decimal;
 mod keywords;
+mod one_line;
 mod option_line;
 mod pick;
 
@@ -86,6 +87,8 @@ pub(super) struct Parser<'a> {
     /// Where each number of the open record lies in the file's bytes (`bytes.rs`; empty
     /// for lines read as text).
     spans: Vec<(usize, usize)>,
+    /// Set while records come one whole record a plain line (`one_line.rs`).
+    one_line: Option<one_line::OneLine>,
 }
 
 impl<'a> Parser<'a> {
@@ -112,6 +115,7 @@ impl<'a> Parser<'a> {
             noise_numbers: 0,
             pick: None,
             spans: Vec::new(),
+            one_line: None,
         }
     }
 

@@ -17,6 +17,7 @@ use num_complex::Complex64;
 use super::bytes::{token_text, Line};
 use super::data::{fill_matrix, within_single};
 use super::decimal::{decimal_bound, simple_decimal, DB_LEVEL_DIGITS, VALUE_DIGITS};
+use super::one_line::OneLine;
 use super::{parse_number, Parser, Section};
 use crate::formats::touchstone::{
     DataFormat, MatrixFormat, Parameter, ParameterKind, TouchstoneError, TouchstoneErrorKind,
@@ -134,6 +135,7 @@ impl<'a> Parser<'a> {
         }
         let n = self.ports_now()?;
         let need = self.record_len(n);
+        let whole_record = self.record.is_empty() && line.tokens.len() == need && line.from_file;
         if self.record.is_empty() {
             self.record_start = self.line;
             if self.starts_noise(line, n)? {
@@ -146,11 +148,20 @@ impl<'a> Parser<'a> {
         if self.record.len() == need {
             if self.pick.is_some() {
                 self.complete_picked(file)?;
+                if whole_record {
+                    self.one_line = self.one_line_plan(need);
+                }
             } else {
                 self.complete_record(n)?;
             }
         }
         Ok(())
+    }
+
+    /// The plan for lines that each hold one whole record of `need` numbers.
+    fn one_line_plan(&self, need: usize) -> Option<OneLine> {
+        let plan = self.pick.as_ref()?.plan.as_ref()?;
+        Some(OneLine::new(need, &plan.needed, self.format()))
     }
 
     /// Version 1.1 2-port noise data, as [`Parser::numbers`] recognises it.
@@ -290,7 +301,7 @@ impl<'a> Parser<'a> {
     /// A complete record when only some parameters are kept: the checks of
     /// [`Parser::complete_record`] (every value that was parsed, or holds a number that
     /// was, converted and checked), then the kept values.
-    fn complete_picked(&mut self, file: &[u8]) -> Result<(), TouchstoneError> {
+    pub(super) fn complete_picked(&mut self, file: &[u8]) -> Result<(), TouchstoneError> {
         let f_hz = self.record_frequency_hz()?;
         let fmt = self.format();
         for k in 0..(self.record.len() - 1) / 2 {
