@@ -47,7 +47,7 @@ fn not_digits(w: u64) -> u64 {
 }
 
 /// How many ASCII digits `text` starts with: eight at a time while it has eight bytes.
-#[inline]
+#[inline(always)]
 fn digit_count(text: &[u8]) -> usize {
     let mut n = 0;
     while let Some(w) = word_at(text, n) {
@@ -76,7 +76,7 @@ const TENS: [u64; 8] = [1, 10, 100, 1_000, 10_000, 100_000, 1_000_000, 10_000_00
 /// `m` followed by the `n` digits at `at` (wrapping beyond 19 digits, as the caller then
 /// does not use it): eight at a time, then the rest from one word shifted so that they are
 /// its last digits, the lanes before them zero.
-#[inline]
+#[inline(always)]
 fn append_digits(text: &[u8], mut at: usize, mut n: usize, mut m: u64) -> u64 {
     while n >= 8 {
         let w = word_at(text, at).unwrap_or_default();
@@ -97,7 +97,7 @@ fn append_digits(text: &[u8], mut at: usize, mut n: usize, mut m: u64) -> u64 {
 
 /// The integer digits, then (after a point) the fraction's, each run measured a word at a
 /// time; their value only when `VALUE` (a bound needs none).
-#[inline]
+#[inline(always)]
 fn mantissa<const VALUE: bool>(tok: &[u8]) -> Mantissa {
     let negative = tok.first() == Some(&b'-');
     let sign = usize::from(matches!(tok.first(), Some(b'+' | b'-')));
@@ -131,7 +131,7 @@ fn mantissa<const VALUE: bool>(tok: &[u8]) -> Mantissa {
 
 /// The exponent `e[+-]digits` at `i` (0 when there is none; its size held at 2^40) and
 /// where the token's number ends; `None` for an `e` without digits.
-#[inline]
+#[inline(always)]
 fn exponent(tok: &[u8], mut i: usize) -> Option<(i64, usize)> {
     if !matches!(tok.get(i), Some(b'e' | b'E')) {
         return Some((0, i));
@@ -159,7 +159,7 @@ pub(super) fn decimal_bound(tok: &[u8]) -> Option<i64> {
 
 /// [`decimal_bound`] of the number at the start of `text`, and where that number stops
 /// (the caller checks what follows it).
-#[inline]
+#[inline(always)]
 pub(super) fn decimal_bound_prefix(text: &[u8]) -> Option<(i64, usize)> {
     let m = mantissa::<false>(text);
     if m.digits == 0 {
@@ -191,7 +191,7 @@ pub(super) fn simple_decimal(tok: &[u8]) -> Option<f64> {
 }
 
 /// [`simple_decimal`] of the number at the start of `text`, and where that number stops.
-#[inline]
+#[inline(always)]
 pub(super) fn simple_decimal_prefix(text: &[u8]) -> Option<(f64, usize)> {
     let m = mantissa::<true>(text);
     if m.digits == 0 || m.digits > 19 || m.m > 1 << 53 {

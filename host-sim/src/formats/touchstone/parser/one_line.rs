@@ -56,11 +56,13 @@ fn parts(b: u8) -> bool {
 }
 
 /// Whether a number may end before `at`: a part, the line's end or the file's.
+#[inline(always)]
 fn ends_at(bytes: &[u8], at: usize) -> bool {
     bytes.get(at).is_none_or(|&b| parts(b) || b == b'\n')
 }
 
 /// The first byte at or after `i` that does not part numbers.
+#[inline(always)]
 fn skip_parts(bytes: &[u8], mut i: usize) -> usize {
     while bytes.get(i).is_some_and(|&b| parts(b)) {
         i += 1;
@@ -70,6 +72,7 @@ fn skip_parts(bytes: &[u8], mut i: usize) -> usize {
 
 /// The number at `i` converted exactly, and where it ends; `None` when it is not a token
 /// of its own or the exact parser refuses it.
+#[inline(always)]
 fn value_at(bytes: &[u8], i: usize) -> Option<(f64, usize)> {
     let rest = bytes.get(i..)?;
     if let Some((x, len)) = simple_decimal_prefix(rest) {
@@ -91,6 +94,7 @@ fn value_at(bytes: &[u8], i: usize) -> Option<(f64, usize)> {
 }
 
 /// The number at `i` vouched for within `limit`, and where it ends.
+#[inline(always)]
 fn bound_at(bytes: &[u8], i: usize, limit: i64) -> Option<usize> {
     let (bound, len) = decimal_bound_prefix(bytes.get(i..)?)?;
     (bound <= limit && ends_at(bytes, i + len)).then_some(i + len)
