@@ -166,6 +166,7 @@ impl Parser<'_> {
 
     /// The complete record's frequency in Hz, checked: not negative, above the one before,
     /// and not past `[Number of Frequencies]`.
+    #[inline(always)]
     pub(super) fn record_frequency_hz(&self) -> Result<f64, TouchstoneError> {
         let at = Some(self.record_start);
         let f_hz = self.record[0] * self.unit().hz();

@@ -284,6 +284,7 @@ impl<'a> Parser<'a> {
 
     /// The number at `index` of the open record, parsed again from the file when it was
     /// passed over.
+    #[inline(always)]
     fn exact(&self, file: &[u8], index: usize) -> Result<f64, TouchstoneError> {
         let x = self.record[index];
         if !x.is_nan() {
