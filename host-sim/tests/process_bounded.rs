@@ -249,17 +249,14 @@ fn a_given_gate_needs_no_first_look_and_summary_has_the_peak_memory() {
     let h = bounded.held.unwrap();
     assert_eq!((h.first_look_bins, h.first_look_peak_bytes), (0, 0));
     let out = dir.join("report");
-    let st = cut_model::process_cuts()
-        .args(["--bounded-memory"])
-        .args(["--gate-center-ns", "10", "--gate-span-ns", "3", "--out"])
-        .arg(&out)
-        .arg(&m)
-        .output()
-        .unwrap();
-    let err = String::from_utf8_lossy(&st.stderr);
-    assert!(st.status.success(), "{err}");
-    let s: Value =
-        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    let (s, err) = cut_model::summary_after(
+        cut_model::process_cuts()
+            .args(["--bounded-memory"])
+            .args(["--gate-center-ns", "10", "--gate-span-ns", "3", "--out"])
+            .arg(&out)
+            .arg(&m),
+        &out,
+    );
     let mem = &s["memory"];
     if cfg!(target_os = "linux") {
         // Plausible: more than the program's code and the report held (1 MiB), less than

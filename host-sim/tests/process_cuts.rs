@@ -377,16 +377,13 @@ fn a_recording_of_cuts_goes_through_the_engine_of_cuts() {
     let rec = dir.join("cuts.rec");
     recording_of_cuts(&rec);
     let out = dir.join("report");
-    let st = Command::new(env!("CARGO_BIN_EXE_sweepgate"))
-        .args(["process", "--cross", "S31", "--out"])
-        .arg(&out)
-        .arg(&rec)
-        .output()
-        .unwrap();
-    let err = String::from_utf8_lossy(&st.stderr);
-    assert!(st.status.success(), "{err}");
-    let s: Value =
-        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    let (s, _) = cut_model::summary_after(
+        Command::new(env!("CARGO_BIN_EXE_sweepgate"))
+            .args(["process", "--cross", "S31", "--out"])
+            .arg(&out)
+            .arg(&rec),
+        &out,
+    );
     let cuts = s["cuts"].as_array().unwrap();
     assert_eq!(cuts.len(), 2, "{s}");
     assert_eq!(

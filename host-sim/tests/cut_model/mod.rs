@@ -6,7 +6,7 @@
 //! trace is its direct path alone. Each test crate uses a part of it.
 #![allow(dead_code)]
 
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 use std::process::Command;
 
 use num_complex::Complex64;
@@ -73,4 +73,14 @@ pub fn process_cuts() -> Command {
     let mut c = Command::new(env!("CARGO_BIN_EXE_sweepgate"));
     c.args(["process", "--co", "S21", "--cross", "S31"]);
     c
+}
+
+/// Runs `cmd` (a `process` writing its report to `out`), which must succeed; returns the
+/// report's summary.json and what the run printed on standard error.
+pub fn summary_after(cmd: &mut Command, out: &Path) -> (serde_json::Value, String) {
+    let st = cmd.output().unwrap();
+    let err = String::from_utf8_lossy(&st.stderr).into_owned();
+    assert!(st.status.success(), "{err}");
+    let text = std::fs::read_to_string(out.join("summary.json")).unwrap();
+    (serde_json::from_str(&text).unwrap(), err)
 }

@@ -2,6 +2,8 @@
 //! large it can be ([`decimal_bound`]), and the exact value of the common short ones
 //! ([`simple_decimal`]); anything else is left to Rust's `f64` parser.
 
+use super::lanes::{not_digits, word_at};
+
 /// A number passed over has magnitude below 10^this: far inside single precision
 /// (3.4e38) as a real or imaginary part, as a magnitude, and (being finite) as an angle.
 pub(super) const VALUE_DIGITS: i64 = 37;
@@ -23,27 +25,6 @@ struct Mantissa {
     fraction: i64,
     /// Where the mantissa ends.
     end: usize,
-}
-
-/// Eight bytes a step: each lane one byte, byte k of the text in lane k (little-endian).
-const LANES: u64 = 0x0101_0101_0101_0101;
-/// The top bit of each lane.
-const TOPS: u64 = LANES * 0x80;
-
-/// The eight bytes at `at`, when the text has them.
-#[inline]
-fn word_at(text: &[u8], at: usize) -> Option<u64> {
-    let w = text.get(at..)?.first_chunk::<8>()?;
-    Some(u64::from_le_bytes(*w))
-}
-
-/// The lanes of `w` that are not an ASCII digit, by their top bits. `t` is 0..=9 exactly
-/// in a digit's lane; its low seven bits plus 0x76 reach the top bit from 10 on (and no
-/// lane carries: at most 0x7f + 0x76 < 0x100), and a lane with its top bit set is no digit.
-#[inline]
-fn not_digits(w: u64) -> u64 {
-    let t = w ^ (LANES * u64::from(b'0'));
-    (((t & !TOPS) + LANES * 0x76) | t) & TOPS
 }
 
 /// How many ASCII digits `text` starts with: eight at a time while it has eight bytes.

@@ -5,6 +5,7 @@ mod bytes;
 mod data;
 mod decimal;
 mod keywords;
+mod lanes;
 mod one_line;
 mod option_line;
 mod pick;

@@ -13,38 +13,24 @@
 //! Anything the general reader reads on a line of its own (a keyword, the option line, a
 //! comment line) ends this, until it has read a whole record on one line again.
 
-use super::bytes::{is_space, token_text};
-use super::decimal::{decimal_bound_prefix, simple_decimal_prefix, DB_LEVEL_DIGITS, VALUE_DIGITS};
-use super::{parse_number, Parser};
+use super::bytes::is_space;
+use super::decimal::{decimal_bound_prefix, simple_decimal_prefix};
+use super::pick::{exact_number, take_of, Take};
+use super::Parser;
 use crate::formats::touchstone::{DataFormat, TouchstoneError};
 
-/// What to do with each number of a record.
-#[derive(Debug, Clone, Copy, PartialEq)]
-enum Take {
-    /// Converted exactly: the frequency and the kept parameters.
-    Value,
-    /// Passed over when vouched for with a bound no larger than this.
-    Bound(i64),
-}
-
-/// The records of one line each that the reader is in the middle of.
+/// The records of one line each that the reader is in the middle of: what it does with
+/// each number of a record.
 pub(super) struct OneLine {
     takes: Vec<Take>,
 }
 
 impl OneLine {
-    /// For records of `need` numbers of which the pairs `needed` are kept, in `format`.
-    pub(super) fn new(need: usize, needed: &[bool], format: DataFormat) -> Self {
+    /// For records of `need` numbers of which the pairs `needed` are kept, in a dB file or
+    /// not: the general reader's rule ([`take_of`]) for each number.
+    pub(super) fn new(need: usize, needed: &[bool], db: bool) -> Self {
         let takes = (0..need)
-            .map(|index| {
-                if index == 0 || needed.get((index - 1) / 2).copied().unwrap_or(true) {
-                    Take::Value
-                } else if format == DataFormat::Db && index % 2 == 1 {
-                    Take::Bound(DB_LEVEL_DIGITS)
-                } else {
-                    Take::Bound(VALUE_DIGITS)
-                }
-            })
+            .map(|index| take_of(index, need, Some(needed), db))
             .collect();
         Self { takes }
     }
@@ -90,7 +76,7 @@ fn value_at(bytes: &[u8], i: usize) -> Option<(f64, usize)> {
     {
         return None;
     }
-    parse_number(&token_text(tok)).ok().map(|x| (x, i + len))
+    exact_number(tok).ok().map(|x| (x, i + len))
 }
 
 /// The number at `i` vouched for within `limit`, and where it ends.
@@ -101,6 +87,12 @@ fn bound_at(bytes: &[u8], i: usize, limit: i64) -> Option<usize> {
 }
 
 impl Parser<'_> {
+    /// The plan for lines that each hold one whole record of `need` numbers.
+    pub(super) fn one_line_plan(&self, need: usize) -> Option<OneLine> {
+        let db = self.format() == DataFormat::Db;
+        Some(OneLine::new(need, self.kept_pairs()?, db))
+    }
+
     /// Reads the line at `start` when it is one whole record of plain numbers: returns
     /// where the line ends, or `None` (nothing changed) to leave it to the general reader.
     /// An error is one of the record's checks, as the general reader makes them.
@@ -146,19 +138,24 @@ impl Parser<'_> {
 mod tests {
     use super::*;
 
+    use super::super::decimal::{DB_LEVEL_DIGITS, VALUE_DIGITS};
+
     #[test]
     fn takes_follow_the_kept_pairs_and_the_format() {
-        let one = OneLine::new(9, &[false, true, false, false], DataFormat::Db);
+        // Reference: the layout of a 2-port record (frequency, then four pairs; in a dB
+        // file each pair's first number a level, its second an angle), written out by hand.
+        let one = OneLine::new(9, &[false, true, false, false], true);
         use Take::*;
         let b = Bound(VALUE_DIGITS);
         let db = Bound(DB_LEVEL_DIGITS);
         assert_eq!(one.takes, [Value, db, b, Value, Value, db, b, db, b]);
-        let one = OneLine::new(3, &[true], DataFormat::Ri);
+        let one = OneLine::new(3, &[true], false);
         assert_eq!(one.takes, [Value, Value, Value]);
     }
 
     #[test]
     fn a_number_must_be_a_token_of_its_own() {
+        // Reference: the values written in the text (Rust's parser reads the literals).
         let b = b"1.5 2e3\t-7\r\n8x 9!";
         assert_eq!(value_at(b, 0), Some((1.5, 3)));
         assert_eq!(value_at(b, 4), Some((2000.0, 7)));

@@ -17,7 +17,6 @@ use num_complex::Complex64;
 use super::bytes::{token_text, Line};
 use super::data::{fill_matrix, within_single};
 use super::decimal::{decimal_bound, simple_decimal, DB_LEVEL_DIGITS, VALUE_DIGITS};
-use super::one_line::OneLine;
 use super::{parse_number, Parser, Section};
 use crate::formats::touchstone::{
     DataFormat, MatrixFormat, Parameter, ParameterKind, TouchstoneError, TouchstoneErrorKind,
@@ -51,6 +50,39 @@ pub(in crate::formats::touchstone) struct Picked {
     pub(in crate::formats::touchstone) frequencies_hz: Vec<f64>,
     pub(in crate::formats::touchstone) parameters: Vec<Parameter>,
     pub(in crate::formats::touchstone) columns: Vec<Vec<Complex64>>,
+}
+
+/// What the reader does with a number of a record.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(super) enum Take {
+    /// Converted exactly: the frequency and the kept parameters.
+    Value,
+    /// Passed over when vouched for with a bound no larger than this (else converted).
+    Bound(i64),
+}
+
+/// The [`Take`] of the number at `index` of a record of `need` numbers whose pairs
+/// `needed` are kept (`None`: all), in a dB file or not; a number past `need` is not kept.
+pub(super) fn take_of(index: usize, need: usize, needed: Option<&[bool]>, db: bool) -> Take {
+    let kept = match needed {
+        None => true,
+        Some(n) => index == 0 || (index < need && n[(index - 1) / 2]),
+    };
+    if kept {
+        Take::Value
+    } else if db && index % 2 == 1 {
+        Take::Bound(DB_LEVEL_DIGITS)
+    } else {
+        Take::Bound(VALUE_DIGITS)
+    }
+}
+
+/// A token's exact value: the short-decimal path, else Rust's parser (finite only).
+pub(super) fn exact_number(tok: &[u8]) -> Result<f64, TouchstoneErrorKind> {
+    match simple_decimal(tok) {
+        Some(x) => Ok(x),
+        None => parse_number(&token_text(tok)),
+    }
 }
 
 /// The value (0-based, in the record's order) that each element of an `n`×`n` matrix
@@ -158,10 +190,9 @@ impl<'a> Parser<'a> {
         Ok(())
     }
 
-    /// The plan for lines that each hold one whole record of `need` numbers.
-    fn one_line_plan(&self, need: usize) -> Option<OneLine> {
-        let plan = self.pick.as_ref()?.plan.as_ref()?;
-        Some(OneLine::new(need, &plan.needed, self.format()))
+    /// Which pairs of a record are kept, once the first record's plan is made.
+    pub(super) fn kept_pairs(&self) -> Option<&[bool]> {
+        Some(&self.pick.as_ref()?.plan.as_ref()?.needed)
     }
 
     /// Version 1.1 2-port noise data, as [`Parser::numbers`] recognises it.
@@ -182,10 +213,7 @@ impl<'a> Parser<'a> {
 
     /// A token parsed exactly, or the error naming it on this line.
     fn number(&self, tok: &[u8]) -> Result<f64, TouchstoneError> {
-        if let Some(x) = simple_decimal(tok) {
-            return Ok(x);
-        }
-        parse_number(&token_text(tok)).map_err(|k| self.err(k))
+        exact_number(tok).map_err(|k| self.err(k))
     }
 
     /// Adds a line's numbers to the open record: each parsed, or (not kept, from the file,
@@ -215,23 +243,12 @@ impl<'a> Parser<'a> {
         let spans = self.pick.is_some();
         for &(a, b) in line.tokens {
             let tok = &line.text[a..b];
-            let index = self.record.len();
-            let wanted = match needed {
-                None => true,
-                Some(n) => index == 0 || (index < need && n[(index - 1) / 2]),
-            };
-            let x = if wanted {
-                self.number(tok)?
-            } else {
-                let limit = if db && index % 2 == 1 {
-                    DB_LEVEL_DIGITS
-                } else {
-                    VALUE_DIGITS
-                };
-                match decimal_bound(tok) {
+            let x = match take_of(self.record.len(), need, needed, db) {
+                Take::Value => self.number(tok)?,
+                Take::Bound(limit) => match decimal_bound(tok) {
                     Some(bound) if bound <= limit => f64::NAN,
                     _ => self.number(tok)?,
-                }
+                },
             };
             self.record.push(x);
             if spans {
