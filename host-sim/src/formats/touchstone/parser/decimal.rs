@@ -64,8 +64,10 @@ fn append_digits(text: &[u8], mut at: usize, mut n: usize, mut m: u64) -> u64 {
         m = m.wrapping_mul(100_000_000).wrapping_add(eight_digits(w));
         (at, n) = (at + 8, n - 8);
     }
-    if n == 0 {
-        return m;
+    match n {
+        0 => return m,
+        1 => return m.wrapping_mul(10).wrapping_add(u64::from(text[at] - b'0')),
+        _ => {}
     }
     let rest = match word_at(text, at) {
         Some(w) => eight_digits(w << (8 * (8 - n))),
@@ -95,7 +97,11 @@ fn mantissa<const VALUE: bool>(tok: &[u8]) -> Mantissa {
         (0, int_end)
     };
     let m = if VALUE {
-        let m = append_digits(tok, sign, int_digits, 0);
+        // One integer digit (as in 0.123 or 8.005e9) is the common case.
+        let m = match int_digits {
+            1 => u64::from(tok[sign] - b'0'),
+            _ => append_digits(tok, sign, int_digits, 0),
+        };
         append_digits(tok, int_end + 1, fraction, m)
     } else {
         0

@@ -23,6 +23,8 @@ use crate::formats::touchstone::{DataFormat, TouchstoneError};
 /// each number of a record.
 pub(super) struct OneLine {
     takes: Vec<Take>,
+    /// The pairs kept (0-based, in the record's order).
+    kept: Vec<usize>,
 }
 
 impl OneLine {
@@ -32,7 +34,10 @@ impl OneLine {
         let takes = (0..need)
             .map(|index| take_of(index, need, Some(needed), db))
             .collect();
-        Self { takes }
+        let kept = (0..(need - 1) / 2)
+            .filter(|&k| take_of(1 + 2 * k, need, Some(needed), db) == Take::Value)
+            .collect();
+        Self { takes, kept }
     }
 }
 
@@ -101,9 +106,22 @@ impl Parser<'_> {
         bytes: &[u8],
         start: usize,
     ) -> Result<Option<usize>, TouchstoneError> {
-        let Some(one) = self.one_line.as_ref() else {
+        let Some(one) = self.one_line.take() else {
             return Ok(None);
         };
+        let read = self.read_one_line(&one, bytes, start);
+        self.one_line = Some(one);
+        read
+    }
+
+    /// [`Parser::one_line_record`] with its plan.
+    #[inline(always)]
+    fn read_one_line(
+        &mut self,
+        one: &OneLine,
+        bytes: &[u8],
+        start: usize,
+    ) -> Result<Option<usize>, TouchstoneError> {
         debug_assert!(self.record.is_empty() && self.spans.is_empty());
         let mut i = start;
         let mut record = std::mem::take(&mut self.record);
@@ -128,7 +146,9 @@ impl Parser<'_> {
             return Ok(None);
         }
         self.record_start = self.line;
-        self.complete_picked(bytes)?;
+        // Every pair not kept was passed over (both numbers vouched for), so only the kept
+        // pairs are checked, as `complete_picked` would check them.
+        self.complete_kept(&one.kept)?;
         self.seen_content = true;
         Ok(Some(i))
     }
@@ -149,8 +169,10 @@ mod tests {
         let b = Bound(VALUE_DIGITS);
         let db = Bound(DB_LEVEL_DIGITS);
         assert_eq!(one.takes, [Value, db, b, Value, Value, db, b, db, b]);
+        assert_eq!(one.kept, [1]);
         let one = OneLine::new(3, &[true], false);
         assert_eq!(one.takes, [Value, Value, Value]);
+        assert_eq!(one.kept, [0]);
     }
 
     #[test]

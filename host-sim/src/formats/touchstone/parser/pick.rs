@@ -52,6 +52,10 @@ pub(in crate::formats::touchstone) struct Picked {
     pub(in crate::formats::touchstone) columns: Vec<Vec<Complex64>>,
 }
 
+/// The most records room is made for ahead in each kept column (1 MiB of values): a file
+/// whose first lines are short and whose rest is something else reserves no more than this.
+const RESERVED_RECORDS: usize = 1 << 16;
+
 /// What the reader does with a number of a record.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub(super) enum Take {
@@ -182,12 +186,29 @@ impl<'a> Parser<'a> {
                 self.complete_picked(file)?;
                 if whole_record {
                     self.one_line = self.one_line_plan(need);
+                    self.reserve_for_lines(file, line);
                 }
             } else {
                 self.complete_record(n)?;
             }
         }
         Ok(())
+    }
+
+    /// Room in the kept columns for the records the rest of the file holds if every line is
+    /// as long as `line` (a whole record), at most [`RESERVED_RECORDS`]: the columns then do
+    /// not grow (and copy themselves) step by step.
+    fn reserve_for_lines(&mut self, file: &[u8], line: &Line) {
+        let (Some(&(a, _)), Some(&(_, b))) = (line.tokens.first(), line.tokens.last()) else {
+            return;
+        };
+        let records = (file.len().saturating_sub(b) / (b - a + 1)).min(RESERVED_RECORDS);
+        self.frequencies_hz.reserve(records);
+        if let Some(pick) = self.pick.as_mut() {
+            for column in &mut pick.columns {
+                column.reserve(records);
+            }
+        }
     }
 
     /// Which pairs of a record are kept, once the first record's plan is made.
@@ -332,6 +353,27 @@ impl<'a> Parser<'a> {
                 return Err(self.beyond_single(k, v));
             }
         }
+        self.keep_record(f_hz, fmt);
+        Ok(())
+    }
+
+    /// [`Parser::complete_picked`] for a record whose values are all passed over but for the
+    /// pairs `kept`, which hold exact values: only these are converted and checked.
+    pub(super) fn complete_kept(&mut self, kept: &[usize]) -> Result<(), TouchstoneError> {
+        let f_hz = self.record_frequency_hz()?;
+        let fmt = self.format();
+        for &k in kept {
+            let v = fmt.to_complex(self.record[1 + 2 * k], self.record[2 + 2 * k]);
+            if !within_single(v) {
+                return Err(self.beyond_single(k, v));
+            }
+        }
+        self.keep_record(f_hz, fmt);
+        Ok(())
+    }
+
+    /// The end of a checked record: its kept values to their columns, its frequency kept.
+    fn keep_record(&mut self, f_hz: f64, fmt: DataFormat) {
         if let Some(Pick {
             plan: Some(plan),
             columns,
@@ -347,6 +389,5 @@ impl<'a> Parser<'a> {
         self.frequencies_hz.push(f_hz);
         self.record.clear();
         self.spans.clear();
-        Ok(())
     }
 }
