@@ -21,8 +21,8 @@ beta 6 gate, scikit-rf's default) and the gated values at the three pattern freq
 
 sweepgate, as a program (its start, reading, gating and the whole report folder counted):
 `target/release/sweepgate process --manifest M --gate-center-ns 18 --gate-span-ns 4
---band-window kaiser:6 --gate-shape kaiser:6 --frequencies-hz 9e9,10e9,11e9 --threads N`,
-best of REPEAT runs; its peak resident memory (from /usr/bin/time when there is one, else
+--band-window kaiser:6 --gate-shape kaiser:6 --frequencies-hz 9e9,10e9,11e9 --threads N`;
+its peak resident memory (from /usr/bin/time when there is one, else
 wait4's ru_maxrss) and CPU time from the kernel (wait4's ru_utime + ru_stime). On a shared
 machine the CPU times are the steadier figure.
 

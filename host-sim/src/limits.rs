@@ -135,6 +135,12 @@ pub const MAX_SYNC_THREADS: usize = 16;
 /// refused before it is read.
 pub const MAX_MANIFEST_BYTES: u64 = 128 << 20;
 
+/// Largest Touchstone file read, bytes. A sweep the engine gates has at most [`MAX_POINTS`]
+/// points; at that many, a file of 8 ports (a record of 129 numbers of up to about 25 bytes)
+/// is about 13 MiB, so this leaves room for many more ports. A larger file is refused before
+/// a byte of it is read, so each thread reading files holds at most this much of one.
+pub const MAX_TOUCHSTONE_BYTES: u64 = 256 << 20;
+
 /// A scan of cuts from a manifest whose raw traces would take more than this (rows ×
 /// traces × points × 8 bytes, the points from the first file) is processed in bounded memory
 /// (`pipeline::cuts_bounded`; `process --bounded-memory` asks for it at any size): the

@@ -142,6 +142,8 @@ pub enum ManifestErrorKind {
     MissingFile(PathBuf),
     /// A folder where a file was expected.
     FileIsAFolder(PathBuf),
+    /// Something other than a regular file or a folder: a device, a pipe, a socket.
+    NotARegularFile(PathBuf),
     /// A header and nothing else.
     NoRows,
     /// A file of the manifest was refused.
@@ -191,6 +193,11 @@ impl fmt::Display for ManifestErrorKind {
             ),
             Self::MissingFile(p) => write!(f, "file {} does not exist", p.display()),
             Self::FileIsAFolder(p) => write!(f, "{} is a folder, not a file", p.display()),
+            Self::NotARegularFile(p) => write!(
+                f,
+                "{} is not a regular file (a device, a pipe or a socket); it was not read",
+                p.display()
+            ),
             Self::NoRows => write!(f, "no rows after the header"),
             Self::Touchstone(e) => write!(f, "{e}"),
             Self::DifferentGrid(m) => write!(
@@ -354,12 +361,14 @@ enum Look {
 /// Whether `path` is a file: the kind of error a manifest row gets when it is not.
 fn look_at(path: &Path) -> Result<(), ManifestErrorKind> {
     // One look at the file system per row (`is_dir` and `is_file` would make two).
-    let meta = std::fs::metadata(path).ok();
-    if meta.as_ref().is_some_and(std::fs::Metadata::is_dir) {
+    let Ok(meta) = std::fs::metadata(path) else {
+        return Err(ManifestErrorKind::MissingFile(path.to_path_buf()));
+    };
+    if meta.is_dir() {
         return Err(ManifestErrorKind::FileIsAFolder(path.to_path_buf()));
     }
-    if !meta.is_some_and(|m| m.is_file()) {
-        return Err(ManifestErrorKind::MissingFile(path.to_path_buf()));
+    if !meta.is_file() {
+        return Err(ManifestErrorKind::NotARegularFile(path.to_path_buf()));
     }
     Ok(())
 }
@@ -825,6 +834,13 @@ mod tests {
         let (line, k) = kind_of(&d, &format!("{h}5,nothere.s2p\n"));
         assert_eq!(line, Some(3));
         assert!(matches!(k, ManifestErrorKind::MissingFile(p) if p.ends_with("nothere.s2p")));
+        // A device is not read (reading /dev/zero would never end; a pipe could wait forever).
+        #[cfg(unix)]
+        {
+            let (line, k) = kind_of(&d, &format!("{h}5,/dev/null\n"));
+            assert_eq!(line, Some(3));
+            assert_eq!(k, ManifestErrorKind::NotARegularFile("/dev/null".into()));
+        }
         let m = d.write("m.csv", &format!("{h}0,a.s2p\n"));
         let e = Manifest::read(&m).unwrap_err();
         assert!(

@@ -317,5 +317,29 @@ fn a_file_read_fast_names_its_path_in_errors() {
     let missing = dir.join("missing.s2p");
     let e = Touchstone::read_sweeps(&missing, None, Spacing::RequireUniform).unwrap_err();
     assert_eq!(Touchstone::read(&missing).unwrap_err(), e);
+    // A file over the cap is refused before it is read (a sparse file: no disk is used).
+    let huge = dir.join("huge.s2p");
+    let cap = crate::limits::MAX_TOUCHSTONE_BYTES;
+    std::fs::File::create(&huge)
+        .unwrap()
+        .set_len(cap + 1)
+        .unwrap();
+    let e = Touchstone::read_sweeps(&huge, None, Spacing::RequireUniform).unwrap_err();
+    assert_eq!(
+        e.to_string(),
+        format!(
+            "{}: cannot read: {} bytes, over the 256 MiB limit for a Touchstone file; it was \
+             not read",
+            huge.display(),
+            cap + 1
+        )
+    );
+    assert_eq!(Touchstone::read(&huge).unwrap_err(), e);
+    // A folder, named once.
+    let e = Touchstone::read(&dir).unwrap_err();
+    assert_eq!(
+        e.to_string(),
+        format!("{}: cannot read: it is a folder", dir.display())
+    );
     std::fs::remove_dir_all(&dir).unwrap();
 }
