@@ -54,28 +54,36 @@ fn eight_digits(w: u64) -> u64 {
 /// 10^0 … 10^7.
 const TENS: [u64; 8] = [1, 10, 100, 1_000, 10_000, 100_000, 1_000_000, 10_000_000];
 
-/// `m` followed by the `n` digits at `at` (wrapping beyond 19 digits, as the caller then
-/// does not use it): eight at a time, then the rest from one word shifted so that they are
-/// its last digits, the lanes before them zero.
+/// The ASCII digits `text` starts with, measured and read in one pass: how many, and `m`
+/// followed by them (wrapping beyond 19 digits, as the caller then does not use it). Eight
+/// at a time while the text has eight bytes: a word of digits joins `m` whole; in the word
+/// where the run stops, its digits are shifted to the word's last lanes (the lanes before
+/// them zero) and joined; the last few bytes of the text one at a time.
 #[inline(always)]
-fn append_digits(text: &[u8], mut at: usize, mut n: usize, mut m: u64) -> u64 {
-    while n >= 8 {
-        let w = word_at(text, at).unwrap_or_default();
-        m = m.wrapping_mul(100_000_000).wrapping_add(eight_digits(w));
-        (at, n) = (at + 8, n - 8);
+fn digit_run(text: &[u8], mut m: u64) -> (usize, u64) {
+    let mut n = 0;
+    while let Some(w) = word_at(text, n) {
+        let stops = not_digits(w);
+        if stops == 0 {
+            m = m.wrapping_mul(100_000_000).wrapping_add(eight_digits(w));
+            n += 8;
+            continue;
+        }
+        let k = stops.trailing_zeros() as usize / 8;
+        if k == 0 {
+            return (n, m);
+        }
+        let rest = eight_digits(w << (8 * (8 - k)));
+        return (n + k, m.wrapping_mul(TENS[k]).wrapping_add(rest));
     }
-    match n {
-        0 => return m,
-        1 => return m.wrapping_mul(10).wrapping_add(u64::from(text[at] - b'0')),
-        _ => {}
+    for &b in &text[n..] {
+        if !b.is_ascii_digit() {
+            break;
+        }
+        m = m.wrapping_mul(10).wrapping_add(u64::from(b - b'0'));
+        n += 1;
     }
-    let rest = match word_at(text, at) {
-        Some(w) => eight_digits(w << (8 * (8 - n))),
-        None => text[at..at + n]
-            .iter()
-            .fold(0, |v, &b| v * 10 + u64::from(b - b'0')),
-    };
-    m.wrapping_mul(TENS[n]).wrapping_add(rest)
+    (n, m)
 }
 
 /// The integer digits, then (after a point) the fraction's, each run measured a word at a
@@ -84,27 +92,25 @@ fn append_digits(text: &[u8], mut at: usize, mut n: usize, mut m: u64) -> u64 {
 fn mantissa<const VALUE: bool>(tok: &[u8]) -> Mantissa {
     let negative = tok.first() == Some(&b'-');
     let sign = usize::from(matches!(tok.first(), Some(b'+' | b'-')));
-    let int_digits = digit_count(&tok[sign..]);
+    // A value's digits are read as they are measured; a bound needs only their count.
+    let run = |text: &[u8], m: u64| {
+        if VALUE {
+            digit_run(text, m)
+        } else {
+            (digit_count(text), 0)
+        }
+    };
+    let (int_digits, m) = run(&tok[sign..], 0);
     let int_end = sign + int_digits;
     let zeros = tok[sign..int_end]
         .iter()
         .take_while(|&&b| b == b'0')
         .count();
-    let (fraction, end) = if tok.get(int_end) == Some(&b'.') {
-        let n = digit_count(&tok[int_end + 1..]);
-        (n, int_end + 1 + n)
+    let (fraction, m, end) = if tok.get(int_end) == Some(&b'.') {
+        let (n, m) = run(&tok[int_end + 1..], m);
+        (n, m, int_end + 1 + n)
     } else {
-        (0, int_end)
-    };
-    let m = if VALUE {
-        // One integer digit (as in 0.123 or 8.005e9) is the common case.
-        let m = match int_digits {
-            1 => u64::from(tok[sign] - b'0'),
-            _ => append_digits(tok, sign, int_digits, 0),
-        };
-        append_digits(tok, int_end + 1, fraction, m)
-    } else {
-        0
+        (0, m, int_end)
     };
     Mantissa {
         negative,
@@ -242,8 +248,9 @@ mod tests {
                 .take_while(|b| b.is_ascii_digit())
                 .count();
             assert_eq!(count, want, "{text:?}");
-            let n = count.min(19);
-            let value = append_digits(&text, lead, n, 7);
+            let (n, value) = digit_run(&text[lead..], 7);
+            assert_eq!(n, want, "{text:?}");
+            // Wrapping alike beyond 19 digits (the same sum modulo 2^64).
             let want = text[lead..lead + n].iter().fold(7u64, |v, &b| {
                 v.wrapping_mul(10).wrapping_add(u64::from(b - b'0'))
             });
