@@ -19,8 +19,10 @@ struct Mantissa {
     m: u64,
     /// All digits.
     digits: usize,
-    /// Integer digits after any leading zeros.
-    lead: i64,
+    /// Where the integer digits start (after any sign).
+    int_start: usize,
+    /// Integer digits.
+    int_digits: usize,
     /// Digits after the point.
     fraction: i64,
     /// Where the mantissa ends.
@@ -102,10 +104,6 @@ fn mantissa<const VALUE: bool>(tok: &[u8]) -> Mantissa {
     };
     let (int_digits, m) = run(&tok[sign..], 0);
     let int_end = sign + int_digits;
-    let zeros = tok[sign..int_end]
-        .iter()
-        .take_while(|&&b| b == b'0')
-        .count();
     let (fraction, m, end) = if tok.get(int_end) == Some(&b'.') {
         let (n, m) = run(&tok[int_end + 1..], m);
         (n, m, int_end + 1 + n)
@@ -116,9 +114,18 @@ fn mantissa<const VALUE: bool>(tok: &[u8]) -> Mantissa {
         negative,
         m,
         digits: int_digits + fraction,
-        lead: (int_digits - zeros) as i64,
+        int_start: sign,
+        int_digits,
         fraction: fraction as i64,
         end,
+    }
+}
+
+impl Mantissa {
+    /// Integer digits after any leading zeros: |mantissa| < 10^this.
+    fn lead(&self, tok: &[u8]) -> i64 {
+        let int = &tok[self.int_start..self.int_start + self.int_digits];
+        int.iter().skip_while(|&&b| b == b'0').count() as i64
     }
 }
 
@@ -159,7 +166,20 @@ pub(super) fn decimal_bound_prefix(text: &[u8]) -> Option<(i64, usize)> {
         return None;
     }
     let (e, end) = exponent(text, m.end)?;
-    Some((m.lead + e, end))
+    Some((m.lead(text) + e, end))
+}
+
+/// Where the number at the start of `text` stops when its [`decimal_bound_prefix`] is at most
+/// `limit`; `None` for anything else. The integer digits, leading zeros and all, bound the
+/// power from above, so the zeros are counted only when that bound is over `limit`.
+#[inline(always)]
+pub(super) fn vouched_prefix(text: &[u8], limit: i64) -> Option<usize> {
+    let m = mantissa::<false>(text);
+    if m.digits == 0 {
+        return None;
+    }
+    let (e, end) = exponent(text, m.end)?;
+    (m.int_digits as i64 + e <= limit || m.lead(text) + e <= limit).then_some(end)
 }
 
 /// A prefix's answer when the prefix is the whole token.
@@ -255,6 +275,27 @@ mod tests {
                 v.wrapping_mul(10).wrapping_add(u64::from(b - b'0'))
             });
             assert_eq!(value, want, "{text:?}");
+        }
+    }
+
+    #[test]
+    fn the_vouch_with_a_limit_is_the_bound_held_to_it() {
+        // Reference: `decimal_bound_prefix` and the limit compared after it, on every string
+        // of up to 6 characters of number syntax followed by a space, for the limits used
+        // (2 for dB levels, 37) and those near the digit counts.
+        for s in strings(b"+-.eE019", 6) {
+            let mut t = s.clone();
+            t.push(b' ');
+            for limit in [-2, -1, 0, 1, 2, 3, 5, 37] {
+                let want =
+                    decimal_bound_prefix(&t).and_then(|(b, end)| (b <= limit).then_some(end));
+                assert_eq!(
+                    vouched_prefix(&t, limit),
+                    want,
+                    "{:?} {limit}",
+                    String::from_utf8_lossy(&t)
+                );
+            }
         }
     }
 

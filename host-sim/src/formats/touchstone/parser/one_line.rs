@@ -14,7 +14,7 @@
 //! comment line) ends this, until it has read a whole record on one line again.
 
 use super::bytes::is_space;
-use super::decimal::{decimal_bound_prefix, simple_decimal_prefix};
+use super::decimal::{simple_decimal_prefix, vouched_prefix};
 use super::pick::{exact_number, take_of, Take};
 use super::Parser;
 use crate::formats::touchstone::{DataFormat, TouchstoneError};
@@ -87,8 +87,8 @@ fn value_at(bytes: &[u8], i: usize) -> Option<(f64, usize)> {
 /// The number at `i` vouched for within `limit`, and where it ends.
 #[inline(always)]
 fn bound_at(bytes: &[u8], i: usize, limit: i64) -> Option<usize> {
-    let (bound, len) = decimal_bound_prefix(bytes.get(i..)?)?;
-    (bound <= limit && ends_at(bytes, i + len)).then_some(i + len)
+    let len = vouched_prefix(bytes.get(i..)?, limit)?;
+    ends_at(bytes, i + len).then_some(i + len)
 }
 
 impl Parser<'_> {
