@@ -23,21 +23,29 @@ use crate::formats::touchstone::{DataFormat, TouchstoneError};
 /// each number of a record.
 pub(super) struct OneLine {
     takes: Vec<Take>,
-    /// The pairs kept (0-based, in the record's order).
-    kept: Vec<usize>,
+    /// The pairs kept: bit k for pair k (0-based, in the record's order).
+    kept: u64,
 }
+
+/// The most pairs a record read here may have (one bit each in [`OneLine::kept`]).
+const MAX_PAIRS: usize = 64;
 
 impl OneLine {
     /// For records of `need` numbers of which the pairs `needed` are kept, in a dB file or
-    /// not: the general reader's rule ([`take_of`]) for each number.
-    pub(super) fn new(need: usize, needed: &[bool], db: bool) -> Self {
+    /// not: the general reader's rule ([`take_of`]) for each number. `None` for records of
+    /// more than [`MAX_PAIRS`] pairs, which are left to the general reader.
+    pub(super) fn new(need: usize, needed: &[bool], db: bool) -> Option<Self> {
+        let pairs = need.saturating_sub(1) / 2;
+        if pairs > MAX_PAIRS {
+            return None;
+        }
         let takes = (0..need)
             .map(|index| take_of(index, need, Some(needed), db))
             .collect();
-        let kept = (0..(need - 1) / 2)
+        let kept = (0..pairs)
             .filter(|&k| take_of(1 + 2 * k, need, Some(needed), db) == Take::Value)
-            .collect();
-        Self { takes, kept }
+            .fold(0, |bits, k| bits | 1 << k);
+        Some(Self { takes, kept })
     }
 }
 
@@ -95,7 +103,7 @@ impl Parser<'_> {
     /// The plan for lines that each hold one whole record of `need` numbers.
     pub(super) fn one_line_plan(&self, need: usize) -> Option<OneLine> {
         let db = self.format() == DataFormat::Db;
-        Some(OneLine::new(need, self.kept_pairs()?, db))
+        OneLine::new(need, self.kept_pairs()?, db)
     }
 
     /// Reads the line at `start` when it is one whole record of plain numbers: returns
@@ -106,25 +114,12 @@ impl Parser<'_> {
         bytes: &[u8],
         start: usize,
     ) -> Result<Option<usize>, TouchstoneError> {
-        let Some(one) = self.one_line.take() else {
+        let Some(one) = self.one_line.as_ref() else {
             return Ok(None);
         };
-        let read = self.read_one_line(&one, bytes, start);
-        self.one_line = Some(one);
-        read
-    }
-
-    /// [`Parser::one_line_record`] with its plan.
-    #[inline(always)]
-    fn read_one_line(
-        &mut self,
-        one: &OneLine,
-        bytes: &[u8],
-        start: usize,
-    ) -> Result<Option<usize>, TouchstoneError> {
         debug_assert!(self.record.is_empty() && self.spans.is_empty());
+        let record = &mut self.record;
         let mut i = start;
-        let mut record = std::mem::take(&mut self.record);
         for &take in &one.takes {
             i = skip_parts(bytes, i);
             let read = match take {
@@ -133,14 +128,13 @@ impl Parser<'_> {
             };
             let Some((x, end)) = read else {
                 record.clear();
-                self.record = record;
                 return Ok(None);
             };
             record.push(x);
             i = end;
         }
+        let kept = one.kept;
         i = skip_parts(bytes, i);
-        self.record = record;
         if !matches!(bytes.get(i), None | Some(b'\n')) {
             self.record.clear();
             return Ok(None);
@@ -148,7 +142,7 @@ impl Parser<'_> {
         self.record_start = self.line;
         // Every pair not kept was passed over (both numbers vouched for), so only the kept
         // pairs are checked, as `complete_picked` would check them.
-        self.complete_kept(&one.kept)?;
+        self.complete_kept(kept)?;
         self.seen_content = true;
         Ok(Some(i))
     }
@@ -164,15 +158,20 @@ mod tests {
     fn takes_follow_the_kept_pairs_and_the_format() {
         // Reference: the layout of a 2-port record (frequency, then four pairs; in a dB
         // file each pair's first number a level, its second an angle), written out by hand.
-        let one = OneLine::new(9, &[false, true, false, false], true);
+        let one = OneLine::new(9, &[false, true, false, false], true).unwrap();
         use Take::*;
         let b = Bound(VALUE_DIGITS);
         let db = Bound(DB_LEVEL_DIGITS);
         assert_eq!(one.takes, [Value, db, b, Value, Value, db, b, db, b]);
-        assert_eq!(one.kept, [1]);
-        let one = OneLine::new(3, &[true], false);
+        assert_eq!(one.kept, 0b10);
+        let one = OneLine::new(3, &[true], false).unwrap();
         assert_eq!(one.takes, [Value, Value, Value]);
-        assert_eq!(one.kept, [0]);
+        assert_eq!(one.kept, 0b1);
+        // 64 pairs fit the mask (pair 63 kept: its top bit); 65 are left to the general reader.
+        let mut needed = vec![false; 64];
+        needed[63] = true;
+        assert_eq!(OneLine::new(129, &needed, false).unwrap().kept, 1 << 63);
+        assert!(OneLine::new(131, &[false; 65], false).is_none());
     }
 
     #[test]

@@ -358,11 +358,15 @@ impl<'a> Parser<'a> {
     }
 
     /// [`Parser::complete_picked`] for a record whose values are all passed over but for the
-    /// pairs `kept`, which hold exact values: only these are converted and checked.
-    pub(super) fn complete_kept(&mut self, kept: &[usize]) -> Result<(), TouchstoneError> {
+    /// pairs `kept` (bit k for pair k), which hold exact values: only these are converted
+    /// and checked, in the record's order.
+    pub(super) fn complete_kept(&mut self, kept: u64) -> Result<(), TouchstoneError> {
         let f_hz = self.record_frequency_hz()?;
         let fmt = self.format();
-        for &k in kept {
+        let mut bits = kept;
+        while bits != 0 {
+            let k = bits.trailing_zeros() as usize;
+            bits &= bits - 1;
             let v = fmt.to_complex(self.record[1 + 2 * k], self.record[2 + 2 * k]);
             if !within_single(v) {
                 return Err(self.beyond_single(k, v));
