@@ -92,7 +92,7 @@ def manifest_rows(manifest):
 
 def skrf_warm(manifest):
     """Reads and gates the first file once, untimed: scikit-rf imports parts of scipy the
-    first time it reads and gates (about 1.0-1.3 s on our 2-core machine), which is import
+    first time it reads and gates (0.9-2.3 s on our 2-core machine), which is import
     time, not the script's work. Returns the seconds it took."""
     import skrf
 

@@ -14,7 +14,8 @@
 //!   caught.
 //! - [`check_output_dir`] creates the folder if needed and proves it writable by creating,
 //!   writing and removing a small file.
-//! - [`read_capped`] refuses folders and files over a cap before reading a byte.
+//! - [`read_capped`] refuses folders, devices, pipes and files over a cap before reading a
+//!   byte.
 //!
 //! Every error is a [`FileError`] naming the file; the operating system's reason is its
 //! [`source`](std::error::Error::source), so `{:#}` through `anyhow` prints one line such as
@@ -60,6 +61,14 @@ pub enum FileError {
         /// What was expected, e.g. `"recording"`.
         what: &'static str,
     },
+    /// Something other than a regular file or a folder (a device, a pipe, a socket) was given
+    /// where a file was expected: not opened, as opening a pipe waits for a writer.
+    NotARegularFile {
+        /// The path given.
+        path: PathBuf,
+        /// What was expected, e.g. `"recording"`.
+        what: &'static str,
+    },
     /// An output folder path names something other than a folder.
     NotAFolder {
         /// The path given.
@@ -95,32 +104,45 @@ fn size_text(n: u64) -> String {
     format!("{n} bytes")
 }
 
-impl fmt::Display for FileError {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+impl FileError {
+    /// Why a file could not be read, without its path, for errors that name the file
+    /// themselves: "a folder, not a recording", "… bytes, over the 1 GiB limit for a
+    /// recording; it was not read", or the operating system's words.
+    pub fn reason(&self) -> String {
         match self {
-            FileError::Io { action, path, .. } => write!(f, "{action} {}", path.display()),
-            FileError::IsAFolder { path, what } => {
-                write!(f, "{} is a folder, not a {what}", path.display())
-            }
-            FileError::NotAFolder { path } => {
-                write!(f, "{} exists and is not a folder", path.display())
-            }
+            FileError::Io { source, .. } => source.to_string(),
+            FileError::IsAFolder { what, .. } => format!("a folder, not a {what}"),
+            FileError::NotARegularFile { what, .. } => format!(
+                "not a regular file (a device, a pipe or a socket), not a {what}; it was not read"
+            ),
             FileError::TooLarge {
-                path,
-                size,
-                cap,
-                what,
+                size, cap, what, ..
             } => {
                 let size = match size {
                     Some(n) => format!("{n} bytes"),
                     None => format!("more than {cap} bytes"),
                 };
-                write!(
-                    f,
-                    "{} is {size}, over the {} limit for a {what}; it was not read",
-                    path.display(),
+                format!(
+                    "{size}, over the {} limit for a {what}; it was not read",
                     size_text(*cap)
                 )
+            }
+            other => other.to_string(),
+        }
+    }
+}
+
+impl fmt::Display for FileError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            FileError::Io { action, path, .. } => write!(f, "{action} {}", path.display()),
+            FileError::IsAFolder { path, .. }
+            | FileError::NotARegularFile { path, .. }
+            | FileError::TooLarge { path, .. } => {
+                write!(f, "{} is {}", path.display(), self.reason())
+            }
+            FileError::NotAFolder { path } => {
+                write!(f, "{} exists and is not a folder", path.display())
             }
             FileError::SameFile { output, input } => write!(
                 f,
@@ -150,8 +172,9 @@ fn io_err<'a>(action: &'static str, path: &'a Path) -> impl FnOnce(io::Error) ->
     }
 }
 
-/// Reads the whole file at `path` if it is at most `cap` bytes. Folders and larger files
-/// are refused before anything is read; a file that grows past `cap` while being read is
+/// Reads the whole file at `path` if it is at most `cap` bytes. Folders, anything else that
+/// is not a regular file (a device, a pipe: never opened) and larger files are refused before
+/// anything is read; a file that grows past `cap` while being read is
 /// refused too. `what` names the kind of file in messages ("recording").
 pub fn read_capped(path: &Path, cap: u64, what: &'static str) -> Result<Vec<u8>, FileError> {
     let meta = fs::metadata(path).map_err(io_err("reading", path))?;
@@ -167,6 +190,12 @@ pub fn read_capped(path: &Path, cap: u64, what: &'static str) -> Result<Vec<u8>,
         cap,
         what,
     };
+    if !meta.is_file() {
+        return Err(FileError::NotARegularFile {
+            path: path.to_path_buf(),
+            what,
+        });
+    }
     if meta.len() > cap {
         return Err(too_large(Some(meta.len())));
     }
@@ -841,6 +870,16 @@ mod tests {
         );
         let e = read_capped(&d.path().join("none"), 10, "recording").unwrap_err();
         assert!(chain(&e).starts_with("reading "), "{}", chain(&e));
+        // A device (a pipe alike) is not opened: opening a pipe would wait for a writer.
+        #[cfg(unix)]
+        {
+            let e = read_capped(Path::new("/dev/zero"), 10, "recording").unwrap_err();
+            assert_eq!(
+                e.to_string(),
+                "/dev/zero is not a regular file (a device, a pipe or a socket), not a \
+                 recording; it was not read"
+            );
+        }
         assert_eq!(size_text(1 << 30), "1 GiB");
         assert_eq!(size_text(3 << 20), "3 MiB");
         assert_eq!(size_text(1000), "1000 bytes");

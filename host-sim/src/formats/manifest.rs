@@ -361,8 +361,13 @@ enum Look {
 /// Whether `path` is a file: the kind of error a manifest row gets when it is not.
 fn look_at(path: &Path) -> Result<(), ManifestErrorKind> {
     // One look at the file system per row (`is_dir` and `is_file` would make two).
-    let Ok(meta) = std::fs::metadata(path) else {
-        return Err(ManifestErrorKind::MissingFile(path.to_path_buf()));
+    let meta = match std::fs::metadata(path) {
+        Ok(meta) => meta,
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
+            return Err(ManifestErrorKind::MissingFile(path.to_path_buf()));
+        }
+        // Not "missing": the system could not look (a path through a file, no permission).
+        Err(e) => return Err(ManifestErrorKind::Io(format!("{}: {e}", path.display()))),
     };
     if meta.is_dir() {
         return Err(ManifestErrorKind::FileIsAFolder(path.to_path_buf()));
@@ -840,6 +845,13 @@ mod tests {
             let (line, k) = kind_of(&d, &format!("{h}5,/dev/null\n"));
             assert_eq!(line, Some(3));
             assert_eq!(k, ManifestErrorKind::NotARegularFile("/dev/null".into()));
+            // A path through a file is not said to be missing: the system's reason is given.
+            let (line, k) = kind_of(&d, &format!("{h}5,a.s2p/x.s2p\n"));
+            assert_eq!(line, Some(3));
+            assert!(
+                matches!(&k, ManifestErrorKind::Io(e) if e.contains("a.s2p/x.s2p: Not a directory")),
+                "{k:?}"
+            );
         }
         let m = d.write("m.csv", &format!("{h}0,a.s2p\n"));
         let e = Manifest::read(&m).unwrap_err();

@@ -339,7 +339,10 @@ fn a_file_read_fast_names_its_path_in_errors() {
     let e = Touchstone::read(&dir).unwrap_err();
     assert_eq!(
         e.to_string(),
-        format!("{}: cannot read: it is a folder", dir.display())
+        format!(
+            "{}: cannot read: a folder, not a Touchstone file",
+            dir.display()
+        )
     );
     std::fs::remove_dir_all(&dir).unwrap();
 }

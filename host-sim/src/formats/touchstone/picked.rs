@@ -11,28 +11,14 @@ use super::sweep::{file_error, uniform_sweep};
 use super::{
     GateSweep, Parameter, ParameterKind, Spacing, Touchstone, TouchstoneError, TouchstoneErrorKind,
 };
-use crate::formats::files::{read_capped, FileError};
+use crate::formats::files::read_capped;
 use crate::limits::MAX_TOUCHSTONE_BYTES;
 
 /// The file's bytes, or the error naming it (once): a folder, and a file over
 /// [`MAX_TOUCHSTONE_BYTES`], are refused before a byte is read.
 fn file_bytes(path: &Path, name: &str) -> Result<Vec<u8>, TouchstoneError> {
-    read_capped(path, MAX_TOUCHSTONE_BYTES, "Touchstone file").map_err(|e| {
-        let why = match e {
-            FileError::Io { source, .. } => source.to_string(),
-            FileError::IsAFolder { .. } => "it is a folder".to_owned(),
-            FileError::TooLarge { size, cap, .. } => format!(
-                "{}, over the {} MiB limit for a Touchstone file; it was not read",
-                size.map_or_else(
-                    || "it grew while being read".to_owned(),
-                    |n| format!("{n} bytes")
-                ),
-                cap >> 20
-            ),
-            other => other.to_string(),
-        };
-        file_error(name, TouchstoneErrorKind::Io(why))
-    })
+    read_capped(path, MAX_TOUCHSTONE_BYTES, "Touchstone file")
+        .map_err(|e| file_error(name, TouchstoneErrorKind::Io(e.reason())))
 }
 
 impl Touchstone {

@@ -1,5 +1,5 @@
 //! Decimal numbers without the general parser: a check that a token is a number and how
-//! large it can be ([`decimal_bound`]), and the exact value of the common short ones
+//! large it can be ([`vouched`]), and the exact value of the common short ones
 //! ([`simple_decimal`]); anything else is left to Rust's `f64` parser.
 
 use super::lanes::{not_digits, word_at};
@@ -150,28 +150,18 @@ fn exponent(tok: &[u8], mut i: usize) -> Option<(i64, usize)> {
     Some((if negative { -x } else { x }, i))
 }
 
-/// For a token that Rust's `f64` parser surely reads as a plain decimal number
-/// (`[+-]digits[.digits][e[+-]digits]`, at least one digit before the exponent), a power
-/// `B` with |value| < 10^B; `None` for anything else, which is left to the exact parser.
-pub(super) fn decimal_bound(tok: &[u8]) -> Option<i64> {
-    whole(tok, decimal_bound_prefix(tok))
+/// Whether Rust's `f64` parser surely reads the token as a plain decimal number
+/// (`[+-]digits[.digits][e[+-]digits]`, at least one digit before the exponent) of magnitude
+/// below 10^`limit`: the number may then be passed over. Anything else is left to the exact
+/// parser.
+pub(super) fn vouched(tok: &[u8], limit: i64) -> bool {
+    whole(tok, vouched_prefix(tok, limit).map(|end| ((), end))).is_some()
 }
 
-/// [`decimal_bound`] of the number at the start of `text`, and where that number stops
-/// (the caller checks what follows it).
-#[inline(always)]
-pub(super) fn decimal_bound_prefix(text: &[u8]) -> Option<(i64, usize)> {
-    let m = mantissa::<false>(text);
-    if m.digits == 0 {
-        return None;
-    }
-    let (e, end) = exponent(text, m.end)?;
-    Some((m.lead(text) + e, end))
-}
-
-/// Where the number at the start of `text` stops when its [`decimal_bound_prefix`] is at most
-/// `limit`; `None` for anything else. The integer digits, leading zeros and all, bound the
-/// power from above, so the zeros are counted only when that bound is over `limit`.
+/// [`vouched`] for the number at the start of `text`: where it stops (the caller checks what
+/// follows it). Its power of ten is the integer digits after any leading zeros plus the
+/// exponent (|value| < 10^that); the integer digits with their zeros bound that from above,
+/// so the zeros are counted only when that bound is over `limit`.
 #[inline(always)]
 pub(super) fn vouched_prefix(text: &[u8], limit: i64) -> Option<usize> {
     let m = mantissa::<false>(text);
@@ -278,56 +268,97 @@ mod tests {
         }
     }
 
+    /// The power B of a plain decimal token with |value| < 10^B, written from its definition
+    /// with string methods (no code of this module): `[+-]int[.frac][e[+-]exp]` with a digit
+    /// in `int` or `frac`, B = the digits of `int` after its leading zeros, plus `exp` (held
+    /// at 2^40, as the reader holds it).
+    fn bound_by_definition(tok: &str) -> Option<i64> {
+        let digits = |t: &str| t.bytes().all(|b| b.is_ascii_digit());
+        let body = tok.strip_prefix(['+', '-']).unwrap_or(tok);
+        let (mantissa, exp) = match body.split_once(['e', 'E']) {
+            Some((m, x)) => (m, Some(x)),
+            None => (body, None),
+        };
+        let (int, frac) = mantissa.split_once('.').unwrap_or((mantissa, ""));
+        if !digits(int) || !digits(frac) || int.len() + frac.len() == 0 {
+            return None;
+        }
+        let e = match exp {
+            None => 0,
+            Some(x) => {
+                let negative = x.starts_with('-');
+                let x = x.strip_prefix(['+', '-']).unwrap_or(x);
+                if x.is_empty() || !digits(x) {
+                    return None;
+                }
+                let v = x
+                    .bytes()
+                    .fold(0i64, |v, b| (v * 10 + i64::from(b - b'0')).min(1 << 40));
+                if negative {
+                    -v
+                } else {
+                    v
+                }
+            }
+        };
+        Some(int.trim_start_matches('0').len() as i64 + e)
+    }
+
     #[test]
-    fn the_vouch_with_a_limit_is_the_bound_held_to_it() {
-        // Reference: `decimal_bound_prefix` and the limit compared after it, on every string
-        // of up to 6 characters of number syntax followed by a space, for the limits used
-        // (2 for dB levels, 37) and those near the digit counts.
+    fn the_vouch_is_the_bound_of_its_definition_held_to_the_limit() {
+        // Reference: `bound_by_definition` above, on every string of up to 6 characters of
+        // number syntax, whole and followed by a space, for the limits used (2 for dB
+        // levels, 37) and those near the digit counts.
         for s in strings(b"+-.eE019", 6) {
-            let mut t = s.clone();
-            t.push(b' ');
+            let text = std::str::from_utf8(&s).unwrap();
+            let mut spaced = s.clone();
+            spaced.push(b' ');
             for limit in [-2, -1, 0, 1, 2, 3, 5, 37] {
-                let want =
-                    decimal_bound_prefix(&t).and_then(|(b, end)| (b <= limit).then_some(end));
-                assert_eq!(
-                    vouched_prefix(&t, limit),
-                    want,
-                    "{:?} {limit}",
-                    String::from_utf8_lossy(&t)
-                );
+                let want = bound_by_definition(text).is_some_and(|b| b <= limit);
+                assert_eq!(vouched(&s, limit), want, "{text:?} {limit}");
+                // The prefix reading stops after a number the definition vouches for; it
+                // reaches the space exactly when the whole string is one.
+                let stops = vouched_prefix(&spaced, limit);
+                if let Some(end) = stops {
+                    let head = &text[..end];
+                    let ok = bound_by_definition(head).is_some_and(|b| b <= limit);
+                    assert!(ok, "{text:?} {limit}: stops after {head:?}");
+                }
+                assert_eq!(stops == Some(s.len()), want, "{text:?} {limit}");
             }
         }
     }
 
     #[test]
-    fn a_vouched_token_is_what_rusts_parser_reads_and_within_its_bound() {
+    fn a_vouched_token_is_what_rusts_parser_reads_and_within_its_limit() {
         // Reference: Rust's own `str::parse::<f64>`. Every string of up to 6 characters of
-        // number syntax: where the byte loop vouches for one, the parser must read it, and
-        // with a bound a number may be passed over at (up to 37), finite and no larger than
-        // 10^bound.
-        let mut vouched = 0;
+        // number syntax: where the byte loop vouches for one, the parser must read it,
+        // finite and no larger than 10^limit, at both limits the reader uses.
+        let mut vouched_for = 0;
         for s in strings(b"+-.eE019", 6) {
             let text = std::str::from_utf8(&s).unwrap();
-            let Some(bound) = decimal_bound(&s) else {
-                continue;
-            };
-            vouched += 1;
-            let x: f64 = text
-                .parse()
-                .unwrap_or_else(|e| panic!("{text:?} vouched for but refused: {e}"));
-            if bound <= VALUE_DIGITS {
+            for limit in [DB_LEVEL_DIGITS, VALUE_DIGITS] {
+                if !vouched(&s, limit) {
+                    continue;
+                }
+                vouched_for += 1;
+                let x: f64 = text
+                    .parse()
+                    .unwrap_or_else(|e| panic!("{text:?} vouched for but refused: {e}"));
                 assert!(x.is_finite(), "{text:?}");
                 assert!(
-                    x.abs() <= 10f64.powi(bound as i32),
-                    "{text:?}: {x} > 1e{bound}"
+                    x.abs() <= 10f64.powi(limit as i32),
+                    "{text:?}: {x} > 1e{limit}"
                 );
             }
         }
-        assert!(vouched > 10_000, "{vouched}");
+        assert!(vouched_for > 10_000, "{vouched_for}");
     }
 
     #[test]
     fn the_bound_follows_the_digits_and_the_exponent() {
+        // Reference: the bounds worked out by hand. A token with bound B is vouched for at
+        // the limit B and not at B - 1; the others at no limit.
         for (tok, bound) in [
             ("0", Some(0)),
             ("-0.000123", Some(0)),
@@ -350,7 +381,11 @@ mod tests {
             ("1,5", None),
             ("", None),
         ] {
-            assert_eq!(decimal_bound(tok.as_bytes()), bound, "{tok}");
+            let t = tok.as_bytes();
+            match bound {
+                Some(b) => assert!(vouched(t, b) && !vouched(t, b - 1), "{tok}"),
+                None => assert!(!vouched(t, 1 << 50), "{tok}"),
+            }
         }
     }
 

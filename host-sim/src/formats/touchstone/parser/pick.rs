@@ -3,7 +3,7 @@
 //! With every parameter wanted, each number is parsed exactly as [`Parser::numbers`] parses
 //! it. When only some parameters are wanted (S21 of a 2-port file, the co- and cross-polar
 //! traces of an n-port one), the numbers of the other values are still counted and checked
-//! but not converted: a byte loop ([`decimal_bound`]) makes sure such a token is a number
+//! but not converted: a byte loop ([`vouched`]) makes sure such a token is a number
 //! Rust's parser reads, finite and small enough that its value cannot be beyond single
 //! precision in the file's format. Any token it cannot vouch for is parsed exactly on its
 //! line, so a malformed or infinite number is refused with the same error, on the same
@@ -16,7 +16,7 @@ use num_complex::Complex64;
 
 use super::bytes::{token_text, Line};
 use super::data::{fill_matrix, within_single};
-use super::decimal::{decimal_bound, simple_decimal, DB_LEVEL_DIGITS, VALUE_DIGITS};
+use super::decimal::{simple_decimal, vouched, DB_LEVEL_DIGITS, VALUE_DIGITS};
 use super::{parse_number, Parser, Section};
 use crate::formats::touchstone::{
     DataFormat, MatrixFormat, Parameter, ParameterKind, TouchstoneError, TouchstoneErrorKind,
@@ -238,7 +238,7 @@ impl<'a> Parser<'a> {
     }
 
     /// Adds a line's numbers to the open record: each parsed, or (not kept, from the file,
-    /// and vouched for by [`decimal_bound`]) counted as NaN with its place in the file.
+    /// and [`vouched`] for) counted as NaN with its place in the file.
     fn take_numbers(&mut self, line: &Line, need: usize) -> Result<(), TouchstoneError> {
         let db = self.format() == DataFormat::Db;
         // Whether each value of a record is kept (`None`: all are).
@@ -266,10 +266,8 @@ impl<'a> Parser<'a> {
             let tok = &line.text[a..b];
             let x = match take_of(self.record.len(), need, needed, db) {
                 Take::Value => self.number(tok)?,
-                Take::Bound(limit) => match decimal_bound(tok) {
-                    Some(bound) if bound <= limit => f64::NAN,
-                    _ => self.number(tok)?,
-                },
+                Take::Bound(limit) if vouched(tok, limit) => f64::NAN,
+                Take::Bound(_) => self.number(tok)?,
             };
             self.record.push(x);
             if spans {
