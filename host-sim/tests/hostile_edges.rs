@@ -331,7 +331,12 @@ fn touchstone_values_beyond_single_precision_are_refused_with_file_and_line() {
             "dB 1e308",
             "DB",
             "3e9 1e308 0",
-            &["edge.s1p:5:", "single-precision"],
+            &[
+                "edge.s1p:5:",
+                "value 1",
+                "overflows double precision",
+                "single-precision",
+            ],
         ),
         // 3e38 is inside the range: accepted.
         ("RI 3e38", "RI", "3e9 3e38 0", &[]),

@@ -135,11 +135,21 @@ pub enum TouchstoneErrorKind {
 }
 
 /// The message of [`TouchstoneErrorKind::BeyondSinglePrecision`].
+/// A part past double precision (a dB level or a magnitude too large to convert) is said
+/// as an overflow, not printed as `inf` or `NaN` (inf·0 at an angle of 0°).
 fn beyond_single(f: &mut fmt::Formatter<'_>, value: usize, re: f64, im: f64) -> fmt::Result {
+    if re.is_finite() && im.is_finite() {
+        write!(f, "value {value} of the record is {re:e}{im:+e}j")?;
+    } else {
+        write!(
+            f,
+            "value {value} of the record overflows double precision when converted to real \
+             and imaginary parts"
+        )?;
+    }
     write!(
         f,
-        "value {value} of the record is {re:e}{im:+e}j, beyond the single-precision range \
-         (±3.4e38) the gate works in"
+        ", beyond the single-precision range (±3.4e38) the gate works in"
     )
 }
 
