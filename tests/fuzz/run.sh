@@ -10,6 +10,10 @@
 #   tests/fuzz/run.sh 300       # the longer run
 #   FUZZ_TARGETS="touchstone manifest" FUZZ_JOBS=1 tests/fuzz/run.sh 60
 set -euo pipefail
+if (( BASH_VERSINFO[0] < 5 || (BASH_VERSINFO[0] == 5 && BASH_VERSINFO[1] < 1) )); then
+  echo "tests/fuzz/run.sh needs bash 5.1 or newer (wait -n -p); this is bash $BASH_VERSION" >&2
+  exit 2
+fi
 secs="${1:-30}"
 here="$(cd "$(dirname "$0")" && pwd)"
 cd "$here/../.."
