@@ -26,7 +26,8 @@ import sys
 import time
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
-from process_vs_skrf import CENTER_NS, FREQS_HZ, ROOT, SPAN_NS, cpu_ticks, load, make_scan  # noqa: E402
+from process_vs_skrf import (  # noqa: E402
+    CENTER_NS, FREQS_HZ, ROOT, SPAN_NS, cpu_ticks, load, make_scan, steal_since)
 
 
 def run(binary, manifest, threads, out):
@@ -83,10 +84,7 @@ def main():
             for threads in (1, 2):
                 for step, ms in run(binary, manifest, threads, out).items():
                     times[(name, threads)][step].append(ms)
-    after = cpu_ticks()
-    print("after:", load())
-    if ticks and after and after[1] > ticks[1]:
-        print(f"steal while running: {100 * (after[0] - ticks[0]) / (after[1] - ticks[1]):.0f}%")
+    print("after:", load() + steal_since(ticks))
     for (name, threads), steps in times.items():
         print(f"== {name} ({binaries[name]}), {threads} thread(s), {a.rounds} runs: median ms")
         for step, ms in steps.items():

@@ -31,7 +31,8 @@ scikit-rf script once, and just after it process with default threads (every cor
 times, the round's ratio being scikit-rf's time over the median of those runs; a drift in
 the machine's speed within a round falls on both. Then the median of the rounds' ratios
 (the figure to quote), the CPU-time ratio and process's speed-up from one thread to two,
-with the load average along the way.
+with the load average along the way, and after each round the share of the processors' time
+the hypervisor gave to others during it (steal, from /proc/stat, where there is one).
 
 With --pairs N, no scikit-rf: process on one thread and on two, run in turn N times each
 (1, 2, 1, 2, ...), so that a drift in the machine's speed falls on both; prints the median
@@ -183,6 +184,7 @@ def compare(binary, files, points, repeat, rounds):
               f"{skrf_warm(manifest):.2f} s")
         ratios, cpu_skrf = [], []
         for r in range(rounds):
+            ticks = cpu_ticks()
             t_skrf, cpu, values = skrf_script(manifest)
             every = [sweepgate_run(binary, manifest, None, os.path.join(tmp, "report"))[0]
                      for _ in range(repeat)]
@@ -192,7 +194,8 @@ def compare(binary, files, points, repeat, rounds):
             print(f"round {r + 1}: scikit-rf script {t_skrf:.2f} s (CPU {cpu:.2f} s, "
                   f"{values.shape[0]} files, {values.shape[1]} frequencies); process, default "
                   f"threads ({os.cpu_count()} cores), median of {repeat} runs just after it "
-                  f"{t_every:.3f} s; ratio {t_skrf / t_every:.1f}x; {load()}")
+                  f"{t_every:.3f} s; ratio {t_skrf / t_every:.1f}x; {load()}"
+                  f"{steal_since(ticks)}")
     cpu = float(np.median(cpu_skrf))
     print(f"ratio scikit-rf / process (default threads), median of {rounds} rounds: "
           f"{np.median(ratios):.1f}x (rounds from {min(ratios):.1f}x to {max(ratios):.1f}x)")
@@ -211,6 +214,15 @@ def cpu_ticks():
     return fields[7], sum(fields)
 
 
+def steal_since(ticks):
+    """The text '; steal N %': the share of the processors' time the hypervisor gave to
+    others since `ticks` (from `cpu_ticks`), or "" where that cannot be read."""
+    after = cpu_ticks()
+    if not ticks or not after or after[1] <= ticks[1]:
+        return ""
+    return f"; steal {100 * (after[0] - ticks[0]) / (after[1] - ticks[1]):.0f} %"
+
+
 def pairs(binary, files, points, n):
     manifest = make_scan(files, points)
     print(f"scan: {files} files of {points} points ({manifest})")
@@ -223,10 +235,8 @@ def pairs(binary, files, points, n):
         for _ in range(n):
             one.append(sweepgate_run(binary, manifest, 1, out)[0])
             two.append(sweepgate_run(binary, manifest, 2, out)[0])
-        after = cpu_ticks()
-    print(load())
-    if ticks and after and after[1] > ticks[1]:
-        print(f"steal while running: {100 * (after[0] - ticks[0]) / (after[1] - ticks[1]):.0f}%")
+        steal = steal_since(ticks)
+    print(load() + steal)
     ratios = [a / b for a, b in zip(one, two)]
     for name, t in (("1 thread", one), ("2 threads", two)):
         print(f"sweepgate process, {name}: median {np.median(t):.3f} s, smallest {min(t):.3f} s")
