@@ -20,6 +20,10 @@ cd "$here/../.."
 cargo +nightly fuzz build --fuzz-dir tests/fuzz
 # Every target in Cargo.toml, unless FUZZ_TARGETS names some.
 targets="${FUZZ_TARGETS:-$(cargo +nightly fuzz list --fuzz-dir tests/fuzz)}"
+if [ -z "${targets//[[:space:]]/}" ]; then
+  echo "fuzz: no targets to run (cargo fuzz list gave none, or FUZZ_TARGETS names none): failing" >&2
+  exit 1
+fi
 cores="$(nproc 2>/dev/null || echo 1)"
 jobs="${FUZZ_JOBS:-$((cores < 4 ? cores : 4))}"
 [ "$jobs" -ge 1 ] || jobs=1
