@@ -2,7 +2,8 @@
 # Runs every fuzz target for SECONDS each (default 30) and fails on a finding (libFuzzer exits
 # non-zero on a crash, a failed assertion, a leak, a timeout or running out of memory). Targets
 # run side by side, one per processor (FUZZ_JOBS, at most 4 unless set), each for its full
-# SECONDS. Needs the nightly toolchain and cargo-fuzz (`cargo install cargo-fuzz --locked`).
+# SECONDS and under its own 2 GiB memory limit (so up to FUZZ_JOBS x 2 GiB at once). Needs
+# the nightly toolchain and cargo-fuzz (`cargo install cargo-fuzz --locked`).
 # Corpora are kept in tests/fuzz/corpus/<target>, findings in tests/fuzz/artifacts/<target>.
 # Prints each target's execution count.
 #
@@ -15,8 +16,18 @@ if (( BASH_VERSINFO[0] < 5 || (BASH_VERSINFO[0] == 5 && BASH_VERSINFO[1] < 1) ))
   exit 2
 fi
 secs="${1:-30}"
+if ! [[ "$secs" =~ ^[1-9][0-9]*$ ]]; then
+  echo "fuzz: SECONDS must be a whole number of 1 or more, not \"$secs\"" >&2
+  exit 2
+fi
 here="$(cd "$(dirname "$0")" && pwd)"
 cd "$here/../.."
+cores="$(nproc 2>/dev/null || echo 1)"
+jobs="${FUZZ_JOBS:-$((cores < 4 ? cores : 4))}"
+if ! [[ "$jobs" =~ ^[1-9][0-9]*$ ]]; then
+  echo "fuzz: FUZZ_JOBS must be a whole number of 1 or more, not \"$jobs\"" >&2
+  exit 2
+fi
 cargo +nightly fuzz build --fuzz-dir tests/fuzz
 # Every target in Cargo.toml, unless FUZZ_TARGETS names some.
 targets="${FUZZ_TARGETS:-$(cargo +nightly fuzz list --fuzz-dir tests/fuzz)}"
@@ -24,9 +35,6 @@ if [ -z "${targets//[[:space:]]/}" ]; then
   echo "fuzz: no targets to run (cargo fuzz list gave none, or FUZZ_TARGETS names none): failing" >&2
   exit 1
 fi
-cores="$(nproc 2>/dev/null || echo 1)"
-jobs="${FUZZ_JOBS:-$((cores < 4 ? cores : 4))}"
-[ "$jobs" -ge 1 ] || jobs=1
 logs="$(mktemp -d)"
 trap 'rm -rf "$logs"' EXIT
 

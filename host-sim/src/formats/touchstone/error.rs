@@ -135,6 +135,7 @@ pub enum TouchstoneErrorKind {
 }
 
 /// The message of [`TouchstoneErrorKind::BeyondSinglePrecision`].
+///
 /// A part past double precision (a dB level or a magnitude too large to convert) is said
 /// as an overflow, not printed as `inf` or `NaN` (inf·0 at an angle of 0°).
 fn beyond_single(f: &mut fmt::Formatter<'_>, value: usize, re: f64, im: f64) -> fmt::Result {
