@@ -143,7 +143,12 @@ pub(crate) fn gate_and_measure(buf: &mut [Complex32], gate: &[f32]) -> (f32, f32
             h[i] *= g[i];
         }
     }
-    for (i, (h, &g)) in hs.into_remainder().iter_mut().zip(gs.remainder()).enumerate() {
+    for (i, (h, &g)) in hs
+        .into_remainder()
+        .iter_mut()
+        .zip(gs.remainder())
+        .enumerate()
+    {
         let e = h.norm_sqr();
         total[i] += e;
         outside[i] += if g == 0.0 { e } else { 0.0 };
@@ -429,8 +434,14 @@ mod tests {
                 }
                 assert_eq!(buf[k], h[k] * g[k], "n {n} point {k}");
             }
-            assert!((f64::from(total) - want_total).abs() <= 1e-6 * want_total, "n {n}");
-            assert!((f64::from(outside) - want_out).abs() <= 1e-6 * want_total, "n {n}");
+            assert!(
+                (f64::from(total) - want_total).abs() <= 1e-6 * want_total,
+                "n {n}"
+            );
+            assert!(
+                (f64::from(outside) - want_out).abs() <= 1e-6 * want_total,
+                "n {n}"
+            );
         }
         // A gate shorter than the buffer: the points past it are left alone.
         let (h, g) = points(10, 7);
@@ -444,7 +455,8 @@ mod tests {
         // Reference: the definition, point by point.
         let (h, _) = points(40, 3);
         let (f, _) = points(40, 5);
-        for (len, points_kept, factors) in [(40, 30, 40), (40, 40, 40), (40, 30, 20), (16, 30, 40)] {
+        for (len, points_kept, factors) in [(40, 30, 40), (40, 40, 40), (40, 30, 20), (16, 30, 40)]
+        {
             let mut buf = h;
             renormalize(&mut buf[..len], &f[..factors], points_kept);
             for k in 0..len {
@@ -453,7 +465,10 @@ mod tests {
                 } else {
                     Complex32::new(0.0, 0.0)
                 };
-                assert_eq!(buf[k], want, "len {len} points {points_kept} factors {factors} k {k}");
+                assert_eq!(
+                    buf[k], want,
+                    "len {len} points {points_kept} factors {factors} k {k}"
+                );
             }
         }
     }
