@@ -124,9 +124,9 @@ pub(crate) fn all_finite(points: &[Complex32]) -> bool {
 
 /// Step 3 with the echo level: `buf[m] *= gate[m]` in place; returns (energy where the
 /// gate is 0, total energy). Each sum is kept in four partial sums (point m in sum m mod 4),
-/// joined as (s0 + s1) + (s2 + s3): four independent additions a step instead of one chain,
-/// which a host vectorizes and a board's FPU pipelines. Every target adds in this same
-/// order, so a board's levels equal the host's bit for bit.
+/// joined as (s0 + s1) + (s2 + s3): four independent additions a step instead of one chain
+/// in which each waits for the last (a host's compiler puts part of it in vector registers).
+/// Every target adds in this same order, so a board's levels equal the host's bit for bit.
 #[inline(never)]
 pub(crate) fn gate_and_measure(buf: &mut [Complex32], gate: &[f32]) -> (f32, f32) {
     let n = buf.len().min(gate.len());
